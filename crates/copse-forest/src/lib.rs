@@ -1,0 +1,1 @@
+//! Tree ensembles built on `copse-tree`.

@@ -1,0 +1,92 @@
+//! The outcome a tree models: class codes (classification) or real values (regression).
+use crate::error::{Error, ErrorKind, Result};
+
+/// Marker for a missing class code.
+pub const MISSING_CLASS: u32 = u32::MAX;
+
+/// The outcome, one entry per row. A missing outcome is [`MISSING_CLASS`] for classes
+/// and NaN for values; such rows are left out of growing (the grower gives them no
+/// weight), never guessed.
+#[derive(Debug, Clone, Copy)]
+pub enum Target<'a> {
+    /// Class codes `0..n_classes`.
+    Classes {
+        /// One code per row.
+        codes: &'a [u32],
+        /// Number of classes.
+        n_classes: usize,
+    },
+    /// Real values (regression).
+    Values(&'a [f64]),
+}
+
+impl<'a> Target<'a> {
+    /// Class codes in `0..n_classes` (or [`MISSING_CLASS`]).
+    ///
+    /// # Errors
+    /// `InvalidSetting` when `n_classes` is 0 or a code is out of range.
+    pub fn classes(codes: &'a [u32], n_classes: usize) -> Result<Self> {
+        if n_classes == 0 {
+            return Err(Error::new(
+                ErrorKind::InvalidSetting,
+                "a classification target needs at least one class",
+            ));
+        }
+        if let Some((i, c)) = codes
+            .iter()
+            .enumerate()
+            .find(|(_, &c)| c != MISSING_CLASS && c as usize >= n_classes)
+        {
+            return Err(Error::new(
+                ErrorKind::BadCategory,
+                format!("row {i}: class code {c} is not below the number of classes {n_classes}"),
+            ));
+        }
+        Ok(Target::Classes { codes, n_classes })
+    }
+
+    /// Real-valued target; NaN marks a missing value.
+    ///
+    /// # Errors
+    /// `NonFinite` when a value is infinite.
+    pub fn values(values: &'a [f64]) -> Result<Self> {
+        if let Some(i) = values.iter().position(|v| v.is_infinite()) {
+            return Err(Error::new(
+                ErrorKind::NonFinite,
+                format!(
+                    "row {i}: the target value is infinite; use a finite number or leave it empty"
+                ),
+            ));
+        }
+        Ok(Target::Values(values))
+    }
+
+    /// Number of rows.
+    pub fn len(&self) -> usize {
+        match self {
+            Target::Classes { codes, .. } => codes.len(),
+            Target::Values(v) => v.len(),
+        }
+    }
+
+    /// True when there are no rows.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// Width of a leaf's output: number of classes, or 1 for regression.
+    pub fn n_outputs(&self) -> usize {
+        match self {
+            Target::Classes { n_classes, .. } => *n_classes,
+            Target::Values(_) => 1,
+        }
+    }
+
+    /// True when row `i`'s outcome is missing.
+    pub fn is_missing(&self, i: usize) -> bool {
+        match self {
+            Target::Classes { codes, .. } => codes[i] == MISSING_CLASS,
+            Target::Values(v) => v[i].is_nan(),
+        }
+    }
+}

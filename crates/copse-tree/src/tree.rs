@@ -1,0 +1,206 @@
+//! A grown tree: compact nodes in one flat array, leaf outputs stored apart, and
+//! prediction for one row or a batch.
+use ndarray::{Array2, ArrayView2};
+use serde::{Deserialize, Serialize};
+
+/// Node flag: missing values (and unseen categories) go to the left child.
+pub(crate) const MISSING_LEFT: u16 = 1;
+/// Node flag: the split is a category subset rather than a threshold.
+pub(crate) const CATEGORICAL: u16 = 2;
+/// `feature` value that marks a leaf.
+pub(crate) const LEAF: u16 = u16::MAX;
+
+/// One node in 16 bytes. Internal: `x[feature] <= threshold` (or category in the left
+/// set) goes to `child`, otherwise to `child + 1`. Leaf: `child` indexes the leaf
+/// outputs.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct Node {
+    /// Threshold bits (numeric), or `offset << 32 | n_categories` into the category
+    /// bit sets (categorical); unused in a leaf.
+    pub(crate) split: u64,
+    /// Left child (internal) or leaf index (leaf).
+    pub(crate) child: u32,
+    /// Input index, or `u16::MAX` for a leaf.
+    pub(crate) feature: u16,
+    /// `MISSING_LEFT` and `CATEGORICAL` bits.
+    pub(crate) flags: u16,
+}
+
+impl Node {
+    /// True for a leaf.
+    pub fn is_leaf(&self) -> bool {
+        self.feature == LEAF
+    }
+    /// Input tested by an internal node (`None` for a leaf).
+    pub fn feature(&self) -> Option<usize> {
+        (!self.is_leaf()).then_some(self.feature as usize)
+    }
+    /// Threshold of a numeric split.
+    pub fn threshold(&self) -> Option<f64> {
+        (!self.is_leaf() && self.flags & CATEGORICAL == 0).then(|| f64::from_bits(self.split))
+    }
+    /// True when missing values and unseen categories go left.
+    pub fn missing_goes_left(&self) -> bool {
+        self.flags & MISSING_LEFT != 0
+    }
+    /// True for a category-subset split.
+    pub fn is_categorical(&self) -> bool {
+        !self.is_leaf() && self.flags & CATEGORICAL != 0
+    }
+    /// Index of the left child (the right child follows it); leaf index for a leaf.
+    pub fn child(&self) -> usize {
+        self.child as usize
+    }
+}
+
+/// A grown tree.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Tree {
+    pub(crate) nodes: Vec<Node>,
+    /// Class count (classification) or 1 (regression).
+    pub(crate) n_outputs: usize,
+    /// Leaf outputs, `n_outputs` per leaf: class probabilities or the mean.
+    pub(crate) leaf_values: Vec<f64>,
+    /// Total case weight in each leaf.
+    pub(crate) leaf_weights: Vec<f64>,
+    /// Bit sets of left-going categories, 64 per word.
+    pub(crate) cat_sets: Vec<u64>,
+    /// Weighted impurity decrease summed per input over this tree's splits.
+    pub(crate) decrease: Vec<f64>,
+}
+
+impl Tree {
+    /// All nodes; node 0 is the root.
+    pub fn nodes(&self) -> &[Node] {
+        &self.nodes
+    }
+
+    /// Number of leaves.
+    pub fn n_leaves(&self) -> usize {
+        self.leaf_weights.len()
+    }
+
+    /// Width of a leaf output: number of classes, or 1 for regression.
+    pub fn n_outputs(&self) -> usize {
+        self.n_outputs
+    }
+
+    /// Output of leaf `leaf`: class probabilities (summing to 1) or the mean.
+    pub fn leaf_value(&self, leaf: usize) -> &[f64] {
+        &self.leaf_values[leaf * self.n_outputs..(leaf + 1) * self.n_outputs]
+    }
+
+    /// Total case weight that reached leaf `leaf` in training.
+    pub fn leaf_weight(&self, leaf: usize) -> f64 {
+        self.leaf_weights[leaf]
+    }
+
+    /// Weighted impurity decrease of this tree's splits, summed per input.
+    pub fn impurity_decrease(&self) -> &[f64] {
+        &self.decrease
+    }
+
+    /// Depth of the deepest leaf (a lone root leaf has depth 0).
+    pub fn depth(&self) -> usize {
+        let mut deepest = 0;
+        let mut stack = vec![(0usize, 0usize)];
+        while let Some((i, d)) = stack.pop() {
+            let n = self.nodes[i];
+            if n.is_leaf() {
+                deepest = deepest.max(d);
+            } else {
+                stack.push((n.child(), d + 1));
+                stack.push((n.child() + 1, d + 1));
+            }
+        }
+        deepest
+    }
+
+    /// Whether node `n` sends a row whose input value is `v` to the left.
+    #[inline(always)]
+    pub fn goes_left(&self, n: &Node, v: f64) -> bool {
+        if v.is_nan() {
+            return n.flags & MISSING_LEFT != 0;
+        }
+        if n.flags & CATEGORICAL == 0 {
+            return v <= f64::from_bits(n.split);
+        }
+        let (offset, count) = ((n.split >> 32) as usize, (n.split & 0xffff_ffff) as usize);
+        if v < 0.0 || v.fract() != 0.0 || v as usize >= count {
+            // A category never seen in training follows the missing direction.
+            return n.flags & MISSING_LEFT != 0;
+        }
+        let c = v as usize;
+        self.cat_sets[offset + c / 64] >> (c % 64) & 1 == 1
+    }
+
+    /// Leaf reached by a row whose input `j` has value `value(j)`.
+    #[inline]
+    pub fn leaf_index_with(&self, value: impl Fn(usize) -> f64) -> usize {
+        let mut i = 0usize;
+        loop {
+            let n = &self.nodes[i];
+            if n.feature == LEAF {
+                return n.child as usize;
+            }
+            let left = self.goes_left(n, value(n.feature as usize));
+            i = n.child as usize + usize::from(!left);
+        }
+    }
+
+    /// Leaf reached by one row of input values (categories as codes, NaN missing).
+    pub fn leaf_index(&self, row: &[f64]) -> usize {
+        self.leaf_index_with(|j| row[j])
+    }
+
+    /// Output for one row: class probabilities or the value.
+    pub fn predict_row(&self, row: &[f64]) -> &[f64] {
+        self.leaf_value(self.leaf_index(row))
+    }
+
+    /// Predicted class for one row: highest probability, ties to the lowest class code.
+    pub fn predict_class(&self, row: &[f64]) -> usize {
+        argmax(self.predict_row(row))
+    }
+
+    /// Outputs for a rows-by-inputs batch: one row of `n_outputs` per input row.
+    pub fn predict_batch(&self, x: ArrayView2<'_, f64>) -> Array2<f64> {
+        let mut out = Array2::zeros((x.nrows(), self.n_outputs));
+        for (row, mut o) in x.rows().into_iter().zip(out.rows_mut()) {
+            let leaf = self.leaf_index_with(|j| row[j]);
+            o.iter_mut()
+                .zip(self.leaf_value(leaf))
+                .for_each(|(o, v)| *o = *v);
+        }
+        out
+    }
+
+    /// Category codes sent left by a categorical node (for display).
+    pub fn left_categories(&self, n: &Node) -> Vec<usize> {
+        if !n.is_categorical() {
+            return Vec::new();
+        }
+        let (offset, count) = ((n.split >> 32) as usize, (n.split & 0xffff_ffff) as usize);
+        (0..count)
+            .filter(|c| self.cat_sets[offset + c / 64] >> (c % 64) & 1 == 1)
+            .collect()
+    }
+
+    /// Bytes the tree occupies in memory (nodes, leaves, category sets).
+    pub fn heap_bytes(&self) -> usize {
+        self.nodes.len() * std::mem::size_of::<Node>()
+            + (self.leaf_values.len() + self.leaf_weights.len() + self.decrease.len()) * 8
+            + self.cat_sets.len() * 8
+    }
+}
+
+/// Index of the largest value; ties go to the lowest index.
+pub fn argmax(v: &[f64]) -> usize {
+    let mut best = 0;
+    for (i, &x) in v.iter().enumerate() {
+        if x > v[best] {
+            best = i;
+        }
+    }
+    best
+}
