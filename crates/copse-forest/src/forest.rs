@@ -1,0 +1,224 @@
+//! The trained model: trees, the task, the settings that made it, and the summaries
+//! computed while training (out-of-bag accuracy, importance).
+use crate::error::{Error, ErrorKind, Result};
+use crate::importance::{Importance, PermutationImportance};
+use crate::oob::{OobReport, OobSummary};
+use crate::outcome::{Outcome, MISSING};
+use crate::settings::ForestSettings;
+use copse_tree::{FeatureMeta, Tree};
+use serde::{Deserialize, Serialize};
+
+/// What the forest predicts.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub enum Task {
+    /// Class probabilities, one column per class in this order.
+    Classification {
+        /// Class labels in model order.
+        classes: Vec<String>,
+    },
+    /// One value per row.
+    Regression,
+}
+
+/// A trained ensemble of trees.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Forest {
+    pub(crate) meta: Vec<FeatureMeta>,
+    pub(crate) task: Task,
+    pub(crate) trees: Vec<Tree>,
+    pub(crate) settings: ForestSettings,
+    pub(crate) features_per_split: usize,
+    pub(crate) training_rows: usize,
+    pub(crate) oob: OobSummary,
+    pub(crate) oob_importance: Option<PermutationImportance>,
+    pub(crate) impurity_importance: Importance,
+}
+
+/// What [`Forest::train`] returns: the model, and the per-row out-of-bag results that
+/// are too large to keep in it.
+#[derive(Debug, Clone)]
+pub struct Trained {
+    /// The model.
+    pub forest: Forest,
+    /// Per-row out-of-bag predictions.
+    pub oob: OobReport,
+}
+
+impl Forest {
+    /// Descriptions of the inputs, in column order.
+    pub fn meta(&self) -> &[FeatureMeta] {
+        &self.meta
+    }
+
+    /// Number of inputs.
+    pub fn n_features(&self) -> usize {
+        self.meta.len()
+    }
+
+    /// What the forest predicts.
+    pub fn task(&self) -> &Task {
+        &self.task
+    }
+
+    /// Class labels in model order (empty for regression).
+    pub fn classes(&self) -> &[String] {
+        match &self.task {
+            Task::Classification { classes } => classes,
+            Task::Regression => &[],
+        }
+    }
+
+    /// Width of a prediction row: number of classes, or 1.
+    pub fn n_outputs(&self) -> usize {
+        match &self.task {
+            Task::Classification { classes } => classes.len(),
+            Task::Regression => 1,
+        }
+    }
+
+    /// The trees, in index order.
+    pub fn trees(&self) -> &[Tree] {
+        &self.trees
+    }
+
+    /// The settings the forest was trained with.
+    pub fn settings(&self) -> &ForestSettings {
+        &self.settings
+    }
+
+    /// Inputs tried per split, as resolved for this data (equal to the number of
+    /// inputs for bagged trees).
+    pub fn features_per_split(&self) -> usize {
+        self.features_per_split
+    }
+
+    /// Rows in the training data (including rows whose outcome was missing).
+    pub fn training_rows(&self) -> usize {
+        self.training_rows
+    }
+
+    /// Out-of-bag accuracy summary.
+    pub fn oob(&self) -> &OobSummary {
+        &self.oob
+    }
+
+    /// Out-of-bag permutation importance (`None` when not requested or when no tree
+    /// had out-of-bag rows).
+    pub fn oob_importance(&self) -> Option<&PermutationImportance> {
+        self.oob_importance.as_ref()
+    }
+
+    /// Impurity-decrease importance; read its caution ([`Importance::caution`]).
+    pub fn impurity_importance(&self) -> &Importance {
+        &self.impurity_importance
+    }
+
+    /// Total number of nodes over all trees.
+    pub fn n_nodes(&self) -> usize {
+        self.trees.iter().map(|t| t.nodes().len()).sum()
+    }
+
+    /// Bytes the trees occupy in memory.
+    pub fn heap_bytes(&self) -> usize {
+        self.trees.iter().map(Tree::heap_bytes).sum()
+    }
+
+    /// Checks what a model read from a file must satisfy before it is used: every
+    /// tree's nodes name an existing input, children come after their parent and
+    /// inside the tree, leaves index existing outputs of the right width. A model
+    /// from [`Forest::train`] always passes.
+    ///
+    /// # Errors
+    /// `InvalidModel` naming the tree and node that is inconsistent.
+    pub fn check(&self) -> Result<()> {
+        let p = self.meta.len();
+        let k = self.n_outputs();
+        let bad = |t: usize, what: String| {
+            Err(Error::new(
+                ErrorKind::InvalidModel,
+                format!(
+                    "the model is inconsistent: tree {t} {what}; retrain or use another model file"
+                ),
+            ))
+        };
+        if self.trees.is_empty() {
+            return bad(0, "is missing: the model has no trees".into());
+        }
+        for (t, tree) in self.trees.iter().enumerate() {
+            if tree.n_outputs() != k {
+                return bad(
+                    t,
+                    format!("has {} outputs, the model {k}", tree.n_outputs()),
+                );
+            }
+            let nodes = tree.nodes();
+            if nodes.is_empty() {
+                return bad(t, "has no nodes".into());
+            }
+            for (i, n) in nodes.iter().enumerate() {
+                match n.feature() {
+                    None if n.child() >= tree.n_leaves() => {
+                        return bad(t, format!("node {i} points at a leaf that does not exist"));
+                    }
+                    Some(j) if j >= p => {
+                        return bad(t, format!("node {i} tests input {j} of {p}"));
+                    }
+                    Some(_) if n.child() <= i || n.child() + 1 >= nodes.len() => {
+                        return bad(t, format!("node {i} has children out of order"));
+                    }
+                    _ => {}
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// Translates an outcome into the model's class codes (by label), or checks a
+    /// value outcome fits a regression model.
+    pub(crate) fn align(&self, outcome: &Outcome) -> Result<Outcome> {
+        outcome.validate()?;
+        match (&self.task, outcome) {
+            (Task::Classification { classes }, Outcome::Classes { codes, labels }) => {
+                let mut map = Vec::with_capacity(labels.len());
+                for l in labels {
+                    map.push(classes.iter().position(|c| c == l));
+                }
+                let mut out = Vec::with_capacity(codes.len());
+                for (i, &c) in codes.iter().enumerate() {
+                    if c == MISSING {
+                        out.push(MISSING);
+                        continue;
+                    }
+                    match map[c as usize] {
+                        Some(m) => out.push(m as u32),
+                        None => {
+                            return Err(Error::new(
+                                ErrorKind::OutcomeMismatch,
+                                format!(
+                                    "row {i}: class '{}' was not seen in training; the model \
+                                     knows {}",
+                                    labels[c as usize],
+                                    classes.join(", ")
+                                ),
+                            ))
+                        }
+                    }
+                }
+                Ok(Outcome::Classes {
+                    codes: out,
+                    labels: classes.clone(),
+                })
+            }
+            (Task::Regression, Outcome::Values(v)) => Ok(Outcome::Values(v.clone())),
+            (Task::Classification { .. }, Outcome::Values(_)) => Err(Error::new(
+                ErrorKind::OutcomeMismatch,
+                "the model predicts classes but the outcome given is numeric; give the class \
+                 labels",
+            )),
+            (Task::Regression, Outcome::Classes { .. }) => Err(Error::new(
+                ErrorKind::OutcomeMismatch,
+                "the model predicts values but the outcome given is classes; give numbers",
+            )),
+        }
+    }
+}

@@ -1,0 +1,466 @@
+//! Which inputs matter: permutation importance on each tree's out-of-bag rows
+//! (Breiman 2001, section 10), permutation importance on a held-out labelled set, and
+//! impurity-decrease importance (with its known bias, Strobl et al. 2007).
+use crate::error::{Error, ErrorKind, Result};
+use crate::forest::Forest;
+use crate::metrics::{brier_row, predicted_class};
+use crate::oob::{block_rows, OobMask};
+use crate::outcome::Outcome;
+use crate::rng::{task_rng, Purpose};
+use crate::train::{Progress, Stage};
+use copse_tree::{FeatureMeta, Impurity, Tree, TreeSettings};
+use ndarray::ArrayView2;
+use rand::seq::SliceRandom;
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+use std::sync::atomic::{AtomicUsize, Ordering};
+
+/// Caution printed with impurity-decrease importance.
+pub const IMPURITY_CAUTION: &str = "impurity-decrease importance favours inputs with many \
+distinct values or categories, even when they carry no information (Strobl, Boulesteix, \
+Zeileis & Hothorn 2007); prefer permutation importance to rank inputs";
+
+/// How an importance was computed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub enum ImportanceMethod {
+    /// Per tree, the increase in error on its out-of-bag rows when the input is
+    /// permuted among them; replicates are trees.
+    OutOfBagPermutation,
+    /// The increase in the forest's error on a labelled set the model has not seen when
+    /// the input is permuted among its rows; replicates are repeats.
+    HeldOutPermutation,
+    /// Per tree, the weighted impurity decrease of the splits on the input, divided by
+    /// the tree's total case weight; replicates are trees.
+    ImpurityDecrease,
+}
+
+/// The quantity whose change is measured.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub enum ImportanceMeasure {
+    /// Misclassification rate.
+    Misclassification,
+    /// Brier score (multi-class sum form).
+    Brier,
+    /// Mean squared error.
+    MeanSquaredError,
+    /// Gini impurity.
+    Gini,
+    /// Entropy in bits.
+    Entropy,
+    /// Variance (squared-error) impurity.
+    Variance,
+}
+
+/// Importance of one input.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct FeatureImportance {
+    /// Input index (column).
+    pub feature: usize,
+    /// Input name.
+    pub name: String,
+    /// Mean over replicates.
+    pub mean: f64,
+    /// Standard error of the mean: sample standard deviation over replicates divided
+    /// by the square root of their number; `None` with fewer than two replicates.
+    pub std_error: Option<f64>,
+    /// Rank, 1 = most important (highest mean; ties to the lower input index).
+    pub rank: usize,
+}
+
+/// One importance measure for every input.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Importance {
+    /// How it was computed.
+    pub method: ImportanceMethod,
+    /// What was measured.
+    pub measure: ImportanceMeasure,
+    /// Number of replicates averaged (trees or repeats).
+    pub replicates: usize,
+    /// One entry per input, in input order.
+    pub features: Vec<FeatureImportance>,
+}
+
+impl Importance {
+    /// Entries from most to least important.
+    pub fn ranked(&self) -> Vec<&FeatureImportance> {
+        let mut v: Vec<&FeatureImportance> = self.features.iter().collect();
+        v.sort_by_key(|f| f.rank);
+        v
+    }
+
+    /// A caution to show beside this measure, if it has one.
+    pub fn caution(&self) -> Option<&'static str> {
+        (self.method == ImportanceMethod::ImpurityDecrease).then_some(IMPURITY_CAUTION)
+    }
+
+    /// Summarizes replicates (each a value per input).
+    fn from_replicates(
+        method: ImportanceMethod,
+        measure: ImportanceMeasure,
+        meta: &[FeatureMeta],
+        reps: &[Vec<f64>],
+    ) -> Importance {
+        let r = reps.len();
+        let mut features: Vec<FeatureImportance> = meta
+            .iter()
+            .enumerate()
+            .map(|(j, m)| {
+                let mean = reps.iter().map(|v| v[j]).sum::<f64>() / r.max(1) as f64;
+                let std_error = (r >= 2).then(|| {
+                    let ss = reps
+                        .iter()
+                        .map(|v| (v[j] - mean) * (v[j] - mean))
+                        .sum::<f64>();
+                    (ss / (r - 1) as f64).sqrt() / (r as f64).sqrt()
+                });
+                FeatureImportance {
+                    feature: j,
+                    name: m.name.clone(),
+                    mean,
+                    std_error,
+                    rank: 0,
+                }
+            })
+            .collect();
+        let mut order: Vec<usize> = (0..features.len()).collect();
+        order.sort_by(|&a, &b| {
+            features[b]
+                .mean
+                .total_cmp(&features[a].mean)
+                .then(a.cmp(&b))
+        });
+        for (rank, &j) in order.iter().enumerate() {
+            features[j].rank = rank + 1;
+        }
+        Importance {
+            method,
+            measure,
+            replicates: r,
+            features,
+        }
+    }
+}
+
+/// Permutation importance: the headline error measure, and for classes also the
+/// Brier score (which sees changes in probability that do not flip a prediction).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct PermutationImportance {
+    /// Increase in misclassification rate (classes) or mean squared error (regression).
+    pub error: Importance,
+    /// Increase in Brier score (classes only).
+    pub brier: Option<Importance>,
+}
+
+/// Loss of predictions on a set of rows: (error, Brier), Brier 0 for regression.
+#[derive(Debug, Clone, Copy, Default)]
+struct Loss {
+    error: f64,
+    brier: f64,
+}
+
+/// Loss of one row's prediction `pred` against row `i` of `outcome` (which is known).
+#[inline]
+fn row_loss(outcome: &Outcome, i: usize, pred: &[f64]) -> Loss {
+    match outcome {
+        Outcome::Classes { codes, .. } => {
+            let y = codes[i] as usize;
+            Loss {
+                error: f64::from(u8::from(predicted_class(pred) != y)),
+                brier: brier_row(pred, y),
+            }
+        }
+        Outcome::Values(v) => {
+            let e = pred[0] - v[i];
+            Loss {
+                error: e * e,
+                brier: 0.0,
+            }
+        }
+    }
+}
+
+/// Mean loss of one tree on `rows`, with input `j` (if any) taking the values `vals`
+/// (one per row in `rows`) instead of its own.
+fn tree_loss(
+    tree: &Tree,
+    x: ArrayView2<'_, f64>,
+    outcome: &Outcome,
+    rows: &[usize],
+    swap: Option<(usize, &[f64])>,
+) -> Loss {
+    let mut total = Loss::default();
+    for (pos, &i) in rows.iter().enumerate() {
+        let row = x.row(i);
+        let leaf = match swap {
+            Some((j, vals)) => tree.leaf_index_with(|k| if k == j { vals[pos] } else { row[k] }),
+            None => tree.leaf_index_with(|k| row[k]),
+        };
+        let l = row_loss(outcome, i, tree.leaf_value(leaf));
+        total.error += l.error;
+        total.brier += l.brier;
+    }
+    let m = rows.len() as f64;
+    Loss {
+        error: total.error / m,
+        brier: total.brier / m,
+    }
+}
+
+/// Inputs that some split of `tree` tests.
+fn used_inputs(tree: &Tree, p: usize) -> Vec<bool> {
+    let mut used = vec![false; p];
+    for n in tree.nodes() {
+        if let Some(j) = n.feature() {
+            if j < p {
+                used[j] = true;
+            }
+        }
+    }
+    used
+}
+
+/// Out-of-bag permutation importance (Breiman 2001, section 10): for tree `t` and
+/// input `j`, the values of `j` are permuted among the tree's out-of-bag rows with
+/// the generator for (seed, t, j), and the increase in the tree's error on those rows
+/// is one replicate. An input the tree never tests has increase exactly 0 (its
+/// permutation cannot change the tree's predictions). Trees with no out-of-bag row
+/// with a known outcome are left out; `None` when no tree is left.
+pub(crate) fn oob_permutation(
+    trees: &[Tree],
+    masks: &[OobMask],
+    x: ArrayView2<'_, f64>,
+    outcome: &Outcome,
+    meta: &[FeatureMeta],
+    seed: u64,
+    progress: &(dyn Fn(Progress) + Sync),
+) -> Option<PermutationImportance> {
+    let (n, p) = x.dim();
+    let nt = trees.len();
+    let done = AtomicUsize::new(0);
+    let per_tree: Vec<Option<(Vec<f64>, Vec<f64>)>> = (0..nt)
+        .into_par_iter()
+        .map(|t| {
+            let tree = &trees[t];
+            let rows: Vec<usize> = (0..n)
+                .filter(|&i| masks[t].contains(i) && !outcome.is_missing(i))
+                .collect();
+            let result = (!rows.is_empty()).then(|| {
+                let used = used_inputs(tree, p);
+                let base = tree_loss(tree, x, outcome, &rows, None);
+                let (mut inc_err, mut inc_brier) = (vec![0.0; p], vec![0.0; p]);
+                let mut vals = Vec::with_capacity(rows.len());
+                for j in (0..p).filter(|&j| used[j]) {
+                    vals.clear();
+                    vals.extend(rows.iter().map(|&i| x[[i, j]]));
+                    vals.shuffle(&mut task_rng(seed, Purpose::OobPermute, t as u64, j as u64));
+                    let l = tree_loss(tree, x, outcome, &rows, Some((j, &vals)));
+                    inc_err[j] = l.error - base.error;
+                    inc_brier[j] = l.brier - base.brier;
+                }
+                (inc_err, inc_brier)
+            });
+            let d = done.fetch_add(1, Ordering::Relaxed) + 1;
+            progress(Progress {
+                stage: Stage::Importance,
+                done: d,
+                total: nt,
+            });
+            result
+        })
+        .collect();
+    let (errs, briers): (Vec<Vec<f64>>, Vec<Vec<f64>>) = per_tree.into_iter().flatten().unzip();
+    if errs.is_empty() {
+        return None;
+    }
+    Some(permutation_tables(
+        ImportanceMethod::OutOfBagPermutation,
+        outcome,
+        meta,
+        &errs,
+        &briers,
+    ))
+}
+
+fn permutation_tables(
+    method: ImportanceMethod,
+    outcome: &Outcome,
+    meta: &[FeatureMeta],
+    errs: &[Vec<f64>],
+    briers: &[Vec<f64>],
+) -> PermutationImportance {
+    match outcome {
+        Outcome::Classes { .. } => PermutationImportance {
+            error: Importance::from_replicates(
+                method,
+                ImportanceMeasure::Misclassification,
+                meta,
+                errs,
+            ),
+            brier: Some(Importance::from_replicates(
+                method,
+                ImportanceMeasure::Brier,
+                meta,
+                briers,
+            )),
+        },
+        Outcome::Values(_) => PermutationImportance {
+            error: Importance::from_replicates(
+                method,
+                ImportanceMeasure::MeanSquaredError,
+                meta,
+                errs,
+            ),
+            brier: None,
+        },
+    }
+}
+
+/// Impurity-decrease importance: per tree, the weighted impurity decrease of the splits
+/// on each input divided by the tree's total case weight (so a tree contributes the
+/// decrease per case); mean and standard error over trees.
+pub(crate) fn impurity_importance(
+    trees: &[Tree],
+    bag_weights: &[f64],
+    meta: &[FeatureMeta],
+    outcome: &Outcome,
+    settings: &TreeSettings,
+) -> Importance {
+    let reps: Vec<Vec<f64>> = trees
+        .iter()
+        .zip(bag_weights)
+        .map(|(t, &w)| t.impurity_decrease().iter().map(|d| d / w).collect())
+        .collect();
+    let measure = match (outcome, settings.impurity) {
+        (Outcome::Values(_), _) => ImportanceMeasure::Variance,
+        (_, Impurity::Gini) => ImportanceMeasure::Gini,
+        (_, Impurity::Entropy) => ImportanceMeasure::Entropy,
+    };
+    Importance::from_replicates(ImportanceMethod::ImpurityDecrease, measure, meta, &reps)
+}
+
+impl Forest {
+    /// Permutation importance on a labelled data set the model has not seen: for each
+    /// input and each of `repeats` repeats, the input's values are permuted among the
+    /// rows with a known outcome (generator seeded by (seed, input, repeat)) and the
+    /// increase in the forest's error is one replicate. Runs on the current rayon pool;
+    /// the result is the same for any number of threads.
+    ///
+    /// # Errors
+    /// `InvalidSetting` for `repeats` of 0; `LengthMismatch` for a wrong number of
+    /// columns or outcomes; `OutcomeMismatch` for an outcome that does not fit the
+    /// model; `NoTargets` with fewer than two known outcomes.
+    pub fn permutation_importance(
+        &self,
+        x: ArrayView2<'_, f64>,
+        outcome: &Outcome,
+        repeats: usize,
+        seed: u64,
+    ) -> Result<PermutationImportance> {
+        if repeats == 0 {
+            return Err(Error::new(
+                ErrorKind::InvalidSetting,
+                "permutation repeats must be at least 1 (at least 2 for a standard error)",
+            ));
+        }
+        self.check_columns(x)?;
+        if outcome.len() != x.nrows() {
+            return Err(Error::new(
+                ErrorKind::LengthMismatch,
+                format!(
+                    "{} data rows but {} outcomes; they must match",
+                    x.nrows(),
+                    outcome.len()
+                ),
+            ));
+        }
+        let outcome = self.align(outcome)?;
+        let rows: Vec<usize> = (0..x.nrows()).filter(|&i| !outcome.is_missing(i)).collect();
+        if rows.len() < 2 {
+            return Err(Error::new(
+                ErrorKind::NoTargets,
+                "fewer than two rows have a known outcome; permutation importance needs more",
+            ));
+        }
+        let p = self.n_features();
+        let base = self.forest_loss(x, &outcome, &rows, None);
+        let tasks: Vec<(usize, usize)> = (0..repeats)
+            .flat_map(|r| (0..p).map(move |j| (r, j)))
+            .collect();
+        let inc: Vec<Loss> = tasks
+            .par_iter()
+            .map(|&(r, j)| {
+                let mut vals: Vec<f64> = rows.iter().map(|&i| x[[i, j]]).collect();
+                vals.shuffle(&mut task_rng(
+                    seed,
+                    Purpose::HeldOutPermute,
+                    j as u64,
+                    r as u64,
+                ));
+                let l = self.forest_loss(x, &outcome, &rows, Some((j, &vals)));
+                Loss {
+                    error: l.error - base.error,
+                    brier: l.brier - base.brier,
+                }
+            })
+            .collect();
+        let errs: Vec<Vec<f64>> = inc
+            .chunks(p)
+            .map(|c| c.iter().map(|l| l.error).collect())
+            .collect();
+        let briers: Vec<Vec<f64>> = inc
+            .chunks(p)
+            .map(|c| c.iter().map(|l| l.brier).collect())
+            .collect();
+        Ok(permutation_tables(
+            ImportanceMethod::HeldOutPermutation,
+            &outcome,
+            &self.meta,
+            &errs,
+            &briers,
+        ))
+    }
+
+    /// Mean loss of the forest on `rows`, with input `j` (if any) taking the values
+    /// `vals` instead. Blocks of rows run in parallel and their sums are added in
+    /// block order, so the result does not depend on the number of threads.
+    fn forest_loss(
+        &self,
+        x: ArrayView2<'_, f64>,
+        outcome: &Outcome,
+        rows: &[usize],
+        swap: Option<(usize, &[f64])>,
+    ) -> Loss {
+        let bs = block_rows(rows.len());
+        let k = self.n_outputs();
+        let parts: Vec<Loss> = rows
+            .par_chunks(bs)
+            .enumerate()
+            .map(|(b, chunk)| {
+                let mut pred = vec![0.0; k];
+                let mut total = Loss::default();
+                for (off, &i) in chunk.iter().enumerate() {
+                    let row = x.row(i);
+                    match swap {
+                        Some((j, vals)) => {
+                            let v = vals[b * bs + off];
+                            self.predict_with(|c| if c == j { v } else { row[c] }, &mut pred);
+                        }
+                        None => self.predict_with(|c| row[c], &mut pred),
+                    }
+                    let l = row_loss(outcome, i, &pred);
+                    total.error += l.error;
+                    total.brier += l.brier;
+                }
+                total
+            })
+            .collect();
+        let m = rows.len() as f64;
+        let (e, b) = parts
+            .iter()
+            .fold((0.0, 0.0), |(e, b), l| (e + l.error, b + l.brier));
+        Loss {
+            error: e / m,
+            brier: b / m,
+        }
+    }
+}

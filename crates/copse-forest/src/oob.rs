@@ -1,0 +1,220 @@
+//! Out-of-bag estimates: each row is predicted by the trees that did not see it, which
+//! estimates the forest's error without a holdout (Breiman 1996, "Out-of-bag
+//! estimation"; Breiman 2001, section 3.1).
+use crate::metrics::{class_metrics, predicted_class, value_metrics, Metrics};
+use crate::outcome::Outcome;
+use crate::train::{Progress, Stage};
+use copse_tree::Tree;
+use ndarray::{Array2, ArrayView2};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+/// Which rows a tree left out of its sample, one bit per data row (set = out of bag).
+/// Kept for the whole of training: `trees * rows / 8` bytes.
+#[derive(Debug, Clone)]
+pub(crate) struct OobMask(Vec<u64>);
+
+impl OobMask {
+    /// Rows with weight 0 are out of bag.
+    pub(crate) fn from_weights(w: &[f64]) -> Self {
+        let mut bits = vec![0u64; w.len().div_ceil(64)];
+        for (i, &x) in w.iter().enumerate() {
+            if x == 0.0 {
+                bits[i / 64] |= 1 << (i % 64);
+            }
+        }
+        OobMask(bits)
+    }
+
+    /// True when row `i` is out of bag.
+    #[inline]
+    pub(crate) fn contains(&self, i: usize) -> bool {
+        self.0[i / 64] >> (i % 64) & 1 == 1
+    }
+}
+
+/// Out-of-bag accuracy, kept in the model.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct OobSummary {
+    /// Measures over the rows with a known outcome that were out of bag for at least
+    /// one tree; `None` when there is no such row (for example with no resampling).
+    pub metrics: Option<Metrics>,
+    /// Rows with a known outcome.
+    pub rows_labelled: usize,
+    /// Rows with a known outcome that every tree drew: they have no out-of-bag
+    /// prediction and are left out of `metrics`.
+    pub rows_never_oob: usize,
+    /// Rows whose outcome was missing (never drawn, never measured).
+    pub rows_missing_outcome: usize,
+    /// Entry `k` is the out-of-bag error (misclassification rate, or mean squared
+    /// error) using only trees `0..=k`, over the rows out of bag for at least one of
+    /// them; `None` while there is no such row.
+    pub error_curve: Vec<Option<f64>>,
+}
+
+/// Per-row out-of-bag results of one training run (not stored in the model).
+#[derive(Debug, Clone)]
+pub struct OobReport {
+    /// Rows by outputs: mean of the class distributions (or values) of the leaves the
+    /// row reached in the trees where it was out of bag. NaN for a row that no tree
+    /// left out.
+    pub predictions: Array2<f64>,
+    /// Number of trees for which each row was out of bag.
+    pub trees_out: Vec<u32>,
+}
+
+/// Per-block results of the out-of-bag pass.
+struct Block {
+    preds: Vec<f64>,
+    trees_out: Vec<u32>,
+    /// Per tree: rows whose first out-of-bag tree it is.
+    d_cover: Vec<i64>,
+    /// Per tree: change in the number of misclassified rows.
+    d_wrong: Vec<i64>,
+    /// Per tree: change in the sum of squared errors.
+    d_sse: Vec<f64>,
+}
+
+/// Rows per block; depends only on the row count so that sums over blocks are taken
+/// in the same order whatever the number of threads.
+pub(crate) fn block_rows(n: usize) -> usize {
+    n.div_ceil(256).max(256)
+}
+
+/// Computes out-of-bag predictions, the error curve and the summary measures.
+pub(crate) fn out_of_bag(
+    trees: &[Tree],
+    masks: &[OobMask],
+    x: ArrayView2<'_, f64>,
+    outcome: &Outcome,
+    progress: &(dyn Fn(Progress) + Sync),
+) -> (OobReport, OobSummary) {
+    let n = x.nrows();
+    let k = outcome_width(outcome);
+    let nt = trees.len();
+    let bs = block_rows(n);
+    let n_blocks = n.div_ceil(bs);
+    let done = std::sync::atomic::AtomicUsize::new(0);
+    let blocks: Vec<Block> = (0..n_blocks)
+        .into_par_iter()
+        .map(|b| {
+            let (start, end) = (b * bs, ((b + 1) * bs).min(n));
+            let mut out = Block {
+                preds: vec![0.0; (end - start) * k],
+                trees_out: vec![0; end - start],
+                d_cover: vec![0; nt],
+                d_wrong: vec![0; nt],
+                d_sse: vec![0.0; nt],
+            };
+            let mut sums = vec![0.0; k];
+            for i in start..end {
+                sums.iter_mut().for_each(|s| *s = 0.0);
+                let row = x.row(i);
+                let mut count = 0u32;
+                let mut was_wrong = false;
+                let mut prev_sq = 0.0;
+                let labelled = !outcome.is_missing(i);
+                for (t, tree) in trees.iter().enumerate() {
+                    if !masks[t].contains(i) {
+                        continue;
+                    }
+                    let leaf = tree.leaf_index_with(|j| row[j]);
+                    sums.iter_mut()
+                        .zip(tree.leaf_value(leaf))
+                        .for_each(|(s, v)| *s += v);
+                    count += 1;
+                    if !labelled {
+                        continue;
+                    }
+                    if count == 1 {
+                        out.d_cover[t] += 1;
+                    }
+                    match outcome {
+                        Outcome::Classes { codes, .. } => {
+                            let wrong = predicted_class(&sums) != codes[i] as usize;
+                            out.d_wrong[t] += i64::from(wrong) - i64::from(was_wrong);
+                            was_wrong = wrong;
+                        }
+                        Outcome::Values(y) => {
+                            let e = sums[0] / f64::from(count) - y[i];
+                            out.d_sse[t] += e * e - prev_sq;
+                            prev_sq = e * e;
+                        }
+                    }
+                }
+                let o = &mut out.preds[(i - start) * k..(i - start + 1) * k];
+                if count == 0 {
+                    o.iter_mut().for_each(|v| *v = f64::NAN);
+                } else {
+                    o.iter_mut()
+                        .zip(&sums)
+                        .for_each(|(v, s)| *v = s / f64::from(count));
+                }
+                out.trees_out[i - start] = count;
+            }
+            let d = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
+            progress(Progress {
+                stage: Stage::OutOfBag,
+                done: d,
+                total: n_blocks,
+            });
+            out
+        })
+        .collect();
+
+    let mut preds = Vec::with_capacity(n * k);
+    let mut trees_out = Vec::with_capacity(n);
+    for b in &blocks {
+        preds.extend_from_slice(&b.preds);
+        trees_out.extend_from_slice(&b.trees_out);
+    }
+    let (mut cover, mut wrong, mut sse) = (0i64, 0i64, 0.0f64);
+    let mut error_curve = Vec::with_capacity(nt);
+    for t in 0..nt {
+        for b in &blocks {
+            cover += b.d_cover[t];
+            wrong += b.d_wrong[t];
+            sse += b.d_sse[t];
+        }
+        error_curve.push((cover > 0).then(|| match outcome {
+            Outcome::Classes { .. } => wrong as f64 / cover as f64,
+            Outcome::Values(_) => sse.max(0.0) / cover as f64,
+        }));
+    }
+    let predictions =
+        Array2::from_shape_vec((n, k), preds).expect("blocks hold n rows of k outputs");
+    let metrics = match outcome {
+        Outcome::Classes { codes, .. } => {
+            class_metrics(codes, predictions.view()).map(Metrics::Classes)
+        }
+        Outcome::Values(y) => {
+            value_metrics(y, &predictions.column(0).to_vec()).map(Metrics::Values)
+        }
+    };
+    let rows_labelled = outcome.n_labelled();
+    let rows_never_oob = (0..n)
+        .filter(|&i| !outcome.is_missing(i) && trees_out[i] == 0)
+        .count();
+    let summary = OobSummary {
+        metrics,
+        rows_labelled,
+        rows_never_oob,
+        rows_missing_outcome: n - rows_labelled,
+        error_curve,
+    };
+    (
+        OobReport {
+            predictions,
+            trees_out,
+        },
+        summary,
+    )
+}
+
+/// Width of a prediction row for this outcome.
+pub(crate) fn outcome_width(outcome: &Outcome) -> usize {
+    match outcome {
+        Outcome::Classes { labels, .. } => labels.len(),
+        Outcome::Values(_) => 1,
+    }
+}

@@ -1,0 +1,142 @@
+//! The outcome a forest models, owned: class codes with their labels, or real values.
+use crate::error::{Error, ErrorKind, Result};
+use copse_tree::target::MISSING_CLASS;
+use copse_tree::Target;
+
+/// Class code that marks a missing outcome.
+pub const MISSING: u32 = MISSING_CLASS;
+
+/// The outcome, one entry per row.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Outcome {
+    /// Classification: a code per row indexing `labels` ([`MISSING`] when unknown).
+    /// The order of `labels` becomes the model's class order.
+    Classes {
+        /// One code per row.
+        codes: Vec<u32>,
+        /// Class labels, in code order; labels must be distinct.
+        labels: Vec<String>,
+    },
+    /// Regression: one value per row; NaN when unknown.
+    Values(Vec<f64>),
+}
+
+impl Outcome {
+    /// Class outcome from one optional label per row; the classes are the distinct
+    /// labels in sorted (byte) order, so the class order does not depend on row order.
+    pub fn from_labels<I, S>(labels: I) -> Outcome
+    where
+        I: IntoIterator<Item = Option<S>>,
+        S: AsRef<str>,
+    {
+        let raw: Vec<Option<String>> = labels
+            .into_iter()
+            .map(|l| l.map(|s| s.as_ref().to_string()))
+            .collect();
+        let mut classes: Vec<String> = raw.iter().flatten().cloned().collect();
+        classes.sort();
+        classes.dedup();
+        let codes = raw
+            .iter()
+            .map(|l| match l {
+                Some(s) => classes.binary_search(s).map_or(MISSING, |k| k as u32),
+                None => MISSING,
+            })
+            .collect();
+        Outcome::Classes {
+            codes,
+            labels: classes,
+        }
+    }
+
+    /// Number of rows.
+    pub fn len(&self) -> usize {
+        match self {
+            Outcome::Classes { codes, .. } => codes.len(),
+            Outcome::Values(v) => v.len(),
+        }
+    }
+
+    /// True when there are no rows.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// True for a class outcome.
+    pub fn is_classes(&self) -> bool {
+        matches!(self, Outcome::Classes { .. })
+    }
+
+    /// True when row `i`'s outcome is missing.
+    pub fn is_missing(&self, i: usize) -> bool {
+        match self {
+            Outcome::Classes { codes, .. } => codes[i] == MISSING,
+            Outcome::Values(v) => v[i].is_nan(),
+        }
+    }
+
+    /// Number of rows whose outcome is known.
+    pub fn n_labelled(&self) -> usize {
+        (0..self.len()).filter(|&i| !self.is_missing(i)).count()
+    }
+
+    /// Checks codes are in range, labels distinct and values finite or NaN.
+    ///
+    /// # Errors
+    /// `InvalidSetting` for duplicate labels or no classes, `OutcomeMismatch` for a
+    /// code out of range, `BadValue` for an infinite value.
+    pub fn validate(&self) -> Result<()> {
+        match self {
+            Outcome::Classes { codes, labels } => {
+                if labels.is_empty() {
+                    return Err(Error::new(
+                        ErrorKind::InvalidSetting,
+                        "a class outcome needs at least one class label",
+                    ));
+                }
+                let mut sorted: Vec<&String> = labels.iter().collect();
+                sorted.sort();
+                if let Some(w) = sorted.windows(2).find(|w| w[0] == w[1]) {
+                    return Err(Error::new(
+                        ErrorKind::InvalidSetting,
+                        format!(
+                            "class label '{}' is listed twice; labels must be distinct",
+                            w[0]
+                        ),
+                    ));
+                }
+                if let Some((i, c)) = codes
+                    .iter()
+                    .enumerate()
+                    .find(|(_, &c)| c != MISSING && c as usize >= labels.len())
+                {
+                    return Err(Error::new(
+                        ErrorKind::OutcomeMismatch,
+                        format!(
+                            "row {i}: class code {c} is not below the number of labels {}",
+                            labels.len()
+                        ),
+                    ));
+                }
+                Ok(())
+            }
+            Outcome::Values(v) => match v.iter().position(|x| x.is_infinite()) {
+                Some(i) => Err(Error::new(
+                    ErrorKind::BadValue,
+                    format!(
+                        "row {i}: the outcome is infinite; use a finite number or leave it empty"
+                    ),
+                )),
+                None => Ok(()),
+            },
+        }
+    }
+
+    /// The borrowed view the tree core grows on.
+    pub(crate) fn target(&self) -> Result<Target<'_>> {
+        Ok(match self {
+            Outcome::Classes { codes, labels } => Target::classes(codes, labels.len())?,
+            Outcome::Values(v) => Target::values(v)?,
+        })
+    }
+}

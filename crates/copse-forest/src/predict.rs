@@ -1,0 +1,147 @@
+//! Prediction with a trained forest: class probabilities (mean of the trees' leaf
+//! class distributions) or values (mean of the trees' leaf means), and evaluation of
+//! predictions against a known outcome.
+use crate::error::{Error, ErrorKind, Result};
+use crate::forest::{Forest, Task};
+use crate::metrics::{class_metrics, predicted_class, value_metrics, Metrics};
+use crate::outcome::Outcome;
+use ndarray::{Array2, ArrayView2};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+/// Rows per parallel block in batch prediction.
+const PREDICT_BLOCK: usize = 256;
+
+/// Accuracy of a forest on a labelled data set.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Evaluation {
+    /// Measures over the rows with a known outcome.
+    pub metrics: Metrics,
+    /// Rows left out because their outcome is missing.
+    pub rows_missing_outcome: usize,
+}
+
+impl Forest {
+    /// Predictions for a rows-by-inputs batch (any memory layout; columns in the
+    /// training order; categories as the training codes, NaN for missing or unseen).
+    /// Classes: one column per class in model order, each row summing to 1.
+    /// Regression: one column. Blocks of rows run in parallel on the current rayon
+    /// pool; output row `i` belongs to input row `i`.
+    ///
+    /// # Errors
+    /// `LengthMismatch` when the number of columns is not the model's.
+    pub fn predict(&self, x: ArrayView2<'_, f64>) -> Result<Array2<f64>> {
+        self.check_columns(x)?;
+        let (n, k) = (x.nrows(), self.n_outputs());
+        let mut out = vec![0.0; n * k];
+        out.par_chunks_mut(PREDICT_BLOCK * k.max(1))
+            .enumerate()
+            .for_each(|(b, chunk)| {
+                for (off, o) in chunk.chunks_mut(k).enumerate() {
+                    let row = x.row(b * PREDICT_BLOCK + off);
+                    self.predict_with(|j| row[j], o);
+                }
+            });
+        Ok(Array2::from_shape_vec((n, k), out).expect("n rows of k outputs by construction"))
+    }
+
+    /// Prediction for one row of input values into `out` (length [`Forest::n_outputs`]).
+    ///
+    /// # Errors
+    /// `LengthMismatch` when `row` or `out` has the wrong length.
+    pub fn predict_row(&self, row: &[f64], out: &mut [f64]) -> Result<()> {
+        if row.len() != self.n_features() || out.len() != self.n_outputs() {
+            return Err(Error::new(
+                ErrorKind::LengthMismatch,
+                format!(
+                    "a row of {} values and an output of {}; the model needs {} and {}",
+                    row.len(),
+                    out.len(),
+                    self.n_features(),
+                    self.n_outputs()
+                ),
+            ));
+        }
+        self.predict_with(|j| row[j], out);
+        Ok(())
+    }
+
+    /// Label of the predicted class for a row of probabilities (highest probability,
+    /// ties to the first class in model order); `None` for regression.
+    pub fn class_label(&self, probs: &[f64]) -> Option<&str> {
+        match &self.task {
+            Task::Classification { classes } => {
+                classes.get(predicted_class(probs)).map(String::as_str)
+            }
+            Task::Regression => None,
+        }
+    }
+
+    /// Accuracy measures of the forest's predictions on `x` against `outcome`. Class
+    /// outcomes are matched to the model's classes by label.
+    ///
+    /// # Errors
+    /// `LengthMismatch` for a wrong number of columns or outcomes; `OutcomeMismatch`
+    /// when the outcome does not fit the model or holds a class it never saw;
+    /// `NoTargets` when no row has a known outcome.
+    pub fn evaluate(&self, x: ArrayView2<'_, f64>, outcome: &Outcome) -> Result<Evaluation> {
+        if outcome.len() != x.nrows() {
+            return Err(Error::new(
+                ErrorKind::LengthMismatch,
+                format!(
+                    "{} data rows but {} outcomes; they must match",
+                    x.nrows(),
+                    outcome.len()
+                ),
+            ));
+        }
+        let outcome = self.align(outcome)?;
+        let preds = self.predict(x)?;
+        let metrics = match &outcome {
+            Outcome::Classes { codes, .. } => {
+                class_metrics(codes, preds.view()).map(Metrics::Classes)
+            }
+            Outcome::Values(y) => value_metrics(y, &preds.column(0).to_vec()).map(Metrics::Values),
+        };
+        let missing = x.nrows() - outcome.n_labelled();
+        match metrics {
+            Some(metrics) => Ok(Evaluation {
+                metrics,
+                rows_missing_outcome: missing,
+            }),
+            None => Err(Error::new(
+                ErrorKind::NoTargets,
+                "no row has a known outcome, so there is nothing to evaluate against",
+            )),
+        }
+    }
+
+    /// Mean of the trees' leaf outputs for the row whose input `j` is `value(j)`.
+    #[inline]
+    pub(crate) fn predict_with(&self, value: impl Fn(usize) -> f64, out: &mut [f64]) {
+        out.iter_mut().for_each(|o| *o = 0.0);
+        for tree in &self.trees {
+            let leaf = tree.leaf_index_with(&value);
+            out.iter_mut()
+                .zip(tree.leaf_value(leaf))
+                .for_each(|(o, v)| *o += v);
+        }
+        let m = self.trees.len().max(1) as f64;
+        out.iter_mut().for_each(|o| *o /= m);
+    }
+
+    /// Checks `x` has the model's number of columns.
+    pub(crate) fn check_columns(&self, x: ArrayView2<'_, f64>) -> Result<()> {
+        if x.ncols() != self.n_features() {
+            return Err(Error::new(
+                ErrorKind::LengthMismatch,
+                format!(
+                    "the data has {} input columns but the model was trained on {}",
+                    x.ncols(),
+                    self.n_features()
+                ),
+            ));
+        }
+        Ok(())
+    }
+}
