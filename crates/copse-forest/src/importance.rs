@@ -62,6 +62,9 @@ pub struct FeatureImportance {
     pub mean: f64,
     /// Standard error of the mean: sample standard deviation over replicates divided
     /// by the square root of their number; `None` with fewer than two replicates.
+    /// It measures how much the trees (or repeats) vary for this one data set; it does
+    /// not include the variation from drawing another training set, so `mean / std_error`
+    /// overstates how surely an input matters, increasingly so with more trees.
     pub std_error: Option<f64>,
     /// Rank, 1 = most important (highest mean; ties to the lower input index).
     pub rank: usize,

@@ -89,23 +89,22 @@ impl Metrics {
 }
 
 /// Class measures of `probs` (rows by classes) against `codes`. Rows with a missing
-/// code or a NaN probability are skipped. `None` when no row is left.
+/// code (or one outside the columns) or a NaN probability are skipped. `None` when no
+/// row is left.
 pub fn class_metrics(codes: &[u32], probs: ArrayView2<'_, f64>) -> Option<ClassMetrics> {
     let k = probs.ncols();
     let mut confusion = vec![vec![0u64; k]; k];
     let (mut rows, mut wrong) = (0usize, 0usize);
     let (mut log_loss, mut brier) = (0.0, 0.0);
     let (mut truth, mut score) = (Vec::new(), Vec::new());
-    for (i, p) in probs.rows().into_iter().enumerate() {
+    let mut p = vec![0.0; k];
+    for (i, row) in probs.rows().into_iter().enumerate() {
         let y = codes[i];
-        if y == MISSING || (y as usize) >= k || p.iter().any(|v| v.is_nan()) {
+        if y == MISSING || (y as usize) >= k || row.iter().any(|v| v.is_nan()) {
             continue;
         }
         let y = y as usize;
-        let p = p
-            .as_slice()
-            .map(<[f64]>::to_vec)
-            .unwrap_or_else(|| p.to_vec());
+        p.iter_mut().zip(row).for_each(|(a, b)| *a = *b);
         let hat = predicted_class(&p);
         confusion[y][hat] += 1;
         rows += 1;

@@ -15,7 +15,7 @@ use serde::{Deserialize, Serialize};
 pub const MISSING_BIN: usize = 0;
 
 /// Inputs are addressed by `u16` in nodes, and `u16::MAX` marks a leaf.
-pub(crate) const MAX_FEATURES: usize = u16::MAX as usize - 1;
+pub(crate) const INPUT_LIMIT: usize = u16::MAX as usize - 1;
 
 /// Kind of one input.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -80,9 +80,17 @@ impl FeatureBins {
     /// are adjacent floating-point numbers the midpoint rounds onto one of them; the
     /// threshold then falls back to the lower value so `x <= t` still sends `a` left
     /// and `b` right.
+    ///
+    /// When `y - x` overflows (values of opposite sign near the largest finite number),
+    /// the midpoint is taken as `x / 2 + y / 2`, which cannot overflow.
     pub fn threshold_between(&self, a: usize, b: usize) -> f64 {
         let (x, y) = (self.hi[a - 1], self.lo[b - 1]);
-        let t = x + (y - x) / 2.0;
+        let gap = y - x;
+        let t = if gap.is_finite() {
+            x + gap / 2.0
+        } else {
+            x / 2.0 + y / 2.0
+        };
         if t >= y {
             x
         } else {
@@ -104,6 +112,8 @@ pub struct BinnedData {
     n_rows: usize,
     meta: Vec<FeatureMeta>,
     bins: Vec<FeatureBins>,
+    /// Number of value bins holding at least one row, per input.
+    occupied: Vec<usize>,
     codes: BinCodes,
 }
 
@@ -149,10 +159,10 @@ impl BinnedData {
                 format!("{} input descriptions for {p} columns", meta.len()),
             ));
         }
-        if p > MAX_FEATURES {
+        if p > INPUT_LIMIT {
             return Err(Error::new(
                 ErrorKind::TooLarge,
-                format!("{p} inputs; at most {MAX_FEATURES} are supported"),
+                format!("{p} inputs; at most {INPUT_LIMIT} are supported"),
             ));
         }
         if !(3..=65536).contains(&bin_limit) {
@@ -193,7 +203,11 @@ impl BinnedData {
         } else {
             BinCodes::Narrow(Vec::with_capacity(n_rows * p))
         };
+        let mut occupied = Vec::with_capacity(p);
+        let mut seen: Vec<bool> = Vec::new();
         for (j, (m, b)) in meta.iter().zip(&bins).enumerate() {
+            seen.clear();
+            seen.resize(b.n_bins + 1, false);
             for (i, &v) in x.column(j).iter().enumerate() {
                 let code = bin_of(v, b).ok_or_else(|| {
                     Error::new(
@@ -204,16 +218,19 @@ impl BinnedData {
                         ),
                     )
                 })?;
+                seen[code] = true;
                 match &mut codes {
                     BinCodes::Narrow(c) => c.push(code as u8),
                     BinCodes::Wide(c) => c.push(code as u16),
                 }
             }
+            occupied.push(seen[1..].iter().filter(|&&s| s).count());
         }
         Ok(BinnedData {
             n_rows,
             meta: meta.to_vec(),
             bins,
+            occupied,
             codes,
         })
     }
@@ -236,6 +253,21 @@ impl BinnedData {
     /// Bin layout of each input.
     pub fn bins(&self) -> &[FeatureBins] {
         &self.bins
+    }
+
+    /// Number of value bins of input `j` that hold at least one row (missing values
+    /// not counted). For a numeric input binned exactly this is its number of distinct
+    /// values; for a categorical input, the number of categories that occur.
+    pub fn occupied_bins(&self, j: usize) -> usize {
+        self.occupied[j]
+    }
+
+    /// Number of candidate thresholds of numeric input `j` over the whole data: one
+    /// between each pair of successive occupied bins, so `k - 1` for an input with `k`
+    /// distinct values when binning is exact. `None` for a categorical input, whose
+    /// splits are category subsets rather than thresholds.
+    pub fn candidate_thresholds(&self, j: usize) -> Option<usize> {
+        (!self.bins[j].categorical).then(|| self.occupied[j].saturating_sub(1))
     }
 
     /// Largest number of bins of any input, counting the missing bin.
@@ -353,8 +385,10 @@ mod tests {
 
     #[test]
     fn exact_bins_hold_one_distinct_value_each() {
-        let x = Array2::from_shape_vec((6, 1), vec![3.0, 1.0, f64::NAN, 3.0, 2.0, 1.0]).unwrap();
-        let d = BinnedData::new(x.view(), &[FeatureMeta::numeric("a")], 256).unwrap();
+        let x = Array2::from_shape_vec((6, 1), vec![3.0, 1.0, f64::NAN, 3.0, 2.0, 1.0])
+            .expect("test input is valid");
+        let d = BinnedData::new(x.view(), &[FeatureMeta::numeric("a")], 256)
+            .expect("test input is valid");
         assert_eq!(d.bins()[0].n_bins, 3);
         let got: Vec<usize> = (0..6).map(|i| d.bin(i, 0)).collect();
         assert_eq!(got, vec![3, 1, MISSING_BIN, 3, 2, 1]);
@@ -364,8 +398,9 @@ mod tests {
     #[test]
     fn quantile_bins_respect_the_limit_and_order() {
         let vals: Vec<f64> = (0..1000).map(|i| ((i * 7919) % 1000) as f64).collect();
-        let x = Array2::from_shape_vec((1000, 1), vals.clone()).unwrap();
-        let d = BinnedData::new(x.view(), &[FeatureMeta::numeric("a")], 11).unwrap();
+        let x = Array2::from_shape_vec((1000, 1), vals.clone()).expect("test input is valid");
+        let d = BinnedData::new(x.view(), &[FeatureMeta::numeric("a")], 11)
+            .expect("test input is valid");
         let b = &d.bins()[0];
         assert_eq!(b.n_bins, 10);
         for k in 1..b.n_bins {
@@ -379,17 +414,19 @@ mod tests {
 
     #[test]
     fn infinity_is_refused_with_row_and_name() {
-        let x = Array2::from_shape_vec((2, 1), vec![1.0, f64::INFINITY]).unwrap();
-        let e = BinnedData::new(x.view(), &[FeatureMeta::numeric("depth")], 256).unwrap_err();
+        let x =
+            Array2::from_shape_vec((2, 1), vec![1.0, f64::INFINITY]).expect("test input is valid");
+        let e = BinnedData::new(x.view(), &[FeatureMeta::numeric("depth")], 256)
+            .expect_err("must be refused");
         assert_eq!(e.kind(), ErrorKind::NonFinite);
         assert!(e.message().contains("row 1") && e.message().contains("depth"));
     }
 
     #[test]
     fn unknown_category_code_is_refused() {
-        let x = Array2::from_shape_vec((2, 1), vec![0.0, 2.0]).unwrap();
+        let x = Array2::from_shape_vec((2, 1), vec![0.0, 2.0]).expect("test input is valid");
         let m = FeatureMeta::categorical("c", vec!["a".into(), "b".into()]);
-        let e = BinnedData::new(x.view(), &[m], 256).unwrap_err();
+        let e = BinnedData::new(x.view(), &[m], 256).expect_err("must be refused");
         assert_eq!(e.kind(), ErrorKind::BadCategory);
     }
 }

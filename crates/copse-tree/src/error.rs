@@ -18,7 +18,7 @@ pub enum ErrorKind {
     NonFinite,
     /// A categorical input holds a code outside its list of categories.
     BadCategory,
-    /// More inputs or categories than the compact node layout can address.
+    /// More inputs, categories or classes than the compact layout can address.
     TooLarge,
     /// A setting is out of its allowed range.
     InvalidSetting,

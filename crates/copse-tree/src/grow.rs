@@ -18,10 +18,17 @@
 //! - Missing values: when the node has some, each candidate is tried with them sent left
 //!   and right, and the better is kept. When it has none, they are sent to the heavier
 //!   child (ties left).
-//! - Inputs with fewer than two distinct values in the whole data are never drawn. With
-//!   K inputs per split, inputs are drawn one at a time without replacement; a drawn
-//!   input that is constant in the node does not count towards K, and drawing goes on
-//!   until K non-constant inputs have been tried or none remain.
+//! - Inputs with fewer than two distinct values (numeric) or categories present
+//!   (categorical) in the whole data are never drawn. With K inputs per split, inputs
+//!   are drawn one at a time without replacement; a drawn input that is constant in the
+//!   node does not count towards K, and drawing goes on until K non-constant inputs
+//!   have been tried or none remain.
+//! - Stopping: a node becomes a leaf when it is pure, lies at the depth limit, holds
+//!   fewer cases than the split minimum (or than two leaves' minimum), or when its best
+//!   split does not decrease impurity by more than rounding noise, or by less than the
+//!   minimum decrease setting. The last rule means a node whose every split leaves the
+//!   class shares unchanged (for example four cases at the corners of a square labelled
+//!   by XOR) stays an impure leaf even though its cases differ.
 //! - Determinism: the only randomness is the supplied generator, so the same data,
 //!   settings and generator state give the same tree bit for bit.
 use crate::data::{BinCode, BinCodes, BinnedData, FeatureBins, MISSING_BIN};
@@ -85,14 +92,20 @@ struct Best {
 #[derive(Clone, Copy)]
 enum Task<'a> {
     Classes(&'a [u32], usize, Impurity),
-    Values(&'a [f64]),
+    /// Outcome values and the offset subtracted from them in the current node (the
+    /// node's weighted mean). The sum of squared deviations does not depend on the
+    /// offset, but the score `s^2 / w` does lose precision when the values sit far from
+    /// zero relative to their spread (at an offset of 1e9 and a spread of 1, the terms
+    /// are about 1e18 per case and their difference is rounding noise). Centring each
+    /// node on its own mean keeps `s` near zero and the score difference exact enough.
+    Values(&'a [f64], f64),
 }
 
 impl Task<'_> {
     fn stride(&self) -> usize {
         match self {
             Task::Classes(_, c, _) => *c,
-            Task::Values(_) => 2,
+            Task::Values(..) => 2,
         }
     }
 
@@ -101,9 +114,9 @@ impl Task<'_> {
     fn add(&self, slot: &mut [f64], r: usize, w: f64) {
         match self {
             Task::Classes(y, _, _) => slot[y[r] as usize] += w,
-            Task::Values(y) => {
+            Task::Values(y, c) => {
                 slot[0] += w;
-                slot[1] += w * y[r];
+                slot[1] += w * (y[r] - c);
             }
         }
     }
@@ -112,7 +125,7 @@ impl Task<'_> {
     fn weight(&self, s: &[f64]) -> f64 {
         match self {
             Task::Classes(..) => s.iter().sum(),
-            Task::Values(_) => s[0],
+            Task::Values(..) => s[0],
         }
     }
 
@@ -121,7 +134,7 @@ impl Task<'_> {
     fn score(&self, s: &[f64]) -> f64 {
         match self {
             Task::Classes(_, _, imp) => imp.score(s, s.iter().sum()),
-            Task::Values(_) => variance_score(s[0], s[1]),
+            Task::Values(..) => variance_score(s[0], s[1]),
         }
     }
 }
@@ -215,7 +228,7 @@ impl Grower {
             Target::Classes { codes, n_classes } => {
                 Task::Classes(codes, n_classes, self.settings.impurity)
             }
-            Target::Values(v) => Task::Values(v),
+            Target::Values(v) => Task::Values(v, 0.0),
         };
         match data.codes() {
             BinCodes::Narrow(c) => {
@@ -251,7 +264,7 @@ impl Grower {
         self.pool.clear();
         self.pool.extend(
             (0..data.n_features())
-                .filter(|&j| data.bins()[j].n_bins >= 2)
+                .filter(|&j| data.occupied_bins(j) >= 2)
                 .map(|j| j as u16),
         );
         let mut tree = Tree {
@@ -271,21 +284,37 @@ impl Grower {
         });
         let n = data.n_rows();
         while let Some(frame) = self.stack.pop() {
+            // Regression: the node's weighted mean and sum of squared deviations, by
+            // running updates (D. H. D. West (1979), "Updating mean and variance
+            // estimates: an improved method", CACM 22(9):532-535), which neither
+            // overflow nor cancel the way raw sums of large values do; and its range.
+            let (mut lo, mut hi, mut sse) = (f64::INFINITY, f64::NEG_INFINITY, 0.0);
+            let task = match task {
+                Task::Values(y, _) => {
+                    let (mut w, mut mean) = (0.0, 0.0);
+                    for &r in &self.rows[frame.start..frame.end] {
+                        let (v, wr) = (y[r as usize], weights[r as usize]);
+                        w += wr;
+                        let d = v - mean;
+                        mean += wr / w * d;
+                        sse += wr * d * (v - mean);
+                        lo = lo.min(v);
+                        hi = hi.max(v);
+                    }
+                    Task::Values(y, mean)
+                }
+                t => t,
+            };
             // Node totals, and whether the node is pure.
             self.totals.iter_mut().for_each(|t| *t = 0.0);
-            let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
             for &r in &self.rows[frame.start..frame.end] {
                 let r = r as usize;
                 task.add(&mut self.totals, r, weights[r]);
-                if let Task::Values(y) = task {
-                    lo = lo.min(y[r]);
-                    hi = hi.max(y[r]);
-                }
             }
             let w_t = task.weight(&self.totals);
             let pure = match task {
                 Task::Classes(..) => self.totals.iter().filter(|&&c| c > 0.0).count() <= 1,
-                Task::Values(_) => lo == hi,
+                Task::Values(..) => lo == hi,
             };
             let s = &self.settings;
             let may_split = !pure
@@ -297,8 +326,14 @@ impl Grower {
             } else {
                 None
             };
-            let score_t = task.score(&self.totals);
-            let tol = 1e-12 * (score_t.abs() + w_t);
+            // A decrease below rounding noise is no decrease. The scores being
+            // differenced are of the order of the node weight (classification) or of
+            // the node's sum of squares (regression, with values centred on the node
+            // mean), so the noise is relative to that, whatever the outcome's units.
+            let tol = match task {
+                Task::Classes(..) => 1e-12 * (task.score(&self.totals).abs() + w_t),
+                Task::Values(..) => 1e-12 * sse,
+            };
             match best {
                 Some(b) if b.gain > tol && b.gain / w_t >= self.settings.min_decrease => {
                     self.split_node(&mut tree, codes, n, data.bins(), frame, b);
@@ -310,7 +345,7 @@ impl Grower {
                         Task::Classes(..) => {
                             tree.leaf_values.extend(self.totals.iter().map(|c| c / w_t))
                         }
-                        Task::Values(_) => tree.leaf_values.push(self.totals[1] / w_t),
+                        Task::Values(_, c) => tree.leaf_values.push(c + self.totals[1] / w_t),
                     }
                     tree.nodes[frame.node] = Node {
                         split: 0,
@@ -403,7 +438,7 @@ impl Grower {
         let keys: usize = match task {
             Task::Classes(_, 2, _) => 1,
             Task::Classes(_, c, _) => c,
-            Task::Values(_) => 1,
+            Task::Values(..) => 1,
         };
         for key in 0..keys {
             for o in self.order.iter_mut() {
@@ -412,7 +447,7 @@ impl Grower {
                 o.0 = match task {
                     Task::Classes(_, 2, _) => s[1] / (s[0] + s[1]),
                     Task::Classes(..) => s[key] / s.iter().sum::<f64>(),
-                    Task::Values(_) => s[1] / s[0],
+                    Task::Values(..) => s[1] / s[0],
                 };
             }
             self.order
@@ -453,8 +488,8 @@ impl Grower {
                 &[false]
             };
             for &missing_left in sides {
-                for s in 0..stride {
-                    let l = self.acc[s] + if missing_left { miss[s] } else { 0.0 };
+                for (s, m) in miss.iter().enumerate() {
+                    let l = self.acc[s] + if missing_left { *m } else { 0.0 };
                     self.lbuf[s] = l;
                     self.rbuf[s] = self.totals[s] - l;
                 }

@@ -4,6 +4,11 @@ use crate::error::{Error, ErrorKind, Result};
 /// Marker for a missing class code.
 pub const MISSING_CLASS: u32 = u32::MAX;
 
+/// Most classes a target may have. Split search keeps one histogram cell per bin and
+/// class, and every leaf stores one probability per class, so the class count must stay
+/// modest; beyond this a caller almost surely passed a wrong count.
+pub const MAX_CLASSES: usize = 65_535;
+
 /// The outcome, one entry per row. A missing outcome is [`MISSING_CLASS`] for classes
 /// and NaN for values; such rows are left out of growing (the grower gives them no
 /// weight), never guessed.
@@ -24,12 +29,19 @@ impl<'a> Target<'a> {
     /// Class codes in `0..n_classes` (or [`MISSING_CLASS`]).
     ///
     /// # Errors
-    /// `InvalidSetting` when `n_classes` is 0 or a code is out of range.
+    /// `InvalidSetting` when `n_classes` is 0, `TooLarge` above [`MAX_CLASSES`],
+    /// `BadCategory` when a code is out of range.
     pub fn classes(codes: &'a [u32], n_classes: usize) -> Result<Self> {
         if n_classes == 0 {
             return Err(Error::new(
                 ErrorKind::InvalidSetting,
                 "a classification target needs at least one class",
+            ));
+        }
+        if n_classes > MAX_CLASSES {
+            return Err(Error::new(
+                ErrorKind::TooLarge,
+                format!("{n_classes} classes; at most {MAX_CLASSES} are supported"),
             ));
         }
         if let Some((i, c)) = codes

@@ -1,5 +1,6 @@
 //! A grown tree: compact nodes in one flat array, leaf outputs stored apart, and
 //! prediction for one row or a batch.
+use crate::error::{Error, ErrorKind, Result};
 use ndarray::{Array2, ArrayView2};
 use serde::{Deserialize, Serialize};
 
@@ -80,6 +81,19 @@ impl Tree {
         self.leaf_weights.len()
     }
 
+    /// True when the tree is one leaf: no split was possible or worth making (for
+    /// example a target with a single class, or inputs that never vary). Such a tree
+    /// predicts the training distribution (or mean) for every row.
+    pub fn is_single_leaf(&self) -> bool {
+        self.nodes.len() == 1
+    }
+
+    /// Number of inputs of the data the tree was grown on; a row passed to prediction
+    /// must have at least this many values.
+    pub fn n_features(&self) -> usize {
+        self.decrease.len()
+    }
+
     /// Width of a leaf output: number of classes, or 1 for regression.
     pub fn n_outputs(&self) -> usize {
         self.n_outputs
@@ -149,21 +163,67 @@ impl Tree {
     }
 
     /// Leaf reached by one row of input values (categories as codes, NaN missing).
+    ///
+    /// # Panics
+    /// When `row` is shorter than [`Tree::n_features`].
     pub fn leaf_index(&self, row: &[f64]) -> usize {
         self.leaf_index_with(|j| row[j])
     }
 
     /// Output for one row: class probabilities or the value.
+    ///
+    /// # Panics
+    /// When `row` is shorter than [`Tree::n_features`]; use [`Tree::try_predict_row`]
+    /// for rows that come from outside the program.
     pub fn predict_row(&self, row: &[f64]) -> &[f64] {
         self.leaf_value(self.leaf_index(row))
     }
 
+    /// Like [`Tree::predict_row`], but a row of the wrong width is an error.
+    ///
+    /// # Errors
+    /// `LengthMismatch` when `row` has fewer values than the tree has inputs.
+    pub fn try_predict_row(&self, row: &[f64]) -> Result<&[f64]> {
+        self.check_width(row.len())?;
+        Ok(self.predict_row(row))
+    }
+
+    fn check_width(&self, width: usize) -> Result<()> {
+        if width < self.n_features() {
+            return Err(Error::new(
+                ErrorKind::LengthMismatch,
+                format!(
+                    "a row has {width} input values but the tree was grown on {}; \
+                     supply every input column, in training order",
+                    self.n_features()
+                ),
+            ));
+        }
+        Ok(())
+    }
+
     /// Predicted class for one row: highest probability, ties to the lowest class code.
+    ///
+    /// # Panics
+    /// When `row` is shorter than [`Tree::n_features`].
     pub fn predict_class(&self, row: &[f64]) -> usize {
         argmax(self.predict_row(row))
     }
 
+    /// Like [`Tree::predict_batch`], but a batch of the wrong width is an error.
+    ///
+    /// # Errors
+    /// `LengthMismatch` when `x` has fewer columns than the tree has inputs.
+    pub fn try_predict_batch(&self, x: ArrayView2<'_, f64>) -> Result<Array2<f64>> {
+        self.check_width(x.ncols())?;
+        Ok(self.predict_batch(x))
+    }
+
     /// Outputs for a rows-by-inputs batch: one row of `n_outputs` per input row.
+    ///
+    /// # Panics
+    /// When `x` has fewer columns than [`Tree::n_features`]; see
+    /// [`Tree::try_predict_batch`].
     pub fn predict_batch(&self, x: ArrayView2<'_, f64>) -> Array2<f64> {
         let mut out = Array2::zeros((x.nrows(), self.n_outputs));
         for (row, mut o) in x.rows().into_iter().zip(out.rows_mut()) {
@@ -203,4 +263,22 @@ pub fn argmax(v: &[f64]) -> usize {
         }
     }
     best
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn an_internal_node_fits_in_16_bytes() {
+        // Issue 2 asks for at most 16 bytes per node, so a deep tree stays cache-friendly.
+        assert!(std::mem::size_of::<Node>() <= 16);
+    }
+
+    #[test]
+    fn argmax_ties_go_to_the_lowest_index() {
+        assert_eq!(argmax(&[0.25, 0.5, 0.25]), 1);
+        assert_eq!(argmax(&[0.5, 0.5]), 0);
+        assert_eq!(argmax(&[0.0, 0.5, 0.5]), 1);
+    }
 }
