@@ -41,7 +41,9 @@ pub fn render(tree: &Tree, meta: &[FeatureMeta], classes: Option<&[String]>) -> 
     let k = tree.n_outputs();
     let describe = |i: usize| -> String {
         let s = &sums[i * k..(i + 1) * k];
-        let mut out = format!("{} cases", fmt_num(w[i]));
+        // Case counts are weighted, so "1 case" only for a weight of exactly one.
+        let noun = if w[i] == 1.0 { "case" } else { "cases" };
+        let mut out = format!("{} {noun}", fmt_num(w[i]));
         match classes {
             Some(labels) => {
                 for (c, v) in s.iter().enumerate() {
@@ -138,12 +140,103 @@ fn push_children(
     stack.push((n.child(), depth, left));
 }
 
-/// Short numeric display: integers as such, other values to 4 significant digits.
+/// Short numeric display: integers as such; other values to 4 significant digits with
+/// trailing zeros dropped (2.45, not 2.450); very small or large ones in exponent form.
 fn fmt_num(v: f64) -> String {
-    if v.fract() == 0.0 && v.abs() < 1e12 {
-        format!("{v:.0}")
+    let a = v.abs();
+    if !v.is_finite() {
+        return v.to_string();
+    }
+    if v.fract() == 0.0 && a < 1e15 {
+        return format!("{v:.0}");
+    }
+    if !(1e-4..1e15).contains(&a) {
+        return format!("{v:.3e}");
+    }
+    let digits = (3 - a.log10().floor() as i32).clamp(0, 8) as usize;
+    let s = format!("{v:.digits$}");
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
     } else {
-        let digits = (3 - v.abs().log10().floor() as i32).clamp(0, 8) as usize;
-        format!("{v:.digits$}")
+        s
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::{BinnedData, Grower, Target, TreeSettings};
+    use ndarray::array;
+    use rand::SeedableRng;
+
+    fn small_tree() -> (Tree, Vec<FeatureMeta>) {
+        let x = array![[1.0, 0.0], [2.0, 1.0], [3.0, 1.0], [4.0, f64::NAN]];
+        let meta = vec![
+            FeatureMeta::numeric("length"),
+            FeatureMeta::categorical("colour", vec!["red".into(), "blue".into()]),
+        ];
+        let data = BinnedData::new(x.view(), &meta, 256).expect("test input is valid");
+        let target = Target::classes(&[0, 1, 1, 1], 2).expect("test input is valid");
+        let mut rng = rand::rngs::StdRng::seed_from_u64(1);
+        let tree = Grower::new(TreeSettings::default())
+            .grow(&data, &target, &[1.0; 4], &mut rng)
+            .expect("test input is valid");
+        (tree, meta)
+    }
+
+    #[test]
+    fn one_case_is_singular_and_rules_read_in_order() {
+        let (tree, meta) = small_tree();
+        let labels = ["short".to_string(), "long".to_string()];
+        let text = render(&tree, &meta, Some(&labels));
+        let lines: Vec<&str> = text.lines().collect();
+        assert_eq!(lines[0], "tree: 3 nodes, 2 leaves, depth 1");
+        assert_eq!(lines[1], "all data (4 cases, short 25%, long 75%)");
+        // Input 0 and input 1 both isolate the first row; the tie goes to input 0.
+        assert_eq!(
+            lines[2],
+            "  when length <= 1.5 (1 case, short 100%)  => short"
+        );
+        assert_eq!(
+            lines[3],
+            "  when length > 1.5 or missing (3 cases, long 100%)  => long"
+        );
+        assert_eq!(lines.len(), 4);
+        assert!(!text.contains("1 cases"));
+    }
+
+    #[test]
+    fn numbers_are_short_and_plain() {
+        assert_eq!(fmt_num(3.0), "3");
+        assert_eq!(fmt_num(2.45), "2.45");
+        assert_eq!(fmt_num(-0.05), "-0.05");
+        assert_eq!(fmt_num(1234.5678), "1235");
+        assert_eq!(fmt_num(0.123456), "0.1235");
+        assert_eq!(fmt_num(2.5e-7), "2.500e-7");
+        assert_eq!(fmt_num(f64::NAN), "NaN");
+    }
+
+    #[test]
+    fn regression_leaves_show_the_mean() {
+        let x = array![[1.0], [2.0], [3.0]];
+        let meta = vec![FeatureMeta::numeric("t")];
+        let data = BinnedData::new(x.view(), &meta, 256).expect("test input is valid");
+        let y = [1.0, 1.0, 2.5];
+        let target = Target::values(&y).expect("test input is valid");
+        let mut rng = rand::rngs::StdRng::seed_from_u64(1);
+        let tree = Grower::new(TreeSettings::default())
+            .grow(&data, &target, &[1.0; 3], &mut rng)
+            .expect("test input is valid");
+        let text = render(&tree, &meta, None);
+        // With no missing values in training, missing ones follow the heavier child.
+        assert!(text.contains("all data (3 cases, mean 1.5)"), "{text}");
+        assert!(
+            text.contains("when t <= 2.5 or missing (2 cases, mean 1)  => 1"),
+            "{text}"
+        );
+        assert!(
+            text.contains("when t > 2.5 (1 case, mean 2.5)  => 2.5"),
+            "{text}"
+        );
     }
 }
