@@ -371,7 +371,7 @@ fn playtennis_whole_set_impurity() {
         "{}",
         entropy(&counts)
     );
-    // Computed: 1 - (9/14)^2 - (5/14)^2 = 0.459184 (../shared/docs/check-values.md).
+    // Computed: 1 - (9/14)^2 - (5/14)^2 = 0.459184 (tests/data/README.md).
     assert!((gini(&counts) - 0.459184).abs() < 1e-6, "{}", gini(&counts));
 }
 
@@ -386,7 +386,7 @@ fn playtennis_information_gains_match_the_published_ones() {
         let g = multiway_gain(&d, a, entropy);
         assert!((g - p).abs() < 0.001, "{a}: gain {g}, published {p}");
     }
-    // Computed from the same counts with the Gini index (check-values.md): outlook
+    // Computed from the same counts with the Gini index (tests/data/README.md): outlook
     // 0.116327, temperature 0.018707, humidity 0.091837, windy 0.030612.
     let computed = [0.116327, 0.018707, 0.091837, 0.030612];
     for (a, c) in PLAYTENNIS_ATTRIBUTES.iter().zip(computed) {
@@ -558,7 +558,7 @@ fn iris_root_impurity() {
     let d = encode(&read_table("iris.csv"), "species");
     let counts = d.class_counts();
     assert_eq!(counts, vec![50.0; 3]);
-    // Computed (../shared/data/README.md): Gini 1 - 3 (1/3)^2 = 0.6667 (printed to four
+    // Computed (tests/data/README.md): Gini 1 - 3 (1/3)^2 = 0.6667 (printed to four
     // decimals, so 1e-4), entropy log2 3 = 1.585 bits (three decimals, so 1e-3).
     assert!((gini(&counts) - 0.6667).abs() < 1e-4);
     assert!((entropy(&counts) - 1.585).abs() < 1e-3);
@@ -566,7 +566,7 @@ fn iris_root_impurity() {
 
 #[test]
 fn iris_best_first_split_isolates_setosa_under_both_measures() {
-    // ../shared/data/README.md (a widely reproduced textbook fact; computed from the
+    // tests/data/README.md (a widely reproduced textbook fact; computed from the
     // data): one threshold on petal length (between 1.9 and 3.0) or petal width
     // (between 0.6 and 1.0) puts the 50 setosa alone; weighted child Gini 0.3333,
     // entropy 0.6667 bits; this is the best first split under either measure. Petal
