@@ -1,0 +1,361 @@
+//! Command-line arguments, parsed with no I/O: the raw values each subcommand accepts.
+//! Checks that need no files (ranges, words) happen here, so a bad flag is a usage
+//! error (exit 2) before any work starts.
+use crate::reader::Delimiter;
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use copse_forest::{FeaturesPerSplit, Sampling};
+use std::path::PathBuf;
+
+/// copse: grow an ensemble of decision trees from a CSV table, check how well it
+/// predicts without a holdout (out-of-bag), rank which inputs matter, and score new
+/// rows.
+///
+/// Start with `copse demo`. Model outputs support, and never replace, professional
+/// judgement: validate on your own data before relying on them.
+#[derive(Debug, Parser)]
+#[command(name = "copse", version, about, long_about = None, max_term_width = 100)]
+pub struct Cli {
+    /// Threads to use (default: one per core). Results do not depend on it.
+    #[arg(long, global = true, value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+    pub threads: Option<u16>,
+
+    /// No progress bars and no notes on standard error (errors and warnings still show).
+    #[arg(long, short, global = true)]
+    pub quiet: bool,
+
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// The subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Train a model on a CSV file and print a report.
+    Train(TrainArgs),
+    /// Predict for every row of a CSV file, streaming, in input order.
+    Score(ScoreArgs),
+    /// Measure a model's accuracy on a labelled CSV file it has not seen.
+    Evaluate(EvaluateArgs),
+    /// Rank inputs by permutation importance on a labelled CSV file.
+    Importance(ImportanceArgs),
+    /// Describe a model file: inputs, settings, sizes, out-of-bag accuracy, tree rules.
+    Inspect(InspectArgs),
+    /// Run the whole job on the bundled, invented water-main register.
+    Demo(DemoArgs),
+    /// Write the invented water-main register at any size (seeded, reproducible).
+    MakeDemoData(MakeDemoDataArgs),
+}
+
+/// How to read a CSV file.
+#[derive(Debug, Args, Clone)]
+pub struct CsvArgs {
+    /// Field separator.
+    #[arg(long, value_enum, default_value = "comma", value_name = "SEP")]
+    pub delimiter: DelimiterArg,
+
+    /// Cell texts that mean "missing", comma-separated; an empty cell is always missing
+    /// [default: NA,NaN,?; when scoring, the model's list].
+    #[arg(long, value_name = "TOKEN,...", allow_hyphen_values = true)]
+    pub missing: Option<String>,
+}
+
+/// Field separators.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum DelimiterArg {
+    /// `,`
+    Comma,
+    /// a tab character
+    Tab,
+    /// `;`
+    Semicolon,
+}
+
+impl From<DelimiterArg> for Delimiter {
+    fn from(d: DelimiterArg) -> Self {
+        match d {
+            DelimiterArg::Comma => Delimiter::Comma,
+            DelimiterArg::Tab => Delimiter::Tab,
+            DelimiterArg::Semicolon => Delimiter::Semicolon,
+        }
+    }
+}
+
+/// Task override.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum TaskArg {
+    /// Predict a class label.
+    Classify,
+    /// Predict a number.
+    Regress,
+}
+
+/// Impurity measure.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum ImpurityArg {
+    /// Gini impurity.
+    Gini,
+    /// Entropy (information).
+    Entropy,
+}
+
+/// `copse train`.
+#[derive(Debug, Args)]
+pub struct TrainArgs {
+    /// Training data: a CSV file with a header row, or - for standard input.
+    #[arg(long, value_name = "FILE")]
+    pub data: String,
+
+    /// The column to predict.
+    #[arg(long, value_name = "COL")]
+    pub target: String,
+
+    /// Where to write the model file.
+    #[arg(long, value_name = "MODEL")]
+    pub out: PathBuf,
+
+    /// Columns to leave out (identifiers, free text).
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub ignore: Vec<String>,
+
+    /// Columns to treat as categories even if they hold numbers.
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub categorical: Vec<String>,
+
+    /// Columns that must be numbers (a cell that is not one is an error).
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub numeric: Vec<String>,
+
+    /// Classification or regression [default: classify when the target holds text,
+    /// regress when it holds numbers].
+    #[arg(long, value_enum)]
+    pub task: Option<TaskArg>,
+
+    #[command(flatten)]
+    pub csv: CsvArgs,
+
+    /// Number of trees.
+    #[arg(long, default_value_t = 500, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
+    pub trees: u32,
+
+    /// Inputs tried at each split: sqrt, log2, all, a count N, or a fraction such as 0.33
+    /// [default: sqrt of the number of inputs for classes, a third of them for numbers].
+    #[arg(long, value_name = "RULE", value_parser = parse_features_per_split, conflicts_with = "bagging")]
+    pub features_per_split: Option<FeaturesPerSplit>,
+
+    /// Bagged trees: every input is tried at every split (same as --features-per-split all).
+    #[arg(long)]
+    pub bagging: bool,
+
+    /// How each tree's rows are drawn: bootstrap, subsample:F (F in (0,1]) or none.
+    #[arg(long, default_value = "bootstrap", value_name = "SCHEME", value_parser = parse_sampling)]
+    pub sampling: Sampling,
+
+    /// Draw the same number of rows from every class for each tree (for rare classes).
+    #[arg(long)]
+    pub balanced: bool,
+
+    /// Impurity measure for classification splits.
+    #[arg(long, value_enum, default_value = "gini")]
+    pub impurity: ImpurityArg,
+
+    /// Deepest level a leaf may sit at (the root is level 0, so 1 allows a single split)
+    /// [default: no limit].
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..))]
+    pub max_depth: Option<u32>,
+
+    /// Fewest training rows a leaf may hold.
+    #[arg(long, default_value_t = 1, value_name = "N", value_parser = clap::value_parser!(u32).range(1..))]
+    pub min_leaf: u32,
+
+    /// Most value bins per numeric input (more bins: finer thresholds, slower training).
+    #[arg(long, default_value_t = 255, value_name = "N", value_parser = clap::value_parser!(u32).range(2..=65535))]
+    pub bins: u32,
+
+    /// Seed of every random draw: the same seed, data and settings give the same model.
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    pub seed: u64,
+
+    /// Also write each training row's out-of-bag prediction to this CSV file.
+    #[arg(long, value_name = "FILE")]
+    pub oob_out: Option<PathBuf>,
+
+    /// Also write SVG charts (importance, out-of-bag error by number of trees) here.
+    #[arg(long, value_name = "DIR")]
+    pub plots: Option<PathBuf>,
+
+    /// Print the report as one JSON object instead of text.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// `copse score`.
+#[derive(Debug, Args)]
+pub struct ScoreArgs {
+    /// The model file.
+    #[arg(long, value_name = "MODEL")]
+    pub model: PathBuf,
+
+    /// Rows to score: a CSV file with a header row, or - for standard input.
+    #[arg(long, value_name = "FILE")]
+    pub data: String,
+
+    /// Where to write the scored CSV [default: standard output].
+    #[arg(long, value_name = "FILE")]
+    pub out: Option<String>,
+
+    /// Input columns to copy into the output, before the predictions (for example an id).
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub keep: Vec<String>,
+
+    #[command(flatten)]
+    pub csv: CsvArgs,
+
+    /// Rows read and scored together (memory use grows with it).
+    #[arg(long, default_value_t = 4096, value_name = "N", hide = true, value_parser = clap::value_parser!(u32).range(1..))]
+    pub block_rows: u32,
+}
+
+/// `copse evaluate`.
+#[derive(Debug, Args)]
+pub struct EvaluateArgs {
+    /// The model file.
+    #[arg(long, value_name = "MODEL")]
+    pub model: PathBuf,
+
+    /// Labelled rows (with the target column): a CSV file, or - for standard input.
+    #[arg(long, value_name = "FILE")]
+    pub data: String,
+
+    #[command(flatten)]
+    pub csv: CsvArgs,
+
+    /// Print one JSON object instead of text.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// `copse importance`.
+#[derive(Debug, Args)]
+pub struct ImportanceArgs {
+    /// The model file.
+    #[arg(long, value_name = "MODEL")]
+    pub model: PathBuf,
+
+    /// Labelled rows the model has not seen: a CSV file, or - for standard input.
+    #[arg(long, value_name = "FILE")]
+    pub data: String,
+
+    /// Times each input is shuffled (the standard error needs at least 2).
+    #[arg(long, default_value_t = 10, value_name = "R", value_parser = clap::value_parser!(u32).range(1..=10_000))]
+    pub repeats: u32,
+
+    /// Seed of the shuffles.
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    pub seed: u64,
+
+    #[command(flatten)]
+    pub csv: CsvArgs,
+
+    /// Print one JSON object instead of text.
+    #[arg(long)]
+    pub json: bool,
+
+    /// Also draw the ranking as an SVG chart in this file.
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+}
+
+/// `copse inspect`.
+#[derive(Debug, Args)]
+pub struct InspectArgs {
+    /// The model file.
+    #[arg(long, value_name = "MODEL")]
+    pub model: PathBuf,
+
+    /// Also print the rules of tree K (counting from 0).
+    #[arg(long, value_name = "K")]
+    pub tree: Option<usize>,
+
+    /// Print one JSON object instead of text.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// `copse demo`.
+#[derive(Debug, Args)]
+pub struct DemoArgs {
+    /// Folder for every output (created if needed).
+    #[arg(long, value_name = "DIR", default_value = "copse-demo-output")]
+    pub out: PathBuf,
+}
+
+/// `copse make-demo-data`.
+#[derive(Debug, Args)]
+pub struct MakeDemoDataArgs {
+    /// Folder to write water_mains.csv and water_mains_to_score.csv into.
+    #[arg(long, value_name = "DIR", default_value = "demo-data")]
+    pub out: PathBuf,
+
+    /// Segments in the training register.
+    #[arg(long, default_value_t = 2000, value_name = "N", value_parser = clap::value_parser!(u64).range(10..=100_000_000))]
+    pub rows: u64,
+
+    /// Segments in the file to score.
+    #[arg(long, default_value_t = 500, value_name = "N", value_parser = clap::value_parser!(u64).range(1..=100_000_000))]
+    pub score_rows: u64,
+
+    /// Seed of the generator.
+    #[arg(long, default_value_t = crate::demo_data::DEFAULT_SEED, value_name = "N")]
+    pub seed: u64,
+}
+
+fn parse_features_per_split(s: &str) -> Result<FeaturesPerSplit, String> {
+    s.parse::<FeaturesPerSplit>()
+        .map_err(|e| e.message().to_string())
+}
+
+fn parse_sampling(s: &str) -> Result<Sampling, String> {
+    s.parse::<Sampling>().map_err(|e| e.message().to_string())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::CommandFactory;
+
+    #[test]
+    fn the_argument_definitions_are_consistent() {
+        Cli::command().debug_assert();
+    }
+
+    #[test]
+    fn bad_values_are_refused_at_parse_time() {
+        let base = [
+            "copse", "train", "--data", "d.csv", "--target", "y", "--out", "m",
+        ];
+        for extra in [
+            ["--trees", "0"],
+            ["--min-leaf", "0"],
+            ["--features-per-split", "0"],
+            ["--features-per-split", "1.5"],
+            ["--sampling", "subsample:2"],
+        ] {
+            let args: Vec<&str> = base.iter().copied().chain(extra).collect();
+            assert!(Cli::try_parse_from(&args).is_err(), "{extra:?}");
+        }
+        let ok: Vec<&str> = base
+            .iter()
+            .copied()
+            .chain(["--features-per-split", "0.5", "--ignore", "a,b"])
+            .collect();
+        let cli = Cli::try_parse_from(&ok).unwrap();
+        match cli.command {
+            Command::Train(t) => {
+                assert_eq!(t.features_per_split, Some(FeaturesPerSplit::Fraction(0.5)));
+                assert_eq!(t.ignore, vec!["a".to_string(), "b".to_string()]);
+            }
+            _ => panic!("parsed as another command"),
+        }
+    }
+}

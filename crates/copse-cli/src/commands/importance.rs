@@ -1,0 +1,85 @@
+//! `copse importance`: permutation importance on labelled rows the model has not seen,
+//! with standard errors over repeated shuffles.
+use crate::args::ImportanceArgs;
+use crate::commands::emit;
+use crate::encode::read_labelled;
+use crate::error::{forest_error, CliError, CliResult};
+use crate::model::Model;
+use crate::output::write_file;
+use crate::reader::CsvInput;
+use crate::report::{self, Style};
+use crate::schema::{Missing, Task};
+use crate::ui::Ui;
+use crate::{json, plots};
+use serde_json::json;
+use std::fmt::Write;
+
+/// Runs `copse importance`.
+///
+/// # Errors
+/// Input errors for a bad model or data; failures when writing.
+pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
+    if let Some(plot) = &a.plot {
+        crate::commands::check_destination(plot)?;
+    }
+    let model = Model::load(&a.model)?;
+    let input = CsvInput::open(&a.data, a.csv.delimiter.into())?;
+    let source = input.name().to_string();
+    let missing = a
+        .csv
+        .missing
+        .as_deref()
+        .map_or_else(|| model.schema.missing.clone(), Missing::from_list);
+    let data = read_labelled(input, &model.schema, missing)?;
+    if let Some(w) = data.encoder.unseen_warning() {
+        ui.warn(&w);
+    }
+    let imp = model
+        .forest
+        .permutation_importance(data.x.view(), &data.outcome, a.repeats as usize, a.seed)
+        .map_err(|e| forest_error(&e, &format!("cannot compute importance on {source}")))?;
+
+    if let Some(path) = &a.plot {
+        let measure = match model.schema.target.task {
+            Task::Classify => "misclassification rate",
+            Task::Regress => "mean squared error",
+        };
+        let svg = plots::importance_svg(
+            &imp.error,
+            &format!("Which inputs matter: rise in {measure} when shuffled"),
+            &format!(
+                "held-out rows from {source}, {} shuffles per input, model {}",
+                a.repeats,
+                a.model.display()
+            ),
+        )
+        .map_err(|e| CliError::failure(format!("could not draw the chart: {e}")))?;
+        write_file(path, svg.as_bytes())?;
+        ui.wrote(&format!("importance chart: {}", path.display()));
+    }
+
+    if a.json {
+        let mut map = json::model_object("importance", &model);
+        let oob_imp = map.remove("importance").unwrap_or(serde_json::Value::Null);
+        map.insert("oob_importance".into(), oob_imp);
+        map.remove("importance_brier");
+        map.remove("importance_about");
+        json::put_permutation(&mut map, Some(&imp));
+        map.insert("source".into(), json!(source));
+        map.insert("rows_read".into(), json!(data.rows));
+        map.insert("repeats".into(), json!(a.repeats));
+        return json::print(map);
+    }
+
+    let st = Style::new(ui.stdout_colour());
+    let mut text = String::new();
+    let _ = writeln!(text, "copse importance report\n");
+    let _ = writeln!(text, "  {:<24}{}", "model", a.model.display());
+    let _ = writeln!(text, "  {:<24}{} ({} rows)\n", "data", source, data.rows);
+    let _ = writeln!(text, "{}", st.head("WHICH INPUTS MATTER ON THESE ROWS"));
+    let _ = writeln!(text, "{}\n", report::importance_intro(&imp.error, true));
+    report::importance_table(&mut text, &imp);
+    let _ = writeln!(text);
+    report::caution(&mut text, st);
+    emit(&text)
+}

@@ -1,0 +1,98 @@
+//! One module per subcommand; each takes its parsed arguments and the terminal
+//! settings, does its work on the current rayon pool, and returns an error to `main`.
+pub mod demo;
+pub mod evaluate;
+pub mod importance;
+pub mod inspect;
+pub mod make_demo_data;
+pub mod score;
+pub mod train;
+
+use crate::args::{Cli, Command};
+use crate::error::{CliError, CliResult};
+use crate::ui::Ui;
+use std::io::Write;
+
+/// Runs the chosen subcommand inside a thread pool of the requested size.
+///
+/// # Errors
+/// Whatever the subcommand reports.
+pub fn run(cli: Cli) -> CliResult<()> {
+    let ui = Ui::detect(cli.quiet);
+    let mut builder = rayon::ThreadPoolBuilder::new();
+    if let Some(n) = cli.threads {
+        builder = builder.num_threads(usize::from(n));
+    }
+    let pool = builder
+        .build()
+        .map_err(|e| CliError::failure(format!("could not start worker threads: {e}")))?;
+    pool.install(|| match cli.command {
+        Command::Train(a) => train::run(&a, &ui),
+        Command::Score(a) => score::run(&a, &ui),
+        Command::Evaluate(a) => evaluate::run(&a, &ui),
+        Command::Importance(a) => importance::run(&a, &ui),
+        Command::Inspect(a) => inspect::run(&a, &ui),
+        Command::Demo(a) => demo::run(&a, &ui),
+        Command::MakeDemoData(a) => make_demo_data::run(&a, &ui),
+    })
+}
+
+/// Writes report text to standard output; a closed pipe ends quietly.
+///
+/// # Errors
+/// A write failure.
+pub fn emit(text: &str) -> CliResult<()> {
+    let mut out = std::io::stdout().lock();
+    out.write_all(text.as_bytes())
+        .and_then(|()| out.flush())
+        .map_err(|e| CliError::write("standard output", &e))
+}
+
+/// Creates a folder for outputs (and its parents).
+///
+/// # Errors
+/// A failure naming the folder when it cannot be created.
+pub fn make_folder(dir: &std::path::Path) -> CliResult<()> {
+    if dir.is_dir() {
+        return Ok(());
+    }
+    if dir.exists() {
+        return Err(CliError::input(format!(
+            "{} exists and is not a folder; choose another folder for the outputs",
+            dir.display()
+        )));
+    }
+    std::fs::create_dir_all(dir).map_err(|e| {
+        CliError::failure(format!(
+            "could not create the folder {}: {}",
+            dir.display(),
+            crate::reader::io_reason(&e)
+        ))
+    })
+}
+
+/// Checks, before long work starts, that a file can later be written at `path`: its
+/// folder exists and it is not a folder itself.
+///
+/// # Errors
+/// An input error saying what is wrong.
+pub fn check_destination(path: &std::path::Path) -> CliResult<()> {
+    let dir = match path.parent() {
+        Some(d) if !d.as_os_str().is_empty() => d,
+        _ => std::path::Path::new("."),
+    };
+    if !dir.is_dir() {
+        return Err(CliError::input(format!(
+            "cannot write {}: the folder {} does not exist; create it first or choose another path",
+            path.display(),
+            dir.display()
+        )));
+    }
+    if path.is_dir() {
+        return Err(CliError::input(format!(
+            "cannot write {}: it is a folder; give a file name",
+            path.display()
+        )));
+    }
+    Ok(())
+}

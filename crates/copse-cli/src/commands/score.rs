@@ -1,0 +1,151 @@
+//! `copse score`: stream rows through a model in blocks and write one output row per
+//! input row, in input order: the kept columns, `prediction`, and for classes one
+//! `prob_<class>` column per class. Memory stays bounded by the block size whatever
+//! the length of the input.
+use crate::args::ScoreArgs;
+use crate::commands::train::compact;
+use crate::encode::RowEncoder;
+use crate::error::{forest_error, CliError, CliResult};
+use crate::model::Model;
+use crate::output::{refuse_overwrite, Output};
+use crate::reader::CsvInput;
+use crate::schema::Missing;
+use crate::ui::Ui;
+use ndarray::ArrayView2;
+
+/// What a scoring run did.
+pub struct ScoreRun {
+    /// Rows scored (equal to rows read).
+    pub rows: u64,
+    /// Where the output went.
+    pub output: String,
+}
+
+/// Runs `copse score`.
+///
+/// # Errors
+/// Input errors for a bad model, a missing column or a bad cell; failures when writing.
+pub fn run(a: &ScoreArgs, ui: &Ui) -> CliResult<()> {
+    let r = score(a, ui)?;
+    if r.output != "standard output" {
+        ui.wrote(&format!("{} scored rows: {}", r.rows, r.output));
+    }
+    Ok(())
+}
+
+/// Scores and writes; the caller reports.
+///
+/// # Errors
+/// As for [`run`].
+pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
+    refuse_overwrite(&a.data, a.out.as_deref(), "output file")?;
+    if let Some(out) = &a.out {
+        if out != "-" && std::path::Path::new(out) == a.model.as_path() {
+            return Err(CliError::input(
+                "--out names the model file itself; choose another output path",
+            ));
+        }
+    }
+    let model = Model::load(&a.model)?;
+    let forest = &model.forest;
+    let mut input = CsvInput::open(&a.data, a.csv.delimiter.into())?;
+    let missing = a
+        .csv
+        .missing
+        .as_deref()
+        .map_or_else(|| model.schema.missing.clone(), Missing::from_list);
+    let mut enc = RowEncoder::new(&input, &model.schema, missing, false)?;
+
+    let keep: Vec<usize> = a
+        .keep
+        .iter()
+        .map(|k| {
+            input.column(k).ok_or_else(|| {
+                CliError::input(format!(
+                    "--keep names the column '{k}', but {} has no such column; its columns are: {}",
+                    input.name(),
+                    input.headers().join(", ")
+                ))
+            })
+        })
+        .collect::<CliResult<_>>()?;
+    let classes = forest.classes().to_vec();
+    let mut header: Vec<String> = a.keep.clone();
+    header.push("prediction".to_string());
+    header.extend(classes.iter().map(|c| format!("prob_{c}")));
+    for (i, h) in header.iter().enumerate() {
+        if header[..i].contains(h) {
+            return Err(CliError::input(format!(
+                "the output would have two columns named '{h}'; drop '{h}' from --keep"
+            )));
+        }
+    }
+
+    let out = Output::create(a.out.as_deref())?;
+    let out_name = out.name().to_string();
+    let mut w = csv::WriterBuilder::new()
+        .delimiter(crate::reader::Delimiter::from(a.csv.delimiter).byte())
+        .from_writer(out);
+    let werr = |e: csv::Error| match e.into_kind() {
+        csv::ErrorKind::Io(io) => CliError::write(&out_name, &io),
+        other => CliError::failure(format!("could not write {out_name}: {other:?}")),
+    };
+    w.write_record(&header).map_err(werr)?;
+
+    let block = a.block_rows as usize;
+    let p = forest.n_features();
+    let mut records: Vec<csv::StringRecord> =
+        (0..block).map(|_| csv::StringRecord::new()).collect();
+    let mut xbuf = vec![0.0f64; block * p];
+    let mut fields = csv::StringRecord::new();
+    let mut rows: u64 = 0;
+    let bar = ui.bytes_bar(input.size(), "scoring");
+    loop {
+        let mut m = 0;
+        while m < block && input.read(&mut records[m])? {
+            enc.encode(&records[m], &mut xbuf[m * p..(m + 1) * p])?;
+            m += 1;
+        }
+        if m == 0 {
+            break;
+        }
+        let x = ArrayView2::from_shape((m, p), &xbuf[..m * p])
+            .map_err(|e| CliError::failure(format!("internal: {e}")))?;
+        let preds = forest
+            .predict(x)
+            .map_err(|e| forest_error(&e, &format!("cannot score {}", input.name())))?;
+        for (i, pred) in preds.rows().into_iter().enumerate() {
+            fields.clear();
+            for &c in &keep {
+                fields.push_field(records[i].get(c).unwrap_or(""));
+            }
+            if classes.is_empty() {
+                fields.push_field(&compact(pred[0]));
+            } else {
+                let probs = pred.to_vec();
+                fields.push_field(forest.class_label(&probs).unwrap_or(""));
+                for &v in &probs {
+                    fields.push_field(&compact(v));
+                }
+            }
+            w.write_record(&fields).map_err(werr)?;
+        }
+        rows += m as u64;
+        bar.advance_to(input.bytes_read() as usize);
+        if m < block {
+            break;
+        }
+    }
+    bar.finish();
+    let out = w
+        .into_inner()
+        .map_err(|e| CliError::write(&out_name, e.error()))?;
+    out.finish()?;
+    if let Some(warning) = enc.unseen_warning() {
+        ui.warn(&warning);
+    }
+    Ok(ScoreRun {
+        rows,
+        output: out_name,
+    })
+}

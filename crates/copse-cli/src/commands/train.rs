@@ -1,0 +1,390 @@
+//! `copse train`: read a CSV file, grow the forest, write the model (and optionally the
+//! out-of-bag predictions and charts), and report.
+use crate::args::{ImpurityArg, TaskArg, TrainArgs};
+use crate::commands::{check_destination, emit, make_folder};
+use crate::error::{forest_error, CliError, CliResult};
+use crate::model::{Model, TrainingRecord};
+use crate::output::{refuse_overwrite, write_file, Output};
+use crate::reader::CsvInput;
+use crate::report::{self, bytes_words, Style};
+use crate::schema::{load_training, Missing, Roles, Task, TrainingData};
+use crate::ui::{Bar, Ui};
+use crate::{json, plots};
+use copse_forest::{
+    FeaturesPerSplit, Forest, ForestSettings, Impurity, Outcome, Progress, Stage, Trained,
+    TreeSettings,
+};
+use serde_json::{json, Map, Value};
+use std::fmt::Write as _;
+use std::io::Write as _;
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU8, Ordering};
+use std::time::Instant;
+
+/// What a training run produced.
+pub struct TrainRun {
+    /// The printed report.
+    pub text: String,
+    /// The JSON report.
+    pub json: Map<String, Value>,
+    /// Files written: (what, path).
+    pub outputs: Vec<(String, PathBuf)>,
+}
+
+/// Runs `copse train` and prints its report.
+///
+/// # Errors
+/// Input errors for bad data or settings, failures when writing.
+pub fn run(a: &TrainArgs, ui: &Ui) -> CliResult<()> {
+    let r = train(a, ui)?;
+    for (what, path) in &r.outputs {
+        ui.wrote(&format!("{what}: {}", path.display()));
+    }
+    if a.json {
+        json::print(r.json)
+    } else {
+        emit(&r.text)
+    }
+}
+
+fn rule_words(f: FeaturesPerSplit) -> String {
+    match f {
+        FeaturesPerSplit::Auto => "auto".into(),
+        FeaturesPerSplit::Sqrt => "sqrt".into(),
+        FeaturesPerSplit::Log2 => "log2".into(),
+        FeaturesPerSplit::All => "all".into(),
+        FeaturesPerSplit::Count(k) => k.to_string(),
+        FeaturesPerSplit::Fraction(x) => x.to_string(),
+    }
+}
+
+/// Trains and writes every output; the caller prints.
+///
+/// # Errors
+/// As for [`run`].
+pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
+    let started = Instant::now();
+    let out_s = a.out.to_string_lossy().to_string();
+    refuse_overwrite(&a.data, Some(&out_s), "model file")?;
+    check_destination(&a.out)?;
+    if let Some(o) = &a.oob_out {
+        let s = o.to_string_lossy().to_string();
+        refuse_overwrite(&a.data, Some(&s), "out-of-bag file")?;
+        if o == &a.out {
+            return Err(CliError::input(
+                "--oob-out and --out name the same file; give them different names",
+            ));
+        }
+        check_destination(o)?;
+    }
+    if let Some(dir) = &a.plots {
+        make_folder(dir)?;
+    }
+
+    let input = CsvInput::open(&a.data, a.csv.delimiter.into())?;
+    let roles = Roles {
+        target: a.target.clone(),
+        ignore: a.ignore.clone(),
+        categorical: a.categorical.clone(),
+        numeric: a.numeric.clone(),
+        task: a.task.map(|t| match t {
+            TaskArg::Classify => Task::Classify,
+            TaskArg::Regress => Task::Regress,
+        }),
+    };
+    let missing = a
+        .csv
+        .missing
+        .as_deref()
+        .map_or_else(Missing::standard, Missing::from_list);
+    let data = load_training(input, &roles, missing)?;
+    for n in &data.notes {
+        ui.note(n);
+    }
+    if a.balanced && data.schema.target.task == Task::Regress {
+        return Err(CliError::input(
+            "--balanced draws the same number of rows from each class, so it needs a class target; \
+             drop --balanced or use --task classify",
+        ));
+    }
+
+    let fps = if a.bagging {
+        FeaturesPerSplit::All
+    } else {
+        a.features_per_split.unwrap_or_default()
+    };
+    let settings = ForestSettings {
+        trees: a.trees as usize,
+        features_per_split: fps,
+        sampling: a.sampling,
+        balanced: a.balanced,
+        tree: TreeSettings {
+            impurity: match a.impurity {
+                ImpurityArg::Gini => Impurity::Gini,
+                ImpurityArg::Entropy => Impurity::Entropy,
+            },
+            max_depth: a.max_depth.map(|d| d as usize),
+            min_leaf: f64::from(a.min_leaf),
+            ..TreeSettings::default()
+        },
+        bin_limit: a.bins as usize + 1,
+        seed: a.seed,
+        oob_importance: true,
+    };
+    if let FeaturesPerSplit::Count(k) = fps {
+        let p = data.schema.features.len();
+        if k > p {
+            return Err(CliError::input(format!(
+                "--features-per-split {k} is more than the {p} inputs in {}; choose 1 to {p}",
+                data.source
+            )));
+        }
+    }
+
+    let trained = grow(&data, &settings, ui)?;
+    let train_secs = started.elapsed().as_secs_f64();
+    let model = build_model(&data, trained.forest, &rule_words(fps));
+
+    let mut outputs = Vec::new();
+    model.save(&a.out)?;
+    let model_bytes = std::fs::metadata(&a.out).map(|m| m.len()).unwrap_or(0);
+    outputs.push(("model".to_string(), a.out.clone()));
+    if let Some(path) = &a.oob_out {
+        write_oob(path, &data, &model, &trained.oob)?;
+        outputs.push(("out-of-bag predictions".to_string(), path.clone()));
+    }
+    if let Some(dir) = &a.plots {
+        for (what, path) in write_plots(dir, &model)? {
+            outputs.push((what, path));
+        }
+    }
+    let total_secs = started.elapsed().as_secs_f64();
+    let threads = rayon::current_num_threads();
+
+    let st = Style::new(ui.stdout_colour());
+    let mut text = String::new();
+    let _ = writeln!(text, "copse training report\n");
+    report::data_section(&mut text, st, &model);
+    report::settings_section(&mut text, st, &model, Some(threads));
+    report::oob_section(&mut text, st, &model);
+    if let Some(advice) = report::rare_class_advice(&model) {
+        let _ = writeln!(text, "{advice}\n");
+    }
+    report::importance_section(&mut text, st, &model);
+    let _ = writeln!(text, "{}", st.head("OUTPUTS"));
+    for (what, path) in &outputs {
+        let size = if what == "model" {
+            format!(
+                " ({}, {} nodes)",
+                bytes_words(model_bytes),
+                model.forest.n_nodes()
+            )
+        } else {
+            String::new()
+        };
+        let _ = writeln!(text, "  {what:<24}{}{size}", path.display());
+    }
+    let _ = writeln!(
+        text,
+        "  {:<24}{:.2} s (training, out-of-bag check and importance {:.2} s)\n",
+        "time taken", total_secs, train_secs
+    );
+    report::caution(&mut text, st);
+
+    let mut map = json::model_object("train", &model);
+    map.insert(
+        "oob_error_curve".into(),
+        json!(model.forest.oob().error_curve),
+    );
+    map.insert(
+        "model_file".into(),
+        json!({ "path": a.out.display().to_string(), "bytes": model_bytes, "nodes": model.forest.n_nodes() }),
+    );
+    map.insert(
+        "outputs".into(),
+        Value::Array(
+            outputs
+                .iter()
+                .map(|(w, p)| json!({ "what": w, "path": p.display().to_string() }))
+                .collect(),
+        ),
+    );
+    map.insert("threads".into(), json!(threads));
+    map.insert("seconds".into(), json!(total_secs));
+    map.insert("notes".into(), json!(data.notes));
+    Ok(TrainRun {
+        text,
+        json: map,
+        outputs,
+    })
+}
+
+/// Grows the forest with a progress bar that follows the three stages.
+fn grow(data: &TrainingData, settings: &ForestSettings, ui: &Ui) -> CliResult<Trained> {
+    let bar: Bar = ui.bar(settings.trees as u64, "growing trees");
+    let stage = AtomicU8::new(0);
+    let progress = |p: Progress| {
+        let (code, label) = match p.stage {
+            Stage::Growing => (0, "growing trees"),
+            Stage::OutOfBag => (1, "out-of-bag check"),
+            Stage::Importance => (2, "importance"),
+        };
+        if stage.swap(code, Ordering::Relaxed) != code {
+            bar.restart(p.total, label);
+        }
+        bar.advance_to(p.done);
+    };
+    let result = Forest::train_with_progress(
+        data.x.view(),
+        &data.schema.features,
+        &data.outcome,
+        settings,
+        &progress,
+    );
+    bar.finish();
+    result.map_err(|e| forest_error(&e, &format!("cannot train on {}", data.source)))
+}
+
+fn build_model(data: &TrainingData, forest: Forest, rule: &str) -> Model {
+    let (class_counts, value_range) = match &data.outcome {
+        Outcome::Classes { codes, labels } => {
+            let mut counts = vec![0u64; labels.len()];
+            for &c in codes {
+                if let Some(n) = counts.get_mut(c as usize) {
+                    *n += 1;
+                }
+            }
+            (counts, None)
+        }
+        Outcome::Values(v) => {
+            let known: Vec<f64> = v.iter().copied().filter(|x| !x.is_nan()).collect();
+            let lo = known.iter().copied().fold(f64::INFINITY, f64::min);
+            let hi = known.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+            let mean = known.iter().sum::<f64>() / known.len().max(1) as f64;
+            (Vec::new(), Some([lo, mean, hi]))
+        }
+    };
+    Model {
+        schema: data.schema.clone(),
+        forest,
+        training: TrainingRecord {
+            copse_version: env!("CARGO_PKG_VERSION").to_string(),
+            source: data.source.clone(),
+            rows_read: data.rows_read,
+            rows_without_outcome: data.rows_without_outcome,
+            ignored: data.ignored.clone(),
+            class_counts,
+            features_rule: rule.to_string(),
+            value_range,
+        },
+    }
+}
+
+/// Formats a probability or value compactly: at most six decimals, no trailing zeros.
+pub fn compact(v: f64) -> String {
+    if v.is_nan() {
+        return String::new();
+    }
+    let s = format!("{v:.6}");
+    let s = s.trim_end_matches('0').trim_end_matches('.');
+    if s == "-0" {
+        "0".to_string()
+    } else {
+        s.to_string()
+    }
+}
+
+/// Writes one line per training row: its file line, actual target, out-of-bag
+/// prediction (and class probabilities), and the number of trees that left it out.
+fn write_oob(
+    path: &Path,
+    data: &TrainingData,
+    model: &Model,
+    oob: &copse_forest::OobReport,
+) -> CliResult<()> {
+    let p = path.to_string_lossy().to_string();
+    let out = Output::create(Some(&p))?;
+    let name = out.name().to_string();
+    let mut w = csv::Writer::from_writer(out);
+    let werr = |e: csv::Error| match e.into_kind() {
+        csv::ErrorKind::Io(io) => CliError::write(&name, &io),
+        other => CliError::failure(format!("could not write {name}: {other:?}")),
+    };
+    let classes = model.forest.classes();
+    let mut header = vec![
+        "line".to_string(),
+        "actual".to_string(),
+        "prediction".to_string(),
+    ];
+    header.extend(classes.iter().map(|c| format!("prob_{c}")));
+    header.push("oob_trees".to_string());
+    w.write_record(&header).map_err(werr)?;
+    let mut rec: Vec<String> = Vec::with_capacity(header.len());
+    for i in 0..data.lines.len() {
+        rec.clear();
+        rec.push(data.lines[i].to_string());
+        let pred = oob.predictions.row(i);
+        let judged = oob.trees_out[i] > 0;
+        match &data.outcome {
+            Outcome::Classes { codes, labels } => {
+                rec.push(labels.get(codes[i] as usize).cloned().unwrap_or_default());
+                let probs: Vec<f64> = pred.to_vec();
+                rec.push(if judged {
+                    model.forest.class_label(&probs).unwrap_or("").to_string()
+                } else {
+                    String::new()
+                });
+                rec.extend(probs.iter().map(|&v| compact(v)));
+            }
+            Outcome::Values(v) => {
+                rec.push(compact(v[i]));
+                rec.push(compact(pred[0]));
+            }
+        }
+        rec.push(oob.trees_out[i].to_string());
+        w.write_record(&rec).map_err(werr)?;
+    }
+    let out = w
+        .into_inner()
+        .map_err(|e| CliError::write(&name, e.error()))?;
+    out.finish()
+}
+
+/// Writes the importance chart and the out-of-bag error curve into `dir`.
+///
+/// # Errors
+/// A failure when drawing or writing fails.
+pub fn write_plots(dir: &Path, model: &Model) -> CliResult<Vec<(String, PathBuf)>> {
+    let mut written = Vec::new();
+    let f = &model.forest;
+    let measure = match model.schema.target.task {
+        Task::Classify => "misclassification rate",
+        Task::Regress => "mean squared error",
+    };
+    let sub = format!(
+        "{} trees, target '{}', data {}",
+        f.trees().len(),
+        model.schema.target.name,
+        model.training.source
+    );
+    let draw_err = |e: String| CliError::failure(format!("could not draw a chart: {e}"));
+    if let Some(imp) = f.oob_importance() {
+        let svg = plots::importance_svg(
+            &imp.error,
+            &format!("Which inputs matter: rise in out-of-bag {measure} when shuffled"),
+            &sub,
+        )
+        .map_err(draw_err)?;
+        let path = dir.join("importance.svg");
+        write_file(&path, svg.as_bytes())?;
+        written.push(("importance chart".to_string(), path));
+    }
+    if f.oob().error_curve.iter().any(Option::is_some) {
+        let svg = plots::oob_curve_svg(&f.oob().error_curve, measure, &sub).map_err(draw_err)?;
+        let path = dir.join("oob_error.svg");
+        write_file(&path, svg.as_bytes())?;
+        written.push(("out-of-bag error chart".to_string(), path));
+    }
+    let _ = std::io::stderr().flush();
+    Ok(written)
+}

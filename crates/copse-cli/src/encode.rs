@@ -1,0 +1,298 @@
+//! Reading new rows the way the training rows were read: columns matched to the
+//! model's inputs by name (any order, extra columns ignored), numbers parsed, category
+//! labels turned into the model's codes. A category the model never saw is treated as
+//! missing and counted, so the caller can warn about it.
+use crate::error::{CliError, CliResult};
+use crate::reader::CsvInput;
+use crate::schema::{clip, parse_number, Missing, Schema, Task};
+use copse_forest::{Outcome, MISSING};
+use copse_tree::FeatureKind;
+use ndarray::Array2;
+use std::collections::HashMap;
+
+/// Turns CSV records into rows of model inputs.
+pub struct RowEncoder {
+    source: String,
+    names: Vec<String>,
+    cols: Vec<usize>,
+    lookups: Vec<Option<HashMap<String, u32>>>,
+    target: Option<(usize, String)>,
+    class_lookup: HashMap<String, u32>,
+    classes: Vec<String>,
+    missing: Missing,
+    unseen: Vec<u64>,
+    unseen_examples: Vec<Vec<String>>,
+}
+
+impl RowEncoder {
+    /// Matches `input`'s columns to the model's inputs (and its target when
+    /// `need_target`).
+    ///
+    /// # Errors
+    /// An input error naming every column the model needs that the file lacks.
+    pub fn new(
+        input: &CsvInput,
+        schema: &Schema,
+        missing: Missing,
+        need_target: bool,
+    ) -> CliResult<Self> {
+        let mut absent: Vec<&str> = schema
+            .features
+            .iter()
+            .map(|f| f.name.as_str())
+            .filter(|n| input.column(n).is_none())
+            .collect();
+        let target_col = input.column(&schema.target.name);
+        if need_target && target_col.is_none() {
+            absent.push(&schema.target.name);
+        }
+        if !absent.is_empty() {
+            let list = absent
+                .iter()
+                .map(|a| format!("'{a}'"))
+                .collect::<Vec<_>>()
+                .join(", ");
+            let (noun, verb) = if absent.len() == 1 {
+                ("column", "it")
+            } else {
+                ("columns", "them")
+            };
+            let mut msg = format!(
+                "{} has no {noun} {list}, which the model needs; add {verb} (matched by name in the header, \
+                 any order) or use a model trained without {verb}",
+                input.name()
+            );
+            if let Some(hint) = input.delimiter_hint() {
+                msg.push_str("; ");
+                msg.push_str(&hint);
+            }
+            return Err(CliError::input(msg));
+        }
+        let cols = schema
+            .features
+            .iter()
+            .map(|f| input.column(&f.name).unwrap_or(0))
+            .collect();
+        let lookups = schema
+            .features
+            .iter()
+            .map(|f| match &f.kind {
+                FeatureKind::Categorical { levels } => Some(
+                    levels
+                        .iter()
+                        .enumerate()
+                        .map(|(i, l)| (l.clone(), i as u32))
+                        .collect(),
+                ),
+                FeatureKind::Numeric => None,
+            })
+            .collect();
+        let classes = schema.target.classes.clone();
+        let class_lookup = classes
+            .iter()
+            .enumerate()
+            .map(|(i, l)| (l.clone(), i as u32))
+            .collect();
+        let p = schema.features.len();
+        Ok(RowEncoder {
+            source: input.name().to_string(),
+            names: schema.features.iter().map(|f| f.name.clone()).collect(),
+            cols,
+            lookups,
+            target: if need_target {
+                target_col.map(|c| (c, schema.target.name.clone()))
+            } else {
+                None
+            },
+            class_lookup,
+            classes,
+            missing,
+            unseen: vec![0; p],
+            unseen_examples: vec![Vec::new(); p],
+        })
+    }
+
+    /// Encodes `record`'s inputs into `out` (one value per model input).
+    ///
+    /// # Errors
+    /// An input error naming the line and column when a numeric input holds text.
+    pub fn encode(&mut self, record: &csv::StringRecord, out: &mut [f64]) -> CliResult<()> {
+        for (k, o) in out.iter_mut().enumerate() {
+            let cell = record.get(self.cols[k]).unwrap_or("").trim();
+            if self.missing.is_missing(cell) {
+                *o = f64::NAN;
+                continue;
+            }
+            *o = match &self.lookups[k] {
+                Some(codes) => match codes.get(cell) {
+                    Some(&c) => f64::from(c),
+                    None => {
+                        self.unseen[k] += 1;
+                        let ex = &mut self.unseen_examples[k];
+                        if ex.len() < 3 && !ex.iter().any(|e| e == cell) {
+                            ex.push(clip(cell));
+                        }
+                        f64::NAN
+                    }
+                },
+                None => match parse_number(cell) {
+                    Some(v) => v,
+                    None => {
+                        let line = record.position().map_or(0, |p| p.line());
+                        return Err(CliError::input(format!(
+                            "{} line {line}, column '{}': '{}' is not a finite number, but the model was \
+                             trained with '{}' as a numeric input; fix the value, or list it as missing with --missing",
+                            self.source,
+                            self.names[k],
+                            clip(cell),
+                            self.names[k]
+                        )));
+                    }
+                },
+            };
+        }
+        Ok(())
+    }
+
+    /// The outcome of `record` as a class code (or [`MISSING`]).
+    ///
+    /// # Errors
+    /// An input error naming the line when the label is not one of the model's classes.
+    pub fn class(&self, record: &csv::StringRecord) -> CliResult<u32> {
+        let Some((col, name)) = &self.target else {
+            return Ok(MISSING);
+        };
+        let cell = record.get(*col).unwrap_or("").trim();
+        if self.missing.is_missing(cell) {
+            return Ok(MISSING);
+        }
+        self.class_lookup.get(cell).copied().ok_or_else(|| {
+            let line = record.position().map_or(0, |p| p.line());
+            CliError::input(format!(
+                "{} line {line}, column '{name}': class '{}' is not one the model knows ({}); \
+                 a model cannot be judged on a class it never saw: remove those rows or retrain with them",
+                self.source,
+                clip(cell),
+                self.classes.join(", ")
+            ))
+        })
+    }
+
+    /// The outcome of `record` as a number (NaN when missing).
+    ///
+    /// # Errors
+    /// An input error naming the line when the cell is not a number.
+    pub fn value(&self, record: &csv::StringRecord) -> CliResult<f64> {
+        let Some((col, name)) = &self.target else {
+            return Ok(f64::NAN);
+        };
+        let cell = record.get(*col).unwrap_or("").trim();
+        if self.missing.is_missing(cell) {
+            return Ok(f64::NAN);
+        }
+        parse_number(cell).ok_or_else(|| {
+            let line = record.position().map_or(0, |p| p.line());
+            CliError::input(format!(
+                "{} line {line}, column '{name}': '{}' is not a finite number, and the model predicts numbers; \
+                 fix the value or leave it empty",
+                self.source,
+                clip(cell)
+            ))
+        })
+    }
+
+    /// Cells whose category the model never saw, per input, for a warning; `None` when
+    /// there were none.
+    pub fn unseen_warning(&self) -> Option<String> {
+        let total: u64 = self.unseen.iter().sum();
+        if total == 0 {
+            return None;
+        }
+        let parts: Vec<String> = self
+            .unseen
+            .iter()
+            .enumerate()
+            .filter(|(_, &n)| n > 0)
+            .map(|(k, &n)| {
+                let ex: Vec<String> = self.unseen_examples[k]
+                    .iter()
+                    .map(|e| format!("'{e}'"))
+                    .collect();
+                format!("{n} in '{}' (such as {})", self.names[k], ex.join(", "))
+            })
+            .collect();
+        Some(format!(
+            "{total} cells of {} hold categories the model never saw in training; they were treated as \
+             missing: {}",
+            self.source,
+            parts.join("; ")
+        ))
+    }
+
+    /// Unseen-category counts per input, in model order.
+    pub fn unseen_counts(&self) -> &[u64] {
+        &self.unseen
+    }
+}
+
+/// A labelled file read whole with a model's schema.
+pub struct Labelled {
+    /// Inputs, rows by model inputs.
+    pub x: Array2<f64>,
+    /// Outcome in the model's class order.
+    pub outcome: Outcome,
+    /// Rows read.
+    pub rows: usize,
+    /// The encoder, for its unseen-category counts.
+    pub encoder: RowEncoder,
+}
+
+/// Reads every row of `input` with `schema`, including the target column.
+///
+/// # Errors
+/// As for [`RowEncoder::new`], [`RowEncoder::encode`] and the outcome readers, and an
+/// input error for a file with no data rows.
+pub fn read_labelled(
+    mut input: CsvInput,
+    schema: &Schema,
+    missing: Missing,
+) -> CliResult<Labelled> {
+    let mut enc = RowEncoder::new(&input, schema, missing, true)?;
+    let p = schema.features.len();
+    let mut values: Vec<f64> = Vec::new();
+    let mut codes: Vec<u32> = Vec::new();
+    let mut ys: Vec<f64> = Vec::new();
+    let mut row = vec![0.0; p];
+    let mut record = csv::StringRecord::new();
+    let mut rows = 0usize;
+    while input.read(&mut record)? {
+        enc.encode(&record, &mut row)?;
+        values.extend_from_slice(&row);
+        match schema.target.task {
+            Task::Classify => codes.push(enc.class(&record)?),
+            Task::Regress => ys.push(enc.value(&record)?),
+        }
+        rows += 1;
+    }
+    if rows == 0 {
+        return Err(CliError::input(format!(
+            "{} has a header but no data rows; add the labelled rows to check the model on",
+            input.name()
+        )));
+    }
+    let x = Array2::from_shape_vec((rows, p), values)
+        .map_err(|e| CliError::failure(format!("internal: {e}")))?;
+    let outcome = match schema.target.task {
+        Task::Classify => Outcome::Classes {
+            codes,
+            labels: schema.target.classes.clone(),
+        },
+        Task::Regress => Outcome::Values(ys),
+    };
+    Ok(Labelled {
+        x,
+        outcome,
+        rows,
+        encoder: enc,
+    })
+}

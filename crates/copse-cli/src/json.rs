@@ -1,0 +1,194 @@
+//! The machine-readable reports (`--json`): one JSON object per command, with the
+//! same facts as the printed report. The shape is documented in the README; keys are
+//! only ever added, never renamed.
+use crate::model::Model;
+use crate::report::CAUTION;
+use crate::schema::Task;
+use copse_forest::{
+    FeatureKind, Importance, ImportanceMeasure, ImportanceMethod, Metrics, PermutationImportance,
+    Sampling,
+};
+use serde_json::{json, Map, Value};
+
+/// Measures as a JSON object: classification keys `error`, `confusion`,
+/// `class_error`, `log_loss`, `brier`, `roc_auc`; regression keys `error` (the mean
+/// squared error), `mse`, `mae`, `variance_explained`; `rows` for both.
+pub fn metrics(m: &Metrics) -> Value {
+    match m {
+        Metrics::Classes(c) => json!({
+            "rows": c.rows,
+            "error": c.error,
+            "confusion": c.confusion,
+            "class_error": c.class_error,
+            "log_loss": c.log_loss,
+            "brier": c.brier,
+            "roc_auc": c.roc_auc,
+        }),
+        Metrics::Values(v) => json!({
+            "rows": v.rows,
+            "error": v.mse,
+            "mse": v.mse,
+            "mae": v.mae,
+            "variance_explained": v.variance_explained,
+        }),
+    }
+}
+
+/// The model's out-of-bag summary; `error` is null when no row was out of bag.
+pub fn oob(model: &Model) -> Value {
+    let o = model.forest.oob();
+    let mut v = match &o.metrics {
+        Some(m) => metrics(m),
+        None => json!({ "rows": 0, "error": null }),
+    };
+    if let Value::Object(map) = &mut v {
+        map.insert("rows_never_out_of_bag".into(), json!(o.rows_never_oob));
+        map.insert("rows_without_target".into(), json!(o.rows_missing_outcome));
+    }
+    v
+}
+
+fn measure_name(m: ImportanceMeasure) -> &'static str {
+    match m {
+        ImportanceMeasure::Misclassification => "misclassification",
+        ImportanceMeasure::Brier => "brier",
+        ImportanceMeasure::MeanSquaredError => "mse",
+        ImportanceMeasure::Gini => "gini",
+        ImportanceMeasure::Entropy => "entropy",
+        ImportanceMeasure::Variance => "variance",
+    }
+}
+
+fn method_name(m: ImportanceMethod) -> &'static str {
+    match m {
+        ImportanceMethod::OutOfBagPermutation => "out_of_bag_permutation",
+        ImportanceMethod::HeldOutPermutation => "held_out_permutation",
+        ImportanceMethod::ImpurityDecrease => "impurity_decrease",
+    }
+}
+
+/// A ranked list of `{feature, mean, std_error, rank}`.
+pub fn ranking(imp: &Importance) -> Value {
+    Value::Array(
+        imp.ranked()
+            .into_iter()
+            .map(|f| {
+                json!({
+                    "feature": f.name,
+                    "mean": f.mean,
+                    "std_error": f.std_error,
+                    "rank": f.rank,
+                })
+            })
+            .collect(),
+    )
+}
+
+/// What an importance list measures.
+pub fn importance_about(imp: &Importance) -> Value {
+    json!({
+        "method": method_name(imp.method),
+        "measure": measure_name(imp.measure),
+        "replicates": imp.replicates,
+    })
+}
+
+/// Adds `importance`, `importance_about` and (classes) `importance_brier`.
+pub fn put_permutation(map: &mut Map<String, Value>, imp: Option<&PermutationImportance>) {
+    match imp {
+        Some(p) => {
+            map.insert("importance".into(), ranking(&p.error));
+            map.insert("importance_about".into(), importance_about(&p.error));
+            if let Some(b) = &p.brier {
+                map.insert("importance_brier".into(), ranking(b));
+            }
+        }
+        None => {
+            map.insert("importance".into(), json!([]));
+            map.insert("importance_about".into(), Value::Null);
+        }
+    }
+}
+
+fn sampling(s: &Sampling) -> Value {
+    match s {
+        Sampling::Bootstrap => json!("bootstrap"),
+        Sampling::Subsample(f) => json!(format!("subsample:{f}")),
+        Sampling::Whole => json!("none"),
+    }
+}
+
+/// The common part of every command's object: task, target, classes, trees, inputs,
+/// settings, training data, out-of-bag summary and out-of-bag importance.
+pub fn model_object(command: &str, model: &Model) -> Map<String, Value> {
+    let f = &model.forest;
+    let s = f.settings();
+    let t = &model.training;
+    let mut map = Map::new();
+    map.insert("command".into(), json!(command));
+    map.insert("copse_version".into(), json!(env!("CARGO_PKG_VERSION")));
+    map.insert("task".into(), json!(model.schema.target.task.name()));
+    map.insert("target".into(), json!(model.schema.target.name));
+    map.insert("classes".into(), json!(f.classes()));
+    map.insert("trees".into(), json!(f.trees().len()));
+    let inputs: Vec<Value> = model
+        .schema
+        .features
+        .iter()
+        .map(|m| match &m.kind {
+            FeatureKind::Categorical { levels } => {
+                json!({ "name": m.name, "kind": "categorical", "categories": levels })
+            }
+            _ => json!({ "name": m.name, "kind": "numeric" }),
+        })
+        .collect();
+    map.insert("inputs".into(), Value::Array(inputs));
+    map.insert(
+        "settings".into(),
+        json!({
+            "trees": s.trees,
+            "features_per_split": f.features_per_split(),
+            "features_per_split_rule": t.features_rule,
+            "sampling": sampling(&s.sampling),
+            "balanced": s.balanced,
+            "impurity": if model.schema.target.task == Task::Classify {
+                json!(format!("{:?}", s.tree.impurity).to_lowercase())
+            } else {
+                json!("variance")
+            },
+            "max_depth": s.tree.max_depth,
+            "min_leaf": s.tree.min_leaf,
+            "bins": s.bin_limit.saturating_sub(1),
+            "seed": s.seed,
+        }),
+    );
+    map.insert(
+        "data".into(),
+        json!({
+            "source": t.source,
+            "rows_read": t.rows_read,
+            "rows_without_target": t.rows_without_outcome,
+            "ignored": t.ignored,
+            "class_counts": t.class_counts,
+            "missing_tokens": model.schema.missing.tokens(),
+        }),
+    );
+    map.insert("oob".into(), oob(model));
+    put_permutation(&mut map, f.oob_importance());
+    map.insert("caution".into(), json!(CAUTION));
+    map
+}
+
+/// Prints a JSON object on one line of standard output.
+///
+/// # Errors
+/// A write failure, or a quiet stop when the reader has gone.
+pub fn print(map: Map<String, Value>) -> crate::error::CliResult<()> {
+    use std::io::Write;
+    let text = serde_json::to_string(&Value::Object(map))
+        .map_err(|e| crate::error::CliError::failure(format!("internal: {e}")))?;
+    let mut out = std::io::stdout().lock();
+    writeln!(out, "{text}")
+        .and_then(|()| out.flush())
+        .map_err(|e| crate::error::CliError::write("standard output", &e))
+}
