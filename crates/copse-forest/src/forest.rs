@@ -125,8 +125,10 @@ impl Forest {
 
     /// Checks what a model read from a file must satisfy before it is used: every
     /// tree's nodes name an existing input, children come after their parent and
-    /// inside the tree, leaves index existing outputs of the right width. A model
-    /// from [`Forest::train`] always passes.
+    /// inside the tree, leaves index existing leaves, and every tree has the model's
+    /// inputs and outputs. A model from [`Forest::train`] always passes. Not checked
+    /// (the tree core keeps them private): the lengths of the leaf-value and category
+    /// tables, so a file must also be protected by a checksum.
     ///
     /// # Errors
     /// `InvalidModel` naming the tree and node that is inconsistent.
@@ -145,6 +147,15 @@ impl Forest {
             return bad(0, "is missing: the model has no trees".into());
         }
         for (t, tree) in self.trees.iter().enumerate() {
+            if tree.n_features() != p {
+                return bad(
+                    t,
+                    format!(
+                        "was grown on {} inputs, the model has {p}",
+                        tree.n_features()
+                    ),
+                );
+            }
             if tree.n_outputs() != k {
                 return bad(
                     t,

@@ -182,44 +182,98 @@ fn row_loss(outcome: &Outcome, i: usize, pred: &[f64]) -> Loss {
     }
 }
 
-/// Mean loss of one tree on `rows`, with input `j` (if any) taking the values `vals`
-/// (one per row in `rows`) instead of its own.
-fn tree_loss(
+/// Leaf reached by the row whose input `j` is `value(j)`, pushing onto `path` the
+/// input tested at every node on the way.
+#[inline]
+fn leaf_and_path(tree: &Tree, value: impl Fn(usize) -> f64, path: &mut Vec<u32>) -> usize {
+    let nodes = tree.nodes();
+    let mut i = 0usize;
+    loop {
+        let n = &nodes[i];
+        match n.feature() {
+            None => return n.child(),
+            Some(j) => {
+                path.push(j as u32);
+                i = n.child() + usize::from(!tree.goes_left(n, value(j)));
+            }
+        }
+    }
+}
+
+/// One tree's increases in (error, Brier) per input when each input is permuted among
+/// the tree's out-of-bag rows `rows`.
+///
+/// A row whose path through the tree never tests input `j` reaches the same leaf
+/// whatever its value of `j`, so only the rows whose path tests `j` are sent down the
+/// tree again: the result is exactly that of re-predicting every row, at a cost that
+/// grows with the depth of the tree rather than with the number of inputs.
+fn tree_permutation_increase(
     tree: &Tree,
     x: ArrayView2<'_, f64>,
     outcome: &Outcome,
     rows: &[usize],
-    swap: Option<(usize, &[f64])>,
-) -> Loss {
-    let mut total = Loss::default();
-    for (pos, &i) in rows.iter().enumerate() {
+    rng_for: impl Fn(usize) -> rand_xoshiro::Xoshiro256PlusPlus,
+) -> (Vec<f64>, Vec<f64>) {
+    let p = x.ncols();
+    let m = rows.len();
+    // Baseline loss of each row, and the distinct inputs on its path (compressed rows).
+    let mut base = Vec::with_capacity(m);
+    let mut path: Vec<u32> = Vec::new();
+    let mut per_feature = vec![0usize; p + 1];
+    let mut row_paths: Vec<u32> = Vec::new();
+    let mut row_start = Vec::with_capacity(m + 1);
+    row_start.push(0);
+    for &i in rows {
+        path.clear();
         let row = x.row(i);
-        let leaf = match swap {
-            Some((j, vals)) => tree.leaf_index_with(|k| if k == j { vals[pos] } else { row[k] }),
-            None => tree.leaf_index_with(|k| row[k]),
-        };
-        let l = row_loss(outcome, i, tree.leaf_value(leaf));
-        total.error += l.error;
-        total.brier += l.brier;
+        let leaf = leaf_and_path(tree, |j| row[j], &mut path);
+        base.push(row_loss(outcome, i, tree.leaf_value(leaf)));
+        path.sort_unstable();
+        path.dedup();
+        for &j in &path {
+            per_feature[j as usize + 1] += 1;
+        }
+        row_paths.extend_from_slice(&path);
+        row_start.push(row_paths.len());
     }
-    let m = rows.len() as f64;
-    Loss {
-        error: total.error / m,
-        brier: total.brier / m,
+    // Invert: for each input, the positions (in `rows`) of the rows whose path tests it.
+    for j in 0..p {
+        per_feature[j + 1] += per_feature[j];
     }
-}
-
-/// Inputs that some split of `tree` tests.
-fn used_inputs(tree: &Tree, p: usize) -> Vec<bool> {
-    let mut used = vec![false; p];
-    for n in tree.nodes() {
-        if let Some(j) = n.feature() {
-            if j < p {
-                used[j] = true;
-            }
+    let mut fill = per_feature.clone();
+    let mut affected = vec![0u32; row_paths.len()];
+    for pos in 0..m {
+        for &j in &row_paths[row_start[pos]..row_start[pos + 1]] {
+            affected[fill[j as usize]] = pos as u32;
+            fill[j as usize] += 1;
         }
     }
-    used
+    let (mut inc_err, mut inc_brier) = (vec![0.0; p], vec![0.0; p]);
+    let mut vals = Vec::with_capacity(m);
+    for j in 0..p {
+        let hit = &affected[per_feature[j]..per_feature[j + 1]];
+        if hit.is_empty() {
+            // The tree never tests input j: its predictions cannot change.
+            continue;
+        }
+        vals.clear();
+        vals.extend(rows.iter().map(|&i| x[[i, j]]));
+        vals.shuffle(&mut rng_for(j));
+        let (mut de, mut db) = (0.0, 0.0);
+        for &pos in hit {
+            let pos = pos as usize;
+            let i = rows[pos];
+            let row = x.row(i);
+            let v = vals[pos];
+            let leaf = tree.leaf_index_with(|c| if c == j { v } else { row[c] });
+            let l = row_loss(outcome, i, tree.leaf_value(leaf));
+            de += l.error - base[pos].error;
+            db += l.brier - base[pos].brier;
+        }
+        inc_err[j] = de / m as f64;
+        inc_brier[j] = db / m as f64;
+    }
+    (inc_err, inc_brier)
 }
 
 /// Out-of-bag permutation importance (Breiman 2001, section 10): for tree `t` and
@@ -237,7 +291,7 @@ pub(crate) fn oob_permutation(
     seed: u64,
     progress: &(dyn Fn(Progress) + Sync),
 ) -> Option<PermutationImportance> {
-    let (n, p) = x.dim();
+    let n = x.nrows();
     let nt = trees.len();
     let done = AtomicUsize::new(0);
     let per_tree: Vec<Option<(Vec<f64>, Vec<f64>)>> = (0..nt)
@@ -248,19 +302,9 @@ pub(crate) fn oob_permutation(
                 .filter(|&i| masks[t].contains(i) && !outcome.is_missing(i))
                 .collect();
             let result = (!rows.is_empty()).then(|| {
-                let used = used_inputs(tree, p);
-                let base = tree_loss(tree, x, outcome, &rows, None);
-                let (mut inc_err, mut inc_brier) = (vec![0.0; p], vec![0.0; p]);
-                let mut vals = Vec::with_capacity(rows.len());
-                for j in (0..p).filter(|&j| used[j]) {
-                    vals.clear();
-                    vals.extend(rows.iter().map(|&i| x[[i, j]]));
-                    vals.shuffle(&mut task_rng(seed, Purpose::OobPermute, t as u64, j as u64));
-                    let l = tree_loss(tree, x, outcome, &rows, Some((j, &vals)));
-                    inc_err[j] = l.error - base.error;
-                    inc_brier[j] = l.brier - base.brier;
-                }
-                (inc_err, inc_brier)
+                tree_permutation_increase(tree, x, outcome, &rows, |j| {
+                    task_rng(seed, Purpose::OobPermute, t as u64, j as u64)
+                })
             });
             let d = done.fetch_add(1, Ordering::Relaxed) + 1;
             progress(Progress {
@@ -439,18 +483,12 @@ impl Forest {
             .par_chunks(bs)
             .enumerate()
             .map(|(b, chunk)| {
-                let mut pred = vec![0.0; k];
+                let mut pred = vec![0.0; chunk.len() * k];
+                let swap = swap.map(|(j, vals)| (j, &vals[b * bs..b * bs + chunk.len()]));
+                self.predict_block(chunk.len(), |r| x.row(chunk[r]), swap, &mut pred);
                 let mut total = Loss::default();
                 for (off, &i) in chunk.iter().enumerate() {
-                    let row = x.row(i);
-                    match swap {
-                        Some((j, vals)) => {
-                            let v = vals[b * bs + off];
-                            self.predict_with(|c| if c == j { v } else { row[c] }, &mut pred);
-                        }
-                        None => self.predict_with(|c| row[c], &mut pred),
-                    }
-                    let l = row_loss(outcome, i, &pred);
+                    let l = row_loss(outcome, i, &pred[off * k..(off + 1) * k]);
                     total.error += l.error;
                     total.brier += l.brier;
                 }
@@ -464,6 +502,68 @@ impl Forest {
         Loss {
             error: e / m,
             brier: b / m,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::settings::ForestSettings;
+    use crate::synth;
+
+    /// Slow reference: re-predict every row with input `j` permuted.
+    fn full_increase(
+        tree: &Tree,
+        x: ArrayView2<'_, f64>,
+        outcome: &Outcome,
+        rows: &[usize],
+        j: usize,
+        rng: &mut rand_xoshiro::Xoshiro256PlusPlus,
+    ) -> (f64, f64) {
+        let mut vals: Vec<f64> = rows.iter().map(|&i| x[[i, j]]).collect();
+        vals.shuffle(rng);
+        let (mut e0, mut b0, mut e1, mut b1) = (0.0, 0.0, 0.0, 0.0);
+        for (pos, &i) in rows.iter().enumerate() {
+            let row = x.row(i);
+            let l0 = row_loss(
+                outcome,
+                i,
+                tree.leaf_value(tree.leaf_index_with(|c| row[c])),
+            );
+            let leaf = tree.leaf_index_with(|c| if c == j { vals[pos] } else { row[c] });
+            let l1 = row_loss(outcome, i, tree.leaf_value(leaf));
+            e0 += l0.error;
+            b0 += l0.brier;
+            e1 += l1.error;
+            b1 += l1.brier;
+        }
+        let m = rows.len() as f64;
+        ((e1 - e0) / m, (b1 - b0) / m)
+    }
+
+    #[test]
+    fn path_shortcut_equals_full_reprediction() {
+        for d in [synth::waveform40(300, 1), synth::friedman1(300, 2)] {
+            let s = ForestSettings {
+                trees: 3,
+                oob_importance: false,
+                ..Default::default()
+            };
+            let f = Forest::train(d.x.view(), &d.meta, &d.outcome, &s)
+                .expect("trains")
+                .forest;
+            let rows: Vec<usize> = (0..300).step_by(2).collect();
+            for (t, tree) in f.trees().iter().enumerate() {
+                let rng = |j: usize| task_rng(9, Purpose::OobPermute, t as u64, j as u64);
+                let (fast_e, fast_b) =
+                    tree_permutation_increase(tree, d.x.view(), &d.outcome, &rows, rng);
+                for j in 0..d.x.ncols() {
+                    let (e, b) = full_increase(tree, d.x.view(), &d.outcome, &rows, j, &mut rng(j));
+                    assert!((fast_e[j] - e).abs() < 1e-9, "tree {t} input {j}");
+                    assert!((fast_b[j] - b).abs() < 1e-9, "tree {t} input {j}");
+                }
+            }
         }
     }
 }

@@ -76,9 +76,10 @@ struct Block {
 }
 
 /// Rows per block; depends only on the row count so that sums over blocks are taken
-/// in the same order whatever the number of threads.
+/// in the same order whatever the number of threads. Blocks of a few thousand rows
+/// let each tree, once in cache, serve many rows.
 pub(crate) fn block_rows(n: usize) -> usize {
-    n.div_ceil(256).max(256)
+    n.div_ceil(64).clamp(256, 4096)
 }
 
 /// Computes out-of-bag predictions, the error curve and the summary measures.
@@ -106,24 +107,25 @@ pub(crate) fn out_of_bag(
                 d_wrong: vec![0; nt],
                 d_sse: vec![0.0; nt],
             };
-            let mut sums = vec![0.0; k];
-            for i in start..end {
-                sums.iter_mut().for_each(|s| *s = 0.0);
-                let row = x.row(i);
-                let mut count = 0u32;
-                let mut was_wrong = false;
-                let mut prev_sq = 0.0;
-                let labelled = !outcome.is_missing(i);
-                for (t, tree) in trees.iter().enumerate() {
+            // Trees in the outer loop keep each tree in cache for the whole block; each
+            // row still meets its trees in tree order, which the error curve needs.
+            let len = end - start;
+            let mut was_wrong = vec![false; len];
+            let mut prev_sq = vec![0.0; len];
+            for (t, tree) in trees.iter().enumerate() {
+                for (r, i) in (start..end).enumerate() {
                     if !masks[t].contains(i) {
                         continue;
                     }
+                    let row = x.row(i);
                     let leaf = tree.leaf_index_with(|j| row[j]);
+                    let sums = &mut out.preds[r * k..(r + 1) * k];
                     sums.iter_mut()
                         .zip(tree.leaf_value(leaf))
                         .for_each(|(s, v)| *s += v);
-                    count += 1;
-                    if !labelled {
+                    out.trees_out[r] += 1;
+                    let count = out.trees_out[r];
+                    if outcome.is_missing(i) {
                         continue;
                     }
                     if count == 1 {
@@ -131,26 +133,25 @@ pub(crate) fn out_of_bag(
                     }
                     match outcome {
                         Outcome::Classes { codes, .. } => {
-                            let wrong = predicted_class(&sums) != codes[i] as usize;
-                            out.d_wrong[t] += i64::from(wrong) - i64::from(was_wrong);
-                            was_wrong = wrong;
+                            let wrong = predicted_class(sums) != codes[i] as usize;
+                            out.d_wrong[t] += i64::from(wrong) - i64::from(was_wrong[r]);
+                            was_wrong[r] = wrong;
                         }
                         Outcome::Values(y) => {
                             let e = sums[0] / f64::from(count) - y[i];
-                            out.d_sse[t] += e * e - prev_sq;
-                            prev_sq = e * e;
+                            out.d_sse[t] += e * e - prev_sq[r];
+                            prev_sq[r] = e * e;
                         }
                     }
                 }
-                let o = &mut out.preds[(i - start) * k..(i - start + 1) * k];
+            }
+            for (r, o) in out.preds.chunks_mut(k).enumerate() {
+                let count = out.trees_out[r];
                 if count == 0 {
                     o.iter_mut().for_each(|v| *v = f64::NAN);
                 } else {
-                    o.iter_mut()
-                        .zip(&sums)
-                        .for_each(|(v, s)| *v = s / f64::from(count));
+                    o.iter_mut().for_each(|v| *v /= f64::from(count));
                 }
-                out.trees_out[i - start] = count;
             }
             let d = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
             progress(Progress {

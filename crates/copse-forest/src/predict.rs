@@ -5,12 +5,14 @@ use crate::error::{Error, ErrorKind, Result};
 use crate::forest::{Forest, Task};
 use crate::metrics::{class_metrics, predicted_class, value_metrics, Metrics};
 use crate::outcome::Outcome;
-use ndarray::{Array2, ArrayView2};
+use ndarray::{Array2, ArrayView1, ArrayView2};
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
-/// Rows per parallel block in batch prediction.
-const PREDICT_BLOCK: usize = 256;
+/// Bounds on the rows per parallel block in batch prediction: large enough that each
+/// tree, loaded into cache once per block, serves many rows; small enough to spread
+/// the work over the threads. The block size does not change any result.
+const PREDICT_BLOCK: (usize, usize) = (256, 8192);
 
 /// Accuracy of a forest on a labelled data set.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -34,13 +36,14 @@ impl Forest {
         self.check_columns(x)?;
         let (n, k) = (x.nrows(), self.n_outputs());
         let mut out = vec![0.0; n * k];
-        out.par_chunks_mut(PREDICT_BLOCK * k.max(1))
+        let block = n
+            .div_ceil(4 * rayon::current_num_threads())
+            .clamp(PREDICT_BLOCK.0, PREDICT_BLOCK.1);
+        out.par_chunks_mut(block * k.max(1))
             .enumerate()
             .for_each(|(b, chunk)| {
-                for (off, o) in chunk.chunks_mut(k).enumerate() {
-                    let row = x.row(b * PREDICT_BLOCK + off);
-                    self.predict_with(|j| row[j], o);
-                }
+                let start = b * block;
+                self.predict_block(chunk.len() / k, |r| x.row(start + r), None, chunk);
             });
         Ok(Array2::from_shape_vec((n, k), out).expect("n rows of k outputs by construction"))
     }
@@ -62,7 +65,7 @@ impl Forest {
                 ),
             ));
         }
-        self.predict_with(|j| row[j], out);
+        self.predict_block(1, |_| ArrayView1::from(row), None, out);
         Ok(())
     }
 
@@ -116,15 +119,34 @@ impl Forest {
         }
     }
 
-    /// Mean of the trees' leaf outputs for the row whose input `j` is `value(j)`.
+    /// Predictions for `rows` rows into `out` (`rows * n_outputs`): row `r` is
+    /// `row_of(r)`, except that with `swap = Some((j, vals))` its input `j` is `vals[r]`.
+    /// Trees run in the outer loop so each stays in cache for the whole block; every
+    /// row still sums its trees in tree order, so the result is the same as row by row.
     #[inline]
-    pub(crate) fn predict_with(&self, value: impl Fn(usize) -> f64, out: &mut [f64]) {
+    pub(crate) fn predict_block<'a>(
+        &self,
+        rows: usize,
+        row_of: impl Fn(usize) -> ArrayView1<'a, f64>,
+        swap: Option<(usize, &[f64])>,
+        out: &mut [f64],
+    ) {
+        let k = self.n_outputs();
         out.iter_mut().for_each(|o| *o = 0.0);
         for tree in &self.trees {
-            let leaf = tree.leaf_index_with(&value);
-            out.iter_mut()
-                .zip(tree.leaf_value(leaf))
-                .for_each(|(o, v)| *o += v);
+            for (r, o) in out.chunks_mut(k).take(rows).enumerate() {
+                let row = row_of(r);
+                let leaf = match swap {
+                    None => tree.leaf_index_with(|c| row[c]),
+                    Some((j, vals)) => {
+                        let v = vals[r];
+                        tree.leaf_index_with(|c| if c == j { v } else { row[c] })
+                    }
+                };
+                o.iter_mut()
+                    .zip(tree.leaf_value(leaf))
+                    .for_each(|(o, v)| *o += v);
+            }
         }
         let m = self.trees.len().max(1) as f64;
         out.iter_mut().for_each(|o| *o /= m);
