@@ -70,3 +70,841 @@ fn committed_demo_data_matches_the_generator() {
         assert!(made == committed, "{f} differs from the generator's output");
     }
 }
+
+fn json_of(stdout: &str) -> serde_json::Value {
+    serde_json::from_str(stdout.trim()).expect("stdout is one JSON object")
+}
+
+fn train_iris(dir: &Path, extra: &[&str]) -> Output {
+    let iris = repo("tests/data/iris.csv");
+    let iris = iris.to_str().expect("utf-8 path");
+    let mut args = vec![
+        "train",
+        "--data",
+        iris,
+        "--target",
+        "species",
+        "--out",
+        "iris.copse",
+        "--trees",
+        "150",
+        "--seed",
+        "3",
+    ];
+    args.extend_from_slice(extra);
+    copse_in(dir, &args, None)
+}
+
+/// Reads a CSV file into rows of fields.
+fn read_csv(bytes: &[u8]) -> Vec<Vec<String>> {
+    let mut r = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .from_reader(bytes);
+    r.records()
+        .map(|rec| rec.expect("valid CSV").iter().map(str::to_string).collect())
+        .collect()
+}
+
+/// Iris (Fisher 1936): train, score, evaluate. A random forest's out-of-bag error on
+/// iris is about 4-6% (common practice; value from memory, so the bound is loose):
+/// with 150 rows the standard error of an error rate near 5% is
+/// sqrt(0.05 * 0.95 / 150) = 0.018, and 0.10 sits more than 2.5 of them above 5%.
+#[test]
+fn iris_round_trip() {
+    let dir = tmp();
+    let (report, _) = expect_code(&train_iris(dir.path(), &["--json"]), 0);
+    let j = json_of(&report);
+    assert_eq!(j["task"], "classify");
+    assert_eq!(j["trees"], 150);
+    assert_eq!(
+        j["classes"],
+        serde_json::json!(["setosa", "versicolor", "virginica"])
+    );
+    let err = j["oob"]["error"].as_f64().expect("an out-of-bag error");
+    assert!(err < 0.10, "out-of-bag error {err}");
+    // Setosa is separable by petal length alone (iris facts in tests/data/README.md),
+    // so no setosa row is misclassified out of bag.
+    assert_eq!(j["oob"]["confusion"][0], serde_json::json!([50, 0, 0]));
+    let top = j["importance"][0]["feature"]
+        .as_str()
+        .expect("a ranked input");
+    assert!(top.starts_with("petal"), "top input {top}");
+
+    let iris = repo("tests/data/iris.csv");
+    let out = copse_in(
+        dir.path(),
+        &[
+            "score",
+            "--model",
+            "iris.copse",
+            "--data",
+            iris.to_str().expect("path"),
+            "--keep",
+            "species",
+        ],
+        None,
+    );
+    let (scored, _) = expect_code(&out, 0);
+    let rows = read_csv(scored.as_bytes());
+    assert_eq!(
+        rows[0],
+        vec![
+            "species",
+            "prediction",
+            "prob_setosa",
+            "prob_versicolor",
+            "prob_virginica"
+        ]
+    );
+    let input = read_csv(&std::fs::read(&iris).expect("iris"));
+    assert_eq!(
+        rows.len(),
+        input.len(),
+        "one output row per input row plus the header"
+    );
+    for (o, i) in rows.iter().zip(&input).skip(1) {
+        assert_eq!(o[0], i[4], "rows stay in input order");
+        let p: f64 = o[2..]
+            .iter()
+            .map(|v| v.parse::<f64>().expect("a probability"))
+            .sum();
+        assert!((p - 1.0).abs() < 1e-5, "probabilities sum to 1, got {p}");
+    }
+
+    let out = copse_in(
+        dir.path(),
+        &[
+            "evaluate",
+            "--model",
+            "iris.copse",
+            "--data",
+            iris.to_str().expect("path"),
+            "--json",
+        ],
+        None,
+    );
+    let (ev, _) = expect_code(&out, 0);
+    let ev = json_of(&ev);
+    assert_eq!(ev["command"], "evaluate");
+    assert_eq!(ev["evaluation"]["rows"], 150);
+    // On its own training rows the forest is far better than out of bag.
+    let e = ev["evaluation"]["error"].as_f64().expect("an error");
+    assert!(e <= err, "training-row error {e} above out-of-bag {err}");
+    assert!(
+        ev["evaluation"]["roc_auc"].is_null(),
+        "AUC only for two classes"
+    );
+}
+
+fn penguins() -> String {
+    repo("tests/data/penguins.csv")
+        .to_str()
+        .expect("utf-8 path")
+        .to_string()
+}
+
+/// Penguins (Gorman, Williams & Fraser 2014): categorical inputs and `NA` cells. The
+/// three species are nearly separable by bill and flipper measurements; published
+/// analyses of the data get accuracies around 97-99% (memory; loose bound 0.08).
+#[test]
+fn penguins_round_trip_with_categories_and_missing_cells() {
+    let dir = tmp();
+    let p = penguins();
+    let out = copse_in(
+        dir.path(),
+        &[
+            "train",
+            "--data",
+            &p,
+            "--target",
+            "species",
+            "--out",
+            "peng.copse",
+            "--trees",
+            "100",
+            "--oob-out",
+            "oob.csv",
+            "--json",
+        ],
+        None,
+    );
+    let (so, _) = expect_code(&out, 0);
+    let j = json_of(&so);
+    assert_eq!(
+        j["classes"],
+        serde_json::json!(["Adelie", "Chinstrap", "Gentoo"])
+    );
+    assert!(j["oob"]["error"].as_f64().expect("error") < 0.08);
+    let kinds: Vec<(String, String)> = j["inputs"]
+        .as_array()
+        .expect("inputs")
+        .iter()
+        .map(|i| {
+            (
+                i["name"].as_str().unwrap_or("").into(),
+                i["kind"].as_str().unwrap_or("").into(),
+            )
+        })
+        .collect();
+    assert!(kinds.contains(&("island".into(), "categorical".into())));
+    assert!(kinds.contains(&("sex".into(), "categorical".into())));
+    assert!(kinds.contains(&("bill_length_mm".into(), "numeric".into())));
+
+    // One out-of-bag line per training row, with the file line of each.
+    let oob = read_csv(&std::fs::read(dir.path().join("oob.csv")).expect("oob file"));
+    assert_eq!(oob[0][..3], ["line", "actual", "prediction"]);
+    assert_eq!(oob.len(), 345);
+    assert_eq!(oob[1][0], "2");
+
+    let out = copse_in(
+        dir.path(),
+        &[
+            "score",
+            "--model",
+            "peng.copse",
+            "--data",
+            &p,
+            "--keep",
+            "species,island",
+            "--out",
+            "scored.csv",
+        ],
+        None,
+    );
+    expect_code(&out, 0);
+    let scored = read_csv(&std::fs::read(dir.path().join("scored.csv")).expect("scored"));
+    let input = read_csv(&std::fs::read(&p).expect("penguins"));
+    assert_eq!(scored.len(), input.len());
+    for (o, i) in scored.iter().zip(&input).skip(1) {
+        assert_eq!((&o[0], &o[1]), (&i[0], &i[1]), "rows stay in input order");
+    }
+}
+
+/// Regression on penguins body mass: flipper length alone explains about three
+/// quarters of its variance (r about 0.87; memory), so a forest on all inputs should
+/// explain well over 60% out of bag.
+#[test]
+fn regression_json_shape() {
+    let dir = tmp();
+    let p = penguins();
+    let out = copse_in(
+        dir.path(),
+        &[
+            "train",
+            "--data",
+            &p,
+            "--target",
+            "body_mass_g",
+            "--out",
+            "mass.copse",
+            "--trees",
+            "100",
+            "--json",
+        ],
+        None,
+    );
+    let (so, se) = expect_code(&out, 0);
+    let j = json_of(&so);
+    assert_eq!(j["task"], "regress");
+    assert_eq!(j["classes"], serde_json::json!([]));
+    let ve = j["oob"]["variance_explained"]
+        .as_f64()
+        .expect("variance explained");
+    assert!(ve > 0.6, "variance explained {ve}");
+    assert_eq!(j["oob"]["error"], j["oob"]["mse"]);
+    assert!(j["oob"]["mse"].as_f64().expect("mse") > 0.0);
+    // Two penguins have no body mass: they are left out and the user is told.
+    assert!(se.contains("2 of 344 rows have no value"), "{se}");
+
+    let out = copse_in(
+        dir.path(),
+        &["evaluate", "--model", "mass.copse", "--data", &p, "--json"],
+        None,
+    );
+    let (so, _) = expect_code(&out, 0);
+    let ev = json_of(&so)["evaluation"].clone();
+    for key in ["mse", "mae", "variance_explained", "rows"] {
+        assert!(!ev[key].is_null(), "evaluation.{key}");
+    }
+    assert_eq!(ev["rows"], 342);
+}
+
+/// Every `--json` command prints one object with at least task, trees, oob, importance
+/// (ranked, with mean and std_error) and classes.
+#[test]
+fn json_shapes_of_every_command() {
+    let dir = tmp();
+    expect_code(&train_iris(dir.path(), &[]), 0);
+    let iris = repo("tests/data/iris.csv");
+    let iris = iris.to_str().expect("path");
+    for args in [
+        vec![
+            "evaluate",
+            "--model",
+            "iris.copse",
+            "--data",
+            iris,
+            "--json",
+        ],
+        vec![
+            "importance",
+            "--model",
+            "iris.copse",
+            "--data",
+            iris,
+            "--repeats",
+            "3",
+            "--json",
+        ],
+        vec!["inspect", "--model", "iris.copse", "--tree", "0", "--json"],
+    ] {
+        let (so, _) = expect_code(&copse_in(dir.path(), &args, None), 0);
+        let j = json_of(&so);
+        assert_eq!(j["command"], args[0]);
+        assert_eq!(j["task"], "classify");
+        assert_eq!(j["trees"], 150);
+        assert_eq!(j["classes"].as_array().map(Vec::len), Some(3));
+        for key in ["error", "confusion", "class_error"] {
+            assert!(!j["oob"][key].is_null(), "{}: oob.{key}", args[0]);
+        }
+        let imp = j["importance"].as_array().expect("importance list");
+        assert_eq!(imp.len(), 4);
+        let means: Vec<f64> = imp
+            .iter()
+            .map(|e| e["mean"].as_f64().expect("mean"))
+            .collect();
+        assert!(
+            means.windows(2).all(|w| w[0] >= w[1]),
+            "{}: ranked",
+            args[0]
+        );
+        for e in imp {
+            assert!(e["feature"].is_string() && e["std_error"].is_number());
+        }
+    }
+    let (so, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["inspect", "--model", "iris.copse", "--tree", "0", "--json"],
+            None,
+        ),
+        0,
+    );
+    let j = json_of(&so);
+    assert!(j["tree"]["rules"]
+        .as_str()
+        .expect("rules")
+        .contains("=> setosa"));
+    assert!(j["sizes"]["nodes"].as_u64().expect("nodes") > 150);
+}
+
+/// Damaged or foreign model files end with exit 2 and a message naming the file and
+/// the fault, never a crash.
+#[test]
+fn tampered_model_files_are_refused_clearly() {
+    let dir = tmp();
+    expect_code(&train_iris(dir.path(), &[]), 0);
+    let good = std::fs::read(dir.path().join("iris.copse")).expect("model");
+    let mut cases: Vec<(&str, Vec<u8>, &str)> = Vec::new();
+    for at in [30, good.len() / 2, good.len() - 2] {
+        let mut b = good.clone();
+        b[at] ^= 0x04;
+        cases.push(("flipped.copse", b, "damaged"));
+    }
+    cases.push(("cut.copse", good[..good.len() - 17].to_vec(), "damaged"));
+    cases.push(("cut_header.copse", good[..12].to_vec(), "damaged"));
+    let mut b = good.clone();
+    b[..4].copy_from_slice(b"PK\x03\x04");
+    cases.push(("zip.copse", b, "not a copse model"));
+    let mut b = good.clone();
+    b[8] = 2;
+    cases.push(("future.copse", b, "newer copse"));
+    let mut b = good.clone();
+    b[12..20].copy_from_slice(&(1u64 << 44).to_le_bytes());
+    cases.push(("huge_length.copse", b, "damaged"));
+    cases.push(("empty.copse", Vec::new(), "empty"));
+    let iris = repo("tests/data/iris.csv");
+    for (name, bytes, words) in cases {
+        std::fs::write(dir.path().join(name), &bytes).expect("write");
+        for cmd in [
+            vec![
+                "score",
+                "--model",
+                name,
+                "--data",
+                iris.to_str().expect("path"),
+            ],
+            vec!["inspect", "--model", name],
+        ] {
+            let (_, se) = expect_code(&copse_in(dir.path(), &cmd, None), 2);
+            assert!(se.starts_with("copse: "), "{name}: {se}");
+            assert!(se.contains(name) && se.contains(words), "{name}: {se}");
+            assert!(!se.contains("panicked"), "{name}: {se}");
+        }
+    }
+}
+
+#[test]
+fn a_column_missing_at_scoring_is_named() {
+    let dir = tmp();
+    expect_code(&train_iris(dir.path(), &[]), 0);
+    std::fs::write(
+        dir.path().join("new.csv"),
+        "petal_width,sepal_length,sepal_width,extra\n0.2,5.1,3.5,x\n",
+    )
+    .expect("write");
+    let (_, se) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["score", "--model", "iris.copse", "--data", "new.csv"],
+            None,
+        ),
+        2,
+    );
+    assert!(
+        se.contains("'petal_length'") && se.contains("new.csv"),
+        "{se}"
+    );
+    // Columns in another order plus an extra one are fine.
+    std::fs::write(
+        dir.path().join("new.csv"),
+        "petal_width,extra,petal_length,sepal_length,sepal_width\n0.2,x,1.4,5.1,3.5\n",
+    )
+    .expect("write");
+    let (so, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["score", "--model", "iris.copse", "--data", "new.csv"],
+            None,
+        ),
+        0,
+    );
+    assert!(
+        so.lines()
+            .nth(1)
+            .expect("a scored row")
+            .starts_with("setosa,"),
+        "{so}"
+    );
+}
+
+/// Training from standard input and scoring from standard input to standard output
+/// give the same results as the file-based commands.
+#[test]
+fn standard_input_and_output_piping() {
+    let dir = tmp();
+    let iris_path = repo("tests/data/iris.csv");
+    let iris = std::fs::read(&iris_path).expect("iris");
+    let args = [
+        "train",
+        "--data",
+        "-",
+        "--target",
+        "species",
+        "--out",
+        "piped.copse",
+        "--trees",
+        "150",
+        "--seed",
+        "3",
+    ];
+    expect_code(&copse_in(dir.path(), &args, Some(&iris)), 0);
+    expect_code(&train_iris(dir.path(), &[]), 0);
+    let a = std::fs::read(dir.path().join("piped.copse")).expect("model");
+    let b = std::fs::read(dir.path().join("iris.copse")).expect("model");
+    // The record of the source name differs ("standard input"), the trees do not:
+    // compare the scores.
+    let (from_pipe, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["score", "--model", "piped.copse", "--data", "-"],
+            Some(&iris),
+        ),
+        0,
+    );
+    let (from_file, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &[
+                "score",
+                "--model",
+                "iris.copse",
+                "--data",
+                iris_path.to_str().expect("path"),
+            ],
+            None,
+        ),
+        0,
+    );
+    assert_eq!(from_pipe, from_file);
+    assert!(a.len().abs_diff(b.len()) < 100);
+}
+
+/// Same seed and data with one thread or two: byte-identical model files.
+#[test]
+fn model_does_not_depend_on_thread_count() {
+    let dir = tmp();
+    let p = penguins();
+    for (threads, out) in [("1", "one.copse"), ("2", "two.copse")] {
+        let args = [
+            "train",
+            "--data",
+            &p,
+            "--target",
+            "species",
+            "--out",
+            out,
+            "--trees",
+            "60",
+            "--threads",
+            threads,
+        ];
+        expect_code(&copse_in(dir.path(), &args, None), 0);
+    }
+    let one = std::fs::read(dir.path().join("one.copse")).expect("model");
+    let two = std::fs::read(dir.path().join("two.copse")).expect("model");
+    assert!(one == two, "models differ between 1 and 2 threads");
+}
+
+/// Scoring writes one row per input row, in order, streaming in blocks; a closed
+/// pipe (`| head`) ends quietly with exit 0.
+#[test]
+fn scoring_many_rows_in_blocks_keeps_order_and_stops_quietly_on_a_closed_pipe() {
+    let dir = tmp();
+    expect_code(
+        &copse_in(
+            dir.path(),
+            &[
+                "make-demo-data",
+                "--out",
+                "big",
+                "--rows",
+                "300",
+                "--score-rows",
+                "30000",
+            ],
+            None,
+        ),
+        0,
+    );
+    let train = [
+        "train",
+        "--data",
+        "big/water_mains.csv",
+        "--target",
+        "failed_within_year",
+        "--ignore",
+        "segment_id",
+        "--out",
+        "w.copse",
+        "--trees",
+        "20",
+    ];
+    expect_code(&copse_in(dir.path(), &train, None), 0);
+    let score = [
+        "score",
+        "--model",
+        "w.copse",
+        "--data",
+        "big/water_mains_to_score.csv",
+        "--keep",
+        "segment_id",
+        "--out",
+        "scored.csv",
+        "--block-rows",
+        "1000",
+    ];
+    expect_code(&copse_in(dir.path(), &score, None), 0);
+    let scored = read_csv(&std::fs::read(dir.path().join("scored.csv")).expect("scored"));
+    assert_eq!(scored.len(), 30_001);
+    assert_eq!(
+        scored[0],
+        vec!["segment_id", "prediction", "prob_no", "prob_yes"]
+    );
+    for (k, row) in scored.iter().enumerate().skip(1) {
+        assert_eq!(row[0], format!("TC-{:06}", 300 + k), "row {k} out of order");
+    }
+
+    // Read one line of standard output, then close it.
+    let mut child = Command::new(env!("CARGO_BIN_EXE_copse"))
+        .args([
+            "score",
+            "--model",
+            "w.copse",
+            "--data",
+            "big/water_mains_to_score.csv",
+        ])
+        .current_dir(dir.path())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .expect("copse starts");
+    {
+        use std::io::BufRead;
+        let stdout = child.stdout.take().expect("piped");
+        let mut first = String::new();
+        std::io::BufReader::new(stdout)
+            .read_line(&mut first)
+            .expect("a header line");
+        assert!(first.starts_with("prediction"));
+    }
+    let out = child.wait_with_output().expect("copse ends");
+    let se = text(&out.stderr);
+    assert_eq!(out.status.code(), Some(0), "{se}");
+    assert!(!se.contains("error"), "{se}");
+}
+
+/// An error part-way through scoring leaves no output file and no temporary file.
+#[test]
+fn no_partial_output_after_an_error() {
+    let dir = tmp();
+    expect_code(&train_iris(dir.path(), &[]), 0);
+    let mut data = String::from("sepal_length,sepal_width,petal_length,petal_width\n");
+    for _ in 0..3000 {
+        data.push_str("5.1,3.5,1.4,0.2\n");
+    }
+    data.push_str("5.1,3.5,oops,0.2\n");
+    std::fs::write(dir.path().join("bad.csv"), data).expect("write");
+    let (_, se) = expect_code(
+        &copse_in(
+            dir.path(),
+            &[
+                "score",
+                "--model",
+                "iris.copse",
+                "--data",
+                "bad.csv",
+                "--out",
+                "out.csv",
+                "--block-rows",
+                "500",
+            ],
+            None,
+        ),
+        2,
+    );
+    assert!(
+        se.contains("bad.csv line 3002, column 'petal_length'"),
+        "{se}"
+    );
+    let mut names: Vec<String> = std::fs::read_dir(dir.path())
+        .expect("list")
+        .map(|e| e.expect("entry").file_name().to_string_lossy().into_owned())
+        .collect();
+    names.sort();
+    assert_eq!(names, vec!["bad.csv", "iris.copse"]);
+}
+
+#[test]
+fn unseen_categories_are_missing_and_counted() {
+    let dir = tmp();
+    let p = penguins();
+    expect_code(
+        &copse_in(
+            dir.path(),
+            &[
+                "train",
+                "--data",
+                &p,
+                "--target",
+                "species",
+                "--out",
+                "peng.copse",
+                "--trees",
+                "50",
+            ],
+            None,
+        ),
+        0,
+    );
+    std::fs::write(
+        dir.path().join("new.csv"),
+        "island,bill_length_mm,bill_depth_mm,flipper_length_mm,body_mass_g,sex,year\n\
+         Atlantis,39.1,18.7,181,3750,male,2007\n\
+         Atlantis,46.5,17.9,192,3500,unknown,2007\n\
+         Biscoe,47.6,14.5,215,5400,male,2009\n",
+    )
+    .expect("write");
+    let (so, se) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["score", "--model", "peng.copse", "--data", "new.csv"],
+            None,
+        ),
+        0,
+    );
+    assert_eq!(so.lines().count(), 4);
+    assert!(se.contains("3 cells of new.csv"), "{se}");
+    assert!(
+        se.contains("2 in 'island'") && se.contains("'Atlantis'"),
+        "{se}"
+    );
+    assert!(se.contains("1 in 'sex'"), "{se}");
+}
+
+#[test]
+fn bad_flag_values_are_usage_errors() {
+    let dir = tmp();
+    for extra in [
+        ["--trees", "0"],
+        ["--min-leaf", "0"],
+        ["--features-per-split", "0"],
+        ["--features-per-split", "1.5"],
+        ["--sampling", "subsample:1.2"],
+        ["--bins", "1"],
+    ] {
+        let (_, se) = expect_code(&train_iris(dir.path(), &extra), 2);
+        assert!(se.starts_with("copse: error:"), "{extra:?}: {se}");
+        assert!(se.contains(extra[0]), "{extra:?}: {se}");
+    }
+    assert!(!dir.path().join("iris.copse").exists());
+}
+
+/// A UTF-8 byte-order mark, CRLF line ends, and quoted fields holding the delimiter and
+/// a line break are all read as a spreadsheet would.
+#[test]
+fn bom_crlf_and_quoted_fields() {
+    let dir = tmp();
+    let mut data = "\u{feff}colour,size,label\r\n".to_string();
+    for i in 0..40 {
+        let colour = if i % 2 == 0 {
+            "\"red, dark\""
+        } else {
+            "\"blue\nlight\""
+        };
+        let label = if i % 2 == 0 { "a" } else { "b" };
+        data.push_str(&format!("{colour},{},{label}\r\n", i % 7));
+    }
+    std::fs::write(dir.path().join("odd.csv"), data).expect("write");
+    let args = [
+        "train", "--data", "odd.csv", "--target", "label", "--out", "m.copse", "--trees", "20",
+        "--json",
+    ];
+    let (so, _) = expect_code(&copse_in(dir.path(), &args, None), 0);
+    let j = json_of(&so);
+    assert_eq!(
+        j["inputs"][0]["name"], "colour",
+        "the mark is not part of the name"
+    );
+    assert_eq!(
+        j["inputs"][0]["categories"],
+        serde_json::json!(["blue\nlight", "red, dark"])
+    );
+    assert_eq!(j["classes"], serde_json::json!(["a", "b"]));
+    assert_eq!(
+        j["oob"]["error"], 0.0,
+        "colour separates the labels exactly"
+    );
+}
+
+#[test]
+fn a_stray_word_makes_a_column_categorical_and_the_lines_are_named() {
+    let dir = tmp();
+    let mut data = String::from("depth,y\n");
+    for i in 0..30 {
+        data.push_str(&format!("{},{}\n", i, if i < 15 { "lo" } else { "hi" }));
+    }
+    data.push_str("deep,hi\n");
+    std::fs::write(dir.path().join("d.csv"), data).expect("write");
+    let args = [
+        "train", "--data", "d.csv", "--target", "y", "--out", "m.copse", "--trees", "10",
+    ];
+    let (_, se) = expect_code(&copse_in(dir.path(), &args, None), 0);
+    assert!(se.contains("column 'depth' is read as categorical"), "{se}");
+    assert!(se.contains("line 32 'deep'"), "{se}");
+    // Forcing numbers turns the stray word into an error naming line and column.
+    let args = [
+        "train",
+        "--data",
+        "d.csv",
+        "--target",
+        "y",
+        "--out",
+        "m.copse",
+        "--numeric",
+        "depth",
+    ];
+    let (_, se) = expect_code(&copse_in(dir.path(), &args, None), 2);
+    assert!(se.contains("d.csv line 32, column 'depth'"), "{se}");
+}
+
+#[test]
+fn writing_to_a_full_device_fails_cleanly() {
+    if !Path::new("/dev/full").exists() {
+        return;
+    }
+    let dir = tmp();
+    expect_code(&train_iris(dir.path(), &[]), 0);
+    let iris = repo("tests/data/iris.csv");
+    let (_, se) = expect_code(
+        &copse_in(
+            dir.path(),
+            &[
+                "score",
+                "--model",
+                "iris.copse",
+                "--data",
+                iris.to_str().expect("path"),
+                "--out",
+                "/dev/full",
+            ],
+            None,
+        ),
+        1,
+    );
+    assert!(se.contains("could not write /dev/full"), "{se}");
+    assert!(Path::new("/dev/full").exists());
+}
+
+/// `copse demo` runs end to end, writes every output it lists, and the model ranks
+/// the input that has no effect in the invented data (valve distance) below the
+/// strongest one (past repairs).
+#[test]
+fn demo_runs_and_says_where_everything_went() {
+    let dir = tmp();
+    let (so, _) = expect_code(
+        &copse_in(dir.path(), &["demo", "--out", "demo-out"], None),
+        0,
+    );
+    for f in [
+        "data/water_mains.csv",
+        "data/water_mains_to_score.csv",
+        "water_mains.copse",
+        "report.txt",
+        "oob_predictions.csv",
+        "plots/importance.svg",
+        "plots/oob_error.svg",
+        "scored_segments.csv",
+    ] {
+        let path = dir.path().join("demo-out").join(f);
+        assert!(path.is_file(), "{f} missing");
+        assert!(so.contains(&format!("demo-out/{f}")), "{f} not listed");
+    }
+    let svg =
+        std::fs::read_to_string(dir.path().join("demo-out/plots/importance.svg")).expect("svg");
+    assert!(svg.starts_with("<svg") && svg.contains("past_repairs"));
+    let scored =
+        std::fs::read_to_string(dir.path().join("demo-out/scored_segments.csv")).expect("scored");
+    assert_eq!(scored.lines().count(), 501);
+    assert!(so.contains("INVENTED"));
+    assert!(so.contains("does not replace"));
+    let (ins, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["inspect", "--model", "demo-out/water_mains.copse", "--json"],
+            None,
+        ),
+        0,
+    );
+    let j = json_of(&ins);
+    let rank = |name: &str| {
+        j["importance"]
+            .as_array()
+            .expect("list")
+            .iter()
+            .find(|e| e["feature"] == name)
+            .and_then(|e| e["rank"].as_u64())
+            .expect("ranked")
+    };
+    assert!(rank("past_repairs") < rank("valve_distance_m"));
+}

@@ -13,7 +13,7 @@ use std::path::PathBuf;
 /// Start with `copse demo`. Model outputs support, and never replace, professional
 /// judgement: validate on your own data before relying on them.
 #[derive(Debug, Parser)]
-#[command(name = "copse", version, about, long_about = None, max_term_width = 100)]
+#[command(name = "copse", version, max_term_width = 100)]
 pub struct Cli {
     /// Threads to use (default: one per core). Results do not depend on it.
     #[arg(long, global = true, value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]

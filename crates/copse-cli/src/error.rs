@@ -69,7 +69,8 @@ impl CliError {
             return CliError::closed_pipe();
         }
         CliError::failure(format!(
-            "could not write {what}: {e}; check the disk has room and the folder is writable"
+            "could not write {what}: {}; check the disk has room and the folder is writable",
+            crate::reader::io_reason(e)
         ))
     }
 

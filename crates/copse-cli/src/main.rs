@@ -48,7 +48,7 @@ fn main() {
                 _ => {
                     let text = e.render().to_string();
                     let text = text.strip_prefix("error: ").unwrap_or(&text);
-                    eprint!("copse: {text}");
+                    eprint!("copse: error: {text}");
                     2
                 }
             };

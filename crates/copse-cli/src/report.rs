@@ -383,8 +383,11 @@ fn measure_words(m: ImportanceMeasure) -> &'static str {
 }
 
 /// The importance ranking: one line per input with its mean rise, standard error, a
-/// bar, and (for classes) the rise in Brier score beside it.
-pub fn importance_table(out: &mut String, imp: &PermutationImportance) {
+/// bar, and with `show_brier` (for classes) the rise in Brier score beside it. Per-tree
+/// out-of-bag importance leaves the Brier column out: a fully grown tree's leaves are
+/// pure, so its Brier rise is exactly twice its error rise and adds nothing.
+pub fn importance_table(out: &mut String, imp: &PermutationImportance, show_brier: bool) {
+    let brier = if show_brier { imp.brier.as_ref() } else { None };
     let err = &imp.error;
     let ranked = err.ranked();
     let w = ranked
@@ -394,12 +397,7 @@ pub fn importance_table(out: &mut String, imp: &PermutationImportance) {
         .unwrap_or(5)
         .max(5);
     let top = ranked.iter().map(|f| f.mean).fold(0.0f64, f64::max);
-    let brier_of = |j: usize| {
-        imp.brier
-            .as_ref()
-            .and_then(|b| b.features.get(j))
-            .map(|b| b.mean)
-    };
+    let brier_of = |j: usize| brier.and_then(|b| b.features.get(j)).map(|b| b.mean);
     // One number of decimals for the whole column: four significant digits of the top.
     let dec = |top: f64| {
         if top > 0.0 {
@@ -417,7 +415,7 @@ pub fn importance_table(out: &mut String, imp: &PermutationImportance) {
         "  {:>3}  {:<w$}  {:>11}  {:>9}",
         "#", "input", "rise", "± s.e."
     );
-    if imp.brier.is_some() {
+    if brier.is_some() {
         let _ = write!(head, "  {:>11}", "Brier rise");
     }
     let _ = writeln!(out, "{head}");
@@ -483,7 +481,7 @@ pub fn importance_section(out: &mut String, st: Style, model: &Model) {
         Some(imp) => {
             let _ = writeln!(out, "{}", importance_intro(&imp.error, false));
             let _ = writeln!(out);
-            importance_table(out, imp);
+            importance_table(out, imp, false);
         }
         None => {
             let _ = writeln!(

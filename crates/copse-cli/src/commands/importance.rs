@@ -78,7 +78,7 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
     let _ = writeln!(text, "  {:<24}{} ({} rows)\n", "data", source, data.rows);
     let _ = writeln!(text, "{}", st.head("WHICH INPUTS MATTER ON THESE ROWS"));
     let _ = writeln!(text, "{}\n", report::importance_intro(&imp.error, true));
-    report::importance_table(&mut text, &imp);
+    report::importance_table(&mut text, &imp, true);
     let _ = writeln!(text);
     report::caution(&mut text, st);
     emit(&text)
