@@ -14,6 +14,11 @@ const GRID: RGBColor = RGBColor(228, 231, 235);
 
 type PlotResult<T> = Result<T, String>;
 
+/// An axis number without float noise or needless zeros (`150000`, `0.095`).
+fn tick(v: f64) -> String {
+    format!("{}", (v * 1e6).round() / 1e6)
+}
+
 fn err<E: std::fmt::Display>(e: E) -> String {
     e.to_string()
 }
@@ -92,6 +97,7 @@ pub fn importance_svg(imp: &Importance, title: &str, subtitle: &str) -> PlotResu
                 _ => String::new(),
             })
             .x_desc("rise when the input is shuffled (whiskers: ± one standard error)")
+            .x_label_formatter(&|v| tick(*v))
             .label_style(("sans-serif", 13).into_font().color(&INK))
             .axis_desc_style(("sans-serif", 13).into_font().color(&GREY))
             .draw()
@@ -194,6 +200,7 @@ pub fn oob_curve_svg(curve: &[Option<f64>], measure: &str, subtitle: &str) -> Pl
             .x_desc("number of trees")
             .y_desc(measure)
             .x_label_formatter(&|v| format!("{v:.0}"))
+            .y_label_formatter(&|v| tick(*v))
             .label_style(("sans-serif", 13).into_font().color(&INK))
             .axis_desc_style(("sans-serif", 13).into_font().color(&GREY))
             .draw()
