@@ -143,8 +143,9 @@ pub fn waveform40(n: usize, seed: u64) -> Synthetic {
     waveform(n, 19, seed)
 }
 
-/// Friedman #1: x ~ U[0,1]^10, y = 10 sin(pi x1 x2) + 20 (x3 - 0.5)^2 + 10 x4 + 5 x5
-/// + e, e ~ N(0, 1). Only x1..x5 matter.
+/// Friedman #1: x uniform on the unit cube in 10 dimensions,
+/// y = 10 sin(pi x1 x2) + 20 (x3 - 0.5)^2 + 10 x4 + 5 x5 + e, e ~ N(0, 1).
+/// Only x1..x5 matter.
 pub fn friedman1(n: usize, seed: u64) -> Synthetic {
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
     let mut x = Array2::zeros((n, 10));
