@@ -908,3 +908,20 @@ fn demo_runs_and_says_where_everything_went() {
     };
     assert!(rank("past_repairs") < rank("valve_distance_m"));
 }
+
+/// Line numbers in messages count the header as line 1, with LF or CRLF line ends
+/// (regression: CRLF files were reported one line early).
+#[test]
+fn crlf_files_report_the_right_line() {
+    let dir = tmp();
+    for (name, eol) in [("lf.csv", "\n"), ("crlf.csv", "\r\n")] {
+        let data = ["a,b,y", "1,2,x", "3,4,y", "5,6,x", "7,8"].join(eol) + eol;
+        std::fs::write(dir.path().join(name), data).expect("write");
+        let args = ["train", "--data", name, "--target", "y", "--out", "m.copse"];
+        let (_, se) = expect_code(&copse_in(dir.path(), &args, None), 2);
+        assert!(
+            se.contains(&format!("{name} line 5: found 2 fields")),
+            "{se}"
+        );
+    }
+}

@@ -5,6 +5,8 @@ use crate::error::{CliError, CliResult};
 use std::fs::File;
 use std::io::{self, Read};
 use std::path::Path;
+use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::Arc;
 
 /// The field separator of a CSV file.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -44,6 +46,90 @@ pub struct CsvInput {
     headers: Vec<String>,
     size: Option<u64>,
     delimiter: Delimiter,
+    consumed: Arc<AtomicU64>,
+}
+
+/// Turns each CR LF pair into LF as bytes stream through, and counts the bytes read
+/// from the source. The CSV parser then ends every record on the LF, so the line
+/// numbers it reports are right for files with CRLF line ends too (ending a record on
+/// the CR would count each line break one record late). A lone CR is kept.
+pub struct CrlfToLf<R> {
+    inner: R,
+    buf: Box<[u8]>,
+    start: usize,
+    end: usize,
+    held_cr: bool,
+    consumed: Arc<AtomicU64>,
+}
+
+impl<R: Read> CrlfToLf<R> {
+    /// Wraps `inner`; `consumed` counts the bytes taken from it.
+    pub fn new(inner: R, consumed: Arc<AtomicU64>) -> Self {
+        CrlfToLf {
+            inner,
+            buf: vec![0u8; 1 << 16].into_boxed_slice(),
+            start: 0,
+            end: 0,
+            held_cr: false,
+            consumed,
+        }
+    }
+}
+
+impl<R: Read> Read for CrlfToLf<R> {
+    fn read(&mut self, out: &mut [u8]) -> io::Result<usize> {
+        if out.is_empty() {
+            return Ok(0);
+        }
+        loop {
+            if self.start == self.end {
+                let n = loop {
+                    match self.inner.read(&mut self.buf) {
+                        Ok(n) => break n,
+                        Err(e) if e.kind() == io::ErrorKind::Interrupted => continue,
+                        Err(e) => return Err(e),
+                    }
+                };
+                self.consumed.fetch_add(n as u64, Ordering::Relaxed);
+                self.start = 0;
+                self.end = n;
+                if self.held_cr {
+                    self.held_cr = false;
+                    if n == 0 || self.buf[0] != b'\n' {
+                        // The held CR was not part of a CR LF pair: pass it on.
+                        out[0] = b'\r';
+                        return Ok(1);
+                    }
+                }
+                if n == 0 {
+                    return Ok(0);
+                }
+            }
+            let mut w = 0;
+            while self.start < self.end && w < out.len() {
+                let b = self.buf[self.start];
+                if b == b'\r' {
+                    if self.start + 1 == self.end {
+                        // Whether this CR starts a CR LF pair is known only after
+                        // the next read.
+                        self.held_cr = true;
+                        self.start += 1;
+                        break;
+                    }
+                    if self.buf[self.start + 1] == b'\n' {
+                        self.start += 1;
+                        continue;
+                    }
+                }
+                out[w] = b;
+                w += 1;
+                self.start += 1;
+            }
+            if w > 0 {
+                return Ok(w);
+            }
+        }
+    }
 }
 
 /// Says how to name an input in messages: its path, or "standard input" for `-`.
@@ -81,6 +167,8 @@ impl CsvInput {
             let size = f.metadata().ok().map(|m| m.len());
             (Box::new(f), size)
         };
+        let consumed = Arc::new(AtomicU64::new(0));
+        let source: Box<dyn Read + Send> = Box::new(CrlfToLf::new(source, consumed.clone()));
         let reader = csv::ReaderBuilder::new()
             .delimiter(delimiter.byte())
             .has_headers(true)
@@ -92,6 +180,7 @@ impl CsvInput {
             headers: Vec::new(),
             size,
             delimiter,
+            consumed,
         };
         input.read_headers()?;
         Ok(input)
@@ -147,9 +236,10 @@ impl CsvInput {
         self.size
     }
 
-    /// Bytes consumed so far (for progress).
+    /// Bytes taken from the source so far (for progress; read ahead of parsing by at
+    /// most a buffer).
     pub fn bytes_read(&self) -> u64 {
-        self.reader.position().byte()
+        self.consumed.load(Ordering::Relaxed)
     }
 
     /// Reads the next data row into `record`; `false` at the end of the input. The
@@ -239,5 +329,75 @@ pub fn io_reason(e: &io::Error) -> String {
                 None => s,
             }
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Hands out at most `step` bytes per read, to cross every buffer boundary.
+    struct Trickle<'a> {
+        data: &'a [u8],
+        step: usize,
+    }
+
+    impl Read for Trickle<'_> {
+        fn read(&mut self, out: &mut [u8]) -> io::Result<usize> {
+            let n = self.step.min(out.len()).min(self.data.len());
+            out[..n].copy_from_slice(&self.data[..n]);
+            self.data = &self.data[n..];
+            Ok(n)
+        }
+    }
+
+    fn convert(data: &[u8], step: usize, out_step: usize) -> Vec<u8> {
+        let counter = Arc::new(AtomicU64::new(0));
+        let mut r = CrlfToLf::new(Trickle { data, step }, counter.clone());
+        let mut got = Vec::new();
+        let mut chunk = vec![0u8; out_step];
+        loop {
+            let n = r.read(&mut chunk).unwrap();
+            if n == 0 {
+                break;
+            }
+            got.extend_from_slice(&chunk[..n]);
+        }
+        assert_eq!(counter.load(Ordering::Relaxed), data.len() as u64);
+        got
+    }
+
+    #[test]
+    fn crlf_pairs_become_lf_at_every_chunk_boundary() {
+        let data = b"a,b\r\n1,2\r\n\r\r\n\"x\r\ny\",3\r\rz\r";
+        let want = b"a,b\n1,2\n\r\n\"x\ny\",3\r\rz\r";
+        for step in 1..8 {
+            for out_step in 1..5 {
+                assert_eq!(convert(data, step, out_step), want, "{step} {out_step}");
+            }
+        }
+    }
+
+    #[test]
+    fn line_numbers_are_right_with_crlf() {
+        let data = b"a,b\r\n1,2\r\n3,4\r\n5\r\n";
+        let counter = Arc::new(AtomicU64::new(0));
+        let mut rdr = csv::ReaderBuilder::new().from_reader(CrlfToLf::new(&data[..], counter));
+        let mut rec = csv::StringRecord::new();
+        let mut lines = Vec::new();
+        loop {
+            match rdr.read_record(&mut rec) {
+                Ok(true) => lines.push(rec.position().map(|p| p.line())),
+                Ok(false) => break,
+                Err(e) => match e.kind() {
+                    csv::ErrorKind::UnequalLengths { pos, .. } => {
+                        lines.push(pos.as_ref().map(|p| p.line()));
+                        break;
+                    }
+                    _ => panic!("{e}"),
+                },
+            }
+        }
+        assert_eq!(lines, vec![Some(2), Some(3), Some(4)]);
     }
 }
