@@ -90,7 +90,9 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         csv::ErrorKind::Io(io) => CliError::write(&out_name, &io),
         other => CliError::failure(format!("could not write {out_name}: {other:?}")),
     };
-    w.write_record(&header).map_err(werr)?;
+    // The header goes out with the first block, so a fault in the first rows leaves
+    // standard output empty.
+    let mut header_written = false;
 
     let block = a.block_rows as usize;
     let p = forest.n_features();
@@ -114,6 +116,10 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         let preds = forest
             .predict(x)
             .map_err(|e| forest_error(&e, &format!("cannot score {}", input.name())))?;
+        if !header_written {
+            w.write_record(&header).map_err(werr)?;
+            header_written = true;
+        }
         for (i, pred) in preds.rows().into_iter().enumerate() {
             fields.clear();
             for &c in &keep {
@@ -137,6 +143,9 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         }
     }
     bar.finish();
+    if !header_written {
+        w.write_record(&header).map_err(werr)?;
+    }
     let out = w
         .into_inner()
         .map_err(|e| CliError::write(&out_name, e.error()))?;
