@@ -162,23 +162,8 @@ impl Forest {
                     format!("has {} outputs, the model {k}", tree.n_outputs()),
                 );
             }
-            let nodes = tree.nodes();
-            if nodes.is_empty() {
-                return bad(t, "has no nodes".into());
-            }
-            for (i, n) in nodes.iter().enumerate() {
-                match n.feature() {
-                    None if n.child() >= tree.n_leaves() => {
-                        return bad(t, format!("node {i} points at a leaf that does not exist"));
-                    }
-                    Some(j) if j >= p => {
-                        return bad(t, format!("node {i} tests input {j} of {p}"));
-                    }
-                    Some(_) if n.child() <= i || n.child() + 1 >= nodes.len() => {
-                        return bad(t, format!("node {i} has children out of order"));
-                    }
-                    _ => {}
-                }
+            if let Err(e) = tree.check(&self.meta) {
+                return bad(t, e.message().to_string());
             }
         }
         Ok(())

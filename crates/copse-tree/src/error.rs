@@ -22,6 +22,8 @@ pub enum ErrorKind {
     TooLarge,
     /// A setting is out of its allowed range.
     InvalidSetting,
+    /// A tree or model that came from outside is damaged or inconsistent.
+    InvalidModel,
 }
 
 /// An error from the tree core.

@@ -29,6 +29,7 @@
 //! ```
 #![deny(missing_docs)]
 
+mod check;
 pub mod data;
 pub mod error;
 pub mod grow;
