@@ -2,6 +2,7 @@
 //! computed while training (out-of-bag accuracy, importance).
 use crate::error::{Error, ErrorKind, Result};
 use crate::importance::{Importance, PermutationImportance};
+use crate::inbag::InBag;
 use crate::oob::{OobReport, OobSummary};
 use crate::outcome::{Outcome, MISSING};
 use crate::settings::ForestSettings;
@@ -32,6 +33,8 @@ pub struct Forest {
     pub(crate) oob: OobSummary,
     pub(crate) oob_importance: Option<PermutationImportance>,
     pub(crate) impurity_importance: Importance,
+    /// Times each tree drew each training row, when kept ([`crate::TrainOptions`]).
+    pub(crate) inbag: Option<InBag>,
 }
 
 /// What [`Forest::train`] returns: the model, and the per-row out-of-bag results that
@@ -113,6 +116,12 @@ impl Forest {
         &self.impurity_importance
     }
 
+    /// Times each tree drew each training row, if training kept them
+    /// ([`crate::TrainOptions::keep_inbag`]).
+    pub fn inbag(&self) -> Option<&InBag> {
+        self.inbag.as_ref()
+    }
+
     /// Total number of nodes over all trees.
     pub fn n_nodes(&self) -> usize {
         self.trees.iter().map(|t| t.nodes().len()).sum()
@@ -165,6 +174,9 @@ impl Forest {
             if let Err(e) = tree.check(&self.meta) {
                 return bad(t, e.message().to_string());
             }
+        }
+        if let Some(inbag) = &self.inbag {
+            inbag.check(self.training_rows, self.trees.len())?;
         }
         Ok(())
     }

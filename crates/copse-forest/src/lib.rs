@@ -11,6 +11,7 @@
 //! - [`predict`]: batch prediction and evaluation on labelled data;
 //! - [`metrics`]: error, confusion matrix, log loss, Brier score, ROC AUC, MSE;
 //! - [`importance`]: permutation and impurity-decrease importance;
+//! - [`inbag`]: how many times each tree drew each row, kept on request ([`InBag`]);
 //! - [`synth`]: seeded generators of published synthetic problems.
 //!
 //! Determinism: every random draw comes from a generator seeded by the master seed
@@ -36,6 +37,7 @@
 pub mod error;
 pub mod forest;
 pub mod importance;
+pub mod inbag;
 pub mod metrics;
 pub mod oob;
 pub mod outcome;
@@ -53,9 +55,10 @@ pub use importance::{
     FeatureImportance, Importance, ImportanceMeasure, ImportanceMethod, PermutationImportance,
     IMPURITY_CAUTION,
 };
+pub use inbag::InBag;
 pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics};
 pub use oob::{OobReport, OobSummary};
 pub use outcome::{Outcome, MISSING};
 pub use predict::Evaluation;
 pub use settings::{FeaturesPerSplit, ForestSettings, Sampling};
-pub use train::{Progress, Stage};
+pub use train::{Progress, Stage, TrainOptions};

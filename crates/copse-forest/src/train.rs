@@ -4,6 +4,7 @@
 use crate::error::{bad_setting, Error, ErrorKind, Result};
 use crate::forest::{Forest, Task, Trained};
 use crate::importance::{impurity_importance, oob_permutation};
+use crate::inbag::InBag;
 use crate::oob::{out_of_bag, OobMask};
 use crate::outcome::Outcome;
 use crate::rng::{task_rng, Purpose};
@@ -37,11 +38,22 @@ pub struct Progress {
     pub total: usize,
 }
 
+/// Optional records a training run keeps beyond what every model holds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct TrainOptions {
+    /// Keep in the model how many times each tree drew each training row (one byte per
+    /// row and tree; see [`InBag`]). Needed for standard errors of predictions
+    /// by the infinitesimal jackknife. Default false.
+    pub keep_inbag: bool,
+}
+
 /// One tree and what training needs to remember about its sample.
 struct Grown {
     tree: Tree,
     bag_weight: f64,
     oob: OobMask,
+    /// In-bag counts and how many saturated, when asked for.
+    inbag: Option<(Vec<u8>, usize)>,
 }
 
 impl Forest {
@@ -76,6 +88,29 @@ impl Forest {
         meta: &[FeatureMeta],
         outcome: &Outcome,
         settings: &ForestSettings,
+        progress: &(dyn Fn(Progress) + Sync),
+    ) -> Result<Trained> {
+        Self::train_with_options(
+            x,
+            meta,
+            outcome,
+            settings,
+            TrainOptions::default(),
+            progress,
+        )
+    }
+
+    /// [`Forest::train_with_progress`] with optional records kept in the model
+    /// ([`TrainOptions`]).
+    ///
+    /// # Errors
+    /// As [`Forest::train`].
+    pub fn train_with_options(
+        x: ArrayView2<'_, f64>,
+        meta: &[FeatureMeta],
+        outcome: &Outcome,
+        settings: &ForestSettings,
+        options: TrainOptions,
         progress: &(dyn Fn(Progress) + Sync),
     ) -> Result<Trained> {
         settings.validate()?;
@@ -118,6 +153,7 @@ impl Forest {
                     let tree = grower.grow(&data, &target, weights, &mut grow_rng)?;
                     let bag_weight = weights.iter().sum();
                     let oob = OobMask::from_weights(weights);
+                    let inbag = options.keep_inbag.then(|| InBag::column(weights));
                     let d = done.fetch_add(1, Ordering::Relaxed) + 1;
                     progress(Progress {
                         stage: Stage::Growing,
@@ -128,6 +164,7 @@ impl Forest {
                         tree,
                         bag_weight,
                         oob,
+                        inbag,
                     })
                 },
             )
@@ -137,11 +174,21 @@ impl Forest {
         let mut trees = Vec::with_capacity(n_trees);
         let mut masks = Vec::with_capacity(n_trees);
         let mut bag_weights = Vec::with_capacity(n_trees);
+        let mut inbag_columns = Vec::new();
+        let mut saturated = 0;
         for g in grown {
             trees.push(g.tree);
             masks.push(g.oob);
             bag_weights.push(g.bag_weight);
+            if let Some((col, sat)) = g.inbag {
+                inbag_columns.push(col);
+                saturated += sat;
+            }
         }
+        let inbag = options
+            .keep_inbag
+            .then(|| InBag::from_tree_columns(&inbag_columns, n, outcome.n_labelled(), saturated));
+        drop(inbag_columns);
         let (report, summary) = out_of_bag(&trees, &masks, x, outcome, progress);
         let oob_importance = if settings.oob_importance {
             oob_permutation(&trees, &masks, x, outcome, meta, settings.seed, progress)
@@ -165,6 +212,7 @@ impl Forest {
             oob: summary,
             oob_importance,
             impurity_importance: impurity,
+            inbag,
         };
         Ok(Trained {
             forest,
