@@ -57,7 +57,24 @@ impl Model {
     /// file, naming it and saying what to do.
     pub fn load(path: &Path) -> CliResult<Model> {
         let model: Model = model_file::read(path).map_err(|e| CliError::input(e.to_string()))?;
-        let name = path.display();
+        model.verified(&path.display().to_string())
+    }
+
+    /// Decodes a model from the complete bytes of a model file and checks it.
+    ///
+    /// # Errors
+    /// As for [`Model::load`].
+    #[cfg(test)]
+    pub fn from_bytes(bytes: &[u8], name: &str) -> CliResult<Model> {
+        let model: Model =
+            model_file::decode(bytes, name).map_err(|e| CliError::input(e.to_string()))?;
+        model.verified(name)
+    }
+
+    /// Checks a decoded model hangs together: trees well formed, the schema's inputs
+    /// and classes the trees' own.
+    fn verified(self, name: &str) -> CliResult<Model> {
+        let model = self;
         let bad = |what: String| {
             CliError::input(format!(
                 "{name} is not a usable model: {what}; retrain it with 'copse train'"
@@ -83,5 +100,95 @@ impl Model {
             _ => {}
         }
         Ok(model)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::schema::{Missing, TargetSchema};
+    use copse_forest::{synth, ForestSettings};
+    use ndarray::Array2;
+    use rand::{Rng, SeedableRng};
+
+    /// A small real model: 3 trees on 200 rows of the twonorm problem, with one
+    /// categorical input added so category bit sets are present.
+    fn small_model() -> Model {
+        let data = synth::twonorm(200, 5);
+        let (n, p) = data.x.dim();
+        let x = Array2::from_shape_fn((n, p + 1), |(i, j)| {
+            if j < p {
+                data.x[[i, j]]
+            } else {
+                (i % 3) as f64
+            }
+        });
+        let mut meta = data.meta.clone();
+        meta.push(copse_tree::FeatureMeta::categorical(
+            "shade",
+            vec!["a".into(), "b".into(), "c".into()],
+        ));
+        let settings = ForestSettings {
+            trees: 3,
+            seed: 2,
+            ..ForestSettings::default()
+        };
+        let trained =
+            copse_forest::Forest::train(x.view(), &meta, &data.outcome, &settings).unwrap();
+        let classes = trained.forest.classes().to_vec();
+        Model {
+            schema: Schema {
+                features: meta,
+                target: TargetSchema {
+                    name: "class".into(),
+                    classes,
+                    task: Task::Classify,
+                },
+                missing: Missing::standard(),
+            },
+            forest: trained.forest,
+            training: TrainingRecord {
+                copse_version: "test".into(),
+                source: "twonorm".into(),
+                rows_read: n,
+                rows_without_outcome: 0,
+                ignored: Vec::new(),
+                class_counts: vec![100, 100],
+                features_rule: "auto".into(),
+                value_range: None,
+            },
+        }
+    }
+
+    /// A hostile file can carry a valid checksum over altered contents. Whatever single
+    /// byte is changed (checksum recomputed), reading either refuses the file or gives
+    /// a model that predicts and renders without a panic.
+    #[test]
+    fn altered_contents_with_a_valid_checksum_never_panic() {
+        let model = small_model();
+        let bytes = model_file::encode(&model).unwrap();
+        let n = bytes.len();
+        let rows = Array2::from_shape_fn((20, model.forest.n_features()), |(i, j)| {
+            if j + 1 == model.forest.n_features() {
+                (i % 5) as f64 - 1.0
+            } else {
+                (i as f64 - 10.0) / 4.0
+            }
+        });
+        let mut rng = rand::rngs::StdRng::seed_from_u64(11);
+        for _ in 0..400 {
+            let mut b = bytes.clone();
+            let at = rng.gen_range(model_file::HEADER_LEN..n - model_file::TRAILER_LEN);
+            b[at] ^= 1 << rng.gen_range(0..8);
+            let crc = crc32fast::hash(&b[..n - 4]);
+            b[n - 4..].copy_from_slice(&crc.to_le_bytes());
+            if let Ok(m) = Model::from_bytes(&b, "hostile") {
+                let _ = m.forest.predict(rows.view());
+                for t in m.forest.trees() {
+                    let _ =
+                        copse_tree::render::render(t, m.forest.meta(), Some(m.forest.classes()));
+                }
+            }
+        }
     }
 }
