@@ -249,6 +249,28 @@ fn penguins_round_trip_with_categories_and_missing_cells() {
     assert!(kinds.contains(&("island".into(), "categorical".into())));
     assert!(kinds.contains(&("sex".into(), "categorical".into())));
     assert!(kinds.contains(&("bill_length_mm".into(), "numeric".into())));
+    // The stored bin layout spans the data: bill length runs from 32.1 to 59.6 mm
+    // (the file's own range; the palmerpenguins summary gives the same, from memory),
+    // with edges strictly inside it and increasing.
+    let bill = j["inputs"]
+        .as_array()
+        .expect("inputs")
+        .iter()
+        .find(|i| i["name"] == "bill_length_mm")
+        .expect("bill length");
+    assert_eq!(
+        (bill["min"].as_f64(), bill["max"].as_f64()),
+        (Some(32.1), Some(59.6))
+    );
+    let edges: Vec<f64> = bill["bin_edges"]
+        .as_array()
+        .expect("edges")
+        .iter()
+        .map(|e| e.as_f64().expect("edge"))
+        .collect();
+    assert_eq!(edges.len() as u64 + 1, bill["bins"].as_u64().expect("bins"));
+    assert!(edges.windows(2).all(|w| w[0] < w[1]));
+    assert!(edges[0] > 32.1 && edges[edges.len() - 1] < 59.6);
 
     // One out-of-bag line per training row, with the file line of each.
     let oob = read_csv(&std::fs::read(dir.path().join("oob.csv")).expect("oob file"));

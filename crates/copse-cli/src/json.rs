@@ -135,11 +135,22 @@ pub fn model_object(command: &str, model: &Model) -> Map<String, Value> {
         .schema
         .features
         .iter()
-        .map(|m| match &m.kind {
-            FeatureKind::Categorical { levels } => {
+        .enumerate()
+        .map(|(j, m)| match (&m.kind, model.schema.bins.get(j)) {
+            (FeatureKind::Categorical { levels }, _) => {
                 json!({ "name": m.name, "kind": "categorical", "categories": levels })
             }
-            _ => json!({ "name": m.name, "kind": "numeric" }),
+            (_, Some(b)) if b.n_bins > 0 => json!({
+                "name": m.name,
+                "kind": "numeric",
+                "bins": b.n_bins,
+                "min": b.lo[0],
+                "max": b.hi[b.n_bins - 1],
+                "bin_edges": (1..b.n_bins)
+                    .map(|k| b.threshold_between(k, k + 1))
+                    .collect::<Vec<f64>>(),
+            }),
+            _ => json!({ "name": m.name, "kind": "numeric", "bins": 0 }),
         })
         .collect();
     map.insert("inputs".into(), Value::Array(inputs));

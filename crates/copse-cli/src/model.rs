@@ -87,6 +87,15 @@ impl Model {
         if model.schema.features != model.forest.meta() {
             return Err(bad("its input list does not match its trees".into()));
         }
+        let bins_fit = model.schema.bins.len() == model.schema.features.len()
+            && model
+                .schema
+                .bins
+                .iter()
+                .all(|b| b.categorical || (b.lo.len() == b.n_bins && b.hi.len() == b.n_bins));
+        if !bins_fit {
+            return Err(bad("its bin layout does not match its inputs".into()));
+        }
         let classes = model.forest.classes();
         match model.schema.target.task {
             Task::Classify
@@ -136,6 +145,10 @@ mod tests {
         let trained =
             copse_forest::Forest::train(x.view(), &meta, &data.outcome, &settings).unwrap();
         let classes = trained.forest.classes().to_vec();
+        let bins = copse_tree::BinnedData::new(x.view(), &meta, 256)
+            .unwrap()
+            .bins()
+            .to_vec();
         Model {
             schema: Schema {
                 features: meta,
@@ -145,6 +158,7 @@ mod tests {
                     task: Task::Classify,
                 },
                 missing: Missing::standard(),
+                bins,
             },
             forest: trained.forest,
             training: TrainingRecord {

@@ -16,7 +16,7 @@ type PlotResult<T> = Result<T, String>;
 
 /// An axis number without float noise or needless zeros (`150000`, `0.095`).
 fn tick(v: f64) -> String {
-    format!("{}", (v * 1e6).round() / 1e6)
+    crate::report::plain(v)
 }
 
 fn err<E: std::fmt::Display>(e: E) -> String {

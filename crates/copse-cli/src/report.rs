@@ -56,6 +56,11 @@ pub fn sig(v: f64, digits: usize) -> String {
     format!("{v:.decimals$}")
 }
 
+/// A data value as written in a file: shortest form, rounded to six decimals.
+pub fn plain(v: f64) -> String {
+    format!("{}", (v * 1e6).round() / 1e6)
+}
+
 /// A share as a percentage with one decimal.
 pub fn pct(v: f64) -> String {
     format!("{:.1}%", 100.0 * v)
@@ -167,12 +172,18 @@ pub fn data_section(out: &mut String, st: Style, model: &Model) {
             schema.features.len() - n_cat
         ),
     );
-    for f in schema.features.iter().take(40) {
-        let kind = match &f.kind {
-            FeatureKind::Categorical { levels } => {
+    for (j, f) in schema.features.iter().enumerate().take(40) {
+        let kind = match (&f.kind, schema.bins.get(j)) {
+            (FeatureKind::Categorical { levels }, _) => {
                 format!("categorical, {} categories", levels.len())
             }
-            _ => "numeric".to_string(),
+            (_, Some(b)) if b.n_bins > 0 => format!(
+                "numeric, {} to {} in {} bins",
+                plain(b.lo[0]),
+                plain(b.hi[b.n_bins - 1]),
+                b.n_bins
+            ),
+            _ => "numeric, no values".to_string(),
         };
         line(out, "", &format!("  {:<24}{kind}", f.name));
     }

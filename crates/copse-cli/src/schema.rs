@@ -8,7 +8,7 @@
 use crate::error::{CliError, CliResult};
 use crate::reader::CsvInput;
 use copse_forest::Outcome;
-use copse_tree::{FeatureKind, FeatureMeta};
+use copse_tree::{FeatureBins, FeatureKind, FeatureMeta};
 use ndarray::Array2;
 use serde::{Deserialize, Serialize};
 use std::cmp::Ordering;
@@ -106,6 +106,9 @@ pub struct Schema {
     pub target: TargetSchema,
     /// Missing-value tokens in force at training.
     pub missing: Missing,
+    /// Bin layout of each input as training used it (for numeric inputs, the lowest
+    /// and highest training value in each bin); filled in once the data is binned.
+    pub bins: Vec<FeatureBins>,
 }
 
 /// The roles the user gave to columns.
@@ -480,6 +483,7 @@ pub fn load_training(
                 task,
             },
             missing,
+            bins: Vec::new(),
         },
         x,
         outcome,

@@ -143,7 +143,15 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
 
     let trained = grow(&data, &settings, ui)?;
     let train_secs = started.elapsed().as_secs_f64();
-    let model = build_model(&data, trained.forest, &rule_words(fps));
+    let mut model = build_model(&data, trained.forest, &rule_words(fps));
+    // The bin layout the trees were grown on, kept in the schema for inspection. The
+    // forest binned the same data with the same limit, so this cannot fail where
+    // training succeeded.
+    model.schema.bins =
+        copse_tree::BinnedData::new(data.x.view(), &data.schema.features, settings.bin_limit)
+            .map_err(|e| CliError::failure(format!("binning {}: {}", data.source, e.message())))?
+            .bins()
+            .to_vec();
 
     let mut outputs = Vec::new();
     model.save(&a.out)?;
