@@ -1,6 +1,6 @@
 //! In-bag counts: how many times each tree drew each training row, kept in the model
 //! when asked for at training time ([`crate::TrainOptions::keep_inbag`]), because the
-//! standard errors of predictions by the infinitesimal jackknife need them.
+//! standard errors of predictions ([`crate::uncertainty`]) need them.
 //!
 //! Storage: one byte per (training row, tree), row by row, so a model of `B` trees on
 //! `n` rows grows by `n * B` bytes (500 trees on 10 000 rows: 5 MB). A count above 255

@@ -12,6 +12,9 @@
 //! - [`metrics`]: error, confusion matrix, log loss, Brier score, ROC AUC, MSE;
 //! - [`importance`]: permutation and impurity-decrease importance;
 //! - [`inbag`]: how many times each tree drew each row, kept on request ([`InBag`]);
+//! - [`significance`]: p-values for permutation importance;
+//! - [`stability`]: how one tree, bagged trees and a forest vary over seeds;
+//! - [`uncertainty`]: standard errors of predictions (infinitesimal jackknife);
 //! - [`synth`]: seeded generators of published synthetic problems.
 //!
 //! Determinism: every random draw comes from a generator seeded by the master seed
@@ -45,8 +48,11 @@ pub mod predict;
 mod rng;
 mod sample;
 pub mod settings;
+pub mod significance;
+pub mod stability;
 pub mod synth;
 pub mod train;
+pub mod uncertainty;
 
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use error::{Error, ErrorKind, Result};
@@ -61,4 +67,12 @@ pub use oob::{OobReport, OobSummary};
 pub use outcome::{Outcome, MISSING};
 pub use predict::Evaluation;
 pub use settings::{FeaturesPerSplit, ForestSettings, Sampling};
+pub use significance::{
+    holdout_importance, mirrored_null_test, response_permutation_test, PermutationSignificance,
+    Significance, SignificanceTest,
+};
+pub use stability::{
+    stability_report, KindStability, ModelKind, StabilityReport, StabilitySettings,
+};
 pub use train::{Progress, Stage, TrainOptions};
+pub use uncertainty::Uncertainty;

@@ -15,6 +15,12 @@ pub(crate) enum Purpose {
     OobPermute = 3,
     /// Permutation of input `j`, repeat `r`, on a held-out set.
     HeldOutPermute = 4,
+    /// Permutation `r` of the outcome, and the seed of the forest trained on it.
+    ResponsePermute = 5,
+    /// Seed series `s` of a stability report: cross-validation folds and forest seeds.
+    Stability = 6,
+    /// The split of the rows into two halves for hold-out importance.
+    HalfSplit = 7,
 }
 
 /// SplitMix64 output function (Steele, Lea & Flood 2014, "Fast splittable

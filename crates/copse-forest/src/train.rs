@@ -43,7 +43,7 @@ pub struct Progress {
 pub struct TrainOptions {
     /// Keep in the model how many times each tree drew each training row (one byte per
     /// row and tree; see [`InBag`]). Needed for standard errors of predictions
-    /// by the infinitesimal jackknife. Default false.
+    /// ([`Forest::prediction_uncertainty`]). Default false.
     pub keep_inbag: bool,
 }
 

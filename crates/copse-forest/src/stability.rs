@@ -1,0 +1,495 @@
+//! How stable is each kind of model: one tree, bagged trees and a random forest are
+//! each trained with several seeds on the same data, and the report says how much
+//! their error, their held-out predictions and their importance rankings move from
+//! seed to seed.
+//!
+//! Per seed `s`:
+//! - single tree: every input at every split, no resampling. Grown on all rows such a
+//!   tree is the same for every seed (the grower draws nothing at random when it tries
+//!   every input, and breaks ties between equally good splits in a fixed order), so
+//!   its seed-to-seed variation is measured through `folds`-fold cross-validation with
+//!   folds drawn by the seed: error = cross-validated error, held-out prediction of a
+//!   row = the prediction of the tree grown without its fold, importance = the
+//!   held-out permutation importance of each fold's tree on its fold (one permutation,
+//!   averaged over folds weighted by fold size);
+//! - bagged trees: bootstrap samples, every input at every split;
+//! - random forest: bootstrap samples, a random subset of inputs at every split.
+//!
+//! For both ensembles: error = out-of-bag error, held-out prediction = out-of-bag
+//! prediction, importance = out-of-bag permutation importance. Importance is the
+//! error measure (misclassification or mean squared error) throughout.
+//!
+//! Summaries over seeds, per kind: the mean, sample standard deviation, smallest and
+//! largest error; the prediction change, averaged over all pairs of seeds (classes:
+//! the share of rows whose held-out predicted class differs; values: the root mean
+//! squared difference of the held-out predictions divided by the standard deviation of
+//! the outcome); and the mean over pairs of seeds of Kendall's tau-b between the
+//! importance values (Kendall 1945, "The treatment of ties in ranking problems",
+//! Biometrika 33:239-251), 1 meaning the same order.
+use crate::error::{bad_setting, Result};
+use crate::forest::Forest;
+use crate::metrics::predicted_class;
+use crate::outcome::Outcome;
+use crate::rng::{task_rng, Purpose};
+use crate::settings::{FeaturesPerSplit, ForestSettings, Sampling};
+use crate::significance::subset;
+use copse_tree::FeatureMeta;
+use ndarray::{Array2, ArrayView2, Axis};
+use rand::seq::SliceRandom;
+use rand::RngCore;
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+/// What a stability study does.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StabilitySettings {
+    /// Number of seeds (at least 2; default 5).
+    pub seeds: usize,
+    /// Folds of the single tree's cross-validation (2 to the number of rows; default 5).
+    pub folds: usize,
+    /// Settings of the ensembles: number of trees, tree settings, bins, master seed.
+    /// The random forest uses its inputs per split ([`FeaturesPerSplit::Auto`] if
+    /// they say [`FeaturesPerSplit::All`]); bagged trees and the single tree use every
+    /// input. Sampling is forced to bootstrap for the ensembles (out-of-bag error needs
+    /// it) and to none for the single tree; `balanced` is kept for the ensembles.
+    pub forest: ForestSettings,
+}
+
+impl Default for StabilitySettings {
+    fn default() -> Self {
+        StabilitySettings {
+            seeds: 5,
+            folds: 5,
+            forest: ForestSettings::default(),
+        }
+    }
+}
+
+/// The kinds of model compared.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+pub enum ModelKind {
+    /// One tree, all rows, every input at every split.
+    SingleTree,
+    /// Trees on bootstrap samples, every input at every split.
+    BaggedTrees,
+    /// A random forest: trees on bootstrap samples, a random subset of inputs at every
+    /// split.
+    Forest,
+}
+
+/// How a kind of model varied over the seeds.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct KindStability {
+    /// The kind of model.
+    pub kind: ModelKind,
+    /// Error per seed: cross-validated (single tree) or out-of-bag (ensembles);
+    /// misclassification rate or mean squared error.
+    pub errors: Vec<f64>,
+    /// Mean of `errors`.
+    pub error_mean: f64,
+    /// Sample standard deviation of `errors` (n - 1 denominator).
+    pub error_sd: f64,
+    /// Smallest of `errors`.
+    pub error_min: f64,
+    /// Largest of `errors`.
+    pub error_max: f64,
+    /// Mean over pairs of seeds of the change in held-out predictions (see the module
+    /// documentation); `None` when no pair had a row predicted in both.
+    pub prediction_change: Option<f64>,
+    /// Mean over pairs of seeds of Kendall's tau-b between importances; `None` when
+    /// every pair had an importance vector with all values tied.
+    pub rank_tau: Option<f64>,
+    /// Importance per seed (outer) and input (inner, input order).
+    pub importance: Vec<Vec<f64>>,
+}
+
+/// What [`stability_report`] returns.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct StabilityReport {
+    /// Single tree, bagged trees, random forest, in that order.
+    pub kinds: Vec<KindStability>,
+    /// Number of seeds.
+    pub seeds: usize,
+    /// Folds of the single tree's cross-validation.
+    pub folds: usize,
+    /// Trees in each ensemble.
+    pub trees: usize,
+    /// Inputs per split of the random forest, as resolved for the data.
+    pub forest_features_per_split: usize,
+    /// Rows with a known outcome.
+    pub rows: usize,
+    /// True for a class outcome (errors are misclassification rates and the prediction
+    /// change a share of rows), false for values (mean squared errors, relative root
+    /// mean squared difference).
+    pub classes: bool,
+}
+
+/// One seed's results for one kind.
+struct Run {
+    error: f64,
+    /// Held-out prediction per row (class index as f64, or value); NaN when none.
+    held_out: Vec<f64>,
+    importance: Vec<f64>,
+}
+
+/// Trains the three kinds of model with `settings.seeds` seeds each and summarises how
+/// they vary (see the module documentation). Seed series `s` draws the folds and the
+/// ensembles' seeds from the generator for `(settings.forest.seed, s)`. Runs on the
+/// current rayon pool; the report is the same for any number of threads.
+/// `progress(done, total)` counts finished models.
+///
+/// # Errors
+/// `InvalidSetting` for fewer than 2 seeds or folds out of range; the errors of
+/// [`Forest::train`] for the data.
+pub fn stability_report(
+    x: ArrayView2<'_, f64>,
+    meta: &[FeatureMeta],
+    outcome: &Outcome,
+    settings: &StabilitySettings,
+    progress: &(dyn Fn(usize, usize) + Sync),
+) -> Result<StabilityReport> {
+    if settings.seeds < 2 {
+        return bad_setting("a stability report compares seeds, so it needs at least 2");
+    }
+    let labelled: Vec<usize> = (0..outcome.len())
+        .filter(|&i| !outcome.is_missing(i))
+        .collect();
+    if settings.folds < 2 || settings.folds > labelled.len() {
+        return bad_setting(format!(
+            "cross-validation folds must be 2 to the number of rows with an outcome ({}); got {}",
+            labelled.len(),
+            settings.folds
+        ));
+    }
+    settings.forest.validate()?;
+    let classes = outcome.is_classes();
+    let p = x.ncols();
+    let mut bagged = settings.forest.clone();
+    bagged.features_per_split = FeaturesPerSplit::All;
+    bagged.sampling = Sampling::Bootstrap;
+    bagged.oob_importance = true;
+    let mut forest = bagged.clone();
+    forest.features_per_split = match settings.forest.features_per_split {
+        FeaturesPerSplit::All => FeaturesPerSplit::Auto,
+        k => k,
+    };
+    let k_forest = forest.features_per_split.resolve(p, classes)?;
+
+    let total = settings.seeds * (settings.folds + 2);
+    let done = std::sync::atomic::AtomicUsize::new(0);
+    let tick = |n: usize| {
+        let d = done.fetch_add(n, std::sync::atomic::Ordering::Relaxed) + n;
+        progress(d, total);
+    };
+    let mut runs: [Vec<Run>; 3] = [Vec::new(), Vec::new(), Vec::new()];
+    for s in 0..settings.seeds {
+        let mut rng = task_rng(settings.forest.seed, Purpose::Stability, s as u64, 0);
+        let mut order = labelled.clone();
+        order.shuffle(&mut rng);
+        runs[0].push(cross_validated_tree(
+            x,
+            meta,
+            outcome,
+            &settings.forest,
+            &order,
+            settings.folds,
+            rng.next_u64(),
+            &tick,
+        )?);
+        for (slot, base) in [(1, &bagged), (2, &forest)] {
+            let mut st = base.clone();
+            st.seed = rng.next_u64();
+            runs[slot].push(ensemble_run(x, meta, outcome, &st)?);
+            tick(1);
+        }
+    }
+    let scale = if classes {
+        1.0
+    } else {
+        outcome_sd(outcome, &labelled)
+    };
+    let kinds = [
+        ModelKind::SingleTree,
+        ModelKind::BaggedTrees,
+        ModelKind::Forest,
+    ]
+    .into_iter()
+    .zip(runs)
+    .map(|(kind, runs)| summarise(kind, &runs, &labelled, classes, scale))
+    .collect();
+    Ok(StabilityReport {
+        kinds,
+        seeds: settings.seeds,
+        folds: settings.folds,
+        trees: settings.forest.trees,
+        forest_features_per_split: k_forest,
+        rows: labelled.len(),
+        classes,
+    })
+}
+
+/// The single tree's run for one seed: `folds`-fold cross-validation over `order`
+/// (labelled rows in a seed-drawn order; fold `f` holds positions `f, f + folds, ...`).
+#[allow(clippy::too_many_arguments)]
+fn cross_validated_tree(
+    x: ArrayView2<'_, f64>,
+    meta: &[FeatureMeta],
+    outcome: &Outcome,
+    base: &ForestSettings,
+    order: &[usize],
+    folds: usize,
+    seed: u64,
+    tick: &(dyn Fn(usize) + Sync),
+) -> Result<Run> {
+    let tree_settings = ForestSettings {
+        trees: 1,
+        features_per_split: FeaturesPerSplit::All,
+        sampling: Sampling::Whole,
+        balanced: false,
+        oob_importance: false,
+        ..base.clone()
+    };
+    let n = x.nrows();
+    let per_fold: Vec<(Vec<usize>, Vec<f64>, Vec<f64>)> = (0..folds)
+        .into_par_iter()
+        .map(|f| -> Result<(Vec<usize>, Vec<f64>, Vec<f64>)> {
+            let held: Vec<usize> = order.iter().copied().skip(f).step_by(folds).collect();
+            let train: Vec<usize> = order
+                .iter()
+                .enumerate()
+                .filter(|(pos, _)| pos % folds != f)
+                .map(|(_, &i)| i)
+                .collect();
+            let (xt, yt) = (x.select(Axis(0), &train), subset(outcome, &train));
+            let tree = Forest::train(xt.view(), meta, &yt, &tree_settings)?.forest;
+            let (xh, yh) = (x.select(Axis(0), &held), subset(outcome, &held));
+            let preds = tree.predict(xh.view())?;
+            let held_out = held_values(&preds, outcome.is_classes());
+            // One permutation per input; a fold of one row cannot be permuted.
+            let importance = if held.len() >= 2 {
+                let imp = tree.permutation_importance(xh.view(), &yh, 1, seed ^ f as u64)?;
+                imp.error.features.iter().map(|fi| fi.mean).collect()
+            } else {
+                vec![0.0; x.ncols()]
+            };
+            tick(1);
+            Ok((held, held_out, importance))
+        })
+        .collect::<Result<Vec<_>>>()?;
+    let mut held_out = vec![f64::NAN; n];
+    let mut importance = vec![0.0; x.ncols()];
+    for (rows, preds, imp) in &per_fold {
+        for (&i, &v) in rows.iter().zip(preds) {
+            held_out[i] = v;
+        }
+        let w = rows.len() as f64 / order.len() as f64;
+        importance
+            .iter_mut()
+            .zip(imp)
+            .for_each(|(a, v)| *a += w * v);
+    }
+    let error = held_out_error(outcome, &held_out, order);
+    Ok(Run {
+        error,
+        held_out,
+        importance,
+    })
+}
+
+/// One ensemble trained on all rows.
+fn ensemble_run(
+    x: ArrayView2<'_, f64>,
+    meta: &[FeatureMeta],
+    outcome: &Outcome,
+    settings: &ForestSettings,
+) -> Result<Run> {
+    let trained = Forest::train(x, meta, outcome, settings)?;
+    let error = trained
+        .forest
+        .oob()
+        .metrics
+        .as_ref()
+        .map_or(f64::NAN, crate::metrics::Metrics::error);
+    let held_out = held_values(&trained.oob.predictions, outcome.is_classes());
+    let importance = match trained.forest.oob_importance() {
+        Some(imp) => imp.error.features.iter().map(|f| f.mean).collect(),
+        None => vec![0.0; x.ncols()],
+    };
+    Ok(Run {
+        error,
+        held_out,
+        importance,
+    })
+}
+
+/// Predicted class index (as f64) or value of each prediction row; NaN rows stay NaN.
+fn held_values(preds: &Array2<f64>, classes: bool) -> Vec<f64> {
+    preds
+        .rows()
+        .into_iter()
+        .map(|r| {
+            if r.iter().any(|v| v.is_nan()) {
+                f64::NAN
+            } else if classes {
+                predicted_class(&r.to_vec()) as f64
+            } else {
+                r[0]
+            }
+        })
+        .collect()
+}
+
+/// Misclassification rate or mean squared error of held-out predictions over `rows`.
+fn held_out_error(outcome: &Outcome, held_out: &[f64], rows: &[usize]) -> f64 {
+    let (mut sum, mut count) = (0.0, 0usize);
+    for &i in rows {
+        let h = held_out[i];
+        if h.is_nan() {
+            continue;
+        }
+        count += 1;
+        sum += match outcome {
+            Outcome::Classes { codes, .. } => f64::from(u8::from(h as u32 != codes[i])),
+            Outcome::Values(y) => (h - y[i]) * (h - y[i]),
+        };
+    }
+    if count == 0 {
+        f64::NAN
+    } else {
+        sum / count as f64
+    }
+}
+
+/// Standard deviation of the known values (n - 1 denominator); 1 when it is 0.
+fn outcome_sd(outcome: &Outcome, rows: &[usize]) -> f64 {
+    let Outcome::Values(y) = outcome else {
+        return 1.0;
+    };
+    let n = rows.len() as f64;
+    let mean = rows.iter().map(|&i| y[i]).sum::<f64>() / n;
+    let ss = rows.iter().map(|&i| (y[i] - mean).powi(2)).sum::<f64>();
+    let sd = (ss / (n - 1.0).max(1.0)).sqrt();
+    if sd > 0.0 {
+        sd
+    } else {
+        1.0
+    }
+}
+
+fn summarise(
+    kind: ModelKind,
+    runs: &[Run],
+    rows: &[usize],
+    classes: bool,
+    scale: f64,
+) -> KindStability {
+    let errors: Vec<f64> = runs.iter().map(|r| r.error).collect();
+    let s = errors.len() as f64;
+    let error_mean = errors.iter().sum::<f64>() / s;
+    let error_sd =
+        (errors.iter().map(|e| (e - error_mean).powi(2)).sum::<f64>() / (s - 1.0).max(1.0)).sqrt();
+    let error_min = errors.iter().copied().fold(f64::INFINITY, f64::min);
+    let error_max = errors.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let (mut change_sum, mut change_pairs) = (0.0, 0usize);
+    let (mut tau_sum, mut tau_pairs) = (0.0, 0usize);
+    for a in 0..runs.len() {
+        for b in a + 1..runs.len() {
+            if let Some(c) = prediction_change(&runs[a].held_out, &runs[b].held_out, rows, classes)
+            {
+                change_sum += c / scale;
+                change_pairs += 1;
+            }
+            if let Some(t) = kendall_tau_b(&runs[a].importance, &runs[b].importance) {
+                tau_sum += t;
+                tau_pairs += 1;
+            }
+        }
+    }
+    KindStability {
+        kind,
+        errors,
+        error_mean,
+        error_sd,
+        error_min,
+        error_max,
+        prediction_change: (change_pairs > 0).then(|| change_sum / change_pairs as f64),
+        rank_tau: (tau_pairs > 0).then(|| tau_sum / tau_pairs as f64),
+        importance: runs.iter().map(|r| r.importance.clone()).collect(),
+    }
+}
+
+/// Share of `rows` whose class differs (classes), or the root mean squared difference
+/// (values), over rows predicted in both; `None` when there is no such row.
+fn prediction_change(a: &[f64], b: &[f64], rows: &[usize], classes: bool) -> Option<f64> {
+    let (mut sum, mut count) = (0.0, 0usize);
+    for &i in rows {
+        let (u, v) = (a[i], b[i]);
+        if u.is_nan() || v.is_nan() {
+            continue;
+        }
+        count += 1;
+        sum += if classes {
+            f64::from(u8::from(u != v))
+        } else {
+            (u - v) * (u - v)
+        };
+    }
+    (count > 0).then(|| {
+        let m = sum / count as f64;
+        if classes {
+            m
+        } else {
+            m.sqrt()
+        }
+    })
+}
+
+/// Kendall's tau-b between two equally long vectors: `(C - D) / sqrt((P - Tx)(P - Ty))`
+/// with `C`, `D` the concordant and discordant pairs, `P` all pairs, `Tx`, `Ty` the
+/// pairs tied in each vector. `None` when either vector is all ties (or shorter than 2).
+pub fn kendall_tau_b(x: &[f64], y: &[f64]) -> Option<f64> {
+    let n = x.len().min(y.len());
+    let (mut conc, mut disc, mut tx, mut ty) = (0i64, 0i64, 0i64, 0i64);
+    for i in 0..n {
+        for j in i + 1..n {
+            let dx = x[i].total_cmp(&x[j]) as i64;
+            let dy = y[i].total_cmp(&y[j]) as i64;
+            if dx == 0 {
+                tx += 1;
+            }
+            if dy == 0 {
+                ty += 1;
+            }
+            match dx * dy {
+                1 => conc += 1,
+                -1 => disc += 1,
+                _ => {}
+            }
+        }
+    }
+    let pairs = (n * n.saturating_sub(1) / 2) as i64;
+    let denom = ((pairs - tx) as f64 * (pairs - ty) as f64).sqrt();
+    (denom > 0.0).then(|| (conc - disc) as f64 / denom)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn kendall_tau_b_on_small_cases() {
+        // Computed by hand from the definition.
+        assert_eq!(kendall_tau_b(&[1.0, 2.0, 3.0], &[1.0, 2.0, 3.0]), Some(1.0));
+        assert_eq!(
+            kendall_tau_b(&[1.0, 2.0, 3.0], &[3.0, 2.0, 1.0]),
+            Some(-1.0)
+        );
+        // x = (1,2,3,4), y = (1,3,2,4): C = 5, D = 1, no ties: 4/6.
+        let t = kendall_tau_b(&[1.0, 2.0, 3.0, 4.0], &[1.0, 3.0, 2.0, 4.0]).expect("defined");
+        assert!((t - 4.0 / 6.0).abs() < 1e-12);
+        // x = (1,1,2), y = (1,2,3): P = 3, Tx = 1, C = 2, D = 0: 2 / sqrt(2 * 3).
+        let t = kendall_tau_b(&[1.0, 1.0, 2.0], &[1.0, 2.0, 3.0]).expect("defined");
+        assert!((t - 2.0 / 6f64.sqrt()).abs() < 1e-12);
+        assert_eq!(kendall_tau_b(&[1.0, 1.0], &[1.0, 2.0]), None);
+    }
+}
