@@ -182,21 +182,51 @@ fn row_loss(outcome: &Outcome, i: usize, pred: &[f64]) -> Loss {
     }
 }
 
-/// Leaf reached by the row whose input `j` is `value(j)`, pushing onto `path` the
-/// input tested at every node on the way.
-#[inline]
-fn leaf_and_path(tree: &Tree, value: impl Fn(usize) -> f64, path: &mut Vec<u32>) -> usize {
-    let nodes = tree.nodes();
-    let mut i = 0usize;
-    loop {
-        let n = &nodes[i];
-        match n.feature() {
-            None => return n.child(),
-            Some(j) => {
-                path.push(j as u32);
-                i = n.child() + usize::from(!tree.goes_left(n, value(j)));
+/// The distinct inputs tested on the way from the root to each leaf, ascending:
+/// leaf `l`'s are `inputs[start[l]..start[l + 1]]`.
+struct LeafPaths {
+    start: Vec<usize>,
+    inputs: Vec<u32>,
+}
+
+impl LeafPaths {
+    fn of(tree: &Tree) -> Self {
+        let nodes = tree.nodes();
+        let leaves = tree.n_leaves();
+        let mut found: Vec<Vec<u32>> = vec![Vec::new(); leaves];
+        // Depth-first, with the inputs of the path to the current node on a stack.
+        let mut path: Vec<u32> = Vec::new();
+        let mut stack = vec![(0usize, 0usize)];
+        while let Some((i, depth)) = stack.pop() {
+            path.truncate(depth);
+            let n = &nodes[i];
+            match n.feature() {
+                None => {
+                    if let Some(f) = found.get_mut(n.child()) {
+                        f.extend_from_slice(&path);
+                        f.sort_unstable();
+                        f.dedup();
+                    }
+                }
+                Some(j) => {
+                    path.push(j as u32);
+                    stack.push((n.child() + 1, depth + 1));
+                    stack.push((n.child(), depth + 1));
+                }
             }
         }
+        let mut start = Vec::with_capacity(leaves + 1);
+        let mut inputs = Vec::new();
+        start.push(0);
+        for f in found {
+            inputs.extend_from_slice(&f);
+            start.push(inputs.len());
+        }
+        LeafPaths { start, inputs }
+    }
+
+    fn inputs(&self, leaf: usize) -> &[u32] {
+        &self.inputs[self.start[leaf]..self.start[leaf + 1]]
     }
 }
 
@@ -206,7 +236,9 @@ fn leaf_and_path(tree: &Tree, value: impl Fn(usize) -> f64, path: &mut Vec<u32>)
 /// A row whose path through the tree never tests input `j` reaches the same leaf
 /// whatever its value of `j`, so only the rows whose path tests `j` are sent down the
 /// tree again: the result is exactly that of re-predicting every row, at a cost that
-/// grows with the depth of the tree rather than with the number of inputs.
+/// grows with the depth of the tree rather than with the number of inputs. Rows are
+/// copied into contiguous blocks and descend several at a time
+/// ([`Tree::leaf_indices`]); every sum is taken in row order as before.
 fn tree_permutation_increase(
     tree: &Tree,
     x: ArrayView2<'_, f64>,
@@ -216,40 +248,44 @@ fn tree_permutation_increase(
 ) -> (Vec<f64>, Vec<f64>) {
     let p = x.ncols();
     let m = rows.len();
-    // Baseline loss of each row, and the distinct inputs on its path (compressed rows).
-    let mut base = Vec::with_capacity(m);
-    let mut path: Vec<u32> = Vec::new();
+    let mut block = vec![0.0; m * p];
+    if p > 0 {
+        for (dst, &i) in block.chunks_exact_mut(p).zip(rows) {
+            dst.iter_mut()
+                .zip(x.row(i).iter())
+                .for_each(|(d, &v)| *d = v);
+        }
+    }
+    let mut leaves = vec![0u32; m];
+    tree.leaf_indices(&block, p, &mut leaves);
+    // Baseline loss of each row, and the distinct inputs on its path.
+    let paths = LeafPaths::of(tree);
+    let base: Vec<Loss> = rows
+        .iter()
+        .zip(&leaves)
+        .map(|(&i, &leaf)| row_loss(outcome, i, tree.leaf_value(leaf as usize)))
+        .collect();
+    // Invert: for each input, the positions (in `rows`) of the rows whose path tests it.
     let mut per_feature = vec![0usize; p + 1];
-    let mut row_paths: Vec<u32> = Vec::new();
-    let mut row_start = Vec::with_capacity(m + 1);
-    row_start.push(0);
-    for &i in rows {
-        path.clear();
-        let row = x.row(i);
-        let leaf = leaf_and_path(tree, |j| row[j], &mut path);
-        base.push(row_loss(outcome, i, tree.leaf_value(leaf)));
-        path.sort_unstable();
-        path.dedup();
-        for &j in &path {
+    for &leaf in &leaves {
+        for &j in paths.inputs(leaf as usize) {
             per_feature[j as usize + 1] += 1;
         }
-        row_paths.extend_from_slice(&path);
-        row_start.push(row_paths.len());
     }
-    // Invert: for each input, the positions (in `rows`) of the rows whose path tests it.
     for j in 0..p {
         per_feature[j + 1] += per_feature[j];
     }
     let mut fill = per_feature.clone();
-    let mut affected = vec![0u32; row_paths.len()];
-    for pos in 0..m {
-        for &j in &row_paths[row_start[pos]..row_start[pos + 1]] {
+    let mut affected = vec![0u32; per_feature[p]];
+    for (pos, &leaf) in leaves.iter().enumerate() {
+        for &j in paths.inputs(leaf as usize) {
             affected[fill[j as usize]] = pos as u32;
             fill[j as usize] += 1;
         }
     }
     let (mut inc_err, mut inc_brier) = (vec![0.0; p], vec![0.0; p]);
     let mut vals = Vec::with_capacity(m);
+    let mut moved: Vec<f64> = Vec::new();
     for j in 0..p {
         let hit = &affected[per_feature[j]..per_feature[j + 1]];
         if hit.is_empty() {
@@ -259,14 +295,19 @@ fn tree_permutation_increase(
         vals.clear();
         vals.extend(rows.iter().map(|&i| x[[i, j]]));
         vals.shuffle(&mut rng_for(j));
-        let (mut de, mut db) = (0.0, 0.0);
+        moved.clear();
         for &pos in hit {
             let pos = pos as usize;
-            let i = rows[pos];
-            let row = x.row(i);
-            let v = vals[pos];
-            let leaf = tree.leaf_index_with(|c| if c == j { v } else { row[c] });
-            let l = row_loss(outcome, i, tree.leaf_value(leaf));
+            moved.extend_from_slice(&block[pos * p..(pos + 1) * p]);
+            let last = moved.len() - p;
+            moved[last + j] = vals[pos];
+        }
+        leaves.resize(hit.len(), 0);
+        tree.leaf_indices(&moved, p, &mut leaves);
+        let (mut de, mut db) = (0.0, 0.0);
+        for (&pos, &leaf) in hit.iter().zip(&leaves) {
+            let pos = pos as usize;
+            let l = row_loss(outcome, rows[pos], tree.leaf_value(leaf as usize));
             de += l.error - base[pos].error;
             db += l.brier - base[pos].brier;
         }

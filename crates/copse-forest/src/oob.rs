@@ -82,6 +82,10 @@ pub(crate) fn block_rows(n: usize) -> usize {
     n.div_ceil(64).clamp(256, 4096)
 }
 
+/// Rows of a block that pass through all trees together: few enough that their
+/// values stay in cache beside a tree. Does not change any result.
+const STRETCH: usize = 256;
+
 /// Computes out-of-bag predictions, the error curve and the summary measures.
 pub(crate) fn out_of_bag(
     trees: &[Tree],
@@ -107,40 +111,61 @@ pub(crate) fn out_of_bag(
                 d_wrong: vec![0; nt],
                 d_sse: vec![0.0; nt],
             };
-            // Trees in the outer loop keep each tree in cache for the whole block; each
-            // row still meets its trees in tree order, which the error curve needs.
+            // Trees in the outer loop keep each tree in cache for a stretch of rows,
+            // copied once into a contiguous buffer, whose out-of-bag rows descend
+            // several at a time. Each row still meets its trees in tree order (the
+            // error curve needs it), and each tree its rows in row order, so every
+            // sum is taken in the same order as row by row.
             let len = end - start;
+            let p = x.ncols();
             let mut was_wrong = vec![false; len];
             let mut prev_sq = vec![0.0; len];
-            for (t, tree) in trees.iter().enumerate() {
-                for (r, i) in (start..end).enumerate() {
-                    if !masks[t].contains(i) {
-                        continue;
+            let mut rows = vec![0.0; STRETCH.min(len) * p];
+            let mut picks: Vec<u32> = Vec::with_capacity(STRETCH);
+            let mut leaves = vec![0u32; STRETCH];
+            for s0 in (0..len).step_by(STRETCH) {
+                let s1 = (s0 + STRETCH).min(len);
+                if p > 0 {
+                    for (dst, r) in rows.chunks_exact_mut(p).zip(s0..s1) {
+                        dst.iter_mut()
+                            .zip(x.row(start + r).iter())
+                            .for_each(|(d, &v)| *d = v);
                     }
-                    let row = x.row(i);
-                    let leaf = tree.leaf_index_with(|j| row[j]);
-                    let sums = &mut out.preds[r * k..(r + 1) * k];
-                    sums.iter_mut()
-                        .zip(tree.leaf_value(leaf))
-                        .for_each(|(s, v)| *s += v);
-                    out.trees_out[r] += 1;
-                    let count = out.trees_out[r];
-                    if outcome.is_missing(i) {
-                        continue;
-                    }
-                    if count == 1 {
-                        out.d_cover[t] += 1;
-                    }
-                    match outcome {
-                        Outcome::Classes { codes, .. } => {
-                            let wrong = predicted_class(sums) != codes[i] as usize;
-                            out.d_wrong[t] += i64::from(wrong) - i64::from(was_wrong[r]);
-                            was_wrong[r] = wrong;
+                }
+                for (t, tree) in trees.iter().enumerate() {
+                    picks.clear();
+                    picks.extend(
+                        (s0..s1)
+                            .filter(|&r| masks[t].contains(start + r))
+                            .map(|r| (r - s0) as u32),
+                    );
+                    tree.leaf_indices_of(&rows, p, &picks, &mut leaves);
+                    for (&pr, &leaf) in picks.iter().zip(&leaves) {
+                        let r = s0 + pr as usize;
+                        let i = start + r;
+                        let sums = &mut out.preds[r * k..(r + 1) * k];
+                        sums.iter_mut()
+                            .zip(tree.leaf_value(leaf as usize))
+                            .for_each(|(s, v)| *s += v);
+                        out.trees_out[r] += 1;
+                        let count = out.trees_out[r];
+                        if outcome.is_missing(i) {
+                            continue;
                         }
-                        Outcome::Values(y) => {
-                            let e = sums[0] / f64::from(count) - y[i];
-                            out.d_sse[t] += e * e - prev_sq[r];
-                            prev_sq[r] = e * e;
+                        if count == 1 {
+                            out.d_cover[t] += 1;
+                        }
+                        match outcome {
+                            Outcome::Classes { codes, .. } => {
+                                let wrong = predicted_class(sums) != codes[i] as usize;
+                                out.d_wrong[t] += i64::from(wrong) - i64::from(was_wrong[r]);
+                                was_wrong[r] = wrong;
+                            }
+                            Outcome::Values(y) => {
+                                let e = sums[0] / f64::from(count) - y[i];
+                                out.d_sse[t] += e * e - prev_sq[r];
+                                prev_sq[r] = e * e;
+                            }
                         }
                     }
                 }

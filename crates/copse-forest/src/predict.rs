@@ -11,8 +11,9 @@ use serde::{Deserialize, Serialize};
 
 /// Bounds on the rows per parallel block in batch prediction: large enough that each
 /// tree, loaded into cache once per block, serves many rows; small enough to spread
-/// the work over the threads. The block size does not change any result.
-const PREDICT_BLOCK: (usize, usize) = (256, 8192);
+/// the work over the threads and for the block's values to stay in cache beside the
+/// tree. The block size does not change any result.
+const PREDICT_BLOCK: (usize, usize) = (256, 256);
 
 /// Accuracy of a forest on a labelled data set.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -121,8 +122,10 @@ impl Forest {
 
     /// Predictions for `rows` rows into `out` (`rows * n_outputs`): row `r` is
     /// `row_of(r)`, except that with `swap = Some((j, vals))` its input `j` is `vals[r]`.
-    /// Trees run in the outer loop so each stays in cache for the whole block; every
-    /// row still sums its trees in tree order, so the result is the same as row by row.
+    /// The rows are copied once into a contiguous buffer; trees run in the outer loop
+    /// so each stays in cache for the whole block, and descend several rows at a time
+    /// ([`copse_tree::Tree::leaf_indices`]). Every row still sums its trees in tree
+    /// order, so the result is the same as row by row.
     #[inline]
     pub(crate) fn predict_block<'a>(
         &self,
@@ -131,20 +134,25 @@ impl Forest {
         swap: Option<(usize, &[f64])>,
         out: &mut [f64],
     ) {
-        let k = self.n_outputs();
+        let (k, p) = (self.n_outputs(), self.n_features());
+        let mut block = vec![0.0; rows * p];
+        if p > 0 {
+            for (r, dst) in block.chunks_exact_mut(p).enumerate() {
+                dst.iter_mut()
+                    .zip(row_of(r).iter())
+                    .for_each(|(d, &v)| *d = v);
+                if let Some((j, vals)) = swap {
+                    dst[j] = vals[r];
+                }
+            }
+        }
+        let mut leaves = vec![0u32; rows];
         out.iter_mut().for_each(|o| *o = 0.0);
         for tree in &self.trees {
-            for (r, o) in out.chunks_mut(k).take(rows).enumerate() {
-                let row = row_of(r);
-                let leaf = match swap {
-                    None => tree.leaf_index_with(|c| row[c]),
-                    Some((j, vals)) => {
-                        let v = vals[r];
-                        tree.leaf_index_with(|c| if c == j { v } else { row[c] })
-                    }
-                };
+            tree.leaf_indices(&block, p, &mut leaves);
+            for (o, &leaf) in out.chunks_mut(k).zip(&leaves) {
                 o.iter_mut()
-                    .zip(tree.leaf_value(leaf))
+                    .zip(tree.leaf_value(leaf as usize))
                     .for_each(|(o, v)| *o += v);
             }
         }

@@ -10,6 +10,7 @@
 use crate::error::{Error, ErrorKind, Result};
 use ndarray::ArrayView2;
 use serde::{Deserialize, Serialize};
+use std::sync::OnceLock;
 
 /// The reserved bin of missing values, in every input.
 pub const MISSING_BIN: usize = 0;
@@ -106,6 +107,20 @@ pub(crate) enum BinCodes {
     Wide(Vec<u16>),
 }
 
+/// The bin codes again, row by row, packed into 64-bit words: 8 one-byte codes (or 4
+/// two-byte codes) per word, `per_row` words per row. The two-class grower copies a
+/// tree's rows out of this into node-ordered blocks, so its histogram passes read
+/// memory in order instead of gathering one code per row.
+#[derive(Debug, Clone)]
+pub(crate) struct RowWords {
+    /// Words per row.
+    pub(crate) per_row: usize,
+    /// Bits per code: 8 or 16.
+    pub(crate) bits: usize,
+    /// `n_rows * per_row` words.
+    pub(crate) words: Vec<u64>,
+}
+
 /// The training matrix, binned once and stored column-major.
 #[derive(Debug, Clone)]
 pub struct BinnedData {
@@ -115,6 +130,8 @@ pub struct BinnedData {
     /// Number of value bins holding at least one row, per input.
     occupied: Vec<usize>,
     codes: BinCodes,
+    /// Row-major copy, built on first use by a grower that wants it.
+    row_words: OnceLock<RowWords>,
 }
 
 /// Marker trait for the two bin code widths, so split search is written once.
@@ -171,67 +188,117 @@ impl BinnedData {
                 format!("bin limit {bin_limit} is out of range; use 3 to 65536"),
             ));
         }
+        // Codes of every cell, column-major, two bytes each until the widths are
+        // known. Numeric columns are coded while they are binned (from their sorted
+        // order); categorical codes are checked in a second pass, so errors keep their
+        // order: unusable numbers anywhere before bad categories.
+        let mut all = vec![0u16; n_rows * p];
+        // Columns are read in groups of eight, one pass over the rows per group, so a
+        // row-major matrix is not streamed through the cache once per column.
+        const GROUP: usize = 8;
+        let mut sorters: Vec<Sorter> = (0..GROUP.min(p)).map(|_| Sorter::default()).collect();
         let mut bins = Vec::with_capacity(p);
-        for (j, m) in meta.iter().enumerate() {
-            let col = x.column(j);
-            let b = match &m.kind {
-                FeatureKind::Numeric => numeric_bins(col.iter().copied(), &m.name, bin_limit - 1)?,
-                FeatureKind::Categorical { levels } => {
-                    if levels.len() > 65535 {
-                        return Err(Error::new(
-                            ErrorKind::TooLarge,
-                            format!(
-                                "input '{}' has {} categories; at most 65535 are supported",
-                                m.name,
-                                levels.len()
-                            ),
-                        ));
+        for j0 in (0..p).step_by(GROUP) {
+            let j1 = (j0 + GROUP).min(p);
+            let mut first_infinite: Vec<Option<(usize, f64)>> = vec![None; j1 - j0];
+            for s in sorters.iter_mut() {
+                s.keys.clear();
+                s.rows.clear();
+            }
+            for (i, row) in x.rows().into_iter().enumerate() {
+                for (jj, (s, bad)) in sorters.iter_mut().zip(&mut first_infinite).enumerate() {
+                    let j = j0 + jj;
+                    if j >= j1 || meta[j].is_categorical() {
+                        continue;
                     }
-                    FeatureBins {
-                        n_bins: levels.len(),
-                        lo: Vec::new(),
-                        hi: Vec::new(),
-                        categorical: true,
+                    let v = row[j];
+                    if v.is_nan() {
+                        continue;
                     }
+                    if v.is_infinite() {
+                        bad.get_or_insert((i, v));
+                    }
+                    s.keys.push(order_key(v));
+                    s.rows.push(i as u32);
                 }
-            };
-            bins.push(b);
+            }
+            for j in j0..j1 {
+                let m = &meta[j];
+                let b = match &m.kind {
+                    FeatureKind::Numeric => {
+                        if let Some((i, v)) = first_infinite[j - j0] {
+                            return Err(Error::new(
+                                ErrorKind::NonFinite,
+                                format!("row {i}, input '{}': {v} is not a finite number; fix the value or mark it missing", m.name),
+                            ));
+                        }
+                        numeric_bins(
+                            &mut sorters[j - j0],
+                            bin_limit - 1,
+                            &mut all[j * n_rows..(j + 1) * n_rows],
+                        )
+                    }
+                    FeatureKind::Categorical { levels } => {
+                        if levels.len() > 65535 {
+                            return Err(Error::new(
+                                ErrorKind::TooLarge,
+                                format!(
+                                    "input '{}' has {} categories; at most 65535 are supported",
+                                    m.name,
+                                    levels.len()
+                                ),
+                            ));
+                        }
+                        FeatureBins {
+                            n_bins: levels.len(),
+                            lo: Vec::new(),
+                            hi: Vec::new(),
+                            categorical: true,
+                        }
+                    }
+                };
+                bins.push(b);
+            }
         }
-        let wide = bins.iter().any(|b| b.n_bins > 255);
-        let mut codes = if wide {
-            BinCodes::Wide(Vec::with_capacity(n_rows * p))
-        } else {
-            BinCodes::Narrow(Vec::with_capacity(n_rows * p))
-        };
+        drop(sorters);
         let mut occupied = Vec::with_capacity(p);
         let mut seen: Vec<bool> = Vec::new();
         for (j, (m, b)) in meta.iter().zip(&bins).enumerate() {
+            let dst = &mut all[j * n_rows..(j + 1) * n_rows];
+            if b.categorical {
+                for ((i, &v), d) in x.column(j).iter().enumerate().zip(dst.iter_mut()) {
+                    let code = bin_of(v, b).ok_or_else(|| {
+                        Error::new(
+                            ErrorKind::BadCategory,
+                            format!(
+                                "row {i}, input '{}': {v} is not one of the {} category codes",
+                                m.name, b.n_bins
+                            ),
+                        )
+                    })?;
+                    *d = code as u16;
+                }
+            }
             seen.clear();
             seen.resize(b.n_bins + 1, false);
-            for (i, &v) in x.column(j).iter().enumerate() {
-                let code = bin_of(v, b).ok_or_else(|| {
-                    Error::new(
-                        ErrorKind::BadCategory,
-                        format!(
-                            "row {i}, input '{}': {v} is not one of the {} category codes",
-                            m.name, b.n_bins
-                        ),
-                    )
-                })?;
-                seen[code] = true;
-                match &mut codes {
-                    BinCodes::Narrow(c) => c.push(code as u8),
-                    BinCodes::Wide(c) => c.push(code as u16),
-                }
+            for &c in dst.iter() {
+                seen[c as usize] = true;
             }
             occupied.push(seen[1..].iter().filter(|&&s| s).count());
         }
+        let wide = bins.iter().any(|b| b.n_bins > 255);
+        let codes = if wide {
+            BinCodes::Wide(all)
+        } else {
+            BinCodes::Narrow(all.into_iter().map(|c| c as u8).collect())
+        };
         Ok(BinnedData {
             n_rows,
             meta: meta.to_vec(),
             bins,
             occupied,
             codes,
+            row_words: OnceLock::new(),
         })
     }
 
@@ -286,6 +353,41 @@ impl BinnedData {
     pub(crate) fn codes(&self) -> &BinCodes {
         &self.codes
     }
+
+    /// The row-major packed codes, built once (by whichever thread asks first).
+    pub(crate) fn row_words(&self) -> &RowWords {
+        self.row_words.get_or_init(|| {
+            let (n, p) = (self.n_rows, self.meta.len());
+            let bits = match self.codes {
+                BinCodes::Narrow(_) => 8,
+                BinCodes::Wide(_) => 16,
+            };
+            let per_word = 64 / bits;
+            let per_row = p.div_ceil(per_word);
+            let mut words = vec![0u64; n * per_row];
+            for j in 0..p {
+                let (w, shift) = (j / per_word, (j % per_word) * bits);
+                let dst = words.iter_mut().skip(w).step_by(per_row);
+                match &self.codes {
+                    BinCodes::Narrow(c) => {
+                        for (d, &v) in dst.zip(&c[j * n..(j + 1) * n]) {
+                            *d |= u64::from(v) << shift;
+                        }
+                    }
+                    BinCodes::Wide(c) => {
+                        for (d, &v) in dst.zip(&c[j * n..(j + 1) * n]) {
+                            *d |= u64::from(v) << shift;
+                        }
+                    }
+                }
+            }
+            RowWords {
+                per_row,
+                bits,
+                words,
+            }
+        })
+    }
 }
 
 /// Bin of one value under a layout; `None` for a categorical code that is not listed.
@@ -305,25 +407,29 @@ fn bin_of(v: f64, b: &FeatureBins) -> Option<usize> {
     )
 }
 
-/// Numeric bin layout with at most `max_value_bins` value bins.
-fn numeric_bins(
-    values: impl Iterator<Item = f64>,
-    name: &str,
-    max_value_bins: usize,
-) -> Result<FeatureBins> {
-    let mut v: Vec<f64> = Vec::new();
-    for (i, x) in values.enumerate() {
-        if x.is_infinite() {
-            return Err(Error::new(
-                ErrorKind::NonFinite,
-                format!("row {i}, input '{name}': {x} is not a finite number; fix the value or mark it missing"),
-            ));
-        }
-        if !x.is_nan() {
-            v.push(x);
-        }
+/// An integer whose unsigned order is the order of `f64::total_cmp` (negative numbers
+/// have every bit flipped, others only the sign bit), and its inverse.
+fn order_key(x: f64) -> u64 {
+    let b = x.to_bits();
+    if b >> 63 == 1 {
+        !b
+    } else {
+        b | 1 << 63
     }
-    v.sort_by(f64::total_cmp);
+}
+
+fn from_order_key(k: u64) -> f64 {
+    f64::from_bits(if k >> 63 == 1 { k & !(1 << 63) } else { !k })
+}
+
+/// Numeric bin layout with at most `max_value_bins` value bins, from the column's
+/// non-missing values as order keys with their rows (in `sorter`, unsorted).
+///
+/// Also writes the code of every row into `codes` (0 for missing): the first bin whose
+/// highest value is at least the row's value.
+fn numeric_bins(sorter: &mut Sorter, max_value_bins: usize, codes: &mut [u16]) -> FeatureBins {
+    sorter.sort();
+    let v: Vec<f64> = sorter.keys.iter().map(|&k| from_order_key(k)).collect();
     // Distinct values with their counts; -0.0 and 0.0 are one value.
     let mut distinct: Vec<(f64, usize)> = Vec::new();
     for x in v.iter().copied() {
@@ -370,12 +476,110 @@ fn numeric_bins(
             }
         }
     }
-    Ok(FeatureBins {
-        n_bins: lo.len(),
+    // Codes, walking the values upwards alongside the bins.
+    let n_bins = lo.len();
+    let mut b = 0;
+    for (&x, &r) in v.iter().zip(&sorter.rows) {
+        while b + 1 < n_bins && hi[b] < x {
+            b += 1;
+        }
+        codes[r as usize] = (b + 1) as u16;
+    }
+    FeatureBins {
+        n_bins,
         lo,
         hi,
         categorical: false,
-    })
+    }
+}
+
+/// Buffers of a least-significant-digit radix sort of 64-bit keys carrying a row
+/// number, reused across columns.
+#[derive(Default)]
+struct Sorter {
+    keys: Vec<u64>,
+    rows: Vec<u32>,
+    spare_keys: Vec<u64>,
+    spare_rows: Vec<u32>,
+}
+
+impl Sorter {
+    /// Sorts `keys` ascending, moving `rows` alongside: stable distribution passes on
+    /// the four high bytes (skipping bytes all keys share), then each run of keys that
+    /// agree on those bytes is put in full order. Runs are short for continuous
+    /// values and hold equal keys for discrete ones, so the second step costs little.
+    fn sort(&mut self) {
+        let n = self.keys.len();
+        let mut counts = vec![[0usize; 256]; 4];
+        for &k in &self.keys {
+            for (d, c) in counts.iter_mut().enumerate() {
+                c[(k >> (32 + 8 * d)) as usize & 255] += 1;
+            }
+        }
+        self.spare_keys.resize(n, 0);
+        self.spare_rows.resize(n, 0);
+        for (d, c) in counts.iter().enumerate() {
+            if c.contains(&n) {
+                continue;
+            }
+            let shift = 32 + 8 * d;
+            let mut next = [0usize; 256];
+            let mut at = 0;
+            for (slot, &count) in next.iter_mut().zip(c.iter()) {
+                *slot = at;
+                at += count;
+            }
+            for (&k, &r) in self.keys.iter().zip(&self.rows) {
+                let digit = (k >> shift) as usize & 255;
+                let to = next[digit];
+                self.spare_keys[to] = k;
+                self.spare_rows[to] = r;
+                next[digit] = to + 1;
+            }
+            std::mem::swap(&mut self.keys, &mut self.spare_keys);
+            std::mem::swap(&mut self.rows, &mut self.spare_rows);
+        }
+        let mut start = 0;
+        while start < n {
+            let high = self.keys[start] >> 32;
+            let mut end = start + 1;
+            let mut mixed = false;
+            while end < n && self.keys[end] >> 32 == high {
+                mixed |= self.keys[end] != self.keys[start];
+                end += 1;
+            }
+            if mixed {
+                self.sort_run(start, end);
+            }
+            start = end;
+        }
+    }
+
+    /// Full-key order within `start..end`.
+    fn sort_run(&mut self, start: usize, end: usize) {
+        let (keys, rows) = (&mut self.keys[start..end], &mut self.rows[start..end]);
+        if keys.len() <= 32 {
+            for i in 1..keys.len() {
+                let (k, r) = (keys[i], rows[i]);
+                let mut j = i;
+                while j > 0 && keys[j - 1] > k {
+                    keys[j] = keys[j - 1];
+                    rows[j] = rows[j - 1];
+                    j -= 1;
+                }
+                keys[j] = k;
+                rows[j] = r;
+            }
+        } else {
+            let mut pairs: Vec<(u64, u32)> =
+                keys.iter().copied().zip(rows.iter().copied()).collect();
+            pairs.sort_unstable_by_key(|p| p.0);
+            for ((k, r), (pk, pr)) in keys.iter_mut().zip(rows.iter_mut()).zip(pairs) {
+                *k = pk;
+                *r = pr;
+            }
+        }
+    }
 }
 
 #[cfg(test)]
