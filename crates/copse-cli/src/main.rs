@@ -1,25 +1,10 @@
 //! The `copse` command: parse the arguments, run the subcommand, turn any error into a
 //! `copse:` message on standard error and the documented exit code (0 success or a
 //! closed output pipe, 1 failure while running, 2 bad usage or input).
-// Tests may unwrap: a panic there is a failed test, not a user-facing crash.
-#![cfg_attr(test, allow(clippy::unwrap_used))]
-
-mod args;
-mod commands;
-mod demo_data;
-mod encode;
-mod error;
-mod json;
-mod model;
-mod model_file;
-mod output;
-mod plots;
-mod reader;
-mod report;
-mod schema;
-mod ui;
+#![forbid(unsafe_code)]
 
 use clap::Parser;
+use copse_cli::{args, commands, error, interrupt, ui};
 use error::Exit;
 
 fn main() {
@@ -30,6 +15,7 @@ fn main() {
             "copse: internal error: {info}; this is a fault in copse, please report it with the command you ran"
         );
     }));
+    interrupt::install();
     let cli = match args::Cli::try_parse() {
         Ok(cli) => cli,
         Err(e) => {

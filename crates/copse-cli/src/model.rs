@@ -64,7 +64,6 @@ impl Model {
     ///
     /// # Errors
     /// As for [`Model::load`].
-    #[cfg(test)]
     pub fn from_bytes(bytes: &[u8], name: &str) -> CliResult<Model> {
         let model: Model =
             model_file::decode(bytes, name).map_err(|e| CliError::input(e.to_string()))?;

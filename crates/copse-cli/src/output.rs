@@ -22,9 +22,21 @@ pub enum Output {
 /// A temporary file that becomes `dest` on [`Staged::commit`]; dropped without a
 /// commit, it is deleted.
 pub struct Staged {
-    writer: BufWriter<NamedTempFile>,
+    /// `None` only once committed.
+    writer: Option<BufWriter<NamedTempFile>>,
+    /// The temporary file's path, listed for removal on Ctrl-C while it exists.
+    tmp_path: PathBuf,
     dest: PathBuf,
     name: String,
+}
+
+impl Drop for Staged {
+    fn drop(&mut self) {
+        // Dropping the writer deletes an uncommitted temporary file; it need no longer
+        // be deleted on Ctrl-C.
+        drop(self.writer.take());
+        crate::interrupt::unregister(&self.tmp_path);
+    }
 }
 
 fn not_a_folder(path: &Path) -> CliError {
@@ -75,8 +87,11 @@ impl Staged {
                 io_reason(&e)
             ))
         })?;
+        let tmp_path = tmp.path().to_path_buf();
+        crate::interrupt::register(&tmp_path);
         Ok(Staged {
-            writer: BufWriter::with_capacity(1 << 16, tmp),
+            writer: Some(BufWriter::with_capacity(1 << 16, tmp)),
+            tmp_path,
             dest: dest.to_path_buf(),
             name,
         })
@@ -86,27 +101,38 @@ impl Staged {
     ///
     /// # Errors
     /// A failure when any step fails; the temporary file is then removed.
-    pub fn commit(self) -> CliResult<()> {
-        let name = self.name;
-        let tmp = self
-            .writer
+    pub fn commit(mut self) -> CliResult<()> {
+        let name = self.name.clone();
+        let Some(writer) = self.writer.take() else {
+            return Err(CliError::failure(format!(
+                "internal: {name} was already finished"
+            )));
+        };
+        let tmp = writer
             .into_inner()
             .map_err(|e| CliError::write(&name, e.error()))?;
         tmp.as_file()
             .sync_all()
             .map_err(|e| CliError::write(&name, &e))?;
-        tmp.persist(&self.dest)
+        // No interruption between the rename and taking the file off the list.
+        crate::interrupt::while_holding(&self.tmp_path, || tmp.persist(&self.dest))
             .map_err(|e| CliError::write(&name, &e.error))?;
         Ok(())
+    }
+
+    fn writer(&mut self) -> io::Result<&mut BufWriter<NamedTempFile>> {
+        self.writer
+            .as_mut()
+            .ok_or_else(|| io::Error::other("output already finished"))
     }
 }
 
 impl Write for Staged {
     fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
-        self.writer.write(buf)
+        self.writer()?.write(buf)
     }
     fn flush(&mut self) -> io::Result<()> {
-        self.writer.flush()
+        self.writer()?.flush()
     }
 }
 

@@ -39,6 +39,17 @@ impl Delimiter {
     }
 }
 
+/// What [`CsvInput::read_row`] found.
+#[derive(Debug)]
+pub enum Row {
+    /// A row was read into the record.
+    Record,
+    /// The input has no more rows.
+    End,
+    /// The row on this line cannot be read (the error says why); the next can.
+    Fault(u64, CliError),
+}
+
 /// An open CSV input with its header read and checked.
 pub struct CsvInput {
     name: String,
@@ -167,6 +178,20 @@ impl CsvInput {
             let size = f.metadata().ok().map(|m| m.len());
             (Box::new(f), size)
         };
+        Self::from_reader(name, source, size, delimiter)
+    }
+
+    /// Reads CSV from any source; `name` names it in messages, `size` (if known) drives
+    /// the progress bar.
+    ///
+    /// # Errors
+    /// As for [`CsvInput::open`], without the file-opening ones.
+    pub fn from_reader(
+        name: String,
+        source: Box<dyn Read + Send>,
+        size: Option<u64>,
+        delimiter: Delimiter,
+    ) -> CliResult<Self> {
         let consumed = Arc::new(AtomicU64::new(0));
         let source: Box<dyn Read + Send> = Box::new(CrlfToLf::new(source, consumed.clone()));
         let reader = csv::ReaderBuilder::new()
@@ -252,6 +277,26 @@ impl CsvInput {
         self.reader
             .read_record(record)
             .map_err(|e| self.csv_error(&e))
+    }
+
+    /// Reads the next data row like [`CsvInput::read`], but tells a fault of the row
+    /// itself (wrong number of fields, text that is not UTF-8), after which reading can
+    /// go on with the next row, from a fault of the input as a whole.
+    ///
+    /// # Errors
+    /// An input error when the input cannot be read further.
+    pub fn read_row(&mut self, record: &mut csv::StringRecord) -> CliResult<Row> {
+        match self.reader.read_record(record) {
+            Ok(true) => Ok(Row::Record),
+            Ok(false) => Ok(Row::End),
+            Err(e) => match e.kind() {
+                csv::ErrorKind::Utf8 { pos, .. } | csv::ErrorKind::UnequalLengths { pos, .. } => {
+                    let line = pos.as_ref().map_or(0, |p| p.line());
+                    Ok(Row::Fault(line, self.csv_error(&e)))
+                }
+                _ => Err(self.csv_error(&e)),
+            },
+        }
     }
 
     /// Index of column `name`, if present.

@@ -161,6 +161,9 @@ struct ColumnTally {
 
 const EXAMPLES: usize = 3;
 
+/// Most categories one input may have (category codes are 16 bits in the tree core).
+pub const MAX_CATEGORIES: usize = 65535;
+
 fn check_names(input: &CsvInput, names: &[String], flag: &str) -> CliResult<()> {
     for n in names {
         if input.column(n).is_none() {
@@ -400,18 +403,38 @@ pub fn load_training(
         Task::Regress => Vec::new(),
     };
 
+    // Categories are codes of 16 bits in the tree core (65535 at most per input); a
+    // column with more is an identifier or free text, not a category.
+    for f in &features {
+        if let FeatureKind::Categorical { levels } = &f.kind {
+            if levels.len() > MAX_CATEGORIES {
+                return Err(CliError::input(format!(
+                    "{name}, column '{}': {} different values read as categories, more than the {MAX_CATEGORIES} \
+                     copse supports in one input; it looks like an identifier or free text: leave it out with \
+                     --ignore {}, or group its values into fewer categories",
+                    f.name,
+                    levels.len(),
+                    f.name
+                )));
+            }
+        }
+    }
+
     // Remarks a careful analyst would want to see.
     let n = keep.len();
+    let mut useless = 0;
     for (k, f) in features.iter().enumerate() {
         let t = &tallies[feature_cols[k]];
         let present = n_read - t.missing;
         if present == 0 {
+            useless += 1;
             notes.push(format!(
                 "input '{}' is missing in every row; it cannot help the model",
                 f.name
             ));
         } else if let FeatureKind::Categorical { levels } = &f.kind {
             if levels.len() == 1 {
+                useless += 1;
                 notes.push(format!(
                     "input '{}' has the same value in every row; it cannot help the model",
                     f.name
@@ -428,6 +451,7 @@ pub fn load_training(
             let mut vals = col.iter().filter(|v| !v.is_nan());
             if let Some(first) = vals.next() {
                 if vals.all(|v| v == first) {
+                    useless += 1;
                     notes.push(format!(
                         "input '{}' has the same value in every row; it cannot help the model",
                         f.name
@@ -435,6 +459,16 @@ pub fn load_training(
                 }
             }
         }
+    }
+    if useless == features.len() {
+        notes.push(format!(
+            "no input of {name} varies, so no split is possible: the model is trivial and predicts the \
+             overall {} for every row; check --target and --ignore, and the data",
+            match task {
+                Task::Classify => "class shares",
+                Task::Regress => "mean",
+            }
+        ));
     }
     if task == Task::Classify && class_labels.len() == 1 {
         notes.push(format!(

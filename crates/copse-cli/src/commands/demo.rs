@@ -58,6 +58,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         oob_out: Some(oob_path.clone()),
         plots: Some(plots_dir.clone()),
         json: false,
+        allow_large: false,
     };
     let mut text = String::new();
     let _ = writeln!(
@@ -76,6 +77,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         out: Some(shown(&scored_path)),
         keep: vec![ID.to_string()],
         csv,
+        blank_unscorable: false,
         block_rows: 4096,
     };
     let scored = score::score(&sargs, ui)?;

@@ -1,0 +1,28 @@
+//! copse-cli as a library: the pieces of the `copse` command (CSV reading, schema
+//! inference, row encoding, the model file container, outputs, subcommands), so the
+//! binary in `main.rs` stays a thin shell and fuzz targets and property tests can call
+//! the readers and decoders directly.
+#![forbid(unsafe_code)]
+#![deny(missing_docs)]
+// Tests may unwrap: a panic there is a failed test, not a user-facing crash.
+#![cfg_attr(test, allow(clippy::unwrap_used))]
+
+// Flattened clap groups take no doc comment of their own (it would become help text).
+#[allow(missing_docs)]
+pub mod args;
+pub mod commands;
+pub mod demo_data;
+pub mod encode;
+pub mod error;
+pub mod harness;
+pub mod interrupt;
+pub mod json;
+pub mod memory;
+pub mod model;
+pub mod model_file;
+pub mod output;
+pub mod plots;
+pub mod reader;
+pub mod report;
+pub mod schema;
+pub mod ui;
