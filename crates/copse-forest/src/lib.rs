@@ -36,6 +36,7 @@
 //! # Ok::<(), copse_forest::Error>(())
 //! ```
 #![deny(missing_docs)]
+#![forbid(unsafe_code)]
 
 pub mod error;
 pub mod forest;

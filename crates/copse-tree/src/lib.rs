@@ -28,6 +28,7 @@
 //! assert_eq!(tree.predict_row(&[2.6]), &[0.0, 1.0]);
 //! ```
 #![deny(missing_docs)]
+#![forbid(unsafe_code)]
 
 mod check;
 pub mod data;
