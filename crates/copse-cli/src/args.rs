@@ -39,6 +39,9 @@ pub enum Command {
     Evaluate(EvaluateArgs),
     /// Rank inputs by permutation importance on a labelled CSV file.
     Importance(ImportanceArgs),
+    /// Compare one tree, bagged trees and a random forest over several seeds: how much
+    /// their error, answers and importance ranking move.
+    Stability(StabilityArgs),
     /// Describe a model file: inputs, settings, sizes, out-of-bag accuracy, tree rules.
     Inspect(InspectArgs),
     /// Run the whole job on the bundled, invented water-main register.
@@ -184,13 +187,19 @@ pub struct TrainArgs {
     #[arg(long, value_name = "DIR")]
     pub plots: Option<PathBuf>,
 
+    /// Keep in the model how many times each tree drew each row (rows x trees bytes),
+    /// so that 'copse score --uncertainty' can give standard errors.
+    #[arg(long)]
+    pub keep_draws: bool,
+
+    /// Test each input's importance against N forests trained on a shuffled target and
+    /// report p-values (costs N more forests; 199 gives p-values down to 0.005).
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=100_000))]
+    pub null_permutations: Option<u32>,
+
     /// Print the report as one JSON object instead of text.
     #[arg(long)]
     pub json: bool,
-
-    /// Train even when the model would obviously not fit in the memory available.
-    #[arg(long)]
-    pub allow_large: bool,
 }
 
 /// `copse score`.
@@ -212,14 +221,13 @@ pub struct ScoreArgs {
     #[arg(long, value_name = "COL,...", value_delimiter = ',')]
     pub keep: Vec<String>,
 
+    /// Add a standard error for every output (se_prediction, or se_<class> per class
+    /// probability); the model must have been trained with --keep-draws.
+    #[arg(long)]
+    pub uncertainty: bool,
+
     #[command(flatten)]
     pub csv: CsvArgs,
-
-    /// Write a row that cannot be scored (text in a numeric input, a wrong number of
-    /// fields, text that is not UTF-8) with an empty prediction and count it on standard
-    /// error, instead of stopping with an error.
-    #[arg(long)]
-    pub blank_unscorable: bool,
 
     /// Rows read and scored together (memory use grows with it).
     #[arg(long, default_value_t = 4096, value_name = "N", hide = true, value_parser = clap::value_parser!(u32).range(1..))]
@@ -274,6 +282,83 @@ pub struct ImportanceArgs {
     /// Also draw the ranking as an SVG chart in this file.
     #[arg(long, value_name = "FILE")]
     pub plot: Option<PathBuf>,
+}
+
+/// `copse stability`.
+#[derive(Debug, Args)]
+pub struct StabilityArgs {
+    /// Data: a CSV file with a header row, or - for standard input.
+    #[arg(long, value_name = "FILE")]
+    pub data: String,
+
+    /// The column to predict.
+    #[arg(long, value_name = "COL")]
+    pub target: String,
+
+    /// Columns to leave out (identifiers, free text).
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub ignore: Vec<String>,
+
+    /// Columns to treat as categories even if they hold numbers.
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub categorical: Vec<String>,
+
+    /// Columns that must be numbers (a cell that is not one is an error).
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub numeric: Vec<String>,
+
+    /// Classification or regression [default: classify when the target holds text,
+    /// regress when it holds numbers].
+    #[arg(long, value_enum)]
+    pub task: Option<TaskArg>,
+
+    #[command(flatten)]
+    pub csv: CsvArgs,
+
+    /// Seeds: each kind of model is trained once per seed.
+    #[arg(long, default_value_t = 5, value_name = "S", value_parser = clap::value_parser!(u32).range(2..=100))]
+    pub seeds: u32,
+
+    /// Folds of the single tree's cross-validation.
+    #[arg(long, default_value_t = 5, value_name = "K", value_parser = clap::value_parser!(u32).range(2..=100))]
+    pub folds: u32,
+
+    /// Trees in each bagged model and random forest.
+    #[arg(long, default_value_t = 500, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
+    pub trees: u32,
+
+    /// Inputs tried at each split by the random forest: sqrt, log2, a count N, or a
+    /// fraction such as 0.33 [default: as for 'copse train'].
+    #[arg(long, value_name = "RULE", value_parser = parse_features_per_split)]
+    pub features_per_split: Option<FeaturesPerSplit>,
+
+    /// Impurity measure for classification splits.
+    #[arg(long, value_enum, default_value = "gini")]
+    pub impurity: ImpurityArg,
+
+    /// Deepest level a leaf may sit at [default: no limit].
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..))]
+    pub max_depth: Option<u32>,
+
+    /// Fewest training rows a leaf may hold.
+    #[arg(long, default_value_t = 1, value_name = "N", value_parser = clap::value_parser!(u32).range(1..))]
+    pub min_leaf: u32,
+
+    /// Most value bins per numeric input.
+    #[arg(long, default_value_t = 255, value_name = "N", value_parser = clap::value_parser!(u32).range(2..=65535))]
+    pub bins: u32,
+
+    /// Master seed: the seeds compared are drawn from it, so the report repeats exactly.
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    pub seed: u64,
+
+    /// Also draw the comparison as an SVG chart in this file.
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+
+    /// Print one JSON object instead of text.
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// `copse inspect`.

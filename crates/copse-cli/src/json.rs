@@ -5,8 +5,8 @@ use crate::model::Model;
 use crate::report::CAUTION;
 use crate::schema::Task;
 use copse_forest::{
-    FeatureKind, Importance, ImportanceMeasure, ImportanceMethod, Metrics, PermutationImportance,
-    Sampling,
+    mirrored_null_test, FeatureKind, Importance, ImportanceMeasure, ImportanceMethod, Metrics,
+    PermutationImportance, Sampling, Significance, SignificanceTest,
 };
 use serde_json::{json, Map, Value};
 
@@ -171,6 +171,7 @@ pub fn model_object(command: &str, model: &Model) -> Map<String, Value> {
             "min_leaf": s.tree.min_leaf,
             "bins": s.bin_limit.saturating_sub(1),
             "seed": s.seed,
+            "keep_draws": f.inbag().is_some(),
         }),
     );
     map.insert(
@@ -186,6 +187,9 @@ pub fn model_object(command: &str, model: &Model) -> Map<String, Value> {
     );
     map.insert("oob".into(), oob(model));
     put_permutation(&mut map, f.oob_importance());
+    if let Some(imp) = f.oob_importance() {
+        put_p_values(&mut map, "importance", &imp.error, None);
+    }
     map.insert("caution".into(), json!(CAUTION));
     map
 }
@@ -202,4 +206,68 @@ pub fn print(map: Map<String, Value>) -> crate::error::CliResult<()> {
     writeln!(out, "{text}")
         .and_then(|()| out.flush())
         .map_err(|e| crate::error::CliError::write("standard output", &e))
+}
+
+fn test_name(t: SignificanceTest) -> &'static str {
+    match t {
+        SignificanceTest::MirroredNull => "mirrored_null",
+        SignificanceTest::ResponsePermutation => "shuffled_target",
+    }
+}
+
+fn p_key(t: SignificanceTest) -> &'static str {
+    match t {
+        SignificanceTest::MirroredNull => "p_mirror",
+        SignificanceTest::ResponsePermutation => "p_shuffle",
+    }
+}
+
+/// Adds p-values to the entries of the ranking under `key` (made by [`ranking`] from
+/// `imp`): `p_mirror` from the mirrored-null test of `imp` (null when it has no null
+/// sample) and `p_shuffle` from `shuffle` when given; and a list `<key>_tests` saying
+/// for each test its null size and smallest possible p-value.
+pub fn put_p_values(
+    map: &mut Map<String, Value>,
+    key: &str,
+    imp: &Importance,
+    shuffle: Option<&Significance>,
+) {
+    let mirror = mirrored_null_test(imp);
+    let mut tests = vec![match &mirror {
+        Some(m) => test_about(m),
+        None => json!({
+            "test": test_name(SignificanceTest::MirroredNull),
+            "measure": measure_name(imp.measure),
+            "null_size": 0,
+            "smallest_p": null,
+        }),
+    }];
+    tests.extend(shuffle.map(test_about));
+    if let Some(Value::Array(entries)) = map.get_mut(key) {
+        for e in entries.iter_mut() {
+            let Some(name) = e.get("feature").and_then(Value::as_str) else {
+                continue;
+            };
+            let Some(j) = imp.features.iter().position(|f| f.name == name) else {
+                continue;
+            };
+            if let Value::Object(o) = e {
+                let mp = mirror.as_ref().and_then(|m| m.p_values.get(j).copied());
+                o.insert(p_key(SignificanceTest::MirroredNull).into(), json!(mp));
+                if let Some(s) = shuffle {
+                    o.insert(p_key(s.test).into(), json!(s.p_values.get(j)));
+                }
+            }
+        }
+    }
+    map.insert(format!("{key}_tests"), Value::Array(tests));
+}
+
+fn test_about(s: &Significance) -> Value {
+    json!({
+        "test": test_name(s.test),
+        "measure": measure_name(s.measure),
+        "null_size": s.null_size,
+        "smallest_p": 1.0 / (1.0 + s.null_size as f64),
+    })
 }

@@ -2,8 +2,11 @@
 //! subtitle, thin light grid lines, teal marks and dark whiskers.
 //! - importance: one horizontal bar per input, most important on top, a whisker of
 //!   plus and minus one standard error, and a dark line at zero;
-//! - out-of-bag error against the number of trees, with the final value marked.
-use copse_forest::Importance;
+//! - out-of-bag error against the number of trees, with the final value marked;
+//! - stability: three small panels side by side (error per seed, share of answers that
+//!   change between seeds, agreement of importance rankings), one column per kind of
+//!   model.
+use copse_forest::{Importance, KindStability, ModelKind, Significance, StabilityReport};
 use plotters::coord::ranged1d::SegmentValue;
 use plotters::prelude::*;
 
@@ -49,14 +52,26 @@ fn titled<'a>(
     Ok(rest)
 }
 
-/// The importance chart of `imp` as SVG text.
+/// The importance chart of `imp` as SVG text, with each input's p-value (from `p`, in
+/// input order) written after its name when given.
 ///
 /// # Errors
 /// A message when drawing fails.
-pub fn importance_svg(imp: &Importance, title: &str, subtitle: &str) -> PlotResult<String> {
+pub fn importance_svg(
+    imp: &Importance,
+    p: Option<&Significance>,
+    title: &str,
+    subtitle: &str,
+) -> PlotResult<String> {
     let ranked = imp.ranked();
     let n = ranked.len().max(1);
-    let names: Vec<String> = ranked.iter().map(|f| f.name.clone()).collect();
+    let names: Vec<String> = ranked
+        .iter()
+        .map(|f| match p.and_then(|s| s.p_values.get(f.feature)) {
+            Some(&v) => format!("{} (p = {})", f.name, crate::report::p_text(v)),
+            None => f.name.clone(),
+        })
+        .collect();
     let longest = names.iter().map(|s| s.chars().count()).max().unwrap_or(5);
     let (mut lo, mut hi) = (0.0f64, 0.0f64);
     for f in &ranked {
@@ -232,6 +247,199 @@ pub fn oob_curve_svg(curve: &[Option<f64>], measure: &str, subtitle: &str) -> Pl
                     ),
             ))
             .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
+
+/// Short name of a kind of model for chart labels.
+fn kind_label(k: ModelKind) -> &'static str {
+    match k {
+        ModelKind::SingleTree => "one tree",
+        ModelKind::BaggedTrees => "bagged trees",
+        ModelKind::Forest => "random forest",
+    }
+}
+
+/// One panel of the stability chart: a column per kind of model; `values(k)` gives the
+/// points drawn for kind `k` (one dot each) and `bar(k)` the height of its bar, if any.
+#[allow(clippy::too_many_arguments)]
+fn stability_panel(
+    area: &DrawingArea<SVGBackend<'_>, plotters::coord::Shift>,
+    kinds: &[KindStability],
+    caption: &str,
+    axis: &str,
+    y_range: (f64, f64),
+    values: &dyn Fn(&KindStability) -> Vec<f64>,
+    bar: &dyn Fn(&KindStability) -> Option<f64>,
+    label: &dyn Fn(f64) -> String,
+) -> PlotResult<()> {
+    let n = kinds.len().max(1);
+    let mut chart = ChartBuilder::on(area)
+        .caption(caption, ("sans-serif", 14).into_font().color(&INK))
+        .margin(10)
+        .x_label_area_size(34)
+        .y_label_area_size(56)
+        .build_cartesian_2d((0..n as i32 - 1).into_segmented(), y_range.0..y_range.1)
+        .map_err(err)?;
+    chart
+        .configure_mesh()
+        .disable_x_mesh()
+        .light_line_style(WHITE)
+        .bold_line_style(GRID)
+        .axis_style(GREY)
+        .x_labels(n)
+        .x_label_formatter(&|v| match v {
+            SegmentValue::CenterOf(i) => kinds
+                .get(*i as usize)
+                .map_or(String::new(), |k| kind_label(k.kind).to_string()),
+            _ => String::new(),
+        })
+        .y_desc(axis)
+        .y_label_formatter(&|v| label(*v))
+        .label_style(("sans-serif", 12).into_font().color(&INK))
+        .axis_desc_style(("sans-serif", 12).into_font().color(&GREY))
+        .draw()
+        .map_err(err)?;
+    for (i, k) in kinds.iter().enumerate() {
+        let slot = i as i32;
+        if let Some(h) = bar(k) {
+            let (a, b) = if h >= 0.0 { (0.0, h) } else { (h, 0.0) };
+            let mut r = Rectangle::new(
+                [
+                    (SegmentValue::Exact(slot), a),
+                    (SegmentValue::Exact(slot + 1), b),
+                ],
+                TEAL.mix(0.85).filled(),
+            );
+            r.set_margin(0, 0, 22, 22);
+            chart.draw_series(std::iter::once(r)).map_err(err)?;
+            chart
+                .draw_series(std::iter::once(
+                    EmptyElement::at((SegmentValue::CenterOf(slot), h))
+                        + Text::new(
+                            label(h),
+                            (-14, if h >= 0.0 { -18 } else { 4 }),
+                            ("sans-serif", 12).into_font().color(&INK),
+                        ),
+                ))
+                .map_err(err)?;
+        }
+        let pts = values(k);
+        if !pts.is_empty() {
+            // Dots spread across the column so equal values stay visible, and a dark
+            // tick at their mean.
+            let m = pts.len();
+            for (s, &v) in pts.iter().enumerate() {
+                let dx = if m > 1 {
+                    -24 + (48 * s as i32) / (m as i32 - 1)
+                } else {
+                    0
+                };
+                chart
+                    .draw_series(std::iter::once(
+                        EmptyElement::at((SegmentValue::CenterOf(slot), v))
+                            + Circle::new((dx, 0), 4, TEAL.mix(0.9).filled()),
+                    ))
+                    .map_err(err)?;
+            }
+            let mean = pts.iter().sum::<f64>() / m as f64;
+            chart
+                .draw_series(std::iter::once(
+                    EmptyElement::at((SegmentValue::CenterOf(slot), mean))
+                        + PathElement::new(vec![(-34, 0), (34, 0)], INK.stroke_width(2)),
+                ))
+                .map_err(err)?;
+        }
+    }
+    Ok(())
+}
+
+/// The stability chart as SVG text: error per seed (dots, with a tick at the mean),
+/// the share of held-out answers that change between seeds, and the agreement of the
+/// importance rankings between seeds, one column per kind of model.
+///
+/// # Errors
+/// A message when drawing fails.
+pub fn stability_svg(r: &StabilityReport, subtitle: &str) -> PlotResult<String> {
+    let errors: Vec<f64> = r
+        .kinds
+        .iter()
+        .flat_map(|k| k.errors.iter().copied())
+        .filter(|v| v.is_finite())
+        .collect();
+    let top = errors.iter().copied().fold(0.0f64, f64::max).max(1e-9);
+    let change_top = r
+        .kinds
+        .iter()
+        .filter_map(|k| k.prediction_change)
+        .fold(0.0f64, f64::max)
+        .max(1e-9);
+    let tau_low = r
+        .kinds
+        .iter()
+        .filter_map(|k| k.rank_tau)
+        .fold(0.0f64, f64::min);
+    let (err_axis, change_axis, change_caption) = if r.classes {
+        (
+            "misclassification rate",
+            "share of rows",
+            "Answers that change between seeds",
+        )
+    } else {
+        (
+            "mean squared error",
+            "RMS change / sd of target",
+            "Shift of answers between seeds",
+        )
+    };
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (960, 460)).into_drawing_area();
+        let area = titled(
+            &root,
+            "How much each kind of model moves when only the seed changes",
+            subtitle,
+        )?;
+        let panels = area.split_evenly((1, 3));
+        let pct = |v: f64| {
+            format!(
+                "{}%",
+                crate::report::plain((100.0 * v * 10.0).round() / 10.0)
+            )
+        };
+        let num = |v: f64| crate::report::sig(v, 3);
+        let err_label: &dyn Fn(f64) -> String = if r.classes { &pct } else { &num };
+        stability_panel(
+            &panels[0],
+            &r.kinds,
+            "Error, one dot per seed",
+            err_axis,
+            (0.0, top * 1.15),
+            &|k| k.errors.iter().copied().filter(|v| v.is_finite()).collect(),
+            &|_| None,
+            err_label,
+        )?;
+        stability_panel(
+            &panels[1],
+            &r.kinds,
+            change_caption,
+            change_axis,
+            (0.0, change_top * 1.2),
+            &|_| Vec::new(),
+            &|k| k.prediction_change,
+            &pct,
+        )?;
+        stability_panel(
+            &panels[2],
+            &r.kinds,
+            "Agreement of importance rankings",
+            "Kendall's tau (1 = same order)",
+            (tau_low.min(0.0), 1.1),
+            &|_| Vec::new(),
+            &|k| k.rank_tau,
+            &|v| crate::report::sig(v, 2),
+        )?;
         root.present().map_err(err)?;
     }
     Ok(svg)

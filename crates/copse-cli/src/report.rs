@@ -5,8 +5,8 @@
 use crate::model::Model;
 use crate::schema::Task;
 use copse_forest::{
-    ClassMetrics, FeatureKind, Importance, ImportanceMeasure, Metrics, PermutationImportance,
-    Sampling, ValueMetrics,
+    mirrored_null_test, ClassMetrics, FeatureKind, Importance, ImportanceMeasure, Metrics,
+    PermutationImportance, Sampling, Significance, SignificanceTest, ValueMetrics,
 };
 use std::fmt::Write;
 
@@ -262,6 +262,16 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
         &format!("at most {} per input", s.bin_limit.saturating_sub(1)),
     );
     line(out, "seed", &s.seed.to_string());
+    if let Some(inbag) = f.inbag() {
+        line(
+            out,
+            "row draws kept",
+            &format!(
+                "yes, {} (for 'copse score --uncertainty')",
+                bytes_words(inbag.heap_bytes() as u64)
+            ),
+        );
+    }
     if let Some(t) = threads {
         line(out, "threads", &t.to_string());
     }
@@ -393,11 +403,38 @@ fn measure_words(m: ImportanceMeasure) -> &'static str {
     }
 }
 
+/// Smallest null sample for which the mirrored-null p-values are shown in reports: 19
+/// values allow a p-value of 0.05 (smallest possible p is 1 / (1 + null size)).
+pub const MIRROR_MIN_NULL: usize = 19;
+
+/// A p-value as printed: three decimals, or `<0.001`.
+pub fn p_text(p: f64) -> String {
+    if p < 0.001 {
+        "<0.001".to_string()
+    } else {
+        format!("{p:.3}")
+    }
+}
+
+/// Column heading of a test's p-values.
+pub fn p_head(test: SignificanceTest) -> &'static str {
+    match test {
+        SignificanceTest::MirroredNull => "p mirror",
+        SignificanceTest::ResponsePermutation => "p shuffle",
+    }
+}
+
 /// The importance ranking: one line per input with its mean rise, standard error, a
 /// bar, and with `show_brier` (for classes) the rise in Brier score beside it. Per-tree
 /// out-of-bag importance leaves the Brier column out: a fully grown tree's leaves are
-/// pure, so its Brier rise is exactly twice its error rise and adds nothing.
-pub fn importance_table(out: &mut String, imp: &PermutationImportance, show_brier: bool) {
+/// pure, so its Brier rise is exactly twice its error rise and adds nothing. One
+/// p-value column follows per test in `p` (p-values in input order).
+pub fn importance_table(
+    out: &mut String,
+    imp: &PermutationImportance,
+    show_brier: bool,
+    p: &[&Significance],
+) {
     let brier = if show_brier { imp.brier.as_ref() } else { None };
     let err = &imp.error;
     let ranked = err.ranked();
@@ -429,6 +466,9 @@ pub fn importance_table(out: &mut String, imp: &PermutationImportance, show_brie
     if brier.is_some() {
         let _ = write!(head, "  {:>11}", "Brier rise");
     }
+    for sig in p {
+        let _ = write!(head, "  {:>9}", p_head(sig.test));
+    }
     let _ = writeln!(out, "{head}");
     for f in ranked {
         let se = f
@@ -443,6 +483,13 @@ pub fn importance_table(out: &mut String, imp: &PermutationImportance, show_brie
         );
         if let Some(b) = brier_of(f.feature) {
             let _ = write!(row, "  {:>11}", signed(b, d_brier));
+        }
+        for sig in p {
+            let v = sig
+                .p_values
+                .get(f.feature)
+                .map_or("-".to_string(), |&v| p_text(v));
+            let _ = write!(row, "  {v:>9}");
         }
         let bar = if top > 0.0 && f.mean > 0.0 {
             "█".repeat(((f.mean / top) * 24.0).round() as usize)
@@ -485,14 +532,85 @@ pub fn importance_intro(imp: &Importance, held_out: bool) -> String {
         .join("\n")
 }
 
+/// The mirrored-null test of an importance, when its null sample is large enough to
+/// show ([`MIRROR_MIN_NULL`]).
+pub fn shown_mirror(imp: &Importance) -> Option<Significance> {
+    mirrored_null_test(imp).filter(|s| s.null_size >= MIRROR_MIN_NULL)
+}
+
+/// The importance table with its p-value columns and, under it, what each p-value
+/// means: the mirrored-null test when the importances allow it, and the shuffled-target
+/// test when given. `hint` says how to get p-values when the mirrored test cannot give
+/// them.
+pub fn importance_with_tests(
+    out: &mut String,
+    imp: &PermutationImportance,
+    show_brier: bool,
+    shuffle: Option<&Significance>,
+    hint: &str,
+) {
+    let mirror = mirrored_null_test(&imp.error);
+    let mirror_shown = mirror.as_ref().filter(|s| s.null_size >= MIRROR_MIN_NULL);
+    let cols: Vec<&Significance> = mirror_shown.into_iter().chain(shuffle).collect();
+    importance_table(out, imp, show_brier, &cols);
+    let mut notes = Vec::new();
+    match (&mirror, mirror_shown) {
+        (Some(m), Some(_)) => notes.push(format!(
+            "p mirror: the rises at or below zero and their mirror images stand in for inputs \
+             that do not matter ({} values, so the smallest possible p is {}); p is the share \
+             of them at least as large as the input's rise (mirrored-null test, Janitza, Celik \
+             & Boulesteix 2018). It assumes most inputs do not matter.",
+            m.null_size,
+            p_text(1.0 / (1.0 + m.null_size as f64))
+        )),
+        _ => notes.push(format!(
+            "No mirrored-null p-values: the rises at or below zero (and their mirror images) \
+             give only {} null values, and the test needs at least {MIRROR_MIN_NULL}, that is \
+             many inputs that do not matter; {hint}",
+            mirror.as_ref().map_or(0, |m| m.null_size)
+        )),
+    }
+    if let Some(s) = shuffle {
+        notes.push(format!(
+            "p shuffle: the target was shuffled {} times and a forest trained on each; p is \
+             the share of those forests, counting the real one, that give the input at least \
+             this rise (Altmann, Tolosi, Sander & Lengauer 2010); smallest possible p {}.",
+            s.null_size,
+            p_text(1.0 / (1.0 + s.null_size as f64))
+        ));
+    }
+    for n in notes {
+        let _ = writeln!(out);
+        for l in wrap(&n, 88) {
+            let _ = writeln!(out, "  {l}");
+        }
+    }
+}
+
 /// The out-of-bag importance section of a model.
 pub fn importance_section(out: &mut String, st: Style, model: &Model) {
+    importance_section_with(out, st, model, None);
+}
+
+/// [`importance_section`] with the p-values of a shuffled-target test, if one was run.
+pub fn importance_section_with(
+    out: &mut String,
+    st: Style,
+    model: &Model,
+    shuffle: Option<&Significance>,
+) {
     let _ = writeln!(out, "{}", st.head("WHICH INPUTS MATTER"));
     match model.forest.oob_importance() {
         Some(imp) => {
             let _ = writeln!(out, "{}", importance_intro(&imp.error, false));
             let _ = writeln!(out);
-            importance_table(out, imp, false);
+            importance_with_tests(
+                out,
+                imp,
+                false,
+                shuffle,
+                "train with --null-permutations 199 for p-values from a shuffled target.",
+            );
         }
         None => {
             let _ = writeln!(

@@ -245,7 +245,8 @@ pub fn holdout_importance(
         return Err(Error::new(
             ErrorKind::NoTargets,
             format!(
-                "hold-out importance splits the rows with an outcome in two halves and needs                  at least 4 of them; there are {}",
+                "hold-out importance splits the rows with an outcome in two halves and needs \
+                 at least 4 of them; there are {}",
                 rows.len()
             ),
         ));

@@ -57,8 +57,9 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         seed: 1,
         oob_out: Some(oob_path.clone()),
         plots: Some(plots_dir.clone()),
+        keep_draws: false,
+        null_permutations: None,
         json: false,
-        allow_large: false,
     };
     let mut text = String::new();
     let _ = writeln!(
@@ -76,8 +77,8 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         data: shown(&score_csv),
         out: Some(shown(&scored_path)),
         keep: vec![ID.to_string()],
+        uncertainty: false,
         csv,
-        blank_unscorable: false,
         block_rows: 4096,
     };
     let scored = score::score(&sargs, ui)?;

@@ -1,5 +1,6 @@
 //! `copse importance`: permutation importance on labelled rows the model has not seen,
-//! with standard errors over repeated shuffles.
+//! with standard errors over repeated shuffles and, when the inputs allow it, p-values
+//! of the mirrored-null test.
 use crate::args::ImportanceArgs;
 use crate::commands::emit;
 use crate::encode::read_labelled;
@@ -44,11 +45,16 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
             Task::Classify => "misclassification rate",
             Task::Regress => "mean squared error",
         };
+        let mirror = report::shown_mirror(&imp.error);
+        let about = mirror.as_ref().map_or(String::new(), |m| {
+            format!("; p: mirrored-null test, {} null values", m.null_size)
+        });
         let svg = plots::importance_svg(
             &imp.error,
+            mirror.as_ref(),
             &format!("Which inputs matter: rise in {measure} when shuffled"),
             &format!(
-                "held-out rows from {source}, {} shuffles per input, model {}",
+                "held-out rows from {source}, {} shuffles per input, model {}{about}",
                 a.repeats,
                 a.model.display()
             ),
@@ -62,9 +68,14 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
         let mut map = json::model_object("importance", &model);
         let oob_imp = map.remove("importance").unwrap_or(serde_json::Value::Null);
         map.insert("oob_importance".into(), oob_imp);
+        let oob_tests = map
+            .remove("importance_tests")
+            .unwrap_or(serde_json::Value::Null);
+        map.insert("oob_importance_tests".into(), oob_tests);
         map.remove("importance_brier");
         map.remove("importance_about");
         json::put_permutation(&mut map, Some(&imp));
+        json::put_p_values(&mut map, "importance", &imp.error, None);
         map.insert("source".into(), json!(source));
         map.insert("rows_read".into(), json!(data.rows));
         map.insert("repeats".into(), json!(a.repeats));
@@ -78,7 +89,13 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
     let _ = writeln!(text, "  {:<24}{} ({} rows)\n", "data", source, data.rows);
     let _ = writeln!(text, "{}", st.head("WHICH INPUTS MATTER ON THESE ROWS"));
     let _ = writeln!(text, "{}\n", report::importance_intro(&imp.error, true));
-    report::importance_table(&mut text, &imp, true);
+    report::importance_with_tests(
+        &mut text,
+        &imp,
+        true,
+        None,
+        "for p-values with few inputs, train with 'copse train ... --null-permutations 199'.",
+    );
     let _ = writeln!(text);
     report::caution(&mut text, st);
     emit(&text)

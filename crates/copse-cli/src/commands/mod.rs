@@ -6,6 +6,7 @@ pub mod importance;
 pub mod inspect;
 pub mod make_demo_data;
 pub mod score;
+pub mod stability;
 pub mod train;
 
 use crate::args::{Cli, Command};
@@ -31,6 +32,7 @@ pub fn run(cli: Cli) -> CliResult<()> {
         Command::Score(a) => score::run(&a, &ui),
         Command::Evaluate(a) => evaluate::run(&a, &ui),
         Command::Importance(a) => importance::run(&a, &ui),
+        Command::Stability(a) => stability::run(&a, &ui),
         Command::Inspect(a) => inspect::run(&a, &ui),
         Command::Demo(a) => demo::run(&a, &ui),
         Command::MakeDemoData(a) => make_demo_data::run(&a, &ui),

@@ -1,14 +1,16 @@
 //! `copse score`: stream rows through a model in blocks and write one output row per
 //! input row, in input order: the kept columns, `prediction`, and for classes one
-//! `prob_<class>` column per class. Memory stays bounded by the block size whatever
-//! the length of the input.
+//! `prob_<class>` column per class; with `--uncertainty`, a standard error per output
+//! (`se_prediction`, or `se_<class>` per class probability) by the bias-corrected
+//! infinitesimal jackknife. Memory stays bounded by the block size whatever the length
+//! of the input.
 use crate::args::ScoreArgs;
 use crate::commands::train::compact;
 use crate::encode::RowEncoder;
 use crate::error::{forest_error, CliError, CliResult};
 use crate::model::Model;
 use crate::output::{refuse_overwrite, Output};
-use crate::reader::{CsvInput, Row};
+use crate::reader::CsvInput;
 use crate::schema::Missing;
 use crate::ui::Ui;
 use ndarray::ArrayView2;
@@ -19,8 +21,6 @@ pub struct ScoreRun {
     pub rows: u64,
     /// Where the output went.
     pub output: String,
-    /// Rows written with an empty prediction (`--blank-unscorable`).
-    pub unscorable: u64,
 }
 
 /// Runs `copse score`.
@@ -50,6 +50,13 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     }
     let model = Model::load(&a.model)?;
     let forest = &model.forest;
+    if a.uncertainty && forest.inbag().is_none() {
+        return Err(CliError::input(format!(
+            "{} holds no record of which rows each tree drew, which --uncertainty needs; \
+             retrain it with 'copse train ... --keep-draws'",
+            a.model.display()
+        )));
+    }
     let mut input = CsvInput::open(&a.data, a.csv.delimiter.into())?;
     let missing = a
         .csv
@@ -75,6 +82,13 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     let mut header: Vec<String> = a.keep.clone();
     header.push("prediction".to_string());
     header.extend(classes.iter().map(|c| format!("prob_{c}")));
+    if a.uncertainty {
+        if classes.is_empty() {
+            header.push("se_prediction".to_string());
+        } else {
+            header.extend(classes.iter().map(|c| format!("se_{c}")));
+        }
+    }
     for (i, h) in header.iter().enumerate() {
         if header[..i].contains(h) {
             return Err(CliError::input(format!(
@@ -103,47 +117,12 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     let mut xbuf = vec![0.0f64; block * p];
     let mut fields = csv::StringRecord::new();
     let mut rows: u64 = 0;
-    // Rows of the current block that cannot be scored (written with an empty
-    // prediction under --blank-unscorable), and a tally for the warning.
-    let mut blank = vec![false; block];
-    // Prediction columns per row: the prediction, plus one probability per class.
-    let out_fields = if classes.is_empty() {
-        1
-    } else {
-        classes.len() + 1
-    };
-    let mut skipped = Unscorable::default();
+    let mut clamped = 0usize;
     let bar = ui.bytes_bar(input.size(), "scoring");
     loop {
         let mut m = 0;
-        while m < block {
-            let fault = match input.read_row(&mut records[m])? {
-                Row::End => break,
-                Row::Record => match enc.encode(&records[m], &mut xbuf[m * p..(m + 1) * p]) {
-                    Ok(()) => None,
-                    Err(e) => {
-                        let line = records[m].position().map_or(0, |p| p.line());
-                        Some((line, e))
-                    }
-                },
-                Row::Fault(line, e) => {
-                    // The fields of a malformed row may be shifted: keep none of them.
-                    records[m].clear();
-                    Some((line, e))
-                }
-            };
-            blank[m] = fault.is_some();
-            if let Some((line, e)) = fault {
-                if !a.blank_unscorable {
-                    return Err(CliError::input(format!(
-                        "{}; or add --blank-unscorable to write such rows with an empty prediction \
-                         (they are counted on standard error)",
-                        e.message()
-                    )));
-                }
-                xbuf[m * p..(m + 1) * p].fill(f64::NAN);
-                skipped.add(line, e);
-            }
+        while m < block && input.read(&mut records[m])? {
+            enc.encode(&records[m], &mut xbuf[m * p..(m + 1) * p])?;
             m += 1;
         }
         if m == 0 {
@@ -151,9 +130,26 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         }
         let x = ArrayView2::from_shape((m, p), &xbuf[..m * p])
             .map_err(|e| CliError::failure(format!("internal: {e}")))?;
-        let preds = forest
-            .predict(x)
-            .map_err(|e| forest_error(&e, &format!("cannot score {}", input.name())))?;
+        let fail =
+            |e: copse_forest::Error| forest_error(&e, &format!("cannot score {}", input.name()));
+        let (preds, se) = if a.uncertainty {
+            let u = forest.prediction_uncertainty(x).map_err(fail)?;
+            clamped += u.clamped;
+            // A corrected variance that came out negative (stored as 0 while the
+            // uncorrected one is positive) is unknown, not zero: its cell stays empty.
+            let se = ndarray::Zip::from(&u.variance)
+                .and(&u.variance_uncorrected)
+                .map_collect(|&v, &raw| {
+                    if v == 0.0 && raw > 0.0 {
+                        f64::NAN
+                    } else {
+                        v.sqrt()
+                    }
+                });
+            (u.predictions, Some(se))
+        } else {
+            (forest.predict(x).map_err(fail)?, None)
+        };
         if !header_written {
             w.write_record(&header).map_err(werr)?;
             header_written = true;
@@ -163,18 +159,17 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
             for &c in &keep {
                 fields.push_field(records[i].get(c).unwrap_or(""));
             }
-            if blank[i] {
-                // An empty prediction and empty probabilities: the row is kept in its
-                // place, never dropped.
-                for _ in 0..out_fields {
-                    fields.push_field("");
-                }
-            } else if classes.is_empty() {
+            if classes.is_empty() {
                 fields.push_field(&compact(pred[0]));
             } else {
                 let probs = pred.to_vec();
                 fields.push_field(forest.class_label(&probs).unwrap_or(""));
                 for &v in &probs {
+                    fields.push_field(&compact(v));
+                }
+            }
+            if let Some(se) = &se {
+                for &v in se.row(i) {
                     fields.push_field(&compact(v));
                 }
             }
@@ -197,49 +192,26 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     if let Some(warning) = enc.unseen_warning() {
         ui.warn(&warning);
     }
-    if skipped.count > 0 {
-        ui.warn(&skipped.warning(input.name(), rows));
+    if a.uncertainty {
+        ui.note(
+            "standard errors: how much each prediction would move if the model were trained \
+             on another sample of the same size from the same source (bias-corrected \
+             infinitesimal jackknife, Wager, Hastie & Efron 2014); they do not describe the \
+             spread of the outcome itself",
+        );
+        if clamped > 0 {
+            ui.note(&format!(
+                "{clamped} standard error(s) could not be estimated and are left empty: the \
+                 bias correction exceeded the raw estimate, which happens when the trees are \
+                 few compared with the training rows ({} trees for {} rows here); retrain with \
+                 at least twice, better ten times, as many trees as rows",
+                forest.trees().len(),
+                forest.inbag().map_or(0, copse_forest::InBag::population)
+            ));
+        }
     }
     Ok(ScoreRun {
         rows,
         output: out_name,
-        unscorable: skipped.count,
     })
-}
-
-/// Rows written with an empty prediction: how many, the first few lines, and the first
-/// reason in full.
-#[derive(Default)]
-struct Unscorable {
-    count: u64,
-    lines: Vec<u64>,
-    first: Option<String>,
-}
-
-impl Unscorable {
-    const SHOWN: usize = 10;
-
-    fn add(&mut self, line: u64, e: CliError) {
-        self.count += 1;
-        if self.lines.len() < Self::SHOWN {
-            self.lines.push(line);
-        }
-        if self.first.is_none() {
-            self.first = Some(e.message().to_string());
-        }
-    }
-
-    fn warning(&self, source: &str, rows: u64) -> String {
-        let mut lines: Vec<String> = self.lines.iter().map(u64::to_string).collect();
-        if self.count > self.lines.len() as u64 {
-            lines.push(format!("and {} more", self.count - self.lines.len() as u64));
-        }
-        format!(
-            "{} of {rows} rows of {source} could not be scored and were written with an empty \
-             prediction (lines {}); the first: {}",
-            self.count,
-            lines.join(", "),
-            self.first.as_deref().unwrap_or("")
-        )
-    }
 }

@@ -3,7 +3,6 @@
 use crate::args::{ImpurityArg, TaskArg, TrainArgs};
 use crate::commands::{check_destination, emit, make_folder};
 use crate::error::{forest_error, CliError, CliResult};
-use crate::memory;
 use crate::model::{Model, TrainingRecord};
 use crate::output::{refuse_overwrite, write_file, Output};
 use crate::reader::CsvInput;
@@ -12,7 +11,8 @@ use crate::schema::{load_training, Missing, Roles, Task, TrainingData};
 use crate::ui::{Bar, Ui};
 use crate::{json, plots};
 use copse_forest::{
-    FeaturesPerSplit, Forest, ForestSettings, Impurity, Outcome, Progress, Stage, Trained,
+    response_permutation_test, FeaturesPerSplit, Forest, ForestSettings, Impurity, Outcome,
+    PermutationSignificance, Progress, Sampling, Significance, Stage, TrainOptions, Trained,
     TreeSettings,
 };
 use serde_json::{json, Map, Value};
@@ -102,6 +102,18 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     for n in &data.notes {
         ui.note(n);
     }
+    if a.keep_draws && (a.sampling != Sampling::Bootstrap || a.balanced) {
+        return Err(CliError::input(
+            "--keep-draws is for standard errors, which assume plain bootstrap samples; use \
+             --sampling bootstrap without --balanced, or drop --keep-draws",
+        ));
+    }
+    if a.null_permutations.is_some() && a.sampling == Sampling::Whole {
+        return Err(CliError::input(
+            "--null-permutations compares out-of-bag importances, and --sampling none leaves no \
+             row out of bag; use bootstrap or subsample:F",
+        ));
+    }
     if a.balanced && data.schema.target.task == Task::Regress {
         return Err(CliError::input(
             "--balanced draws the same number of rows from each class, so it needs a class target; \
@@ -142,10 +154,25 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         }
     }
 
-    if !a.allow_large {
-        check_memory(&data, &settings, a)?;
+    let options = TrainOptions {
+        keep_inbag: a.keep_draws,
+    };
+    let rows_used = data.outcome.n_labelled();
+    if a.keep_draws && (a.trees as usize) < 2 * rows_used {
+        ui.note(&format!(
+            "standard errors need many trees compared with rows: with {} trees for {rows_used} \
+             rows many will come out unknown; use --trees {} or more (ten times the rows is \
+             better)",
+            a.trees,
+            2 * rows_used
+        ));
     }
-    let trained = grow(&data, &settings, ui)?;
+    let trained = grow(&data, &settings, options, ui)?;
+    let shuffle = match (a.null_permutations, trained.forest.oob_importance()) {
+        (Some(n), Some(imp)) => Some(shuffled_target_test(&data, &settings, imp, n, ui)?),
+        _ => None,
+    };
+    let shuffle_error = shuffle.as_ref().map(|s| &s.error);
     let train_secs = started.elapsed().as_secs_f64();
     let mut model = build_model(&data, trained.forest, &rule_words(fps));
     // The bin layout the trees were grown on, kept in the schema for inspection. The
@@ -166,7 +193,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         outputs.push(("out-of-bag predictions".to_string(), path.clone()));
     }
     if let Some(dir) = &a.plots {
-        for (what, path) in write_plots(dir, &model)? {
+        for (what, path) in write_plots(dir, &model, shuffle_error)? {
             outputs.push((what, path));
         }
     }
@@ -182,7 +209,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     if let Some(advice) = report::rare_class_advice(&model) {
         let _ = writeln!(text, "{advice}\n");
     }
-    report::importance_section(&mut text, st, &model);
+    report::importance_section_with(&mut text, st, &model, shuffle_error);
     let _ = writeln!(text, "{}", st.head("OUTPUTS"));
     for (what, path) in &outputs {
         let size = if what == "model" {
@@ -204,6 +231,9 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     report::caution(&mut text, st);
 
     let mut map = json::model_object("train", &model);
+    if let Some(imp) = model.forest.oob_importance() {
+        json::put_p_values(&mut map, "importance", &imp.error, shuffle_error);
+    }
     map.insert(
         "oob_error_curve".into(),
         json!(model.forest.oob().error_curve),
@@ -231,39 +261,36 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     })
 }
 
-/// Refuses, before growing anything, a model that obviously would not fit in the
-/// memory available (see [`crate::memory`]).
-fn check_memory(data: &TrainingData, settings: &ForestSettings, a: &TrainArgs) -> CliResult<()> {
-    let Some(available) = memory::available_bytes() else {
-        return Ok(());
-    };
-    let request = memory::Request {
-        rows: data.x.nrows() as u64,
-        trees: u64::from(a.trees),
-        min_leaf: u64::from(a.min_leaf),
-        max_depth: a.max_depth,
-        outputs: data.schema.target.classes.len().max(1) as u64,
-        sampling: settings.sampling,
-    };
-    let need = memory::model_bytes(&request);
-    if need > available as f64 {
-        return Err(CliError::input(format!(
-            "training {} trees on the {} rows of {} with --min-leaf {} could need about {} for the model, \
-             but only {} of memory is available; use fewer --trees, a larger --min-leaf or a --max-depth \
-             (or add --allow-large to try anyway)",
-            a.trees,
-            request.rows,
-            data.source,
-            a.min_leaf,
-            memory::words(need),
-            memory::words(available as f64)
-        )));
-    }
-    Ok(())
+/// The shuffled-target test of the out-of-bag importance `imp`, with a progress bar.
+fn shuffled_target_test(
+    data: &TrainingData,
+    settings: &ForestSettings,
+    imp: &copse_forest::PermutationImportance,
+    permutations: u32,
+    ui: &Ui,
+) -> CliResult<PermutationSignificance> {
+    let bar = ui.bar(u64::from(permutations), "forests on a shuffled target");
+    let result = response_permutation_test(
+        data.x.view(),
+        &data.schema.features,
+        &data.outcome,
+        settings,
+        imp,
+        permutations as usize,
+        settings.seed,
+        &|done, _| bar.advance_to(done),
+    );
+    bar.finish();
+    result.map_err(|e| forest_error(&e, &format!("cannot test importance on {}", data.source)))
 }
 
 /// Grows the forest with a progress bar that follows the three stages.
-fn grow(data: &TrainingData, settings: &ForestSettings, ui: &Ui) -> CliResult<Trained> {
+fn grow(
+    data: &TrainingData,
+    settings: &ForestSettings,
+    options: TrainOptions,
+    ui: &Ui,
+) -> CliResult<Trained> {
     let bar: Bar = ui.bar(settings.trees as u64, "growing trees");
     let stage = AtomicU8::new(0);
     let progress = |p: Progress| {
@@ -277,18 +304,19 @@ fn grow(data: &TrainingData, settings: &ForestSettings, ui: &Ui) -> CliResult<Tr
         }
         bar.advance_to(p.done);
     };
-    let result = Forest::train_with_progress(
+    let result = Forest::train_with_options(
         data.x.view(),
         &data.schema.features,
         &data.outcome,
         settings,
+        options,
         &progress,
     );
     bar.finish();
     result.map_err(|e| forest_error(&e, &format!("cannot train on {}", data.source)))
 }
 
-pub(crate) fn build_model(data: &TrainingData, forest: Forest, rule: &str) -> Model {
+fn build_model(data: &TrainingData, forest: Forest, rule: &str) -> Model {
     let (class_counts, value_range) = match &data.outcome {
         Outcome::Classes { codes, labels } => {
             let mut counts = vec![0u64; labels.len()];
@@ -393,11 +421,17 @@ fn write_oob(
     out.finish()
 }
 
-/// Writes the importance chart and the out-of-bag error curve into `dir`.
+/// Writes the importance chart and the out-of-bag error curve into `dir`, with
+/// p-values beside the inputs of the importance chart: those of `shuffle` when given,
+/// else the mirrored-null test's when its null sample is large enough to show.
 ///
 /// # Errors
 /// A failure when drawing or writing fails.
-pub fn write_plots(dir: &Path, model: &Model) -> CliResult<Vec<(String, PathBuf)>> {
+pub fn write_plots(
+    dir: &Path,
+    model: &Model,
+    shuffle: Option<&Significance>,
+) -> CliResult<Vec<(String, PathBuf)>> {
     let mut written = Vec::new();
     let f = &model.forest;
     let measure = match model.schema.target.task {
@@ -412,10 +446,23 @@ pub fn write_plots(dir: &Path, model: &Model) -> CliResult<Vec<(String, PathBuf)
     );
     let draw_err = |e: String| CliError::failure(format!("could not draw a chart: {e}"));
     if let Some(imp) = f.oob_importance() {
+        let mirror = report::shown_mirror(&imp.error);
+        let (p, about) = match (shuffle, &mirror) {
+            (Some(s), _) => (
+                Some(s),
+                format!("; p: {} forests on a shuffled target", s.null_size),
+            ),
+            (None, Some(m)) => (
+                Some(m),
+                format!("; p: mirrored-null test, {} null values", m.null_size),
+            ),
+            (None, None) => (None, String::new()),
+        };
         let svg = plots::importance_svg(
             &imp.error,
+            p,
             &format!("Which inputs matter: rise in out-of-bag {measure} when shuffled"),
-            &sub,
+            &format!("{sub}{about}"),
         )
         .map_err(draw_err)?;
         let path = dir.join("importance.svg");

@@ -1,0 +1,292 @@
+//! The extras through the real binary: standard errors when scoring
+//! (`--keep-draws`, `--uncertainty`), importance p-values (`--null-permutations`, the
+//! mirrored-null column) and `copse stability`. The statistics themselves are checked
+//! in `tests/extras_checks.rs`; these tests check the outputs, their shapes and the
+//! refusals.
+//!
+//! Data: `tests/data/iris.csv` (Fisher 1936; provenance in `tests/data/README.md`).
+use super::{copse_in, expect_code, json_of, read_csv, repo, tmp, train_iris};
+
+fn iris() -> String {
+    repo("tests/data/iris.csv")
+        .to_str()
+        .expect("utf-8 path")
+        .to_string()
+}
+
+/// Iris as a regression problem: predict petal width from the other measurements.
+fn train_petal_width(dir: &std::path::Path, extra: &[&str]) -> std::process::Output {
+    let data = iris();
+    let mut args = vec![
+        "train",
+        "--data",
+        &data,
+        "--target",
+        "petal_width",
+        "--ignore",
+        "species",
+        "--out",
+        "width.copse",
+        "--trees",
+        "300",
+        "--min-leaf",
+        "5",
+        "--seed",
+        "2",
+    ];
+    args.extend_from_slice(extra);
+    copse_in(dir, &args, None)
+}
+
+/// `score --uncertainty` adds one standard-error column per output. Two classes:
+/// p(no) = 1 - p(yes) in every tree, so both columns are equal (computed from the
+/// formula); three classes: one column per class; regression: `se_prediction`.
+/// Standard errors are non-negative numbers or empty (unknown), and with 300 trees for
+/// 150 rows most are known.
+#[test]
+fn scoring_with_standard_errors() {
+    let dir = tmp();
+    let data = iris();
+    expect_code(&train_iris(dir.path(), &["--keep-draws"]), 0);
+    let (so, se) = expect_code(
+        &copse_in(
+            dir.path(),
+            &[
+                "score",
+                "--model",
+                "iris.copse",
+                "--data",
+                &data,
+                "--uncertainty",
+            ],
+            None,
+        ),
+        0,
+    );
+    let rows = read_csv(so.as_bytes());
+    assert_eq!(
+        rows[0],
+        [
+            "prediction",
+            "prob_setosa",
+            "prob_versicolor",
+            "prob_virginica",
+            "se_setosa",
+            "se_versicolor",
+            "se_virginica"
+        ]
+    );
+    assert_eq!(rows.len(), 151);
+    assert!(se.contains("infinitesimal jackknife"), "{se}");
+
+    let (report, notes) = expect_code(&train_petal_width(dir.path(), &["--keep-draws"]), 0);
+    assert!(report.contains("row draws kept"), "{report}");
+    assert!(notes.is_empty() || !notes.contains("many trees"), "{notes}");
+    let (so, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &[
+                "score",
+                "--model",
+                "width.copse",
+                "--data",
+                &data,
+                "--uncertainty",
+            ],
+            None,
+        ),
+        0,
+    );
+    let rows = read_csv(so.as_bytes());
+    assert_eq!(rows[0], ["prediction", "se_prediction"]);
+    let ses: Vec<Option<f64>> = rows[1..]
+        .iter()
+        .map(|r| (!r[1].is_empty()).then(|| r[1].parse::<f64>().expect("a number")))
+        .collect();
+    assert!(ses.iter().flatten().all(|&v| v >= 0.0));
+    let known = ses.iter().flatten().count();
+    assert!(known > 100, "{known} of 150 known");
+    // Petal width spans 0.1 to 2.5 cm (Fisher 1936): a standard error of a forest's
+    // prediction from 150 rows is a small fraction of that range.
+    assert!(ses.iter().flatten().all(|&v| v < 0.5), "{ses:?}");
+}
+
+#[test]
+fn standard_errors_need_the_draws_and_plain_bootstrap() {
+    let dir = tmp();
+    let data = iris();
+    expect_code(&train_iris(dir.path(), &[]), 0);
+    let (so, se) = expect_code(
+        &copse_in(
+            dir.path(),
+            &[
+                "score",
+                "--model",
+                "iris.copse",
+                "--data",
+                &data,
+                "--uncertainty",
+            ],
+            None,
+        ),
+        2,
+    );
+    assert!(so.is_empty());
+    assert!(
+        se.contains("iris.copse") && se.contains("--keep-draws"),
+        "{se}"
+    );
+    for extra in [["--sampling", "subsample:0.5"], ["--sampling", "none"]] {
+        let mut args = vec!["--keep-draws"];
+        args.extend_from_slice(&extra);
+        let (_, se) = expect_code(&train_iris(dir.path(), &args), 2);
+        assert!(
+            se.contains("--keep-draws") && se.contains("bootstrap"),
+            "{se}"
+        );
+    }
+    let (_, se) = expect_code(
+        &train_iris(
+            dir.path(),
+            &["--null-permutations", "5", "--sampling", "none"],
+        ),
+        2,
+    );
+    assert!(se.contains("--null-permutations"), "{se}");
+    // With fewer trees than twice the rows (150 for 150), training says standard errors
+    // will often be unknown.
+    let (_, notes) = expect_code(&train_iris(dir.path(), &["--keep-draws"]), 0);
+    assert!(notes.contains("many trees"), "{notes}");
+}
+
+/// `--null-permutations`: a p-value per input from forests on a shuffled target, in
+/// the report, the JSON and the chart. Iris (Fisher 1936): the petal measurements
+/// separate the species almost perfectly (fact of the trade), so with 19 permutations
+/// they get the smallest possible p-value, 1/20.
+#[test]
+fn importance_p_values_from_a_shuffled_target() {
+    let dir = tmp();
+    let (so, _) = expect_code(
+        &train_iris(dir.path(), &["--null-permutations", "19", "--json"]),
+        0,
+    );
+    let j = json_of(&so);
+    let tests = j["importance_tests"].as_array().expect("tests");
+    assert!(tests
+        .iter()
+        .any(|t| t["test"] == "shuffled_target" && t["null_size"] == 19));
+    for e in j["importance"].as_array().expect("list") {
+        let p = e["p_shuffle"].as_f64().expect("a p-value");
+        assert!((0.05 - 1e-12..=1.0).contains(&p), "{e}");
+        if e["feature"] == "petal_length" || e["feature"] == "petal_width" {
+            assert!((p - 0.05).abs() < 1e-12, "{e}");
+        }
+        assert!(e.get("p_mirror").is_some());
+    }
+    let (report, _) = expect_code(
+        &train_iris(
+            dir.path(),
+            &["--null-permutations", "19", "--plots", "plots"],
+        ),
+        0,
+    );
+    assert!(
+        report.contains("p shuffle") && report.contains("Altmann"),
+        "{report}"
+    );
+    let svg = std::fs::read_to_string(dir.path().join("plots/importance.svg")).expect("svg");
+    assert!(
+        svg.contains("petal_length (p = 0.050)"),
+        "p-values beside the names"
+    );
+}
+
+/// `copse importance` shows the mirrored-null test in its JSON (for iris the null
+/// sample is small or empty, and the report says why it shows no column).
+#[test]
+fn held_out_importance_lists_its_test() {
+    let dir = tmp();
+    let data = iris();
+    expect_code(&train_iris(dir.path(), &[]), 0);
+    let args = [
+        "importance",
+        "--model",
+        "iris.copse",
+        "--data",
+        &data,
+        "--repeats",
+        "3",
+    ];
+    let (so, _) = expect_code(&copse_in(dir.path(), &args, None), 0);
+    assert!(so.contains("mirrored-null"), "{so}");
+    let mut json_args = args.to_vec();
+    json_args.push("--json");
+    let (so, _) = expect_code(&copse_in(dir.path(), &json_args, None), 0);
+    let j = json_of(&so);
+    assert_eq!(j["importance_tests"][0]["test"], "mirrored_null");
+    assert!(j["oob_importance_tests"].is_array());
+    for e in j["importance"].as_array().expect("list") {
+        assert!(e.get("p_mirror").is_some(), "{e}");
+    }
+}
+
+/// `copse stability` on iris: the table, the JSON and the chart. Facts of the trade
+/// (Breiman 1996, "Bagging predictors"): one tree's answers move more between seeds
+/// than a forest's. Iris errors are small for every model (a few percent; common
+/// practice), so the check is only that they are below 15%.
+#[test]
+fn stability_report_table_json_and_chart() {
+    let dir = tmp();
+    let data = iris();
+    let base = [
+        "stability",
+        "--data",
+        &data,
+        "--target",
+        "species",
+        "--seeds",
+        "3",
+        "--trees",
+        "60",
+    ];
+    let mut args = base.to_vec();
+    args.extend_from_slice(&["--plot", "stability.svg"]);
+    let (so, _) = expect_code(&copse_in(dir.path(), &args, None), 0);
+    for head in [
+        "copse stability report",
+        "HOW MUCH EACH MODEL MOVES",
+        "one tree",
+        "bagged trees",
+        "random forest",
+        "does not replace",
+    ] {
+        assert!(so.contains(head), "{head}\n{so}");
+    }
+    let svg = std::fs::read_to_string(dir.path().join("stability.svg")).expect("svg");
+    assert!(svg.starts_with("<svg") && svg.contains("random forest"));
+
+    let mut json_args = base.to_vec();
+    json_args.push("--json");
+    let (so, _) = expect_code(&copse_in(dir.path(), &json_args, None), 0);
+    let j = json_of(&so);
+    assert_eq!(j["command"], "stability");
+    let models = j["models"].as_array().expect("models");
+    assert_eq!(models.len(), 3);
+    assert_eq!(models[0]["model"], "one_tree");
+    for m in models {
+        assert_eq!(m["errors"].as_array().map(Vec::len), Some(3));
+        assert!(m["error_mean"].as_f64().expect("error") < 0.15, "{m}");
+        assert_eq!(m["importance_by_seed"][0].as_array().map(Vec::len), Some(4));
+    }
+    let change = |i: usize| models[i]["answer_change"].as_f64().expect("change");
+    assert!(change(0) > change(2), "{} {}", change(0), change(2));
+
+    // Bad settings are usage errors before any work.
+    let mut bad = base.to_vec();
+    bad[6] = "1";
+    expect_code(&copse_in(dir.path(), &bad, None), 2);
+    let mut nowhere = base.to_vec();
+    nowhere.extend_from_slice(&["--plot", "no/such/folder/s.svg"]);
+    let (so, se) = expect_code(&copse_in(dir.path(), &nowhere, None), 2);
+    assert!(so.is_empty() && se.contains("no/such/folder"), "{se}");
+}
