@@ -200,6 +200,10 @@ pub struct TrainArgs {
     /// Print the report as one JSON object instead of text.
     #[arg(long)]
     pub json: bool,
+
+    /// Train even when the model would obviously not fit in the memory available.
+    #[arg(long)]
+    pub allow_large: bool,
 }
 
 /// `copse score`.
@@ -228,6 +232,12 @@ pub struct ScoreArgs {
 
     #[command(flatten)]
     pub csv: CsvArgs,
+
+    /// Write a row that cannot be scored (text in a numeric input, a wrong number of
+    /// fields, text that is not UTF-8) with an empty prediction and count it on standard
+    /// error, instead of stopping with an error.
+    #[arg(long)]
+    pub blank_unscorable: bool,
 
     /// Rows read and scored together (memory use grows with it).
     #[arg(long, default_value_t = 4096, value_name = "N", hide = true, value_parser = clap::value_parser!(u32).range(1..))]

@@ -60,6 +60,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         keep_draws: false,
         null_permutations: None,
         json: false,
+        allow_large: false,
     };
     let mut text = String::new();
     let _ = writeln!(
@@ -79,6 +80,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         keep: vec![ID.to_string()],
         uncertainty: false,
         csv,
+        blank_unscorable: false,
         block_rows: 4096,
     };
     let scored = score::score(&sargs, ui)?;

@@ -10,7 +10,7 @@ use crate::encode::RowEncoder;
 use crate::error::{forest_error, CliError, CliResult};
 use crate::model::Model;
 use crate::output::{refuse_overwrite, Output};
-use crate::reader::CsvInput;
+use crate::reader::{CsvInput, Row};
 use crate::schema::Missing;
 use crate::ui::Ui;
 use ndarray::ArrayView2;
@@ -21,6 +21,8 @@ pub struct ScoreRun {
     pub rows: u64,
     /// Where the output went.
     pub output: String,
+    /// Rows written with an empty prediction (`--blank-unscorable`).
+    pub unscorable: u64,
 }
 
 /// Runs `copse score`.
@@ -117,12 +119,48 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     let mut xbuf = vec![0.0f64; block * p];
     let mut fields = csv::StringRecord::new();
     let mut rows: u64 = 0;
+    // Rows of the current block that cannot be scored (written with an empty
+    // prediction under --blank-unscorable), and a tally for the warning.
+    let mut blank = vec![false; block];
+    // Prediction columns per row: the prediction, plus one probability per class.
+    let out_fields = if classes.is_empty() {
+        1
+    } else {
+        classes.len() + 1
+    };
+    let mut skipped = Unscorable::default();
     let mut clamped = 0usize;
     let bar = ui.bytes_bar(input.size(), "scoring");
     loop {
         let mut m = 0;
-        while m < block && input.read(&mut records[m])? {
-            enc.encode(&records[m], &mut xbuf[m * p..(m + 1) * p])?;
+        while m < block {
+            let fault = match input.read_row(&mut records[m])? {
+                Row::End => break,
+                Row::Record => match enc.encode(&records[m], &mut xbuf[m * p..(m + 1) * p]) {
+                    Ok(()) => None,
+                    Err(e) => {
+                        let line = records[m].position().map_or(0, |p| p.line());
+                        Some((line, e))
+                    }
+                },
+                Row::Fault(line, e) => {
+                    // The fields of a malformed row may be shifted: keep none of them.
+                    records[m].clear();
+                    Some((line, e))
+                }
+            };
+            blank[m] = fault.is_some();
+            if let Some((line, e)) = fault {
+                if !a.blank_unscorable {
+                    return Err(CliError::input(format!(
+                        "{}; or add --blank-unscorable to write such rows with an empty prediction \
+                         (they are counted on standard error)",
+                        e.message()
+                    )));
+                }
+                xbuf[m * p..(m + 1) * p].fill(f64::NAN);
+                skipped.add(line, e);
+            }
             m += 1;
         }
         if m == 0 {
@@ -159,7 +197,13 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
             for &c in &keep {
                 fields.push_field(records[i].get(c).unwrap_or(""));
             }
-            if classes.is_empty() {
+            if blank[i] {
+                // An empty prediction and empty probabilities: the row is kept in its
+                // place, never dropped.
+                for _ in 0..out_fields {
+                    fields.push_field("");
+                }
+            } else if classes.is_empty() {
                 fields.push_field(&compact(pred[0]));
             } else {
                 let probs = pred.to_vec();
@@ -170,7 +214,8 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
             }
             if let Some(se) = &se {
                 for &v in se.row(i) {
-                    fields.push_field(&compact(v));
+                    // An unscorable row gets no standard error either.
+                    fields.push_field(&if blank[i] { String::new() } else { compact(v) });
                 }
             }
             w.write_record(&fields).map_err(werr)?;
@@ -191,6 +236,9 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     out.finish()?;
     if let Some(warning) = enc.unseen_warning() {
         ui.warn(&warning);
+    }
+    if skipped.count > 0 {
+        ui.warn(&skipped.warning(input.name(), rows));
     }
     if a.uncertainty {
         ui.note(
@@ -213,5 +261,43 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     Ok(ScoreRun {
         rows,
         output: out_name,
+        unscorable: skipped.count,
     })
+}
+
+/// Rows written with an empty prediction: how many, the first few lines, and the first
+/// reason in full.
+#[derive(Default)]
+struct Unscorable {
+    count: u64,
+    lines: Vec<u64>,
+    first: Option<String>,
+}
+
+impl Unscorable {
+    const SHOWN: usize = 10;
+
+    fn add(&mut self, line: u64, e: CliError) {
+        self.count += 1;
+        if self.lines.len() < Self::SHOWN {
+            self.lines.push(line);
+        }
+        if self.first.is_none() {
+            self.first = Some(e.message().to_string());
+        }
+    }
+
+    fn warning(&self, source: &str, rows: u64) -> String {
+        let mut lines: Vec<String> = self.lines.iter().map(u64::to_string).collect();
+        if self.count > self.lines.len() as u64 {
+            lines.push(format!("and {} more", self.count - self.lines.len() as u64));
+        }
+        format!(
+            "{} of {rows} rows of {source} could not be scored and were written with an empty \
+             prediction (lines {}); the first: {}",
+            self.count,
+            lines.join(", "),
+            self.first.as_deref().unwrap_or("")
+        )
+    }
 }

@@ -3,6 +3,7 @@
 use crate::args::{ImpurityArg, TaskArg, TrainArgs};
 use crate::commands::{check_destination, emit, make_folder};
 use crate::error::{forest_error, CliError, CliResult};
+use crate::memory;
 use crate::model::{Model, TrainingRecord};
 use crate::output::{refuse_overwrite, write_file, Output};
 use crate::reader::CsvInput;
@@ -154,6 +155,9 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         }
     }
 
+    if !a.allow_large {
+        check_memory(&data, &settings, a)?;
+    }
     let options = TrainOptions {
         keep_inbag: a.keep_draws,
     };
@@ -261,6 +265,37 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     })
 }
 
+/// Refuses, before growing anything, a model that obviously would not fit in the
+/// memory available (see [`crate::memory`]).
+fn check_memory(data: &TrainingData, settings: &ForestSettings, a: &TrainArgs) -> CliResult<()> {
+    let Some(available) = memory::available_bytes() else {
+        return Ok(());
+    };
+    let request = memory::Request {
+        rows: data.x.nrows() as u64,
+        trees: u64::from(a.trees),
+        min_leaf: u64::from(a.min_leaf),
+        max_depth: a.max_depth,
+        outputs: data.schema.target.classes.len().max(1) as u64,
+        sampling: settings.sampling,
+    };
+    let need = memory::model_bytes(&request);
+    if need > available as f64 {
+        return Err(CliError::input(format!(
+            "training {} trees on the {} rows of {} with --min-leaf {} could need about {} for the model, \
+             but only {} of memory is available; use fewer --trees, a larger --min-leaf or a --max-depth \
+             (or add --allow-large to try anyway)",
+            a.trees,
+            request.rows,
+            data.source,
+            a.min_leaf,
+            memory::words(need),
+            memory::words(available as f64)
+        )));
+    }
+    Ok(())
+}
+
 /// The shuffled-target test of the out-of-bag importance `imp`, with a progress bar.
 fn shuffled_target_test(
     data: &TrainingData,
@@ -316,7 +351,7 @@ fn grow(
     result.map_err(|e| forest_error(&e, &format!("cannot train on {}", data.source)))
 }
 
-fn build_model(data: &TrainingData, forest: Forest, rule: &str) -> Model {
+pub(crate) fn build_model(data: &TrainingData, forest: Forest, rule: &str) -> Model {
     let (class_counts, value_range) = match &data.outcome {
         Outcome::Classes { codes, labels } => {
             let mut counts = vec![0u64; labels.len()];
