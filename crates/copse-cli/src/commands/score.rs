@@ -251,8 +251,9 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
             ui.note(&format!(
                 "{clamped} standard error(s) could not be estimated and are left empty: the \
                  bias correction exceeded the raw estimate, which happens when the trees are \
-                 few compared with the training rows ({} trees for {} rows here); retrain with \
-                 at least twice, better ten times, as many trees as rows",
+                 few compared with the training rows ({} trees for {} rows here); more trees \
+                 leave fewer unknown (in our checks, ten times as many trees as rows left \
+                 almost none)",
                 forest.trees().len(),
                 forest.inbag().map_or(0, copse_forest::InBag::population)
             ));
