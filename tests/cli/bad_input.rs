@@ -1028,8 +1028,34 @@ fn m37_model_to_a_full_device() {
 // Interruption
 // ---------------------------------------------------------------------------------
 
+/// Waits (up to 20 s) until the child runs more than one thread: the Ctrl-C handler
+/// is installed first thing and runs on a thread of its own, so from then on SIGINT
+/// reaches it. Where `/proc` is missing, waits a second instead.
+fn wait_for_handler(child: &std::process::Child) {
+    let status = format!("/proc/{}/status", child.id());
+    if !Path::new(&status).exists() {
+        std::thread::sleep(std::time::Duration::from_secs(1));
+        return;
+    }
+    for _ in 0..200 {
+        let threads = std::fs::read_to_string(&status)
+            .ok()
+            .and_then(|t| {
+                t.lines()
+                    .find_map(|l| l.strip_prefix("Threads:"))
+                    .and_then(|v| v.trim().parse::<u32>().ok())
+            })
+            .unwrap_or(0);
+        if threads >= 2 {
+            return;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(100));
+    }
+}
+
 /// Sends SIGINT to a running child and waits for it.
 fn interrupt(child: std::process::Child) -> Output {
+    wait_for_handler(&child);
     let status = Command::new("kill")
         .args(["-INT", &child.id().to_string()])
         .status()
@@ -1082,7 +1108,8 @@ fn m38_interrupted_training_leaves_no_model() {
         .stderr(Stdio::piped())
         .spawn()
         .expect("copse starts");
-    std::thread::sleep(std::time::Duration::from_millis(700));
+    // Give it time to read the data and start growing.
+    std::thread::sleep(std::time::Duration::from_millis(500));
     let out = interrupt(child);
     let se = text(&out.stderr);
     assert_eq!(out.status.code(), Some(130), "{se}");
