@@ -182,20 +182,23 @@ fn row_loss(outcome: &Outcome, i: usize, pred: &[f64]) -> Loss {
     }
 }
 
-/// The distinct inputs tested on the way from the root to each leaf, ascending:
-/// leaf `l`'s are `inputs[start[l]..start[l + 1]]`.
+/// The distinct inputs tested on the way from the root to each leaf, ascending, each
+/// with the first node on the way that tests it: leaf `l`'s are
+/// `inputs[start[l]..start[l + 1]]` and `first[start[l]..start[l + 1]]`.
 struct LeafPaths {
     start: Vec<usize>,
     inputs: Vec<u32>,
+    first: Vec<u32>,
 }
 
 impl LeafPaths {
     fn of(tree: &Tree) -> Self {
         let nodes = tree.nodes();
         let leaves = tree.n_leaves();
-        let mut found: Vec<Vec<u32>> = vec![Vec::new(); leaves];
-        // Depth-first, with the inputs of the path to the current node on a stack.
-        let mut path: Vec<u32> = Vec::new();
+        let mut found: Vec<Vec<(u32, u32)>> = vec![Vec::new(); leaves];
+        // Depth-first, with the (input, node) pairs of the path to the current node on
+        // a stack.
+        let mut path: Vec<(u32, u32)> = Vec::new();
         let mut stack = vec![(0usize, 0usize)];
         while let Some((i, depth)) = stack.pop() {
             path.truncate(depth);
@@ -204,29 +207,38 @@ impl LeafPaths {
                 None => {
                     if let Some(f) = found.get_mut(n.child()) {
                         f.extend_from_slice(&path);
+                        // By input, then from the root down; keep each input's first.
                         f.sort_unstable();
-                        f.dedup();
+                        f.dedup_by_key(|e| e.0);
                     }
                 }
                 Some(j) => {
-                    path.push(j as u32);
+                    path.push((j as u32, i as u32));
                     stack.push((n.child() + 1, depth + 1));
                     stack.push((n.child(), depth + 1));
                 }
             }
         }
         let mut start = Vec::with_capacity(leaves + 1);
-        let mut inputs = Vec::new();
+        let (mut inputs, mut first) = (Vec::new(), Vec::new());
         start.push(0);
         for f in found {
-            inputs.extend_from_slice(&f);
+            for (j, node) in f {
+                inputs.push(j);
+                first.push(node);
+            }
             start.push(inputs.len());
         }
-        LeafPaths { start, inputs }
+        LeafPaths {
+            start,
+            inputs,
+            first,
+        }
     }
 
-    fn inputs(&self, leaf: usize) -> &[u32] {
-        &self.inputs[self.start[leaf]..self.start[leaf + 1]]
+    fn inputs(&self, leaf: usize) -> (&[u32], &[u32]) {
+        let r = self.start[leaf]..self.start[leaf + 1];
+        (&self.inputs[r.clone()], &self.first[r])
     }
 }
 
@@ -248,16 +260,15 @@ fn tree_permutation_increase(
 ) -> (Vec<f64>, Vec<f64>) {
     let p = x.ncols();
     let m = rows.len();
+    // The tree's rows, copied once (row-major) and read in order from then on.
     let mut block = vec![0.0; m * p];
+    copy_rows(x, rows, &mut block);
+    let mut leaves = vec![0u32; m];
     if p > 0 {
-        for (dst, &i) in block.chunks_exact_mut(p).zip(rows) {
-            dst.iter_mut()
-                .zip(x.row(i).iter())
-                .for_each(|(d, &v)| *d = v);
+        for (part, out) in block.chunks(STRETCH * p).zip(leaves.chunks_mut(STRETCH)) {
+            tree.leaf_indices(part, p, out);
         }
     }
-    let mut leaves = vec![0u32; m];
-    tree.leaf_indices(&block, p, &mut leaves);
     // Baseline loss of each row, and the distinct inputs on its path.
     let paths = LeafPaths::of(tree);
     let base: Vec<Loss> = rows
@@ -265,10 +276,12 @@ fn tree_permutation_increase(
         .zip(&leaves)
         .map(|(&i, &leaf)| row_loss(outcome, i, tree.leaf_value(leaf as usize)))
         .collect();
-    // Invert: for each input, the positions (in `rows`) of the rows whose path tests it.
+    // Invert: for each input, the positions (in `rows`) of the rows whose path tests
+    // it, and the first node on the path that does: above it nothing can change, so
+    // the row's new descent starts there.
     let mut per_feature = vec![0usize; p + 1];
     for &leaf in &leaves {
-        for &j in paths.inputs(leaf as usize) {
+        for &j in paths.inputs(leaf as usize).0 {
             per_feature[j as usize + 1] += 1;
         }
     }
@@ -277,44 +290,71 @@ fn tree_permutation_increase(
     }
     let mut fill = per_feature.clone();
     let mut affected = vec![0u32; per_feature[p]];
+    let mut entry = vec![0u32; per_feature[p]];
     for (pos, &leaf) in leaves.iter().enumerate() {
-        for &j in paths.inputs(leaf as usize) {
+        let (inputs, first) = paths.inputs(leaf as usize);
+        for (&j, &node) in inputs.iter().zip(first) {
             affected[fill[j as usize]] = pos as u32;
+            entry[fill[j as usize]] = node;
             fill[j as usize] += 1;
         }
     }
     let (mut inc_err, mut inc_brier) = (vec![0.0; p], vec![0.0; p]);
-    let mut vals = Vec::with_capacity(m);
-    let mut moved: Vec<f64> = Vec::new();
+    let mut found = vec![0u32; STRETCH];
+    let (mut original, mut vals) = (Vec::with_capacity(m), Vec::with_capacity(m));
     for j in 0..p {
         let hit = &affected[per_feature[j]..per_feature[j + 1]];
+        let starts = &entry[per_feature[j]..per_feature[j + 1]];
         if hit.is_empty() {
             // The tree never tests input j: its predictions cannot change.
             continue;
         }
-        vals.clear();
-        vals.extend(rows.iter().map(|&i| x[[i, j]]));
+        original.clear();
+        original.extend(block.iter().skip(j).step_by(p).copied());
+        vals.clone_from(&original);
         vals.shuffle(&mut rng_for(j));
-        moved.clear();
+        // The permuted values go into the block where they are needed, and back out
+        // after.
         for &pos in hit {
-            let pos = pos as usize;
-            moved.extend_from_slice(&block[pos * p..(pos + 1) * p]);
-            let last = moved.len() - p;
-            moved[last + j] = vals[pos];
+            block[pos as usize * p + j] = vals[pos as usize];
         }
-        leaves.resize(hit.len(), 0);
-        tree.leaf_indices(&moved, p, &mut leaves);
         let (mut de, mut db) = (0.0, 0.0);
-        for (&pos, &leaf) in hit.iter().zip(&leaves) {
-            let pos = pos as usize;
-            let l = row_loss(outcome, rows[pos], tree.leaf_value(leaf as usize));
-            de += l.error - base[pos].error;
-            db += l.brier - base[pos].brier;
+        for (part, from) in hit.chunks(STRETCH).zip(starts.chunks(STRETCH)) {
+            let found = &mut found[..part.len()];
+            tree.leaf_indices_from(&block, p, part, from, found);
+            for (&pos, &leaf) in part.iter().zip(found.iter()) {
+                let pos = pos as usize;
+                let l = row_loss(outcome, rows[pos], tree.leaf_value(leaf as usize));
+                de += l.error - base[pos].error;
+                db += l.brier - base[pos].brier;
+            }
+        }
+        for &pos in hit {
+            block[pos as usize * p + j] = original[pos as usize];
         }
         inc_err[j] = de / m as f64;
         inc_brier[j] = db / m as f64;
     }
     (inc_err, inc_brier)
+}
+
+/// Rows scored together by the importance passes: few enough that their values stay
+/// in cache beside a tree. Does not change any result.
+const STRETCH: usize = 256;
+
+/// Copies rows `rows` of `x` into `dst`, row-major.
+fn copy_rows(x: ArrayView2<'_, f64>, rows: &[usize], dst: &mut [f64]) {
+    let p = x.ncols();
+    if p == 0 {
+        return;
+    }
+    for (out, &i) in dst.chunks_exact_mut(p).zip(rows) {
+        let row = x.row(i);
+        match row.as_slice() {
+            Some(s) => out.copy_from_slice(s),
+            None => out.iter_mut().zip(row.iter()).for_each(|(d, &v)| *d = v),
+        }
+    }
 }
 
 /// Out-of-bag permutation importance (Breiman 2001, section 10): for tree `t` and

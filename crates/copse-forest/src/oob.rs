@@ -127,9 +127,11 @@ pub(crate) fn out_of_bag(
                 let s1 = (s0 + STRETCH).min(len);
                 if p > 0 {
                     for (dst, r) in rows.chunks_exact_mut(p).zip(s0..s1) {
-                        dst.iter_mut()
-                            .zip(x.row(start + r).iter())
-                            .for_each(|(d, &v)| *d = v);
+                        let row = x.row(start + r);
+                        match row.as_slice() {
+                            Some(v) => dst.copy_from_slice(v),
+                            None => dst.iter_mut().zip(row.iter()).for_each(|(d, &v)| *d = v),
+                        }
                     }
                 }
                 for (t, tree) in trees.iter().enumerate() {

@@ -138,9 +138,11 @@ impl Forest {
         let mut block = vec![0.0; rows * p];
         if p > 0 {
             for (r, dst) in block.chunks_exact_mut(p).enumerate() {
-                dst.iter_mut()
-                    .zip(row_of(r).iter())
-                    .for_each(|(d, &v)| *d = v);
+                let row = row_of(r);
+                match row.as_slice() {
+                    Some(v) => dst.copy_from_slice(v),
+                    None => dst.iter_mut().zip(row.iter()).for_each(|(d, &v)| *d = v),
+                }
                 if let Some((j, vals)) = swap {
                     dst[j] = vals[r];
                 }

@@ -600,6 +600,81 @@ mod tests {
     }
 
     #[test]
+    fn codes_are_the_first_bin_reaching_each_value() {
+        // The definition of a numeric code, checked by binary search over the bins, on
+        // values that stress the sort: signs, both zeros, subnormals, huge values,
+        // near-ties and repeats; exact and quantile binning; one and two bytes.
+        use rand::{Rng, SeedableRng};
+        let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(8);
+        for case in 0..24 {
+            let n = [3, 40, 900, 5000][case % 4];
+            let vals: Vec<f64> = (0..n)
+                .map(|_| match case % 6 {
+                    0 => rng.gen_range(-1e6..1e6),
+                    1 => [0.0, -0.0, 1.0, -1.0][rng.gen_range(0..4)],
+                    2 => f64::from_bits(rng.gen_range(0..40)) * if rng.gen() { -1.0 } else { 1.0 },
+                    3 => 1e15 + f64::from(rng.gen_range(0..3000)) * 0.125,
+                    4 => {
+                        if rng.gen_bool(0.3) {
+                            f64::NAN
+                        } else {
+                            f64::from(rng.gen_range(-50..50))
+                        }
+                    }
+                    _ => 1.0 + f64::from(rng.gen_range(0..60)) * f64::EPSILON,
+                })
+                .collect();
+            let x = Array2::from_shape_vec((n, 1), vals.clone()).expect("test input is valid");
+            for limit in [3, 17, 256, 4000] {
+                let d = BinnedData::new(x.view(), &[FeatureMeta::numeric("a")], limit)
+                    .expect("test input is valid");
+                let b = &d.bins()[0];
+                for k in 1..b.n_bins {
+                    assert!(b.hi[k - 1] < b.lo[k], "case {case}: bins out of order");
+                }
+                for (i, &v) in vals.iter().enumerate() {
+                    let want = if v.is_nan() {
+                        MISSING_BIN
+                    } else {
+                        b.hi.partition_point(|&h| h < v).min(b.n_bins - 1) + 1
+                    };
+                    assert_eq!(d.bin(i, 0), want, "case {case}, limit {limit}, row {i}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn row_words_hold_every_code() {
+        // The row-major copy must hold the same code as the columns, one and two bytes
+        // per code, with inputs spilling over several words.
+        let (n, p) = (300, 11);
+        let x = Array2::from_shape_fn((n, p), |(i, j)| {
+            if (i + j) % 13 == 0 {
+                f64::NAN
+            } else {
+                ((i * (j + 3) * 7919) % 1009) as f64
+            }
+        });
+        let meta: Vec<FeatureMeta> = (0..p)
+            .map(|j| FeatureMeta::numeric(format!("x{j}")))
+            .collect();
+        for limit in [256, 2000] {
+            let d = BinnedData::new(x.view(), &meta, limit).expect("test input is valid");
+            let w = d.row_words();
+            let per_word = 64 / w.bits;
+            assert_eq!(w.bits, if limit == 256 { 8 } else { 16 });
+            for i in 0..n {
+                for j in 0..p {
+                    let word = w.words[i * w.per_row + j / per_word];
+                    let code = (word >> ((j % per_word) * w.bits)) & ((1 << w.bits) - 1);
+                    assert_eq!(code as usize, d.bin(i, j), "row {i}, input {j}");
+                }
+            }
+        }
+    }
+
+    #[test]
     fn quantile_bins_respect_the_limit_and_order() {
         let vals: Vec<f64> = (0..1000).map(|i| ((i * 7919) % 1000) as f64).collect();
         let x = Array2::from_shape_vec((1000, 1), vals.clone()).expect("test input is valid");

@@ -1481,3 +1481,83 @@ fn leaf_placeholder() -> Node {
         flags: 0,
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::data::FeatureMeta;
+    use ndarray::Array2;
+    use rand::SeedableRng;
+
+    /// The two-class integer engine must give the trees the general engine gives. A
+    /// third class that never occurs sends the same data through the general engine
+    /// (its scores over counts with a zero class are the same numbers), so the two
+    /// trees can be compared: same nodes, same thresholds, same leaf shares.
+    #[test]
+    fn two_class_counts_engine_matches_the_general_engine() {
+        let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(11);
+        for case in 0..12 {
+            let n = 150 + 40 * case;
+            let p = 1 + case % 5;
+            let mut x = Array2::<f64>::zeros((n, p));
+            let mut y = Vec::with_capacity(n);
+            for i in 0..n {
+                let mut s = 0.0;
+                for j in 0..p {
+                    let v: f64 = if case % 3 == 0 {
+                        rng.gen_range(0..6) as f64
+                    } else {
+                        rng.gen_range(-1.0..1.0)
+                    };
+                    s += v;
+                    x[[i, j]] = if rng.gen_bool(0.05 * (case % 2) as f64) {
+                        f64::NAN
+                    } else {
+                        v
+                    };
+                }
+                y.push(u32::from(s + rng.gen_range(-0.8..0.8) > 0.0));
+            }
+            let meta: Vec<FeatureMeta> = (0..p)
+                .map(|j| FeatureMeta::numeric(format!("x{j}")))
+                .collect();
+            let data = BinnedData::new(x.view(), &meta, 4 + 40 * (case % 3)).expect("valid");
+            let weights: Vec<f64> = (0..n).map(|_| rng.gen_range(0..3) as f64).collect();
+            let settings = TreeSettings {
+                impurity: if case % 2 == 0 {
+                    Impurity::Gini
+                } else {
+                    Impurity::Entropy
+                },
+                features_per_split: (case % 4 == 1).then_some(1),
+                min_leaf: [1.0, 2.0, 3.0][case % 3],
+                ..TreeSettings::default()
+            };
+            let two = Target::classes(&y, 2).expect("valid");
+            let three = Target::classes(&y, 3).expect("valid");
+            let seed = 100 + case as u64;
+            let a = Grower::new(settings.clone())
+                .grow(
+                    &data,
+                    &two,
+                    &weights,
+                    &mut rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(seed),
+                )
+                .expect("grows");
+            let b = Grower::new(settings)
+                .grow(
+                    &data,
+                    &three,
+                    &weights,
+                    &mut rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(seed),
+                )
+                .expect("grows");
+            assert_eq!(a.nodes, b.nodes, "case {case}");
+            assert_eq!(a.leaf_weights, b.leaf_weights, "case {case}");
+            assert_eq!(a.decrease, b.decrease, "case {case}");
+            for leaf in 0..a.n_leaves() {
+                assert_eq!(a.leaf_value(leaf), &b.leaf_value(leaf)[..2], "case {case}");
+            }
+        }
+    }
+}
