@@ -566,8 +566,13 @@ pub fn importance_with_tests(
         _ => notes.push(format!(
             "No mirrored-null p-values: the rises at or below zero (and their mirror images) \
              give only {} null values, and the test needs at least {MIRROR_MIN_NULL}, that is \
-             many inputs that do not matter; {hint}",
-            mirror.as_ref().map_or(0, |m| m.null_size)
+             many inputs that do not matter{}",
+            mirror.as_ref().map_or(0, |m| m.null_size),
+            if shuffle.is_some() {
+                ".".to_string()
+            } else {
+                format!("; {hint}")
+            }
         )),
     }
     if let Some(s) = shuffle {
