@@ -225,8 +225,8 @@ pub struct ScoreArgs {
     #[arg(long, value_name = "COL,...", value_delimiter = ',')]
     pub keep: Vec<String>,
 
-    /// Add a standard error for every output (se_prediction, or se_<class> per class
-    /// probability); the model must have been trained with --keep-draws.
+    /// Add a standard error for every output (se_prediction, or se_ and the class name
+    /// for each class probability); the model must have been trained with --keep-draws.
     #[arg(long)]
     pub uncertainty: bool,
 
