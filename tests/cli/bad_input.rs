@@ -1308,6 +1308,61 @@ fn m42_training_that_cannot_fit_in_memory_is_refused() {
     );
 }
 
+/// A regression target too large for its squared errors to stay finite: refused when
+/// read, naming line and column, instead of a model that cannot be read back.
+#[test]
+fn m43_regression_target_too_large() {
+    let dir = tmp();
+    put(dir.path(), "d.csv", "a,y\n1,2\n2,-3e200\n3,4\n");
+    refused(
+        dir.path(),
+        &train_args("d.csv", "y"),
+        None,
+        2,
+        &[
+            "d.csv line 3, column 'y'",
+            "-3e200 is too large",
+            "rescale the target",
+        ],
+    );
+}
+
+/// A regression target on a tiny scale: predictions keep their digits in the scored
+/// file (printed in exponent form) instead of being rounded to 0.
+#[test]
+fn m44_tiny_regression_values_are_not_rounded_away() {
+    let dir = tmp();
+    let mut d = String::from("a,y\n");
+    for i in 0..60 {
+        d.push_str(&format!("{i},{}\n", if i < 30 { 2e-7 } else { 9e-7 }));
+    }
+    put(dir.path(), "d.csv", &d);
+    expect_code(&copse_in(dir.path(), &train_args("d.csv", "y"), None), 0);
+    let (so, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["score", "--model", "m.copse", "--data", "d.csv"],
+            None,
+        ),
+        0,
+    );
+    let preds: Vec<f64> = so
+        .lines()
+        .skip(1)
+        .map(|l| l.parse().expect("a number"))
+        .collect();
+    assert_eq!(preds.len(), 60);
+    // Every leaf holds rows of the two values only, so every prediction is an average
+    // of them: within [2e-7, 9e-7], and never the 0 that six fixed decimals would print.
+    // Rows far from the change at a = 29.5 fall on their own side in most trees.
+    for (i, p) in preds.iter().enumerate() {
+        assert!((2e-7 - 1e-12..=9e-7 + 1e-12).contains(p), "row {i}: {p}");
+    }
+    let low: f64 = preds[..10].iter().sum::<f64>() / 10.0;
+    let high: f64 = preds[50..].iter().sum::<f64>() / 10.0;
+    assert!(low < 4e-7 && high > 7e-7, "{low} {high}");
+}
+
 // ---------------------------------------------------------------------------------
 // Decoders on random input, and inputs found by fuzzing
 // ---------------------------------------------------------------------------------

@@ -47,6 +47,14 @@ impl Model {
     /// # Errors
     /// A failure when encoding or writing fails.
     pub fn save(&self, path: &Path) -> CliResult<()> {
+        // A model that would be refused when read back is never written.
+        self.check(&path.display().to_string()).map_err(|e| {
+            CliError::failure(format!(
+                "the model just trained fails the checks it would meet when read back ({}); \
+                 nothing was written; this is a fault in copse, please report it with the data",
+                e.message()
+            ))
+        })?;
         model_file::write(path, self)
     }
 
@@ -73,6 +81,12 @@ impl Model {
     /// Checks a decoded model hangs together: trees well formed, the schema's inputs
     /// and classes the trees' own.
     fn verified(self, name: &str) -> CliResult<Model> {
+        self.check(name)?;
+        Ok(self)
+    }
+
+    /// The checks of [`Model::verified`], on a borrowed model.
+    fn check(&self, name: &str) -> CliResult<()> {
         let model = self;
         let bad = |what: String| {
             CliError::input(format!(
@@ -107,7 +121,7 @@ impl Model {
             }
             _ => {}
         }
-        Ok(model)
+        Ok(())
     }
 }
 

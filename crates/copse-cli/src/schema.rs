@@ -199,6 +199,37 @@ pub fn clip(t: &str) -> String {
     }
 }
 
+/// Largest size of a regression target value. Squared deviations must stay finite
+/// when summed over many rows: (1e100)^2 = 1e200, far from the largest double (about
+/// 1.8e308), whereas values near 1e155 already have infinite squares and leave every
+/// split unscorable.
+pub const MAX_TARGET_SIZE: f64 = 1e100;
+
+fn check_target_size(
+    records: &[csv::StringRecord],
+    col: usize,
+    missing: &Missing,
+    name: &str,
+    target: &str,
+) -> CliResult<()> {
+    for r in records {
+        let cell = r[col].trim();
+        if missing.is_missing(cell) {
+            continue;
+        }
+        if parse_number(cell).is_some_and(|v| v.abs() > MAX_TARGET_SIZE) {
+            let line = r.position().map_or(0, |p| p.line());
+            return Err(CliError::input(format!(
+                "{name} line {line}, column '{target}': {} is too large a value to fit a regression on \
+                 (at most 1e100 in size: larger values overflow the squared errors); rescale the target, \
+                 for example divide it by a power of ten or take its logarithm",
+                clip(cell)
+            )));
+        }
+    }
+    Ok(())
+}
+
 /// Reads a whole training file, infers column kinds, and encodes it.
 ///
 /// # Errors
@@ -331,6 +362,9 @@ pub fn load_training(
         None => Task::Regress,
     };
     categorical[target_col] = task == Task::Classify;
+    if task == Task::Regress {
+        check_target_size(&records, target_col, &missing, &name, &target_name)?;
+    }
 
     // Category labels for every categorical used column.
     let mut levels: HashMap<usize, (Vec<String>, HashMap<String, u32>)> = HashMap::new();

@@ -386,10 +386,23 @@ pub(crate) fn build_model(data: &TrainingData, forest: Forest, rule: &str) -> Mo
     }
 }
 
-/// Formats a probability or value compactly: at most six decimals, no trailing zeros.
+/// Formats a probability or value compactly: at most six decimals, no trailing zeros;
+/// values too large or too small for that (beyond 1e15, or below 1e-4 but not zero)
+/// in exponent form with seven significant digits, so none is printed as a long string
+/// of digits or rounded to 0.
 pub fn compact(v: f64) -> String {
     if v.is_nan() {
         return String::new();
+    }
+    let a = v.abs();
+    if a >= 1e15 || (a < 1e-4 && a > 0.0) {
+        let s = format!("{v:.6e}");
+        return match s.split_once('e') {
+            Some((m, e)) if m.contains('.') => {
+                format!("{}e{e}", m.trim_end_matches('0').trim_end_matches('.'))
+            }
+            _ => s,
+        };
     }
     let s = format!("{v:.6}");
     let s = s.trim_end_matches('0').trim_end_matches('.');
