@@ -77,3 +77,8 @@ pub use stability::{
 };
 pub use train::{Progress, Stage, TrainOptions};
 pub use uncertainty::Uncertainty;
+
+/// The README's Rust examples, compiled as doctests so they cannot drift from the API.
+#[cfg(doctest)]
+#[doc = include_str!("../../../README.md")]
+pub struct ReadmeExamples;
