@@ -82,9 +82,10 @@ pub(crate) fn block_rows(n: usize) -> usize {
     n.div_ceil(64).clamp(256, 4096)
 }
 
-/// Rows of a block that pass through all trees together: few enough that their
-/// values stay in cache beside a tree. Does not change any result.
-const STRETCH: usize = 256;
+/// Rows of a block that pass through all trees together. Each tree is read from
+/// memory once per stretch, so a stretch is the whole block (at most 4,096 rows).
+/// Does not change any result.
+const STRETCH: usize = 4096;
 
 /// Computes out-of-bag predictions, the error curve and the summary measures.
 pub(crate) fn out_of_bag(

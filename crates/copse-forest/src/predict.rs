@@ -11,9 +11,8 @@ use serde::{Deserialize, Serialize};
 
 /// Bounds on the rows per parallel block in batch prediction: large enough that each
 /// tree, loaded into cache once per block, serves many rows; small enough to spread
-/// the work over the threads and for the block's values to stay in cache beside the
-/// tree. The block size does not change any result.
-const PREDICT_BLOCK: (usize, usize) = (256, 256);
+/// the work over the threads. The block size does not change any result.
+const PREDICT_BLOCK: (usize, usize) = (256, 16384);
 
 /// Accuracy of a forest on a labelled data set.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -37,8 +36,13 @@ impl Forest {
         self.check_columns(x)?;
         let (n, k) = (x.nrows(), self.n_outputs());
         let mut out = vec![0.0; n * k];
-        let block = n
-            .div_ceil(4 * rayon::current_num_threads())
+        // Each tree is read from memory once per block, so a block should hold more
+        // rows than a tree has nodes (measured on a 100-tree model of 10,500 nodes a
+        // tree: 11.5 ns per node visit with 256 rows, 4.7 with 4,096, 3.8 with
+        // 16,384); but every thread needs a block.
+        let per_tree = self.n_nodes() / self.trees.len().max(1);
+        let block = (2 * per_tree)
+            .min(n.div_ceil(rayon::current_num_threads()))
             .clamp(PREDICT_BLOCK.0, PREDICT_BLOCK.1);
         out.par_chunks_mut(block * k.max(1))
             .enumerate()
