@@ -35,18 +35,21 @@ fn csv_input(bytes: &[u8], delimiter: Delimiter) -> Option<CsvInput> {
 /// (for tests), or `None` when the input was refused along the way.
 ///
 /// # Panics
-/// Only when copse has a fault: a model it just trained fails to read back.
+/// Only when copse has a fault: the engine fails on data that reading accepted, a
+/// model it just trained fails to read back, or the training rows do not score
+/// cleanly with their own model.
 pub fn ingest_csv(data: &[u8]) -> Option<usize> {
     let (&ctrl, rest) = data.split_first()?;
-    let delimiter = match ctrl % 3 {
-        0 => Delimiter::Comma,
+    // Settings byte: bits 0-1 delimiter, 2-4 target column, 5-6 task.
+    let delimiter = match ctrl & 3 {
         1 => Delimiter::Tab,
-        _ => Delimiter::Semicolon,
+        2 => Delimiter::Semicolon,
+        _ => Delimiter::Comma,
     };
-    let task = match (ctrl >> 5) % 3 {
-        0 => None,
+    let task = match (ctrl >> 5) & 3 {
         1 => Some(Task::Classify),
-        _ => Some(Task::Regress),
+        2 => Some(Task::Regress),
+        _ => None,
     };
     let input = csv_input(rest, delimiter)?;
     let headers = input.headers().to_vec();
@@ -70,13 +73,24 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
         seed: u64::from(ctrl),
         ..ForestSettings::default()
     };
-    let trained = copse_forest::Forest::train(
+    let trained = match copse_forest::Forest::train(
         training.x.view(),
         &training.schema.features,
         &training.outcome,
         &settings,
-    )
-    .ok()?;
+    ) {
+        Ok(t) => t,
+        // Data that passed reading may still be refused by the engine for a reason
+        // about the data; anything else (a fault inside a tree, exit 1 in the command)
+        // means reading let through what it should have explained.
+        Err(e) if crate::error::forest_error(&e, "fuzz").exit() == crate::error::Exit::Input => {
+            return None
+        }
+        Err(e) => panic!(
+            "training on data that passed reading failed: {}",
+            e.message()
+        ),
+    };
     let mut model = crate::commands::train::build_model(&training, trained.forest, "fuzz");
     model.schema.bins = copse_tree::BinnedData::new(
         training.x.view(),
@@ -94,22 +108,45 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
     exercise(&back);
 
     // Score the same bytes with the model, the way `copse score` does.
-    let mut input = csv_input(rest, delimiter)?;
-    let mut enc = RowEncoder::new(&input, &back.schema, back.schema.missing.clone(), false).ok()?;
+    let Some(mut input) = csv_input(rest, delimiter) else {
+        panic!("the training bytes fail to open a second time");
+    };
+    let mut enc = match RowEncoder::new(&input, &back.schema, back.schema.missing.clone(), false) {
+        Ok(enc) => enc,
+        Err(e) => panic!("the training file lacks columns of its own model: {e}"),
+    };
     let p = back.forest.n_features();
     let mut row = vec![0.0; p];
     let mut record = csv::StringRecord::new();
     let mut values = Vec::new();
     let mut rows = 0;
-    while let Ok(true) = input.read(&mut record) {
-        if enc.encode(&record, &mut row).is_err() {
-            return None;
+    // The rows were read once already: every one reads again, encodes without error
+    // (every numeric cell parsed, every category is known) and nothing is unseen.
+    loop {
+        match input.read(&mut record) {
+            Ok(true) => {}
+            Ok(false) => break,
+            Err(e) => panic!("a row read in training fails to read again: {e}"),
+        }
+        if let Err(e) = enc.encode(&record, &mut row) {
+            panic!("a training row does not encode with its own model: {e}");
         }
         values.extend_from_slice(&row);
         rows += 1;
     }
+    assert!(
+        enc.unseen_counts().iter().all(|&n| n == 0),
+        "categories of the training data unseen by its own model"
+    );
+    assert_eq!(rows, training.rows_read, "every row scored once");
     let x = Array2::from_shape_vec((rows, p), values).ok()?;
-    let preds = back.forest.predict(x.view()).ok()?;
+    let preds = match back.forest.predict(x.view()) {
+        Ok(p) => p,
+        Err(e) => panic!(
+            "a model cannot score its own training rows: {}",
+            e.message()
+        ),
+    };
     assert_eq!(preds.nrows(), rows, "one prediction per row");
     let _ = enc.unseen_warning();
     Some(rows)

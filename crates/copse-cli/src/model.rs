@@ -121,6 +121,55 @@ impl Model {
             }
             _ => {}
         }
+        model.check_counts().map_err(|what| bad(what.to_string()))
+    }
+
+    /// The counts of the training record and the out-of-bag summary fit together (the
+    /// reports subtract and add them): nothing counts more rows than were read, and
+    /// per-class tables have one entry per class.
+    fn check_counts(&self) -> Result<(), &'static str> {
+        let t = &self.training;
+        let read = t.rows_read as u64;
+        let within = |n: u64| n <= read;
+        // The sum of `v` when it does not overflow and stays within the rows read.
+        fn total(mut v: impl Iterator<Item = u64>, read: u64) -> Option<u64> {
+            v.try_fold(0u64, |a, b| a.checked_add(b))
+                .filter(|&s| s <= read)
+        }
+        if !within(t.rows_without_outcome as u64) {
+            return Err("its record leaves out more rows than it read");
+        }
+        let k = self.forest.classes().len();
+        if self.schema.target.task == Task::Classify
+            && (t.class_counts.len() != k || total(t.class_counts.iter().copied(), read).is_none())
+        {
+            return Err("its class counts do not fit its classes and rows");
+        }
+        let oob = self.forest.oob();
+        if ![
+            oob.rows_labelled,
+            oob.rows_never_oob,
+            oob.rows_missing_outcome,
+        ]
+        .iter()
+        .all(|&n| within(n as u64))
+        {
+            return Err("its out-of-bag summary counts more rows than were read");
+        }
+        match &oob.metrics {
+            Some(copse_forest::Metrics::Classes(m)) => {
+                let square = m.confusion.len() == k && m.confusion.iter().all(|r| r.len() == k);
+                let cells = total(m.confusion.iter().flatten().copied(), read);
+                if !square || cells.is_none() || m.class_error.len() != k || !within(m.rows as u64)
+                {
+                    return Err("its out-of-bag confusion table does not fit its classes and rows");
+                }
+            }
+            Some(copse_forest::Metrics::Values(m)) if !within(m.rows as u64) => {
+                return Err("its out-of-bag summary counts more rows than were read");
+            }
+            _ => {}
+        }
         Ok(())
     }
 }

@@ -103,7 +103,7 @@ pub fn data_section(out: &mut String, st: Style, model: &Model) {
     let schema = &model.schema;
     let _ = writeln!(out, "{}", st.head("DATA"));
     line(out, "source", &t.source);
-    let used = t.rows_read - t.rows_without_outcome;
+    let used = t.rows_read.saturating_sub(t.rows_without_outcome);
     line(
         out,
         "rows",
