@@ -82,10 +82,10 @@ pub(crate) fn block_rows(n: usize) -> usize {
     n.div_ceil(64).clamp(256, 4096)
 }
 
-/// Rows of a block that pass through all trees together. Each tree is read from
-/// memory once per stretch, so a stretch is the whole block (at most 4,096 rows).
-/// Does not change any result.
-const STRETCH: usize = 4096;
+/// Most rows that pass through all trees together (several blocks): each tree is
+/// read from memory once per such group, so a group should hold more rows than a tree
+/// has nodes. Grouping does not change any result: every block keeps its own sums.
+const GROUP_ROWS: usize = 16384;
 
 /// Computes out-of-bag predictions, the error curve and the summary measures.
 pub(crate) fn out_of_bag(
@@ -100,96 +100,113 @@ pub(crate) fn out_of_bag(
     let nt = trees.len();
     let bs = block_rows(n);
     let n_blocks = n.div_ceil(bs);
+    let per_tree = trees.iter().map(|t| t.nodes().len()).sum::<usize>() / nt.max(1);
+    let group = (2 * per_tree)
+        .min(GROUP_ROWS)
+        .min(n.div_ceil(rayon::current_num_threads()))
+        .div_ceil(bs)
+        .max(1);
+    let n_groups = n_blocks.div_ceil(group);
     let done = std::sync::atomic::AtomicUsize::new(0);
-    let blocks: Vec<Block> = (0..n_blocks)
+    let groups: Vec<Vec<Block>> = (0..n_groups)
         .into_par_iter()
-        .map(|b| {
-            let (start, end) = (b * bs, ((b + 1) * bs).min(n));
-            let mut out = Block {
-                preds: vec![0.0; (end - start) * k],
-                trees_out: vec![0; end - start],
-                d_cover: vec![0; nt],
-                d_wrong: vec![0; nt],
-                d_sse: vec![0.0; nt],
-            };
-            // Trees in the outer loop keep each tree in cache for a stretch of rows,
-            // copied once into a contiguous buffer, whose out-of-bag rows descend
-            // several at a time. Each row still meets its trees in tree order (the
-            // error curve needs it), and each tree its rows in row order, so every
-            // sum is taken in the same order as row by row.
+        .map(|g| {
+            let first = g * group;
+            let last = ((g + 1) * group).min(n_blocks);
+            let start = first * bs;
+            let end = (last * bs).min(n);
+            let mut blocks: Vec<Block> = (first..last)
+                .map(|b| {
+                    let len = ((b + 1) * bs).min(n) - b * bs;
+                    Block {
+                        preds: vec![0.0; len * k],
+                        trees_out: vec![0; len],
+                        d_cover: vec![0; nt],
+                        d_wrong: vec![0; nt],
+                        d_sse: vec![0.0; nt],
+                    }
+                })
+                .collect();
+            // Trees in the outer loop keep each tree in cache for the whole group of
+            // rows, copied once into a contiguous buffer, whose out-of-bag rows
+            // descend several at a time. Each row still meets its trees in tree order
+            // (the error curve needs it), and each tree the rows of a block in row
+            // order, so every sum is taken in the same order as row by row.
             let len = end - start;
             let p = x.ncols();
             let mut was_wrong = vec![false; len];
             let mut prev_sq = vec![0.0; len];
-            let mut rows = vec![0.0; STRETCH.min(len) * p];
-            let mut picks: Vec<u32> = Vec::with_capacity(STRETCH);
-            let mut leaves = vec![0u32; STRETCH];
-            for s0 in (0..len).step_by(STRETCH) {
-                let s1 = (s0 + STRETCH).min(len);
-                if p > 0 {
-                    for (dst, r) in rows.chunks_exact_mut(p).zip(s0..s1) {
-                        let row = x.row(start + r);
-                        match row.as_slice() {
-                            Some(v) => dst.copy_from_slice(v),
-                            None => dst.iter_mut().zip(row.iter()).for_each(|(d, &v)| *d = v),
-                        }
+            let mut rows = vec![0.0; len * p];
+            if p > 0 {
+                for (dst, i) in rows.chunks_exact_mut(p).zip(start..end) {
+                    let row = x.row(i);
+                    match row.as_slice() {
+                        Some(v) => dst.copy_from_slice(v),
+                        None => dst.iter_mut().zip(row.iter()).for_each(|(d, &v)| *d = v),
                     }
                 }
-                for (t, tree) in trees.iter().enumerate() {
-                    picks.clear();
-                    picks.extend(
-                        (s0..s1)
-                            .filter(|&r| masks[t].contains(start + r))
-                            .map(|r| (r - s0) as u32),
-                    );
-                    tree.leaf_indices_of(&rows, p, &picks, &mut leaves);
-                    for (&pr, &leaf) in picks.iter().zip(&leaves) {
-                        let r = s0 + pr as usize;
-                        let i = start + r;
-                        let sums = &mut out.preds[r * k..(r + 1) * k];
-                        sums.iter_mut()
-                            .zip(tree.leaf_value(leaf as usize))
-                            .for_each(|(s, v)| *s += v);
-                        out.trees_out[r] += 1;
-                        let count = out.trees_out[r];
-                        if outcome.is_missing(i) {
-                            continue;
+            }
+            let mut picks: Vec<u32> = Vec::with_capacity(len);
+            let mut leaves = vec![0u32; len];
+            for (t, tree) in trees.iter().enumerate() {
+                picks.clear();
+                picks.extend(
+                    (0..len)
+                        .filter(|&r| masks[t].contains(start + r))
+                        .map(|r| r as u32),
+                );
+                tree.leaf_indices_of(&rows, p, &picks, &mut leaves);
+                for (&r, &leaf) in picks.iter().zip(&leaves) {
+                    let r = r as usize;
+                    let i = start + r;
+                    let (out, rb) = (&mut blocks[r / bs], r % bs);
+                    let sums = &mut out.preds[rb * k..(rb + 1) * k];
+                    sums.iter_mut()
+                        .zip(tree.leaf_value(leaf as usize))
+                        .for_each(|(s, v)| *s += v);
+                    out.trees_out[rb] += 1;
+                    let count = out.trees_out[rb];
+                    if outcome.is_missing(i) {
+                        continue;
+                    }
+                    if count == 1 {
+                        out.d_cover[t] += 1;
+                    }
+                    match outcome {
+                        Outcome::Classes { codes, .. } => {
+                            let wrong = predicted_class(sums) != codes[i] as usize;
+                            out.d_wrong[t] += i64::from(wrong) - i64::from(was_wrong[r]);
+                            was_wrong[r] = wrong;
                         }
-                        if count == 1 {
-                            out.d_cover[t] += 1;
-                        }
-                        match outcome {
-                            Outcome::Classes { codes, .. } => {
-                                let wrong = predicted_class(sums) != codes[i] as usize;
-                                out.d_wrong[t] += i64::from(wrong) - i64::from(was_wrong[r]);
-                                was_wrong[r] = wrong;
-                            }
-                            Outcome::Values(y) => {
-                                let e = sums[0] / f64::from(count) - y[i];
-                                out.d_sse[t] += e * e - prev_sq[r];
-                                prev_sq[r] = e * e;
-                            }
+                        Outcome::Values(y) => {
+                            let e = sums[0] / f64::from(count) - y[i];
+                            out.d_sse[t] += e * e - prev_sq[r];
+                            prev_sq[r] = e * e;
                         }
                     }
                 }
             }
-            for (r, o) in out.preds.chunks_mut(k).enumerate() {
-                let count = out.trees_out[r];
-                if count == 0 {
-                    o.iter_mut().for_each(|v| *v = f64::NAN);
-                } else {
-                    o.iter_mut().for_each(|v| *v /= f64::from(count));
+            for out in &mut blocks {
+                for (r, o) in out.preds.chunks_mut(k).enumerate() {
+                    let count = out.trees_out[r];
+                    if count == 0 {
+                        o.iter_mut().for_each(|v| *v = f64::NAN);
+                    } else {
+                        o.iter_mut().for_each(|v| *v /= f64::from(count));
+                    }
                 }
             }
-            let d = done.fetch_add(1, std::sync::atomic::Ordering::Relaxed) + 1;
+            let d =
+                done.fetch_add(last - first, std::sync::atomic::Ordering::Relaxed) + (last - first);
             progress(Progress {
                 stage: Stage::OutOfBag,
                 done: d,
                 total: n_blocks,
             });
-            out
+            blocks
         })
         .collect();
+    let blocks: Vec<Block> = groups.into_iter().flatten().collect();
 
     let mut preds = Vec::with_capacity(n * k);
     let mut trees_out = Vec::with_capacity(n);
