@@ -6,6 +6,7 @@ use crate::forest::Forest;
 use crate::metrics::{brier_row, predicted_class};
 use crate::oob::{block_rows, OobMask};
 use crate::outcome::Outcome;
+use crate::predict::Scorer;
 use crate::rng::{task_rng, Purpose};
 use crate::train::{Progress, Stage};
 use copse_tree::{FeatureMeta, Impurity, Tree, TreeSettings};
@@ -264,9 +265,11 @@ fn tree_permutation_increase(
     let mut block = vec![0.0; m * p];
     copy_rows(x, rows, &mut block);
     let mut leaves = vec![0u32; m];
+    // Laid out for scoring once: the tree serves all its out-of-bag rows once per input.
+    let compact = tree.compact();
     if p > 0 {
         for (part, out) in block.chunks(STRETCH * p).zip(leaves.chunks_mut(STRETCH)) {
-            tree.leaf_indices(part, p, out);
+            compact.leaf_indices(part, p, out);
         }
     }
     // Baseline loss of each row, and the distinct inputs on its path.
@@ -321,7 +324,7 @@ fn tree_permutation_increase(
         let (mut de, mut db) = (0.0, 0.0);
         for (part, from) in hit.chunks(STRETCH).zip(starts.chunks(STRETCH)) {
             let found = &mut found[..part.len()];
-            tree.leaf_indices_from(&block, p, part, from, found);
+            compact.leaf_indices_from(&block, p, part, from, found);
             for (&pos, &leaf) in part.iter().zip(found.iter()) {
                 let pos = pos as usize;
                 let l = row_loss(outcome, rows[pos], tree.leaf_value(leaf as usize));
@@ -510,7 +513,8 @@ impl Forest {
             ));
         }
         let p = self.n_features();
-        let base = self.forest_loss(x, &outcome, &rows, None);
+        let scorers = self.scorers(rows.len());
+        let base = self.forest_loss(&scorers, x, &outcome, &rows, None);
         let tasks: Vec<(usize, usize)> = (0..repeats)
             .flat_map(|r| (0..p).map(move |j| (r, j)))
             .collect();
@@ -524,7 +528,7 @@ impl Forest {
                     j as u64,
                     r as u64,
                 ));
-                let l = self.forest_loss(x, &outcome, &rows, Some((j, &vals)));
+                let l = self.forest_loss(&scorers, x, &outcome, &rows, Some((j, &vals)));
                 Loss {
                     error: l.error - base.error,
                     brier: l.brier - base.brier,
@@ -553,6 +557,7 @@ impl Forest {
     /// block order, so the result does not depend on the number of threads.
     fn forest_loss(
         &self,
+        scorers: &[Scorer<'_>],
         x: ArrayView2<'_, f64>,
         outcome: &Outcome,
         rows: &[usize],
@@ -566,7 +571,7 @@ impl Forest {
             .map(|(b, chunk)| {
                 let mut pred = vec![0.0; chunk.len() * k];
                 let swap = swap.map(|(j, vals)| (j, &vals[b * bs..b * bs + chunk.len()]));
-                self.predict_block(chunk.len(), |r| x.row(chunk[r]), swap, &mut pred);
+                self.predict_block(scorers, chunk.len(), |r| x.row(chunk[r]), swap, &mut pred);
                 let mut total = Loss::default();
                 for (off, &i) in chunk.iter().enumerate() {
                     let l = row_loss(outcome, i, &pred[off * k..(off + 1) * k]);

@@ -3,6 +3,7 @@
 //! estimation"; Breiman 2001, section 3.1).
 use crate::metrics::{class_metrics, predicted_class, value_metrics, Metrics};
 use crate::outcome::Outcome;
+use crate::predict::Scorer;
 use crate::train::{Progress, Stage};
 use copse_tree::Tree;
 use ndarray::{Array2, ArrayView2};
@@ -107,6 +108,17 @@ pub(crate) fn out_of_bag(
         .div_ceil(bs)
         .max(1);
     let n_groups = n_blocks.div_ceil(group);
+    // Each tree laid out for scoring once, when there are rows enough to pay for it.
+    let scorers: Vec<Scorer<'_>> = trees
+        .iter()
+        .map(|t| {
+            if n >= 2 * per_tree {
+                Scorer::Compact(t.compact())
+            } else {
+                Scorer::Plain(t)
+            }
+        })
+        .collect();
     let done = std::sync::atomic::AtomicUsize::new(0);
     let groups: Vec<Vec<Block>> = (0..n_groups)
         .into_par_iter()
@@ -148,14 +160,15 @@ pub(crate) fn out_of_bag(
             }
             let mut picks: Vec<u32> = Vec::with_capacity(len);
             let mut leaves = vec![0u32; len];
-            for (t, tree) in trees.iter().enumerate() {
+            for (t, scorer) in scorers.iter().enumerate() {
+                let tree = scorer.tree();
                 picks.clear();
                 picks.extend(
                     (0..len)
                         .filter(|&r| masks[t].contains(start + r))
                         .map(|r| r as u32),
                 );
-                tree.leaf_indices_of(&rows, p, &picks, &mut leaves);
+                scorer.leaf_indices_of(&rows, p, &picks, &mut leaves);
                 for (&r, &leaf) in picks.iter().zip(&leaves) {
                     let r = r as usize;
                     let i = start + r;

@@ -254,62 +254,43 @@ impl Tree {
         pick: impl Fn(usize) -> (usize, usize),
         leaves: &mut [u32],
     ) {
-        let m = leaves.len();
-        if m < 2 * LANES || width == 0 {
-            for (k, o) in leaves.iter_mut().enumerate() {
-                let (r, start) = pick(k);
-                let row = &rows[r * width..(r + 1) * width];
-                *o = self.leaf_from(start, |j| row[j]) as u32;
-            }
-            return;
-        }
-        let nodes = &self.nodes[..];
-        // Lane state: the position (in `leaves`) of the row it carries, that row's
-        // offset in `rows`, the node it stands at, and whether it carries a row.
-        let mut slot = [0usize; LANES];
-        let mut base = [0usize; LANES];
-        let mut at = [0usize; LANES];
-        let mut live = [true; LANES];
-        for l in 0..LANES {
-            slot[l] = l;
-            (base[l], at[l]) = pick(l);
-            base[l] *= width;
-        }
-        let (mut next, mut alive) = (LANES, LANES);
-        while alive > 0 {
-            // A few levels for every lane, with no branch on where a row is: a row
-            // at its leaf stays there (the leaf's input is read as input 0, and
-            // ignored).
-            for _ in 0..STEPS {
-                for l in 0..LANES {
-                    let n = nodes[at[l]];
-                    let stay = 0usize.wrapping_sub(usize::from(n.feature == LEAF));
-                    let v = rows[base[l] + (n.feature as usize & !stay)];
-                    let left = if n.flags & CATEGORICAL == 0 {
-                        (v <= f64::from_bits(n.split))
-                            | (v.is_nan() & (n.flags & MISSING_LEFT != 0))
-                    } else {
-                        self.goes_left(&n, v)
-                    };
-                    let step = n.child as usize + usize::from(!left);
-                    at[l] = (step & !stay) | (at[l] & stay);
-                }
-            }
-            // Then rows at their leaves are recorded, and their lanes take new rows.
-            for l in 0..LANES {
-                let n = nodes[at[l]];
-                if live[l] && n.feature == LEAF {
-                    leaves[slot[l]] = n.child;
-                    if next < m {
-                        let (r, start) = pick(next);
-                        (slot[l], base[l], at[l]) = (next, r * width, start);
-                        next += 1;
-                    } else {
-                        live[l] = false;
-                        alive -= 1;
+        descend_lanes(self, rows, width, pick, leaves);
+    }
+
+    /// The tree laid out for scoring many rows: [`CompactTree::leaf_indices`] gives
+    /// the same leaves as [`Tree::leaf_indices`], faster, once the layout (one pass
+    /// over the nodes) is paid for; worth it when far more rows than nodes are scored.
+    pub fn compact(&self) -> CompactTree<'_> {
+        let steps = self
+            .nodes
+            .iter()
+            .enumerate()
+            .map(|(i, n)| {
+                if n.feature == LEAF {
+                    // Every value (NaN included) compares false with a NaN threshold
+                    // and goes right, to `next + 1`: the leaf itself. The NaN's
+                    // payload holds the leaf index.
+                    Step {
+                        threshold: f64::from_bits(0x7ff8_0000_0000_0000 | u64::from(n.child)),
+                        next: (i as u32).wrapping_sub(1),
+                        feature: 0,
+                        flags: STEP_LEAF,
+                    }
+                } else {
+                    Step {
+                        threshold: f64::from_bits(n.split),
+                        next: n.child,
+                        feature: n.feature,
+                        flags: n.flags,
                     }
                 }
-            }
+            })
+            .collect();
+        let mixed = self.nodes.iter().any(|n| n.flags & CATEGORICAL != 0);
+        CompactTree {
+            tree: self,
+            steps,
+            mixed,
         }
     }
 
@@ -406,6 +387,226 @@ impl Tree {
     }
 }
 
+/// One level of descent, as the lane loop of [`descend_lanes`] needs it.
+trait Walk {
+    /// The node after `i` for the row whose values start at `rows[base]`; a leaf
+    /// gives itself.
+    fn next(&self, i: usize, rows: &[f64], base: usize) -> usize;
+    /// The leaf index if node `i` is a leaf.
+    fn leaf(&self, i: usize) -> Option<u32>;
+    /// The row-by-row descent from node `start`, for small blocks.
+    fn one(&self, start: usize, row: &[f64]) -> u32;
+}
+
+impl Walk for Tree {
+    #[inline(always)]
+    fn next(&self, i: usize, rows: &[f64], base: usize) -> usize {
+        let n = self.nodes[i];
+        // All ones at a leaf: the leaf's input is read as input 0 and ignored, and
+        // the row stays where it is, with no branch on where a row is.
+        let stay = 0usize.wrapping_sub(usize::from(n.feature == LEAF));
+        let v = rows[base + (n.feature as usize & !stay)];
+        let left = if n.flags & CATEGORICAL == 0 {
+            (v <= f64::from_bits(n.split)) | (v.is_nan() & (n.flags & MISSING_LEFT != 0))
+        } else {
+            self.goes_left(&n, v)
+        };
+        let step = n.child as usize + usize::from(!left);
+        (step & !stay) | (i & stay)
+    }
+
+    #[inline(always)]
+    fn leaf(&self, i: usize) -> Option<u32> {
+        let n = &self.nodes[i];
+        (n.feature == LEAF).then_some(n.child)
+    }
+
+    fn one(&self, start: usize, row: &[f64]) -> u32 {
+        self.leaf_from(start, |j| row[j]) as u32
+    }
+}
+
+/// Step flag: the node is a leaf (its step leads back to itself).
+const STEP_LEAF: u16 = 4;
+
+/// A node of a [`CompactTree`]: go to `next` when the value of input `feature` is at
+/// most `threshold` (or missing with [`MISSING_LEFT`]), else to `next + 1`. A leaf
+/// leads back to itself and keeps its leaf index in its (NaN) threshold.
+#[derive(Debug, Clone, Copy)]
+struct Step {
+    threshold: f64,
+    next: u32,
+    feature: u16,
+    flags: u16,
+}
+
+/// A [`Tree`] laid out for scoring blocks of rows (see [`Tree::compact`]): a leaf
+/// leads back to itself, so a row that has reached its leaf needs no test to stay
+/// there. Node numbers are the tree's; the tree itself is read only at category
+/// splits.
+#[derive(Debug, Clone)]
+pub struct CompactTree<'a> {
+    tree: &'a Tree,
+    steps: Vec<Step>,
+    /// Whether any node splits on categories.
+    mixed: bool,
+}
+
+/// A [`CompactTree`] walked with (`MIXED`) or without a look for category splits:
+/// a tree without any is walked by a loop with no call in it.
+struct Walker<'t, 'a, const MIXED: bool>(&'t CompactTree<'a>);
+
+impl<const MIXED: bool> Walk for Walker<'_, '_, MIXED> {
+    #[inline(always)]
+    fn next(&self, i: usize, rows: &[f64], base: usize) -> usize {
+        let s = self.0.steps[i];
+        let v = rows[base + s.feature as usize];
+        let left = if !MIXED || s.flags & CATEGORICAL == 0 {
+            (v <= s.threshold) | (v.is_nan() & (s.flags & MISSING_LEFT != 0))
+        } else {
+            self.0.tree.goes_left(&self.0.tree.nodes[i], v)
+        };
+        s.next.wrapping_add(u32::from(!left)) as usize
+    }
+
+    #[inline(always)]
+    fn leaf(&self, i: usize) -> Option<u32> {
+        let s = &self.0.steps[i];
+        (s.flags & STEP_LEAF != 0).then_some(s.threshold.to_bits() as u32)
+    }
+
+    fn one(&self, start: usize, row: &[f64]) -> u32 {
+        self.0.tree.one(start, row)
+    }
+}
+
+impl<'a> CompactTree<'a> {
+    /// The tree this was laid out from.
+    pub fn tree(&self) -> &'a Tree {
+        self.tree
+    }
+
+    fn descend(
+        &self,
+        rows: &[f64],
+        width: usize,
+        pick: impl Fn(usize) -> (usize, usize),
+        leaves: &mut [u32],
+    ) {
+        if self.mixed {
+            descend_lanes(&Walker::<true>(self), rows, width, pick, leaves);
+        } else {
+            descend_lanes(&Walker::<false>(self), rows, width, pick, leaves);
+        }
+    }
+
+    /// As [`Tree::leaf_indices`].
+    ///
+    /// # Panics
+    /// As [`Tree::leaf_indices`].
+    pub fn leaf_indices(&self, rows: &[f64], width: usize, leaves: &mut [u32]) {
+        self.tree.check_block(rows, width, leaves.len());
+        self.descend(rows, width, |k| (k, 0), leaves);
+    }
+
+    /// As [`Tree::leaf_indices_of`].
+    ///
+    /// # Panics
+    /// As [`Tree::leaf_indices_of`].
+    pub fn leaf_indices_of(&self, rows: &[f64], width: usize, picks: &[u32], leaves: &mut [u32]) {
+        let m = picks.len();
+        let top = picks.iter().max().map_or(0, |&r| r as usize + 1);
+        self.tree.check_block(rows, width, top);
+        self.descend(rows, width, |k| (picks[k] as usize, 0), &mut leaves[..m]);
+    }
+
+    /// As [`Tree::leaf_indices_from`].
+    ///
+    /// # Panics
+    /// As [`Tree::leaf_indices_from`].
+    pub fn leaf_indices_from(
+        &self,
+        rows: &[f64],
+        width: usize,
+        picks: &[u32],
+        starts: &[u32],
+        leaves: &mut [u32],
+    ) {
+        let m = picks.len();
+        let top = picks.iter().max().map_or(0, |&r| r as usize + 1);
+        self.tree.check_block(rows, width, top);
+        assert!(
+            starts.len() >= m && starts[..m].iter().all(|&s| (s as usize) < self.steps.len()),
+            "every start must be a node of the tree"
+        );
+        self.descend(
+            rows,
+            width,
+            |k| (picks[k] as usize, starts[k] as usize),
+            &mut leaves[..m],
+        );
+    }
+}
+
+/// Leaves reached by a block of rows: `leaves[k]` gets the leaf reached from node
+/// `pick(k).1` by row `pick(k).0` of `rows` (row-major, `width` values a row).
+/// Several rows descend side by side, a few levels at a time with no branch on where
+/// a row is; then rows at their leaves are recorded and their lanes take new rows. A
+/// descent row by row stalls at the end of every row (the last comparison decides
+/// whether to go on, and cannot be foreseen); here the descents overlap instead.
+#[inline]
+fn descend_lanes<W: Walk>(
+    walk: &W,
+    rows: &[f64],
+    width: usize,
+    pick: impl Fn(usize) -> (usize, usize),
+    leaves: &mut [u32],
+) {
+    let m = leaves.len();
+    if m < 2 * LANES || width == 0 {
+        for (k, o) in leaves.iter_mut().enumerate() {
+            let (r, start) = pick(k);
+            *o = walk.one(start, &rows[r * width..(r + 1) * width]);
+        }
+        return;
+    }
+    // Lane state: the position (in `leaves`) of the row it carries, that row's offset
+    // in `rows`, the node it stands at, and whether it carries a row.
+    let mut slot = [0usize; LANES];
+    let mut base = [0usize; LANES];
+    let mut at = [0usize; LANES];
+    let mut live = [true; LANES];
+    for l in 0..LANES {
+        slot[l] = l;
+        (base[l], at[l]) = pick(l);
+        base[l] *= width;
+    }
+    let (mut next, mut alive) = (LANES, LANES);
+    while alive > 0 {
+        for _ in 0..STEPS {
+            for l in 0..LANES {
+                at[l] = walk.next(at[l], rows, base[l]);
+            }
+        }
+        for l in 0..LANES {
+            if !live[l] {
+                continue;
+            }
+            if let Some(leaf) = walk.leaf(at[l]) {
+                leaves[slot[l]] = leaf;
+                if next < m {
+                    let (r, start) = pick(next);
+                    (slot[l], base[l], at[l]) = (next, r * width, start);
+                    next += 1;
+                } else {
+                    live[l] = false;
+                    alive -= 1;
+                }
+            }
+        }
+    }
+}
+
 /// Rows descending side by side in [`Tree::leaf_indices`], and levels they go down
 /// between looks at which have reached their leaves (measured: 8 and 3 beat 4 or 6
 /// lanes and 2 or 4 levels).
@@ -469,15 +670,39 @@ mod tests {
         let truth: Vec<u32> = (0..n)
             .map(|i| tree.leaf_index(&flat[i * 4..(i + 1) * 4]) as u32)
             .collect();
+        let compact = tree.compact();
+        // The same inputs, all numeric: the walk without category splits.
+        let numeric = vec![
+            FeatureMeta::numeric("a"),
+            FeatureMeta::numeric("c"),
+            FeatureMeta::numeric("u"),
+            FeatureMeta::numeric("m"),
+        ];
+        let plain_data = BinnedData::new(x.view(), &numeric, 256).expect("valid data");
+        let plain = Grower::new(TreeSettings::default())
+            .grow(&plain_data, &target, &vec![1.0; n], &mut rng)
+            .expect("grows");
+        let mut got = vec![u32::MAX; n];
+        plain.compact().leaf_indices(&flat, 4, &mut got);
+        let want: Vec<u32> = (0..n)
+            .map(|i| plain.leaf_index(&flat[i * 4..(i + 1) * 4]) as u32)
+            .collect();
+        assert_eq!(got, want);
         for m in [0, 5, 16, 17, 300, n] {
             let mut got = vec![u32::MAX; m];
             tree.leaf_indices(&flat, 4, &mut got);
+            assert_eq!(got, truth[..m]);
+            got.fill(u32::MAX);
+            compact.leaf_indices(&flat, 4, &mut got);
             assert_eq!(got, truth[..m]);
         }
         let picks: Vec<u32> = (0..n as u32).filter(|i| i % 3 != 1).rev().collect();
         let mut got = vec![u32::MAX; picks.len()];
         tree.leaf_indices_of(&flat, 4, &picks, &mut got);
         let want: Vec<u32> = picks.iter().map(|&i| truth[i as usize]).collect();
+        assert_eq!(got, want);
+        got.fill(u32::MAX);
+        compact.leaf_indices_of(&flat, 4, &picks, &mut got);
         assert_eq!(got, want);
         // Starting from a node on the row's own path (here its first child) changes
         // nothing.
@@ -492,6 +717,9 @@ mod tests {
             .collect();
         let mut got = vec![u32::MAX; picks.len()];
         tree.leaf_indices_from(&flat, 4, &picks, &starts, &mut got);
+        assert_eq!(got, want);
+        got.fill(u32::MAX);
+        compact.leaf_indices_from(&flat, 4, &picks, &starts, &mut got);
         assert_eq!(got, want);
     }
 
