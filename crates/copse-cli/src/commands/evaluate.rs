@@ -1,13 +1,9 @@
 //! `copse evaluate`: measure a model on labelled rows it has not seen.
 use crate::args::EvaluateArgs;
-use crate::commands::emit;
-use crate::encode::read_labelled;
+use crate::commands::{emit, load_labelled};
 use crate::error::{forest_error, CliResult};
 use crate::json;
-use crate::model::Model;
-use crate::reader::CsvInput;
 use crate::report::{self, pct, sig, Style};
-use crate::schema::Missing;
 use crate::ui::Ui;
 use copse_forest::Metrics;
 use serde_json::json;
@@ -18,18 +14,7 @@ use std::fmt::Write;
 /// # Errors
 /// Input errors for a bad model or data; failures when writing.
 pub fn run(a: &EvaluateArgs, ui: &Ui) -> CliResult<()> {
-    let model = Model::load(&a.model)?;
-    let input = CsvInput::open(&a.data, a.csv.delimiter.into())?;
-    let source = input.name().to_string();
-    let missing = a
-        .csv
-        .missing
-        .as_deref()
-        .map_or_else(|| model.schema.missing.clone(), Missing::from_list);
-    let data = read_labelled(input, &model.schema, missing)?;
-    if let Some(w) = data.encoder.unseen_warning() {
-        ui.warn(&w);
-    }
+    let (model, source, data) = load_labelled(&a.model, &a.data, &a.csv, ui)?;
     let eval = model
         .forest
         .evaluate(data.x.view(), &data.outcome)

@@ -2,14 +2,11 @@
 //! with standard errors over repeated shuffles and, when the inputs allow it, p-values
 //! of the mirrored-null test.
 use crate::args::ImportanceArgs;
-use crate::commands::emit;
-use crate::encode::read_labelled;
+use crate::commands::{emit, load_labelled};
 use crate::error::{forest_error, CliError, CliResult};
-use crate::model::Model;
 use crate::output::write_file;
-use crate::reader::CsvInput;
 use crate::report::{self, Style};
-use crate::schema::{Missing, Task};
+use crate::schema::Task;
 use crate::ui::Ui;
 use crate::{json, plots};
 use serde_json::json;
@@ -23,18 +20,7 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
     if let Some(plot) = &a.plot {
         crate::commands::check_destination(plot)?;
     }
-    let model = Model::load(&a.model)?;
-    let input = CsvInput::open(&a.data, a.csv.delimiter.into())?;
-    let source = input.name().to_string();
-    let missing = a
-        .csv
-        .missing
-        .as_deref()
-        .map_or_else(|| model.schema.missing.clone(), Missing::from_list);
-    let data = read_labelled(input, &model.schema, missing)?;
-    if let Some(w) = data.encoder.unseen_warning() {
-        ui.warn(&w);
-    }
+    let (model, source, data) = load_labelled(&a.model, &a.data, &a.csv, ui)?;
     let imp = model
         .forest
         .permutation_importance(data.x.view(), &data.outcome, a.repeats as usize, a.seed)

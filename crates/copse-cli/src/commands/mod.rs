@@ -98,3 +98,29 @@ pub fn check_destination(path: &std::path::Path) -> CliResult<()> {
     }
     Ok(())
 }
+
+/// Loads a model and reads labelled rows it has not seen, the common start of
+/// `evaluate` and `importance`: missing tokens default to the model's, and categories
+/// the model never saw are warned about. Returns the model, the data's name and rows.
+///
+/// # Errors
+/// Input errors for a bad model file or data.
+pub fn load_labelled(
+    model: &std::path::Path,
+    data: &str,
+    csv: &crate::args::CsvArgs,
+    ui: &Ui,
+) -> CliResult<(crate::model::Model, String, crate::encode::Labelled)> {
+    let model = crate::model::Model::load(model)?;
+    let input = crate::reader::CsvInput::open(data, csv.delimiter.into())?;
+    let source = input.name().to_string();
+    let missing = csv.missing.as_deref().map_or_else(
+        || model.schema.missing.clone(),
+        crate::schema::Missing::from_list,
+    );
+    let labelled = crate::encode::read_labelled(input, &model.schema, missing)?;
+    if let Some(w) = labelled.encoder.unseen_warning() {
+        ui.warn(&w);
+    }
+    Ok((model, source, labelled))
+}
