@@ -1257,12 +1257,18 @@ fn scan_two_gini(
     let m = order.len() - 1;
     let ScanScratch { cand, approx } = scratch;
     cand.clear();
+    cand.resize(m * per, 0);
     let mut acc = 0u64;
-    for &b in &order[..m] {
-        acc += hist[b as usize];
-        cand.push(acc);
-        if has_missing {
-            cand.push(acc + miss);
+    if has_missing {
+        for (&b, c) in order[..m].iter().zip(cand.chunks_exact_mut(2)) {
+            acc += hist[b as usize];
+            c[0] = acc;
+            c[1] = acc + miss;
+        }
+    } else {
+        for (&b, c) in order[..m].iter().zip(cand.iter_mut()) {
+            acc += hist[b as usize];
+            *c = acc;
         }
     }
     approx.clear();
