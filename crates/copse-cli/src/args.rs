@@ -239,9 +239,10 @@ pub struct ScoreArgs {
     #[arg(long)]
     pub blank_unscorable: bool,
 
-    /// Rows read and scored together (memory use grows with it).
-    #[arg(long, default_value_t = 4096, value_name = "N", hide = true, value_parser = clap::value_parser!(u32).range(1..))]
-    pub block_rows: u32,
+    /// Rows read and scored together (memory use grows with it); by default sized
+    /// from the model (see `commands::score::default_block_rows`).
+    #[arg(long, value_name = "N", hide = true, value_parser = clap::value_parser!(u32).range(1..))]
+    pub block_rows: Option<u32>,
 }
 
 /// `copse evaluate`.

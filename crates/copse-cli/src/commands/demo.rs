@@ -81,7 +81,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         uncertainty: false,
         csv,
         blank_unscorable: false,
-        block_rows: 4096,
+        block_rows: None,
     };
     let scored = score::score(&sargs, ui)?;
 
