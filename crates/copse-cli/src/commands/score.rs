@@ -2,7 +2,8 @@
 //! input row, in input order: the kept columns, `prediction`, and for classes one
 //! `prob_<class>` column per class; with `--uncertainty`, a standard error per output
 //! (`se_prediction`, or `se_<class>` per class probability) by the bias-corrected
-//! infinitesimal jackknife. Memory stays bounded by the block size whatever the length
+//! infinitesimal jackknife. Memory stays bounded by the block size (two blocks: one read
+//! ahead while the other is scored, when more than one thread runs) whatever the length
 //! of the input.
 use crate::args::ScoreArgs;
 use crate::commands::train::compact;
@@ -116,14 +117,11 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         .block_rows
         .map_or_else(|| default_block_rows(forest), |b| b as usize);
     let p = forest.n_features();
-    let mut records: Vec<csv::StringRecord> =
-        (0..block).map(|_| csv::StringRecord::new()).collect();
-    let mut xbuf = vec![0.0f64; block * p];
+    let source = input.name().to_string();
+    let size = input.size();
     let mut fields = csv::StringRecord::new();
+    let mut probs: Vec<f64> = Vec::with_capacity(classes.len());
     let mut rows: u64 = 0;
-    // Rows of the current block that cannot be scored (written with an empty
-    // prediction under --blank-unscorable), and a tally for the warning.
-    let mut blank = vec![false; block];
     // Prediction columns per row: the prediction, plus one probability per class.
     let out_fields = if classes.is_empty() {
         1
@@ -132,46 +130,19 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     };
     let mut skipped = Unscorable::default();
     let mut clamped = 0usize;
-    let bar = ui.bytes_bar(input.size(), "scoring");
-    loop {
-        let mut m = 0;
-        while m < block {
-            let fault = match input.read_row(&mut records[m])? {
-                Row::End => break,
-                Row::Record => match enc.encode(&records[m], &mut xbuf[m * p..(m + 1) * p]) {
-                    Ok(()) => None,
-                    Err(e) => {
-                        let line = records[m].position().map_or(0, |p| p.line());
-                        Some((line, e))
-                    }
-                },
-                Row::Fault(line, e) => {
-                    // The fields of a malformed row may be shifted: keep none of them.
-                    records[m].clear();
-                    Some((line, e))
-                }
-            };
-            blank[m] = fault.is_some();
-            if let Some((line, e)) = fault {
-                if !a.blank_unscorable {
-                    return Err(CliError::input(format!(
-                        "{}; or add --blank-unscorable to write such rows with an empty prediction \
-                         (they are counted on standard error)",
-                        e.message()
-                    )));
-                }
-                xbuf[m * p..(m + 1) * p].fill(f64::NAN);
-                skipped.add(line, e);
-            }
-            m += 1;
-        }
-        if m == 0 {
-            break;
-        }
-        let x = ArrayView2::from_shape((m, p), &xbuf[..m * p])
+    let bar = ui.bytes_bar(size, "scoring");
+    let mut reader = BlockReader {
+        input: &mut input,
+        enc: &mut enc,
+        skipped: &mut skipped,
+        blank_unscorable: a.blank_unscorable,
+        p,
+    };
+    let mut emit = |b: &Block| -> CliResult<()> {
+        let m = b.m;
+        let x = ArrayView2::from_shape((m, p), &b.x[..m * p])
             .map_err(|e| CliError::failure(format!("internal: {e}")))?;
-        let fail =
-            |e: copse_forest::Error| forest_error(&e, &format!("cannot score {}", input.name()));
+        let fail = |e: copse_forest::Error| forest_error(&e, &format!("cannot score {source}"));
         let (preds, se) = if a.uncertainty {
             let u = forest.prediction_uncertainty(x).map_err(fail)?;
             clamped += u.clamped;
@@ -197,9 +168,9 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         for (i, pred) in preds.rows().into_iter().enumerate() {
             fields.clear();
             for &c in &keep {
-                fields.push_field(records[i].get(c).unwrap_or(""));
+                fields.push_field(b.records[i].get(c).unwrap_or(""));
             }
-            if blank[i] {
+            if b.blank[i] {
                 // An empty prediction and empty probabilities: the row is kept in its
                 // place, never dropped.
                 for _ in 0..out_fields {
@@ -208,7 +179,8 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
             } else if classes.is_empty() {
                 fields.push_field(&compact(pred[0]));
             } else {
-                let probs = pred.to_vec();
+                probs.clear();
+                probs.extend(pred.iter());
                 fields.push_field(forest.class_label(&probs).unwrap_or(""));
                 for &v in &probs {
                     fields.push_field(&compact(v));
@@ -217,17 +189,25 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
             if let Some(se) = &se {
                 for &v in se.row(i) {
                     // An unscorable row gets no standard error either.
-                    fields.push_field(&if blank[i] { String::new() } else { compact(v) });
+                    fields.push_field(&if b.blank[i] {
+                        String::new()
+                    } else {
+                        compact(v)
+                    });
                 }
             }
             w.write_record(&fields).map_err(werr)?;
         }
         rows += m as u64;
-        bar.advance_to(input.bytes_read() as usize);
-        if m < block {
-            break;
-        }
-    }
+        bar.advance_to(b.bytes as usize);
+        Ok(())
+    };
+    each_block(
+        &mut |b: &mut Block| reader.fill(b),
+        Block::new(block, p),
+        rayon::current_num_threads() > 1,
+        &mut emit,
+    )?;
     bar.finish();
     if !header_written {
         w.write_record(&header).map_err(werr)?;
@@ -265,6 +245,140 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         rows,
         output: out_name,
         unscorable: skipped.count,
+    })
+}
+
+/// A block of input rows: their records (for the kept columns), their encoded input
+/// values (row-major), which of them cannot be scored, how many it holds, and the
+/// bytes of input read by the time it was filled (for progress).
+struct Block {
+    records: Vec<csv::StringRecord>,
+    x: Vec<f64>,
+    blank: Vec<bool>,
+    m: usize,
+    bytes: u64,
+}
+
+impl Block {
+    fn new(rows: usize, p: usize) -> Self {
+        Self {
+            records: (0..rows).map(|_| csv::StringRecord::new()).collect(),
+            x: vec![0.0; rows * p],
+            blank: vec![false; rows],
+            m: 0,
+            bytes: 0,
+        }
+    }
+}
+
+/// Reads and encodes rows into blocks.
+struct BlockReader<'a> {
+    input: &'a mut CsvInput,
+    enc: &'a mut RowEncoder,
+    skipped: &'a mut Unscorable,
+    blank_unscorable: bool,
+    p: usize,
+}
+
+impl BlockReader<'_> {
+    /// Fills `b` with the next rows, as many as it holds unless the input ends first.
+    ///
+    /// # Errors
+    /// A row that cannot be read or encoded, unless `--blank-unscorable` keeps it as a
+    /// blank row.
+    fn fill(&mut self, b: &mut Block) -> CliResult<()> {
+        let p = self.p;
+        b.m = 0;
+        while b.m < b.blank.len() {
+            let m = b.m;
+            let record = &mut b.records[m];
+            let x = &mut b.x[m * p..(m + 1) * p];
+            let fault = match self.input.read_row(record)? {
+                Row::End => break,
+                Row::Record => match self.enc.encode(record, x) {
+                    Ok(()) => None,
+                    Err(e) => Some((record.position().map_or(0, |p| p.line()), e)),
+                },
+                Row::Fault(line, e) => {
+                    // The fields of a malformed row may be shifted: keep none of them.
+                    record.clear();
+                    Some((line, e))
+                }
+            };
+            b.blank[m] = fault.is_some();
+            if let Some((line, e)) = fault {
+                if !self.blank_unscorable {
+                    return Err(CliError::input(format!(
+                        "{}; or add --blank-unscorable to write such rows with an empty prediction \
+                         (they are counted on standard error)",
+                        e.message()
+                    )));
+                }
+                x.fill(f64::NAN);
+                self.skipped.add(line, e);
+            }
+            b.m += 1;
+        }
+        b.bytes = self.input.bytes_read();
+        Ok(())
+    }
+}
+
+/// Passes blocks filled by `fill` (each like `first`, whose row count is the block
+/// size), in order, to `emit`, which scores and writes them; a block with fewer rows
+/// than the size is the last. With `ahead`, a second thread fills the next block while
+/// `emit` works on the current one (two blocks circulate), so the serial reading hides
+/// behind the parallel scoring; without it (one thread), blocks are filled in turn. An
+/// error from `fill` reaches the caller after every block before it was emitted, as
+/// when filling in turn; an error from `emit` stops the filling.
+fn each_block(
+    fill: &mut (dyn FnMut(&mut Block) -> CliResult<()> + Send),
+    first: Block,
+    ahead: bool,
+    emit: &mut dyn FnMut(&Block) -> CliResult<()>,
+) -> CliResult<()> {
+    let size = first.blank.len();
+    if !ahead {
+        let mut b = first;
+        loop {
+            fill(&mut b)?;
+            if b.m > 0 {
+                emit(&b)?;
+            }
+            if b.m < size {
+                return Ok(());
+            }
+        }
+    }
+    std::thread::scope(|s| {
+        let (full_tx, full_rx) = std::sync::mpsc::sync_channel::<CliResult<Block>>(1);
+        let (empty_tx, empty_rx) = std::sync::mpsc::channel::<Block>();
+        let second = Block::new(size, first.x.len() / size.max(1));
+        s.spawn(move || {
+            let mut spares = vec![second, first];
+            loop {
+                // A block handed back by the scorer, once both spares are in use; the
+                // scorer gone (it met an error) ends the filling.
+                let Some(mut b) = spares.pop().or_else(|| empty_rx.recv().ok()) else {
+                    return;
+                };
+                let filled = fill(&mut b);
+                let last = filled.is_err() || b.m < size;
+                if full_tx.send(filled.map(|()| b)).is_err() || last {
+                    return;
+                }
+            }
+        });
+        // Ends when the filler has sent its last block (or an error) and returned.
+        for filled in full_rx {
+            let b = filled?;
+            if b.m > 0 {
+                emit(&b)?;
+            }
+            // The filler may have finished already; then the block is not needed.
+            let _ = empty_tx.send(b);
+        }
+        Ok(())
     })
 }
 
@@ -317,5 +431,84 @@ impl Unscorable {
             lines.join(", "),
             self.first.as_deref().unwrap_or("")
         )
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A filler of `rows` rows in blocks, row `r` holding the value `r`; with `fault`,
+    /// filling the block that holds that row fails.
+    fn numbered(
+        rows: usize,
+        fault: Option<usize>,
+    ) -> impl FnMut(&mut Block) -> CliResult<()> + Send {
+        let mut next = 0;
+        move |b: &mut Block| {
+            b.m = 0;
+            while b.m < b.blank.len() && next < rows {
+                if Some(next) == fault {
+                    return Err(CliError::input(format!("row {next} is bad")));
+                }
+                b.x[b.m] = next as f64;
+                b.m += 1;
+                next += 1;
+            }
+            Ok(())
+        }
+    }
+
+    /// The rows `emit` saw, in order, and the result.
+    fn run(
+        rows: usize,
+        size: usize,
+        ahead: bool,
+        fault: Option<usize>,
+        stop: Option<usize>,
+    ) -> (Vec<f64>, CliResult<()>) {
+        let mut seen = Vec::new();
+        let mut fill = numbered(rows, fault);
+        let result = each_block(&mut fill, Block::new(size, 1), ahead, &mut |b: &Block| {
+            if stop.is_some_and(|s| seen.len() >= s) {
+                return Err(CliError::failure("the output is full"));
+            }
+            seen.extend_from_slice(&b.x[..b.m]);
+            Ok(())
+        });
+        (seen, result)
+    }
+
+    #[test]
+    fn reading_ahead_emits_the_blocks_in_turn_order() {
+        for (rows, size) in [(0, 4), (3, 4), (4, 4), (9, 4), (1000, 7)] {
+            let (ahead, r) = run(rows, size, true, None, None);
+            assert!(r.is_ok());
+            let (turn, r) = run(rows, size, false, None, None);
+            assert!(r.is_ok());
+            let want: Vec<f64> = (0..rows).map(|r| r as f64).collect();
+            assert_eq!(ahead, want, "{rows} rows, blocks of {size}");
+            assert_eq!(turn, want, "{rows} rows, blocks of {size}");
+        }
+    }
+
+    #[test]
+    fn a_reading_error_comes_after_the_blocks_before_it() {
+        for ahead in [true, false] {
+            // Row 10 is in the third block of 4: the first two blocks are emitted.
+            let (seen, r) = run(100, 4, ahead, Some(10), None);
+            assert_eq!(seen, (0..8).map(f64::from).collect::<Vec<_>>());
+            let e = r.expect_err("the bad row stops scoring");
+            assert!(e.message().contains("row 10 is bad"), "{}", e.message());
+        }
+    }
+
+    #[test]
+    fn an_emit_error_stops_the_reading_without_waiting_forever() {
+        for ahead in [true, false] {
+            let (seen, r) = run(100_000, 4, ahead, None, Some(8));
+            assert_eq!(seen.len(), 8);
+            assert!(r.is_err());
+        }
     }
 }
