@@ -2,8 +2,9 @@
 //! Checks that need no files (ranges, words) happen here, so a bad flag is a usage
 //! error (exit 2) before any work starts.
 use crate::reader::Delimiter;
+use crate::schema::{Roles, Task};
 use clap::{Args, Parser, Subcommand, ValueEnum};
-use copse_forest::{FeaturesPerSplit, Sampling};
+use copse_forest::{FeaturesPerSplit, Impurity, Sampling};
 use std::path::PathBuf;
 
 /// copse: grow an ensemble of decision trees from a CSV table, check how well it
@@ -63,6 +64,46 @@ pub struct CsvArgs {
     pub missing: Option<String>,
 }
 
+/// The roles of a training file's columns, as `copse train` and `copse stability`
+/// take them: the target, the columns left out, forced kinds, and the task.
+#[derive(Debug, Args, Clone)]
+pub struct ColumnRoles {
+    /// The column to predict.
+    // Help place 1, right after --data (place 0) and the global options, so that
+    // `copse train` can list --out between --target and the other roles.
+    #[arg(long, value_name = "COL", display_order = 1)]
+    pub target: String,
+
+    /// Columns to leave out (identifiers, free text).
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub ignore: Vec<String>,
+
+    /// Columns to treat as categories even if they hold numbers.
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub categorical: Vec<String>,
+
+    /// Columns that must be numbers (a cell that is not one is an error).
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub numeric: Vec<String>,
+
+    /// Classification or regression [default: classify when the target holds text,
+    /// regress when it holds numbers].
+    #[arg(long, value_enum)]
+    pub task: Option<TaskArg>,
+}
+
+impl From<&ColumnRoles> for Roles {
+    fn from(r: &ColumnRoles) -> Self {
+        Roles {
+            target: r.target.clone(),
+            ignore: r.ignore.clone(),
+            categorical: r.categorical.clone(),
+            numeric: r.numeric.clone(),
+            task: r.task.map(Task::from),
+        }
+    }
+}
+
 /// Field separators.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum DelimiterArg {
@@ -93,6 +134,15 @@ pub enum TaskArg {
     Regress,
 }
 
+impl From<TaskArg> for Task {
+    fn from(t: TaskArg) -> Self {
+        match t {
+            TaskArg::Classify => Task::Classify,
+            TaskArg::Regress => Task::Regress,
+        }
+    }
+}
+
 /// Impurity measure.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum ImpurityArg {
@@ -102,6 +152,15 @@ pub enum ImpurityArg {
     Entropy,
 }
 
+impl From<ImpurityArg> for Impurity {
+    fn from(i: ImpurityArg) -> Self {
+        match i {
+            ImpurityArg::Gini => Impurity::Gini,
+            ImpurityArg::Entropy => Impurity::Entropy,
+        }
+    }
+}
+
 /// `copse train`.
 #[derive(Debug, Args)]
 pub struct TrainArgs {
@@ -109,30 +168,14 @@ pub struct TrainArgs {
     #[arg(long, value_name = "FILE")]
     pub data: String,
 
-    /// The column to predict.
-    #[arg(long, value_name = "COL")]
-    pub target: String,
+    // Help lists --target, then --out, then the other roles: --target is pinned to place
+    // 1 (see `ColumnRoles`), --out to place 2, and the other roles follow from place 3.
+    #[command(flatten, next_display_order = 3)]
+    pub roles: ColumnRoles,
 
     /// Where to write the model file.
-    #[arg(long, value_name = "MODEL")]
+    #[arg(long, value_name = "MODEL", display_order = 2)]
     pub out: PathBuf,
-
-    /// Columns to leave out (identifiers, free text).
-    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
-    pub ignore: Vec<String>,
-
-    /// Columns to treat as categories even if they hold numbers.
-    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
-    pub categorical: Vec<String>,
-
-    /// Columns that must be numbers (a cell that is not one is an error).
-    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
-    pub numeric: Vec<String>,
-
-    /// Classification or regression [default: classify when the target holds text,
-    /// regress when it holds numbers].
-    #[arg(long, value_enum)]
-    pub task: Option<TaskArg>,
 
     #[command(flatten)]
     pub csv: CsvArgs,
@@ -302,26 +345,8 @@ pub struct StabilityArgs {
     #[arg(long, value_name = "FILE")]
     pub data: String,
 
-    /// The column to predict.
-    #[arg(long, value_name = "COL")]
-    pub target: String,
-
-    /// Columns to leave out (identifiers, free text).
-    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
-    pub ignore: Vec<String>,
-
-    /// Columns to treat as categories even if they hold numbers.
-    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
-    pub categorical: Vec<String>,
-
-    /// Columns that must be numbers (a cell that is not one is an error).
-    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
-    pub numeric: Vec<String>,
-
-    /// Classification or regression [default: classify when the target holds text,
-    /// regress when it holds numbers].
-    #[arg(long, value_enum)]
-    pub task: Option<TaskArg>,
+    #[command(flatten)]
+    pub roles: ColumnRoles,
 
     #[command(flatten)]
     pub csv: CsvArgs,
@@ -435,6 +460,44 @@ mod tests {
         Cli::command().debug_assert();
     }
 
+    /// Where the help lists an option (the byte offset of its spelling in the long help).
+    fn help_place(command: &str, option: &str) -> usize {
+        let mut cli = Cli::command();
+        let help = cli
+            .find_subcommand_mut(command)
+            .expect("the subcommand exists")
+            .render_long_help()
+            .to_string();
+        help.find(&format!("{option} <"))
+            .unwrap_or_else(|| panic!("{command} --help lists {option}"))
+    }
+
+    #[test]
+    fn help_lists_the_column_roles_in_the_documented_order() {
+        // The order of README.md's option table for `copse train`: --target, --out, then
+        // the other column roles; `copse stability` has no --out.
+        let order = [
+            "--data",
+            "--target",
+            "--out",
+            "--ignore",
+            "--categorical",
+            "--delimiter",
+        ];
+        let places: Vec<usize> = order.iter().map(|o| help_place("train", o)).collect();
+        assert!(places.windows(2).all(|w| w[0] < w[1]), "{places:?}");
+        let order = [
+            "--data",
+            "--target",
+            "--ignore",
+            "--numeric",
+            "--delimiter",
+            "--seeds",
+        ];
+        let places: Vec<usize> = order.iter().map(|o| help_place("stability", o)).collect();
+        assert!(places.windows(2).all(|w| w[0] < w[1]), "{places:?}");
+    }
+
     #[test]
     fn bad_values_are_refused_at_parse_time() {
         let base = [
@@ -459,7 +522,7 @@ mod tests {
         match cli.command {
             Command::Train(t) => {
                 assert_eq!(t.features_per_split, Some(FeaturesPerSplit::Fraction(0.5)));
-                assert_eq!(t.ignore, vec!["a".to_string(), "b".to_string()]);
+                assert_eq!(t.roles.ignore, vec!["a".to_string(), "b".to_string()]);
             }
             _ => panic!("parsed as another command"),
         }

@@ -1,7 +1,9 @@
 //! `copse demo`: the main job end to end on the invented water-main register: write
 //! the data, train with plots and out-of-bag predictions, save the report, score a
 //! batch of further segments, and say where every output went.
-use crate::args::{CsvArgs, DelimiterArg, DemoArgs, ImpurityArg, ScoreArgs, TrainArgs};
+use crate::args::{
+    ColumnRoles, CsvArgs, DelimiterArg, DemoArgs, ImpurityArg, ScoreArgs, TrainArgs,
+};
 use crate::commands::make_demo_data::write_demo_files;
 use crate::commands::{emit, make_folder, score, train};
 use crate::demo_data::{DEFAULT_SEED, ID, TARGET};
@@ -38,12 +40,14 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
     };
     let targs = TrainArgs {
         data: shown(&train_csv),
-        target: TARGET.to_string(),
+        roles: ColumnRoles {
+            target: TARGET.to_string(),
+            ignore: vec![ID.to_string()],
+            categorical: Vec::new(),
+            numeric: Vec::new(),
+            task: None,
+        },
         out: model_path.clone(),
-        ignore: vec![ID.to_string()],
-        categorical: Vec::new(),
-        numeric: Vec::new(),
-        task: None,
         csv: csv.clone(),
         trees: TREES,
         features_per_split: None,

@@ -124,3 +124,69 @@ pub fn load_labelled(
     }
     Ok((model, source, labelled))
 }
+
+/// Reads a training file, the common start of `train` and `stability`: the columns in
+/// the roles given, missing tokens as given or else the standard list; notes about the
+/// data go to standard error.
+///
+/// # Errors
+/// Input errors naming the file, line and column, as from [`crate::schema::load_training`].
+pub fn read_training(
+    data: &str,
+    roles: &crate::args::ColumnRoles,
+    csv: &crate::args::CsvArgs,
+    ui: &Ui,
+) -> CliResult<crate::schema::TrainingData> {
+    let input = crate::reader::CsvInput::open(data, csv.delimiter.into())?;
+    let missing = csv.missing.as_deref().map_or_else(
+        crate::schema::Missing::standard,
+        crate::schema::Missing::from_list,
+    );
+    let training = crate::schema::load_training(input, &roles.into(), missing)?;
+    for n in &training.notes {
+        ui.note(n);
+    }
+    Ok(training)
+}
+
+/// Refuses a `--features-per-split` count larger than the number of inputs read.
+///
+/// # Errors
+/// An input error naming the file and the counts allowed.
+pub fn check_features_per_split(
+    rule: copse_forest::FeaturesPerSplit,
+    data: &crate::schema::TrainingData,
+) -> CliResult<()> {
+    let p = data.schema.features.len();
+    match rule {
+        copse_forest::FeaturesPerSplit::Count(k) if k > p => Err(CliError::input(format!(
+            "--features-per-split {k} is more than the {p} inputs in {}; choose 1 to {p}",
+            data.source
+        ))),
+        _ => Ok(()),
+    }
+}
+
+/// Checks, before long work starts, a file that will be written at `path`: it must not
+/// be the input file `data`, and its folder must exist (see [`check_destination`]).
+///
+/// # Errors
+/// An input error naming the file and what is wrong.
+pub fn check_output(data: &str, path: &std::path::Path, what: &str) -> CliResult<()> {
+    crate::output::refuse_overwrite(data, Some(&path.to_string_lossy()), what)?;
+    check_destination(path)
+}
+
+/// The settings of each tree from the options `train` and `stability` share.
+pub fn tree_settings(
+    impurity: crate::args::ImpurityArg,
+    max_depth: Option<u32>,
+    min_leaf: u32,
+) -> copse_forest::TreeSettings {
+    copse_forest::TreeSettings {
+        impurity: impurity.into(),
+        max_depth: max_depth.map(|d| d as usize),
+        min_leaf: f64::from(min_leaf),
+        ..copse_forest::TreeSettings::default()
+    }
+}

@@ -1,18 +1,15 @@
 //! `copse stability`: train one tree, bagged trees and a random forest with several
 //! seeds on the same data and report how much each one's error, held-out answers and
 //! importance ranking move from seed to seed: the evidence for choosing an ensemble.
-use crate::args::{ImpurityArg, StabilityArgs, TaskArg};
-use crate::commands::{check_destination, emit};
+use crate::args::StabilityArgs;
+use crate::commands::{check_features_per_split, check_output, emit, read_training, tree_settings};
 use crate::error::{forest_error, CliError, CliResult};
-use crate::output::{refuse_overwrite, write_file};
-use crate::reader::CsvInput;
+use crate::output::write_file;
 use crate::report::{self, pct, sig, Style};
-use crate::schema::{load_training, Missing, Roles, Task};
 use crate::ui::Ui;
 use crate::{json, plots};
 use copse_forest::{
-    stability_report, ForestSettings, Impurity, KindStability, ModelKind, StabilityReport,
-    StabilitySettings, TreeSettings,
+    stability_report, ForestSettings, KindStability, ModelKind, StabilityReport, StabilitySettings,
 };
 use serde_json::{json, Map, Value};
 use std::fmt::Write;
@@ -23,30 +20,9 @@ use std::fmt::Write;
 /// Input errors for bad data or settings; failures when writing.
 pub fn run(a: &StabilityArgs, ui: &Ui) -> CliResult<()> {
     if let Some(plot) = &a.plot {
-        let s = plot.to_string_lossy().to_string();
-        refuse_overwrite(&a.data, Some(&s), "chart file")?;
-        check_destination(plot)?;
+        check_output(&a.data, plot, "chart file")?;
     }
-    let input = CsvInput::open(&a.data, a.csv.delimiter.into())?;
-    let roles = Roles {
-        target: a.target.clone(),
-        ignore: a.ignore.clone(),
-        categorical: a.categorical.clone(),
-        numeric: a.numeric.clone(),
-        task: a.task.map(|t| match t {
-            TaskArg::Classify => Task::Classify,
-            TaskArg::Regress => Task::Regress,
-        }),
-    };
-    let missing = a
-        .csv
-        .missing
-        .as_deref()
-        .map_or_else(Missing::standard, Missing::from_list);
-    let data = load_training(input, &roles, missing)?;
-    for n in &data.notes {
-        ui.note(n);
-    }
+    let data = read_training(&a.data, &a.roles, &a.csv, ui)?;
     let labelled = data.outcome.n_labelled();
     if (a.folds as usize) > labelled {
         return Err(CliError::input(format!(
@@ -55,14 +31,8 @@ pub fn run(a: &StabilityArgs, ui: &Ui) -> CliResult<()> {
             a.folds, data.source
         )));
     }
-    let p = data.schema.features.len();
-    if let Some(copse_forest::FeaturesPerSplit::Count(k)) = a.features_per_split {
-        if k > p {
-            return Err(CliError::input(format!(
-                "--features-per-split {k} is more than the {p} inputs in {}; choose 1 to {p}",
-                data.source
-            )));
-        }
+    if let Some(rule) = a.features_per_split {
+        check_features_per_split(rule, &data)?;
     }
     let settings = StabilitySettings {
         seeds: a.seeds as usize,
@@ -70,15 +40,7 @@ pub fn run(a: &StabilityArgs, ui: &Ui) -> CliResult<()> {
         forest: ForestSettings {
             trees: a.trees as usize,
             features_per_split: a.features_per_split.unwrap_or_default(),
-            tree: TreeSettings {
-                impurity: match a.impurity {
-                    ImpurityArg::Gini => Impurity::Gini,
-                    ImpurityArg::Entropy => Impurity::Entropy,
-                },
-                max_depth: a.max_depth.map(|d| d as usize),
-                min_leaf: f64::from(a.min_leaf),
-                ..TreeSettings::default()
-            },
+            tree: tree_settings(a.impurity, a.max_depth, a.min_leaf),
             bin_limit: a.bins as usize + 1,
             seed: a.seed,
             ..ForestSettings::default()
@@ -216,7 +178,7 @@ fn stability_text(
         "{}",
         st.head("HOW MUCH EACH MODEL MOVES WHEN ONLY THE SEED CHANGES")
     );
-    let fmt_err = |v: f64| if r.classes { pct(v) } else { sig(v, 4) };
+    let fmt_err = |v: f64| error_words(v, r.classes);
     let (err_head, change_head) = if r.classes {
         ("error", "answers changed")
     } else {
@@ -322,17 +284,18 @@ fn summary(kinds: &[KindStability], classes: bool) -> Option<String> {
          {}; the error was {} against {}.",
         pct(tc),
         pct(fc),
-        if classes {
-            pct(tree.error_mean)
-        } else {
-            sig(tree.error_mean, 4)
-        },
-        if classes {
-            pct(forest.error_mean)
-        } else {
-            sig(forest.error_mean, 4)
-        }
+        error_words(tree.error_mean, classes),
+        error_words(forest.error_mean, classes)
     ))
+}
+
+/// An error as printed: a percentage for classes, four significant digits for numbers.
+fn error_words(v: f64, classes: bool) -> String {
+    if classes {
+        pct(v)
+    } else {
+        sig(v, 4)
+    }
 }
 
 /// The JSON report.

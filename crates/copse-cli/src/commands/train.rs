@@ -1,20 +1,20 @@
 //! `copse train`: read a CSV file, grow the forest, write the model (and optionally the
 //! out-of-bag predictions and charts), and report.
-use crate::args::{ImpurityArg, TaskArg, TrainArgs};
-use crate::commands::{check_destination, emit, make_folder};
+use crate::args::TrainArgs;
+use crate::commands::{
+    check_features_per_split, check_output, emit, make_folder, read_training, tree_settings,
+};
 use crate::error::{forest_error, CliError, CliResult};
 use crate::memory;
 use crate::model::{Model, TrainingRecord};
-use crate::output::{refuse_overwrite, write_file, Output};
-use crate::reader::CsvInput;
+use crate::output::{write_file, Output};
 use crate::report::{self, bytes_words, Style};
-use crate::schema::{load_training, Missing, Roles, Task, TrainingData};
+use crate::schema::{Task, TrainingData};
 use crate::ui::{Bar, Ui};
 use crate::{json, plots};
 use copse_forest::{
-    response_permutation_test, FeaturesPerSplit, Forest, ForestSettings, Impurity, Outcome,
+    response_permutation_test, FeaturesPerSplit, Forest, ForestSettings, Outcome,
     PermutationSignificance, Progress, Sampling, Significance, Stage, TrainOptions, Trained,
-    TreeSettings,
 };
 use serde_json::{json, Map, Value};
 use std::fmt::Write as _;
@@ -66,43 +66,20 @@ fn rule_words(f: FeaturesPerSplit) -> String {
 /// As for [`run`].
 pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     let started = Instant::now();
-    let out_s = a.out.to_string_lossy().to_string();
-    refuse_overwrite(&a.data, Some(&out_s), "model file")?;
-    check_destination(&a.out)?;
+    check_output(&a.data, &a.out, "model file")?;
     if let Some(o) = &a.oob_out {
-        let s = o.to_string_lossy().to_string();
-        refuse_overwrite(&a.data, Some(&s), "out-of-bag file")?;
+        check_output(&a.data, o, "out-of-bag file")?;
         if o == &a.out {
             return Err(CliError::input(
                 "--oob-out and --out name the same file; give them different names",
             ));
         }
-        check_destination(o)?;
     }
     if let Some(dir) = &a.plots {
         make_folder(dir)?;
     }
 
-    let input = CsvInput::open(&a.data, a.csv.delimiter.into())?;
-    let roles = Roles {
-        target: a.target.clone(),
-        ignore: a.ignore.clone(),
-        categorical: a.categorical.clone(),
-        numeric: a.numeric.clone(),
-        task: a.task.map(|t| match t {
-            TaskArg::Classify => Task::Classify,
-            TaskArg::Regress => Task::Regress,
-        }),
-    };
-    let missing = a
-        .csv
-        .missing
-        .as_deref()
-        .map_or_else(Missing::standard, Missing::from_list);
-    let data = load_training(input, &roles, missing)?;
-    for n in &data.notes {
-        ui.note(n);
-    }
+    let data = read_training(&a.data, &a.roles, &a.csv, ui)?;
     if a.keep_draws && (a.sampling != Sampling::Bootstrap || a.balanced) {
         return Err(CliError::input(
             "--keep-draws is for standard errors, which assume plain bootstrap samples; use \
@@ -132,28 +109,12 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         features_per_split: fps,
         sampling: a.sampling,
         balanced: a.balanced,
-        tree: TreeSettings {
-            impurity: match a.impurity {
-                ImpurityArg::Gini => Impurity::Gini,
-                ImpurityArg::Entropy => Impurity::Entropy,
-            },
-            max_depth: a.max_depth.map(|d| d as usize),
-            min_leaf: f64::from(a.min_leaf),
-            ..TreeSettings::default()
-        },
+        tree: tree_settings(a.impurity, a.max_depth, a.min_leaf),
         bin_limit: a.bins as usize + 1,
         seed: a.seed,
         oob_importance: true,
     };
-    if let FeaturesPerSplit::Count(k) = fps {
-        let p = data.schema.features.len();
-        if k > p {
-            return Err(CliError::input(format!(
-                "--features-per-split {k} is more than the {p} inputs in {}; choose 1 to {p}",
-                data.source
-            )));
-        }
-    }
+    check_features_per_split(fps, &data)?;
 
     if !a.allow_large {
         check_memory(&data, &settings, a)?;
