@@ -507,14 +507,14 @@ fn fastest(repeat: usize, run: impl Fn() -> Fit) -> Fit {
     best
 }
 
-/// Depth of every leaf of a tree, by leaf index.
+/// Depth of every leaf of a tree, by the leaf's node index (0 for internal nodes).
 fn leaf_depths(tree: &Tree) -> Vec<u32> {
-    let mut depths = vec![0u32; tree.n_leaves()];
+    let mut depths = vec![0u32; tree.nodes().len()];
     let mut stack = vec![(0usize, 0u32)];
     while let Some((i, d)) = stack.pop() {
         let node = &tree.nodes()[i];
         if node.is_leaf() {
-            depths[node.child()] = d;
+            depths[i] = d;
         } else {
             stack.push((node.child(), d + 1));
             stack.push((node.child() + 1, d + 1));
@@ -529,8 +529,9 @@ fn leaf_depths(tree: &Tree) -> Vec<u32> {
 fn mean_leaf_depth(trees: &[Tree]) -> f64 {
     let (mut wd, mut w) = (0.0, 0.0);
     for t in trees {
-        for (leaf, d) in leaf_depths(t).into_iter().enumerate() {
-            wd += t.leaf_weight(leaf) * d as f64;
+        let depths = leaf_depths(t);
+        for leaf in t.leaves() {
+            wd += t.leaf_weight(leaf) * f64::from(depths[leaf]);
             w += t.leaf_weight(leaf);
         }
     }

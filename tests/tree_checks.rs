@@ -189,8 +189,8 @@ fn node_counts(tree: &Tree) -> Vec<Vec<f64>> {
     for i in (0..nodes.len()).rev() {
         let n = nodes[i];
         if n.is_leaf() {
-            let w = tree.leaf_weight(n.child());
-            counts[i] = tree.leaf_value(n.child()).iter().map(|p| p * w).collect();
+            let w = tree.leaf_weight(i);
+            counts[i] = tree.leaf_value(i).iter().map(|p| p * w).collect();
         } else {
             let (l, r) = (n.child(), n.child() + 1);
             counts[i] = (0..k).map(|c| counts[l][c] + counts[r][c]).collect();
@@ -318,9 +318,10 @@ fn best_gain(splits: &[RefSplit]) -> f64 {
     splits.iter().map(|s| s.gain).fold(0.0, f64::max)
 }
 
-/// Rows of the training data that reach each leaf of `tree`.
+/// Rows of the training data that reach each leaf of `tree`, by the leaf's node index
+/// (internal nodes get none).
 fn rows_by_leaf(tree: &Tree, x: &Array2<f64>, rows: &[usize]) -> Vec<Vec<usize>> {
-    let mut out = vec![Vec::new(); tree.n_leaves()];
+    let mut out = vec![Vec::new(); tree.nodes().len()];
     for &r in rows {
         let row: Vec<f64> = x.row(r).to_vec();
         out[tree.leaf_index(&row)].push(r);
@@ -487,7 +488,7 @@ fn playtennis_entropy_tree_matches_the_published_tree() {
     let c = root.child();
     assert!([c, c + 1]
         .iter()
-        .any(|&i| tree.nodes()[i].is_leaf() && tree.nodes()[i].child() == over_leaf));
+        .any(|&i| tree.nodes()[i].is_leaf() && i == over_leaf));
 
     for (outlook, attribute, splits) in [
         (
@@ -590,8 +591,8 @@ fn iris_best_first_split_isolates_setosa_under_both_measures() {
         assert_eq!(root.feature(), Some(d.feature("petal_length")), "{imp:?}");
         let t = root.threshold().expect("numeric split");
         assert!((t - 2.45).abs() < 1e-12, "{imp:?}: threshold {t}");
-        let left = root.child();
-        let leaf = tree.nodes()[left].child();
+        let leaf = root.child();
+        assert!(tree.nodes()[leaf].is_leaf(), "{imp:?}");
         assert_eq!(tree.leaf_weight(leaf), 50.0);
         assert_eq!(tree.leaf_value(leaf)[setosa], 1.0);
         // Weighted child impurity = root impurity - decrease per case.
@@ -692,7 +693,8 @@ fn identical_inputs_with_different_classes_end_in_one_impure_leaf() {
     let tree = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0; 6], &mut rng)
         .expect("grows");
-    let impure: Vec<usize> = (0..tree.n_leaves())
+    let impure: Vec<usize> = tree
+        .leaves()
         .filter(|&l| tree.leaf_value(l).iter().all(|&p| p < 1.0))
         .collect();
     assert_eq!(impure.len(), 1, "{}", render(&tree, &meta, None));
@@ -832,11 +834,12 @@ fn penguins_grow_with_missing_values_and_categories_and_keep_every_row() {
             ..TreeSettings::default()
         });
         // No row dropped: the leaves hold all 344 cases between them.
-        let total: f64 = (0..tree.n_leaves()).map(|l| tree.leaf_weight(l)).sum();
+        let total: f64 = tree.leaves().map(|l| tree.leaf_weight(l)).sum();
         assert_eq!(total, 344.0, "{imp:?}");
         let rows: Vec<usize> = (0..344).collect();
         let by_leaf = rows_by_leaf(&tree, &d.x, &rows);
-        for (l, rs) in by_leaf.iter().enumerate() {
+        for l in tree.leaves() {
+            let rs = &by_leaf[l];
             assert_eq!(rs.len() as f64, tree.leaf_weight(l), "{imp:?} leaf {l}");
         }
         // Every row gets a prediction, a probability vector over the three species.
@@ -846,6 +849,135 @@ fn penguins_grow_with_missing_values_and_categories_and_keep_every_row() {
             assert!((row.sum() - 1.0).abs() < 1e-12);
             assert!(row.iter().all(|v| (0.0..=1.0).contains(v)));
         }
+    }
+}
+
+// ---------------------------------------------------------------------------------------
+// Leaf layout: a leaf keeps its output and weight in its own 16-byte node, so one- and
+// two-output trees store nothing per leaf beside the nodes. Data: penguins.csv (source
+// above); the case weights are whole numbers like bootstrap counts (common practice for
+// bagging: a row drawn k times counts k times).
+// ---------------------------------------------------------------------------------------
+
+/// Whole-number case weights 0..=4 by row, and one row weighing four million (a weight
+/// sum still below 2^24, where single precision stops holding every whole number).
+fn whole_weights(n: usize) -> Vec<f64> {
+    let mut w: Vec<f64> = (0..n).map(|i| ((i * 7) % 5) as f64).collect();
+    w[n / 2] = 4.0e6;
+    w
+}
+
+/// Penguins as a two-class problem: Adelie against Chinstrap (both live on Dream
+/// island, so the island splits and the measurements overlap), Gentoo left out.
+fn adelie_chinstrap() -> Encoded {
+    let d = encode(&read_table("penguins.csv"), "species");
+    let gentoo = d.class("Gentoo");
+    let mut two = d.subset(|i| d.y[i] != gentoo);
+    assert_eq!(two.classes, ["Adelie", "Chinstrap", "Gentoo"]);
+    two.classes.truncate(2);
+    two
+}
+
+/// Bytes the tree needs with no per-leaf storage: 16 per node, the per-input sums
+/// of impurity decrease, and a 64-bit word per 64 categories of each category split.
+fn bytes_without_leaf_tables(tree: &Tree, meta: &[FeatureMeta]) -> usize {
+    let set_words: usize = tree
+        .nodes()
+        .iter()
+        .filter(|n| n.is_categorical())
+        .map(|n| match &meta[n.feature().expect("internal")].kind {
+            copse_tree::FeatureKind::Categorical { levels } => levels.len().div_ceil(64),
+            copse_tree::FeatureKind::Numeric => panic!("category split on a numeric input"),
+        })
+        .sum();
+    16 * tree.nodes().len() + 8 * tree.n_features() + 8 * set_words
+}
+
+#[test]
+fn two_class_leaves_live_in_their_nodes() {
+    let d = adelie_chinstrap();
+    let n = d.y.len();
+    let w = whole_weights(n);
+    let data = BinnedData::new(d.x.view(), &d.meta, 256).expect("bins");
+    let target = Target::classes(&d.y, 2).expect("target");
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(21);
+    let tree = Grower::new(TreeSettings::default())
+        .grow(&data, &target, &w, &mut rng)
+        .expect("grows");
+    assert!(tree.n_leaves() > 2 && tree.nodes().iter().any(|n| n.is_categorical()));
+    // (a) No per-leaf storage beyond the nodes.
+    assert_eq!(tree.heap_bytes(), bytes_without_leaf_tables(&tree, &d.meta));
+    let rows: Vec<usize> = (0..n).filter(|&i| w[i] > 0.0).collect();
+    let by_leaf = rows_by_leaf(&tree, &d.x, &rows);
+    assert_eq!(tree.leaves().count(), tree.n_leaves());
+    for l in tree.leaves() {
+        // (b) The weight of the rows routed to the leaf, exactly: whole numbers below
+        // 2^24 are exact in single precision.
+        let mut c = [0.0; 2];
+        for &r in &by_leaf[l] {
+            c[d.y[r] as usize] += w[r];
+        }
+        let total = c[0] + c[1];
+        assert_eq!(tree.leaf_weight(l), total, "leaf {l}");
+        // (c) The class shares of those rows: class 1's as stored, class 0's as 1 - p,
+        // within one unit in the last place of 1 (two roundings of numbers <= 1), and
+        // the two sum to 1 within as much.
+        let v = tree.leaf_value(l);
+        assert_eq!(v.len(), 2);
+        assert_eq!(v[1], c[1] / total, "leaf {l}");
+        assert!(
+            (v[0] - c[0] / total).abs() <= f64::EPSILON,
+            "leaf {l}: {v:?}"
+        );
+        assert!((v[0] + v[1] - 1.0).abs() <= f64::EPSILON, "leaf {l}: {v:?}");
+    }
+    // The heavy row's leaf carries its four million.
+    let heavy = tree.leaf_index(&d.x.row(n / 2).to_vec());
+    assert!(tree.leaf_weight(heavy) >= 4.0e6);
+}
+
+#[test]
+fn regression_leaves_live_in_their_nodes() {
+    // Body mass from the other measurements, island, sex and species.
+    let d = encode(&read_table("penguins.csv"), "body_mass_g");
+    let mass: Vec<f64> =
+        d.y.iter()
+            .map(|&c| d.classes[c as usize].parse().unwrap_or(f64::NAN))
+            .collect();
+    assert_eq!(mass.iter().filter(|v| v.is_nan()).count(), 2);
+    let n = mass.len();
+    let w = whole_weights(n);
+    let data = BinnedData::new(d.x.view(), &d.meta, 256).expect("bins");
+    let target = Target::values(&mass).expect("target");
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(22);
+    let settings = TreeSettings {
+        min_leaf: 5.0,
+        ..TreeSettings::default()
+    };
+    let tree = Grower::new(settings)
+        .grow(&data, &target, &w, &mut rng)
+        .expect("grows");
+    assert!(tree.n_leaves() > 2 && tree.nodes().iter().any(|n| n.is_categorical()));
+    // (a) No per-leaf storage beyond the nodes.
+    assert_eq!(tree.heap_bytes(), bytes_without_leaf_tables(&tree, &d.meta));
+    let rows: Vec<usize> = (0..n)
+        .filter(|&i| w[i] > 0.0 && !mass[i].is_nan())
+        .collect();
+    let by_leaf = rows_by_leaf(&tree, &d.x, &rows);
+    for l in tree.leaves() {
+        // (b) Leaf weights exact, as above.
+        let total: f64 = by_leaf[l].iter().map(|&r| w[r]).sum();
+        assert_eq!(tree.leaf_weight(l), total, "leaf {l}");
+        // The weighted mean of the rows, to rounding: masses are at most 6300 g, so a
+        // relative 1e-12 is far above the error of any order of summation.
+        let mean = by_leaf[l].iter().map(|&r| w[r] * mass[r]).sum::<f64>() / total;
+        let v = tree.leaf_value(l);
+        assert_eq!(v.len(), 1);
+        assert!(
+            (v[0] - mean).abs() <= 1e-12 * mean,
+            "leaf {l}: {} vs {mean}",
+            v[0]
+        );
     }
 }
 
@@ -1176,7 +1308,7 @@ fn separable_sample() -> impl Strategy<Value = Sample> {
 /// on a positive decrease) and the per-input sums match `impurity_decrease`; each
 /// leaf's weight is the weight of the training rows that prediction routes to it.
 fn check_tree_invariants(s: &Sample, tree: &Tree, imp: fn(&[f64]) -> f64) {
-    for l in 0..tree.n_leaves() {
+    for l in tree.leaves() {
         let p = tree.leaf_value(l);
         assert!(
             (p.iter().sum::<f64>() - 1.0).abs() < 1e-12,
@@ -1199,8 +1331,8 @@ fn check_tree_invariants(s: &Sample, tree: &Tree, imp: fn(&[f64]) -> f64) {
     }
     let rows = s.used_rows();
     let by_leaf = rows_by_leaf(tree, &s.x(), &rows);
-    for (l, rs) in by_leaf.iter().enumerate() {
-        let w: f64 = rs.iter().map(|&r| s.w[r]).sum();
+    for l in tree.leaves() {
+        let w: f64 = by_leaf[l].iter().map(|&r| s.w[r]).sum();
         assert_eq!(w, tree.leaf_weight(l), "leaf {l}");
     }
 }
@@ -1272,7 +1404,9 @@ proptest! {
         let Some((tree, _)) = s.grow(settings, 256, 12) else { return Ok(()) };
         check_tree_invariants(&s, &tree, f);
         let rows = s.used_rows();
-        for (l, rs) in rows_by_leaf(&tree, &s.x(), &rows).iter().enumerate() {
+        let by_leaf = rows_by_leaf(&tree, &s.x(), &rows);
+        for l in tree.leaves() {
+            let rs = &by_leaf[l];
             if tree.leaf_value(l).contains(&1.0) {
                 continue;
             }
@@ -1400,7 +1534,7 @@ proptest! {
         let c = g.grow(&data, &target, &s.w, &mut rng).expect("grows with reused buffers");
         prop_assert_eq!(&a, &c);
         let bits = |t: &Tree| -> Vec<u64> {
-            (0..t.n_leaves()).flat_map(|l| t.leaf_value(l).iter().map(|v| v.to_bits())).collect()
+            t.leaves().flat_map(|l| t.leaf_value(l).iter().map(|v| v.to_bits()).collect::<Vec<_>>()).collect()
         };
         prop_assert_eq!(bits(&a), bits(&c));
     }

@@ -442,8 +442,12 @@ fn tampered_model_files_are_refused_clearly() {
     b[..4].copy_from_slice(b"PK\x03\x04");
     cases.push(("zip.copse", b, "not a copse model"));
     let mut b = good.clone();
-    b[8] = 2;
+    b[8] = 3;
     cases.push(("future.copse", b, "newer copse"));
+    // Format 1 kept leaf outputs beside the nodes; this copse reads format 2 only.
+    let mut b = good.clone();
+    b[8] = 1;
+    cases.push(("format1.copse", b, "trained again with this copse"));
     let mut b = good.clone();
     b[12..20].copy_from_slice(&(1u64 << 44).to_le_bytes());
     cases.push(("huge_length.copse", b, "damaged"));

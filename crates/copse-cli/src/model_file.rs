@@ -25,8 +25,10 @@ use std::path::Path;
 
 /// First eight bytes of every model file.
 pub const MAGIC: [u8; 8] = [0xC0, b'P', b'S', b'E', b'M', b'D', b'\r', b'\n'];
-/// The format this build writes and the newest it reads.
-pub const FORMAT_VERSION: u16 = 1;
+/// The format this build writes and the only one it reads. Format 2 keeps each
+/// leaf's output and weight inside its 16-byte node (format 1, copse before the
+/// compact leaves, stored them in tables beside the nodes).
+pub const FORMAT_VERSION: u16 = 2;
 /// Bytes before the payload.
 pub const HEADER_LEN: usize = 20;
 /// Bytes after the payload.
@@ -44,6 +46,8 @@ pub enum ModelFileErrorKind {
     NotAModel,
     /// Written by a newer copse.
     NewerVersion,
+    /// Written by an earlier copse, in a format this one no longer reads.
+    OlderVersion,
     /// Cut short, padded, or altered: length or checksum does not match.
     Damaged,
     /// Checksum fine, but the payload does not decode as a model.
@@ -138,6 +142,16 @@ fn check_header(header: &[u8], file_len: u64, name: &str) -> Result<u64, ModelFi
             ),
         ));
     }
+    if (1..FORMAT_VERSION).contains(&version) {
+        return Err(ModelFileError::new(
+            OlderVersion,
+            format!(
+                "{name} was written by an earlier copse (model format {version}; this copse reads \
+                 format {FORMAT_VERSION} only); the model must be trained again with this copse \
+                 ('copse train')"
+            ),
+        ));
+    }
     if version == 0 {
         return Err(ModelFileError::new(
             Damaged,
@@ -172,7 +186,8 @@ fn check_header(header: &[u8], file_len: u64, name: &str) -> Result<u64, ModelFi
 /// Decodes the complete bytes of a model file; `name` names it in messages.
 ///
 /// # Errors
-/// [`ModelFileErrorKind::NotAModel`], `NewerVersion`, `Damaged` or `Undecodable`, each
+/// [`ModelFileErrorKind::NotAModel`], `NewerVersion`, `OlderVersion`, `Damaged` or
+/// `Undecodable`, each
 /// with a message saying what to do.
 pub fn decode<T: DeserializeOwned>(bytes: &[u8], name: &str) -> Result<T, ModelFileError> {
     let head = &bytes[..bytes.len().min(HEADER_LEN)];
@@ -348,10 +363,27 @@ mod tests {
     #[test]
     fn newer_version_is_named() {
         let mut bytes = encode(&sample()).unwrap();
-        bytes[8] = 2;
+        bytes[8..10].copy_from_slice(&(FORMAT_VERSION + 1).to_le_bytes());
         let e = decode::<Sample>(&bytes, "m").unwrap_err();
         assert_eq!(e.kind(), ModelFileErrorKind::NewerVersion);
         assert!(e.to_string().contains("newer copse"));
+    }
+
+    #[test]
+    fn older_version_says_to_train_again() {
+        let mut bytes = encode(&sample()).unwrap();
+        bytes[8..10].copy_from_slice(&1u16.to_le_bytes());
+        let e = decode::<Sample>(&bytes, "old.copse").unwrap_err();
+        assert_eq!(e.kind(), ModelFileErrorKind::OlderVersion);
+        let m = e.to_string();
+        assert!(
+            m.contains("old.copse") && m.contains("earlier copse"),
+            "{m}"
+        );
+        assert!(
+            m.contains("model format 1") && m.contains("trained again"),
+            "{m}"
+        );
     }
 
     #[test]
@@ -360,6 +392,30 @@ mod tests {
         bytes[12..20].copy_from_slice(&(1u64 << 42).to_le_bytes());
         let e = decode::<Sample>(&bytes, "m").unwrap_err();
         assert_eq!(e.kind(), ModelFileErrorKind::Damaged);
+    }
+
+    /// The size goal of issue 5: at most 16 bytes per tree node in a model file, for
+    /// two-class and regression forests. Each node's record takes at most 16 bytes and
+    /// usually fewer (see copse-tree's `NodeRecord`), which leaves room for the rest
+    /// of the file (settings, per-tree sums, out-of-bag summary).
+    #[test]
+    fn a_forest_file_takes_at_most_16_bytes_per_node() {
+        use copse_forest::{synth, Forest, ForestSettings};
+        for (name, d) in [
+            ("two classes", synth::twonorm(2000, 5)),
+            ("regression", synth::friedman1(2000, 5)),
+        ] {
+            let s = ForestSettings {
+                trees: 4,
+                seed: 2,
+                ..ForestSettings::default()
+            };
+            let f = Forest::train(d.x.view(), &d.meta, &d.outcome, &s)
+                .unwrap()
+                .forest;
+            let per_node = encode(&f).unwrap().len() as f64 / f.n_nodes() as f64;
+            assert!(per_node <= 16.0, "{name}: {per_node:.2} bytes per node");
+        }
     }
 
     /// A hostile payload with a valid checksum whose string claims 2^40 bytes must be

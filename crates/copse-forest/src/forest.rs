@@ -134,10 +134,11 @@ impl Forest {
 
     /// Checks what a model read from a file must satisfy before it is used: every
     /// tree's nodes name an existing input, children come after their parent and
-    /// inside the tree, leaves index existing leaves, and every tree has the model's
-    /// inputs and outputs. A model from [`Forest::train`] always passes. Not checked
-    /// (the tree core keeps them private): the lengths of the leaf-value and category
-    /// tables, so a file must also be protected by a checksum.
+    /// inside the tree, category sets and (with three or more classes) leaf outputs lie
+    /// inside their tables, every leaf's output and weight are sound numbers (see
+    /// [`Tree::check`]), and every tree has the model's inputs and outputs. A model
+    /// from [`Forest::train`] always passes. A well-formed tree can still hold wrong
+    /// numbers, so a file must also be protected by a checksum.
     ///
     /// # Errors
     /// `InvalidModel` naming the tree and node that is inconsistent.

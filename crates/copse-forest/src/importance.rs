@@ -184,8 +184,9 @@ fn row_loss(outcome: &Outcome, i: usize, pred: &[f64]) -> Loss {
 }
 
 /// The distinct inputs tested on the way from the root to each leaf, ascending, each
-/// with the first node on the way that tests it: leaf `l`'s are
-/// `inputs[start[l]..start[l + 1]]` and `first[start[l]..start[l + 1]]`.
+/// with the first node on the way that tests it: those of the leaf at node `l` are
+/// `inputs[start[l]..start[l + 1]]` and `first[start[l]..start[l + 1]]` (indexed by
+/// node, as leaves are known by their node index; internal nodes have none).
 struct LeafPaths {
     start: Vec<usize>,
     inputs: Vec<u32>,
@@ -195,8 +196,8 @@ struct LeafPaths {
 impl LeafPaths {
     fn of(tree: &Tree) -> Self {
         let nodes = tree.nodes();
-        let leaves = tree.n_leaves();
-        let mut found: Vec<Vec<(u32, u32)>> = vec![Vec::new(); leaves];
+        let slots = nodes.len();
+        let mut found: Vec<Vec<(u32, u32)>> = vec![Vec::new(); slots];
         // Depth-first, with the (input, node) pairs of the path to the current node on
         // a stack.
         let mut path: Vec<(u32, u32)> = Vec::new();
@@ -206,7 +207,7 @@ impl LeafPaths {
             let n = &nodes[i];
             match n.feature() {
                 None => {
-                    if let Some(f) = found.get_mut(n.child()) {
+                    if let Some(f) = found.get_mut(i) {
                         f.extend_from_slice(&path);
                         // By input, then from the root down; keep each input's first.
                         f.sort_unstable();
@@ -220,7 +221,7 @@ impl LeafPaths {
                 }
             }
         }
-        let mut start = Vec::with_capacity(leaves + 1);
+        let mut start = Vec::with_capacity(slots + 1);
         let (mut inputs, mut first) = (Vec::new(), Vec::new());
         start.push(0);
         for f in found {
@@ -277,7 +278,7 @@ fn tree_permutation_increase(
     let base: Vec<Loss> = rows
         .iter()
         .zip(&leaves)
-        .map(|(&i, &leaf)| row_loss(outcome, i, tree.leaf_value(leaf as usize)))
+        .map(|(&i, &leaf)| row_loss(outcome, i, &tree.leaf_value(leaf as usize)))
         .collect();
     // Invert: for each input, the positions (in `rows`) of the rows whose path tests
     // it, and the first node on the path that does: above it nothing can change, so
@@ -327,7 +328,7 @@ fn tree_permutation_increase(
             compact.leaf_indices_from(&block, p, part, from, found);
             for (&pos, &leaf) in part.iter().zip(found.iter()) {
                 let pos = pos as usize;
-                let l = row_loss(outcome, rows[pos], tree.leaf_value(leaf as usize));
+                let l = row_loss(outcome, rows[pos], &tree.leaf_value(leaf as usize));
                 de += l.error - base[pos].error;
                 db += l.brier - base[pos].brier;
             }
@@ -615,10 +616,10 @@ mod tests {
             let l0 = row_loss(
                 outcome,
                 i,
-                tree.leaf_value(tree.leaf_index_with(|c| row[c])),
+                &tree.leaf_value(tree.leaf_index_with(|c| row[c])),
             );
             let leaf = tree.leaf_index_with(|c| if c == j { vals[pos] } else { row[c] });
-            let l1 = row_loss(outcome, i, tree.leaf_value(leaf));
+            let l1 = row_loss(outcome, i, &tree.leaf_value(leaf));
             e0 += l0.error;
             b0 += l0.brier;
             e1 += l1.error;

@@ -175,7 +175,7 @@ pub(crate) fn out_of_bag(
                     let (out, rb) = (&mut blocks[r / bs], r % bs);
                     let sums = &mut out.preds[rb * k..(rb + 1) * k];
                     sums.iter_mut()
-                        .zip(tree.leaf_value(leaf as usize))
+                        .zip(&tree.leaf_value(leaf as usize))
                         .for_each(|(s, v)| *s += v);
                     out.trees_out[rb] += 1;
                     let count = out.trees_out[rb];

@@ -163,7 +163,7 @@ impl Forest {
             let tree = scorer.tree();
             for (o, &leaf) in out.chunks_mut(k).zip(&leaves) {
                 o.iter_mut()
-                    .zip(tree.leaf_value(leaf as usize))
+                    .zip(&tree.leaf_value(leaf as usize))
                     .for_each(|(o, v)| *o += v);
             }
         }

@@ -106,7 +106,7 @@ impl Forest {
                         let row = x.row(start + r);
                         let leaf = tree.leaf_index_with(|j| row[j]);
                         let dst = &mut t[tb * width + r * k..tb * width + (r + 1) * k];
-                        dst.copy_from_slice(tree.leaf_value(leaf));
+                        dst.copy_from_slice(&tree.leaf_value(leaf));
                     }
                 }
                 // Forest prediction: trees summed in tree order, as `predict` does.

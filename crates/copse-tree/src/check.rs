@@ -8,21 +8,25 @@ impl Tree {
     /// Checks that this tree is well formed for inputs described by `meta`: children
     /// sit after their parent and inside the node array (so descent always ends), each
     /// node has one parent, inputs exist and have the kind the node assumes, category
-    /// sets and leaf outputs are where nodes say they are, and outputs are finite.
+    /// sets are where nodes say they are, and every leaf's payload is sound: its
+    /// output finite (a probability between 0 and 1 with two classes), its weight
+    /// finite and above 0, and with three or more classes its offset inside the table
+    /// of class probabilities, which are finite and between 0 and 1.
     ///
     /// # Errors
     /// `InvalidModel` naming the first fault found.
     pub fn check(&self, meta: &[FeatureMeta]) -> Result<()> {
         let bad = |m: String| Err(Error::new(ErrorKind::InvalidModel, m));
         let n = self.nodes.len();
+        let k = self.n_outputs;
         if n == 0 {
             return bad("a tree has no nodes".into());
         }
-        if self.n_outputs == 0 {
+        if k == 0 {
             return bad("a tree has no outputs".into());
         }
-        if self.leaf_weights.len().checked_mul(self.n_outputs) != Some(self.leaf_values.len()) {
-            return bad("a tree's leaf outputs do not match its leaf count".into());
+        if k <= 2 && !self.leaf_values.is_empty() {
+            return bad("a tree with one or two outputs has a table of leaf outputs".into());
         }
         if self.decrease.len() != meta.len() {
             return bad(format!(
@@ -34,19 +38,36 @@ impl Tree {
         if self
             .leaf_values
             .iter()
-            .chain(&self.leaf_weights)
-            .any(|v| !v.is_finite())
+            .any(|v| !v.is_finite() || !(0.0..=1.0).contains(v))
         {
-            return bad("a tree has a leaf output that is not a finite number".into());
+            return bad("a tree has a class probability that is not between 0 and 1".into());
         }
         let mut parents = vec![0u8; n];
         for (i, node) in self.nodes.iter().enumerate() {
             if node.is_leaf() {
-                if node.child() >= self.leaf_weights.len() {
+                let w = f32::from_bits(node.child);
+                if !(w.is_finite() && w > 0.0) {
                     return bad(format!(
-                        "node {i} points at leaf {} which does not exist",
-                        node.child()
+                        "leaf {i} has a weight that is not a positive number"
                     ));
+                }
+                let v = f64::from_bits(node.split);
+                let fault = match k {
+                    1 => (!v.is_finite()).then_some("an output that is not a finite number"),
+                    2 => (!(0.0..=1.0).contains(&v))
+                        .then_some("a class probability that is not between 0 and 1"),
+                    _ => {
+                        let end = usize::try_from(node.split)
+                            .ok()
+                            .and_then(|at| at.checked_add(k));
+                        match end {
+                            Some(end) if end <= self.leaf_values.len() => None,
+                            _ => Some("outputs outside the table of leaf outputs"),
+                        }
+                    }
+                };
+                if let Some(fault) = fault {
+                    return bad(format!("leaf {i} has {fault}"));
                 }
                 continue;
             }
@@ -123,9 +144,61 @@ mod tests {
         let mut cycle = tree.clone();
         cycle.nodes[0].child = 0;
         assert!(cycle.check(&meta).is_err(), "child before parent");
-        let mut short = tree.clone();
+        let leaf = tree.leaves().next().expect("a leaf");
+        for (bits, what) in [
+            (1.5f64.to_bits(), "probability above 1"),
+            ((-0.25f64).to_bits(), "probability below 0"),
+            (f64::NAN.to_bits(), "probability not a number"),
+        ] {
+            let mut odd = tree.clone();
+            odd.nodes[leaf].split = bits;
+            assert!(odd.check(&meta).is_err(), "{what}");
+        }
+        for (w, what) in [
+            (0.0f32, "zero"),
+            (-1.0, "negative"),
+            (f32::INFINITY, "infinite"),
+        ] {
+            let mut odd = tree.clone();
+            odd.nodes[leaf].child = w.to_bits();
+            assert!(odd.check(&meta).is_err(), "leaf weight {what}");
+        }
+        let mut table = tree.clone();
+        table.leaf_values.push(0.5);
+        assert!(table.check(&meta).is_err(), "a table beside two outputs");
+
+        // Three classes: leaves point into the table of class probabilities.
+        let y3 = [0u32, 1, 2, 1];
+        let t3 = Target::classes(&y3, 3).expect("target");
+        let three = Grower::new(TreeSettings::default())
+            .grow(&data, &t3, &[1.0; 4], &mut rng)
+            .expect("grows");
+        three.check(&meta).expect("a grown tree is well formed");
+        let mut short = three.clone();
         short.leaf_values.pop();
         assert!(short.check(&meta).is_err(), "leaf outputs short");
+        let last = three.leaves().last().expect("a leaf");
+        let mut far = three.clone();
+        far.nodes[last].split = u64::MAX - 1;
+        assert!(far.check(&meta).is_err(), "offset past the table");
+        let mut wrong = three.clone();
+        wrong.leaf_values[0] = 2.0;
+        assert!(
+            wrong.check(&meta).is_err(),
+            "probability above 1 in the table"
+        );
+
+        // Regression: any finite mean, but not a missing one.
+        let values = [1.0e6, -3.0, 2.5, 7.0];
+        let tv = Target::values(&values).expect("target");
+        let reg = Grower::new(TreeSettings::default())
+            .grow(&data, &tv, &[1.0; 4], &mut rng)
+            .expect("grows");
+        reg.check(&meta).expect("a grown tree is well formed");
+        let leaf = reg.leaves().next().expect("a leaf");
+        let mut odd = reg.clone();
+        odd.nodes[leaf].split = f64::INFINITY.to_bits();
+        assert!(odd.check(&meta).is_err(), "infinite mean");
         assert!(
             tree.check(&meta[..1]).is_err(),
             "fewer inputs than grown on"

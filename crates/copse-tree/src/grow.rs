@@ -51,7 +51,7 @@ use crate::error::{Error, ErrorKind, Result};
 use crate::impurity::{variance_score, Impurity};
 use crate::settings::TreeSettings;
 use crate::target::Target;
-use crate::tree::{Node, Tree, CATEGORICAL, LEAF, MISSING_LEFT};
+use crate::tree::{weight_bits, Node, Tree, CATEGORICAL, LEAF, MISSING_LEFT};
 use rand::Rng;
 
 /// Low half of a two-class cell: the case weight of the second class.
@@ -418,23 +418,29 @@ impl Grower {
             nodes: vec![leaf_placeholder()],
             n_outputs,
             leaf_values: Vec::new(),
-            leaf_weights: Vec::new(),
             cat_sets: Vec::new(),
             decrease: vec![0.0; data.n_features()],
         }
     }
 
-    /// Makes `frame.node` a leaf holding `self.totals` (weight `w_t`).
+    /// Makes `frame.node` a leaf holding `self.totals` (weight `w_t`). One output (the
+    /// mean, or the one class's share) or two (class 1's share; class 0's is `1 - p`
+    /// when read) go into the node itself; three or more classes into the tree's
+    /// table, at the offset the node keeps.
     fn make_leaf(&self, tree: &mut Tree, frame: Frame, task: Task, w_t: f64) {
-        let leaf = tree.leaf_weights.len();
-        tree.leaf_weights.push(w_t);
-        match task {
-            Task::Classes(..) => tree.leaf_values.extend(self.totals.iter().map(|c| c / w_t)),
-            Task::Values(c) => tree.leaf_values.push(c + self.totals[1] / w_t),
-        }
+        let split = match (task, tree.n_outputs) {
+            (Task::Values(c), _) => (c + self.totals[1] / w_t).to_bits(),
+            (Task::Classes(..), 1) => (self.totals[0] / w_t).to_bits(),
+            (Task::Classes(..), 2) => (self.totals[1] / w_t).to_bits(),
+            (Task::Classes(..), _) => {
+                let at = tree.leaf_values.len();
+                tree.leaf_values.extend(self.totals.iter().map(|c| c / w_t));
+                at as u64
+            }
+        };
         tree.nodes[frame.node] = Node {
-            split: 0,
-            child: leaf as u32,
+            split,
+            child: weight_bits(w_t),
             feature: LEAF,
             flags: 0,
         };
@@ -1558,11 +1564,27 @@ mod tests {
                     &mut rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(seed),
                 )
                 .expect("grows");
-            assert_eq!(a.nodes, b.nodes, "case {case}");
-            assert_eq!(a.leaf_weights, b.leaf_weights, "case {case}");
+            // Same internal nodes and leaves in the same places; a leaf's payload is
+            // laid out differently (two classes keep class 1's share in the node,
+            // three an offset into the tree's table), so leaves compare by value.
+            assert_eq!(a.nodes.len(), b.nodes.len(), "case {case}");
+            for (na, nb) in a.nodes.iter().zip(&b.nodes) {
+                assert_eq!(na.is_leaf(), nb.is_leaf(), "case {case}");
+                if !na.is_leaf() {
+                    assert_eq!(na, nb, "case {case}");
+                }
+            }
             assert_eq!(a.decrease, b.decrease, "case {case}");
-            for leaf in 0..a.n_leaves() {
-                assert_eq!(a.leaf_value(leaf), &b.leaf_value(leaf)[..2], "case {case}");
+            for leaf in a.leaves() {
+                assert_eq!(a.leaf_weight(leaf), b.leaf_weight(leaf), "case {case}");
+                let (va, vb) = (a.leaf_value(leaf), b.leaf_value(leaf));
+                assert_eq!(vb[2], 0.0, "case {case}");
+                assert_eq!(va[1], vb[1], "case {case}");
+                // Class 0's share is 1 - p in the two-class tree and c0 / w in the
+                // other: with whole-number weights they differ by at most two
+                // roundings of numbers at most 1, so by at most one unit in the last
+                // place of 1 (f64::EPSILON).
+                assert!((va[0] - vb[0]).abs() <= f64::EPSILON, "case {case}");
             }
         }
     }

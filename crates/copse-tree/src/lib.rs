@@ -46,4 +46,4 @@ pub use grow::Grower;
 pub use impurity::Impurity;
 pub use settings::TreeSettings;
 pub use target::Target;
-pub use tree::{Node, Tree};
+pub use tree::{LeafValue, Node, Tree};

@@ -15,12 +15,9 @@ fn node_totals(tree: &Tree) -> (Vec<f64>, Vec<f64>) {
     for i in (0..nodes.len()).rev() {
         let n = nodes[i];
         if n.is_leaf() {
-            let lw = tree.leaf_weight(n.child());
+            let lw = tree.leaf_weight(i);
             w[i] = lw;
-            for (s, v) in sums[i * k..(i + 1) * k]
-                .iter_mut()
-                .zip(tree.leaf_value(n.child()))
-            {
+            for (s, v) in sums[i * k..(i + 1) * k].iter_mut().zip(&tree.leaf_value(i)) {
                 *s = v * lw;
             }
         } else {
@@ -79,9 +76,9 @@ pub fn render(tree: &Tree, meta: &[FeatureMeta], classes: Option<&[String]>) -> 
         let n = tree.nodes()[i];
         let indent = "  ".repeat(depth);
         let verdict = if n.is_leaf() {
-            let v = tree.leaf_value(n.child());
+            let v = tree.leaf_value(i);
             match classes {
-                Some(labels) => format!("  => {}", labels.get(argmax(v)).map_or("?", |l| l)),
+                Some(labels) => format!("  => {}", labels.get(argmax(&v)).map_or("?", |l| l)),
                 None => format!("  => {}", fmt_num(v[0])),
             }
         } else {

@@ -1,5 +1,5 @@
-//! A grown tree: compact nodes in one flat array, leaf outputs stored apart, and
-//! prediction for one row or a batch.
+//! A grown tree: 16-byte nodes in one flat array, each leaf carrying its own output
+//! and case weight, and prediction for one row or a batch.
 use crate::error::{Error, ErrorKind, Result};
 use ndarray::{Array2, ArrayView2};
 use serde::{Deserialize, Serialize};
@@ -12,14 +12,21 @@ pub(crate) const CATEGORICAL: u16 = 2;
 pub(crate) const LEAF: u16 = u16::MAX;
 
 /// One node in 16 bytes. Internal: `x[feature] <= threshold` (or category in the left
-/// set) goes to `child`, otherwise to `child + 1`. Leaf: `child` indexes the leaf
-/// outputs.
+/// set) goes to `child`, otherwise to `child + 1`. Leaf: the node holds its own output
+/// and case weight, so a tree of one or two outputs stores nothing per leaf beyond its
+/// nodes; a leaf is known by its node index. Serialized in the compact form of
+/// `NodeRecord` (this file).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+#[serde(into = "NodeRecord", from = "NodeRecord")]
 pub struct Node {
-    /// Threshold bits (numeric), or `offset << 32 | n_categories` into the category
-    /// bit sets (categorical); unused in a leaf.
+    /// Internal: threshold bits (numeric), or `offset << 32 | n_categories` into the
+    /// category bit sets (categorical). Leaf: the bits of its output as an `f64` (the
+    /// mean in regression, class 1's probability with two classes, the one class's
+    /// share with one), or with three or more classes the offset of its class
+    /// probabilities in [`Tree`]'s `leaf_values`.
     pub(crate) split: u64,
-    /// Left child (internal) or leaf index (leaf).
+    /// Internal: left child. Leaf: the case weight that reached it, as `f32` bits (see
+    /// [`weight_bits`]).
     pub(crate) child: u32,
     /// Input index, or `u16::MAX` for a leaf.
     pub(crate) feature: u16,
@@ -48,9 +55,157 @@ impl Node {
     pub fn is_categorical(&self) -> bool {
         !self.is_leaf() && self.flags & CATEGORICAL != 0
     }
-    /// Index of the left child (the right child follows it); leaf index for a leaf.
+    /// Index of the left child (the right child follows it); meaningless for a leaf
+    /// (whose `child` field holds its weight: see [`Tree::leaf_weight`]).
     pub fn child(&self) -> usize {
         self.child as usize
+    }
+}
+
+/// Record flag: `split` is written with its bytes swapped.
+const SPLIT_SWAPPED: u16 = 0x10;
+/// Record flag: `child` is written with its bytes swapped.
+const CHILD_SWAPPED: u16 = 0x20;
+
+/// A [`Node`] as serialized. Encoders with variable-length integers (the model file's)
+/// write a small number in fewer bytes, so the record makes the usual fields small: a
+/// leaf's `feature` (`u16::MAX`) is written as 0 and an input `j` as `j + 1`; and a
+/// `split` or `child` whose bytes, swapped, make a smaller number is written swapped,
+/// with a flag saying so. Floating-point bits whose low bytes are zero (leaf weights
+/// that are whole numbers, probabilities such as 0, 1 or 0.5) become small that way;
+/// child indices and offsets, already small, stay as they are. A node then takes at
+/// most 16 bytes in such a file, and usually fewer. Reading undoes each step exactly,
+/// whatever the values (a record that makes no sense gives a node that
+/// [`Tree::check`] refuses).
+#[derive(Debug, Clone, Copy, Serialize, Deserialize)]
+struct NodeRecord {
+    split: u64,
+    child: u32,
+    feature: u16,
+    flags: u16,
+}
+
+impl From<Node> for NodeRecord {
+    fn from(n: Node) -> Self {
+        let mut flags = n.flags;
+        let mut split = n.split;
+        if split.swap_bytes() < split {
+            split = split.swap_bytes();
+            flags |= SPLIT_SWAPPED;
+        }
+        let mut child = n.child;
+        if child.swap_bytes() < child {
+            child = child.swap_bytes();
+            flags |= CHILD_SWAPPED;
+        }
+        NodeRecord {
+            split,
+            child,
+            feature: n.feature.wrapping_add(1),
+            flags,
+        }
+    }
+}
+
+impl From<NodeRecord> for Node {
+    fn from(r: NodeRecord) -> Self {
+        let swapped = |bit: u16| r.flags & bit != 0;
+        Node {
+            split: if swapped(SPLIT_SWAPPED) {
+                r.split.swap_bytes()
+            } else {
+                r.split
+            },
+            child: if swapped(CHILD_SWAPPED) {
+                r.child.swap_bytes()
+            } else {
+                r.child
+            },
+            feature: r.feature.wrapping_sub(1),
+            flags: r.flags & !(SPLIT_SWAPPED | CHILD_SWAPPED),
+        }
+    }
+}
+
+/// The `f32` bits stored for a leaf's case weight `w`. Single precision is exact for
+/// whole-number weights up to 2^24 (bootstrap counts and row counts, the usual case);
+/// real-valued weights are kept to about 7 significant digits, which is enough for
+/// what the leaf weight is used for (display and summaries; outputs are computed in
+/// full precision before they are stored). A positive weight stays positive and
+/// finite: it is kept between the smallest positive and the largest finite `f32`.
+pub(crate) fn weight_bits(w: f64) -> u32 {
+    (w as f32).clamp(f32::from_bits(1), f32::MAX).to_bits()
+}
+
+/// A leaf's output as [`Tree::leaf_value`] gives it: derefs to `[f64]` (the class
+/// probabilities, or the one value in regression). Two-class and regression leaves
+/// keep their output inside their node, so the slice is built here, inline, with no
+/// allocation; with three or more classes it borrows the tree's table.
+#[derive(Clone, Copy)]
+pub struct LeafValue<'a>(Repr<'a>);
+
+#[derive(Clone, Copy)]
+enum Repr<'a> {
+    /// The first `len` (1 or 2) values.
+    Inline {
+        values: [f64; 2],
+        len: u8,
+    },
+    Shared(&'a [f64]),
+}
+
+impl std::ops::Deref for LeafValue<'_> {
+    type Target = [f64];
+    #[inline(always)]
+    fn deref(&self) -> &[f64] {
+        match &self.0 {
+            Repr::Inline { values, len } => &values[..usize::from(*len)],
+            Repr::Shared(s) => s,
+        }
+    }
+}
+
+impl std::fmt::Debug for LeafValue<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        <[f64] as std::fmt::Debug>::fmt(self, f)
+    }
+}
+
+impl<'b> IntoIterator for &'b LeafValue<'_> {
+    type Item = &'b f64;
+    type IntoIter = std::slice::Iter<'b, f64>;
+    fn into_iter(self) -> Self::IntoIter {
+        self.iter()
+    }
+}
+
+impl PartialEq for LeafValue<'_> {
+    fn eq(&self, other: &Self) -> bool {
+        **self == **other
+    }
+}
+
+impl PartialEq<[f64]> for LeafValue<'_> {
+    fn eq(&self, other: &[f64]) -> bool {
+        **self == *other
+    }
+}
+
+impl PartialEq<&[f64]> for LeafValue<'_> {
+    fn eq(&self, other: &&[f64]) -> bool {
+        **self == **other
+    }
+}
+
+impl<const N: usize> PartialEq<[f64; N]> for LeafValue<'_> {
+    fn eq(&self, other: &[f64; N]) -> bool {
+        **self == other[..]
+    }
+}
+
+impl<const N: usize> PartialEq<&[f64; N]> for LeafValue<'_> {
+    fn eq(&self, other: &&[f64; N]) -> bool {
+        **self == other[..]
     }
 }
 
@@ -60,10 +215,10 @@ pub struct Tree {
     pub(crate) nodes: Vec<Node>,
     /// Class count (classification) or 1 (regression).
     pub(crate) n_outputs: usize,
-    /// Leaf outputs, `n_outputs` per leaf: class probabilities or the mean.
+    /// Class probabilities of the leaves, `n_outputs` per leaf, for three or more
+    /// classes (a leaf's `split` holds its offset); empty for one or two outputs,
+    /// whose leaves hold their output themselves.
     pub(crate) leaf_values: Vec<f64>,
-    /// Total case weight in each leaf.
-    pub(crate) leaf_weights: Vec<f64>,
     /// Bit sets of left-going categories, 64 per word.
     pub(crate) cat_sets: Vec<u64>,
     /// Weighted impurity decrease summed per input over this tree's splits.
@@ -76,9 +231,21 @@ impl Tree {
         &self.nodes
     }
 
-    /// Number of leaves.
+    /// Number of leaves (counted: one pass over the nodes).
     pub fn n_leaves(&self) -> usize {
-        self.leaf_weights.len()
+        self.nodes.iter().filter(|n| n.is_leaf()).count()
+    }
+
+    /// The leaves' node indices, in node order: the ids that [`Tree::leaf_index`] and
+    /// [`Tree::leaf_indices`] return and [`Tree::leaf_value`] and
+    /// [`Tree::leaf_weight`] take. They are not consecutive: a table kept per leaf is
+    /// indexed by node, sized by `nodes().len()`.
+    pub fn leaves(&self) -> impl Iterator<Item = usize> + '_ {
+        self.nodes
+            .iter()
+            .enumerate()
+            .filter(|(_, n)| n.is_leaf())
+            .map(|(i, _)| i)
     }
 
     /// True when the tree is one leaf: no split was possible or worth making (for
@@ -99,14 +266,45 @@ impl Tree {
         self.n_outputs
     }
 
-    /// Output of leaf `leaf`: class probabilities (summing to 1) or the mean.
-    pub fn leaf_value(&self, leaf: usize) -> &[f64] {
-        &self.leaf_values[leaf * self.n_outputs..(leaf + 1) * self.n_outputs]
+    /// Output of the leaf at node `leaf`: class probabilities (summing to 1) or the
+    /// mean. With two classes the leaf stores class 1's probability `p` (the class's
+    /// weight over the leaf's weight) and class 0's is computed here as `1 - p`, which
+    /// may differ from class 0's own weight share by one unit in the last place of 1
+    /// (`f64::EPSILON`, for whole-number weights); the two sum to 1 within as much.
+    /// Regression means are stored as computed.
+    ///
+    /// # Panics
+    /// When node `leaf` is not a leaf.
+    #[inline]
+    pub fn leaf_value(&self, leaf: usize) -> LeafValue<'_> {
+        let n = self.nodes[leaf];
+        assert!(n.feature == LEAF, "node {leaf} is not a leaf");
+        let v = f64::from_bits(n.split);
+        LeafValue(match self.n_outputs {
+            1 => Repr::Inline {
+                values: [v, 0.0],
+                len: 1,
+            },
+            2 => Repr::Inline {
+                values: [1.0 - v, v],
+                len: 2,
+            },
+            k => {
+                let at = n.split as usize;
+                Repr::Shared(&self.leaf_values[at..at + k])
+            }
+        })
     }
 
-    /// Total case weight that reached leaf `leaf` in training.
+    /// Total case weight that reached the leaf at node `leaf` in training, in single
+    /// precision (exact for whole numbers up to 2^24; see [`Node`]).
+    ///
+    /// # Panics
+    /// When node `leaf` is not a leaf.
     pub fn leaf_weight(&self, leaf: usize) -> f64 {
-        self.leaf_weights[leaf]
+        let n = self.nodes[leaf];
+        assert!(n.feature == LEAF, "node {leaf} is not a leaf");
+        f64::from(f32::from_bits(n.child))
     }
 
     /// Weighted impurity decrease of this tree's splits, summed per input.
@@ -148,7 +346,7 @@ impl Tree {
         self.cat_sets[offset + c / 64] >> (c % 64) & 1 == 1
     }
 
-    /// Leaf reached by a row whose input `j` has value `value(j)`.
+    /// Leaf (its node index) reached by a row whose input `j` has value `value(j)`.
     #[inline]
     pub fn leaf_index_with(&self, value: impl Fn(usize) -> f64) -> usize {
         self.leaf_from(0, value)
@@ -162,7 +360,7 @@ impl Tree {
         loop {
             let n = nodes[i];
             if n.feature == LEAF {
-                return n.child as usize;
+                return i;
             }
             let v = value(n.feature as usize);
             let left = if n.flags & CATEGORICAL == 0 {
@@ -177,10 +375,10 @@ impl Tree {
     }
 
     /// Leaves reached by a block of rows: row `r` is `rows[r * width..(r + 1) * width]`
-    /// (row-major, at least [`Tree::n_features`] values each); its leaf index goes to
-    /// `leaves[r]`. Same results as [`Tree::leaf_index`] row by row, faster: several
-    /// rows descend at once, each a level per step, and a row that reaches its leaf
-    /// hands its place to the next row, with no branch on where any row is. A descent
+    /// (row-major, at least [`Tree::n_features`] values each); its leaf's node index
+    /// goes to `leaves[r]`. Same results as [`Tree::leaf_index`] row by row, faster:
+    /// several rows descend at once, each a level per step, and a row that reaches its
+    /// leaf hands its place to the next row, with no branch on where any row is. A descent
     /// row by row stalls at the end of every row (the last comparison decides whether
     /// to go on, and cannot be foreseen); here the memory accesses of the descents
     /// overlap instead.
@@ -269,9 +467,9 @@ impl Tree {
                 if n.feature == LEAF {
                     // Every value (NaN included) compares false with a NaN threshold
                     // and goes right, to `next + 1`: the leaf itself. The NaN's
-                    // payload holds the leaf index.
+                    // payload holds the leaf's node index.
                     Step {
-                        threshold: f64::from_bits(0x7ff8_0000_0000_0000 | u64::from(n.child)),
+                        threshold: f64::from_bits(0x7ff8_0000_0000_0000 | i as u64),
                         next: (i as u32).wrapping_sub(1),
                         feature: 0,
                         flags: STEP_LEAF,
@@ -294,7 +492,8 @@ impl Tree {
         }
     }
 
-    /// Leaf reached by one row of input values (categories as codes, NaN missing).
+    /// Leaf (its node index) reached by one row of input values (categories as codes,
+    /// NaN missing).
     ///
     /// # Panics
     /// When `row` is shorter than [`Tree::n_features`].
@@ -308,7 +507,7 @@ impl Tree {
     /// # Panics
     /// When `row` is shorter than [`Tree::n_features`]; use [`Tree::try_predict_row`]
     /// for rows that come from outside the program.
-    pub fn predict_row(&self, row: &[f64]) -> &[f64] {
+    pub fn predict_row(&self, row: &[f64]) -> LeafValue<'_> {
         self.leaf_value(self.leaf_index(row))
     }
 
@@ -316,7 +515,7 @@ impl Tree {
     ///
     /// # Errors
     /// `LengthMismatch` when `row` has fewer values than the tree has inputs.
-    pub fn try_predict_row(&self, row: &[f64]) -> Result<&[f64]> {
+    pub fn try_predict_row(&self, row: &[f64]) -> Result<LeafValue<'_>> {
         self.check_width(row.len())?;
         Ok(self.predict_row(row))
     }
@@ -340,7 +539,7 @@ impl Tree {
     /// # Panics
     /// When `row` is shorter than [`Tree::n_features`].
     pub fn predict_class(&self, row: &[f64]) -> usize {
-        argmax(self.predict_row(row))
+        argmax(&self.predict_row(row))
     }
 
     /// Like [`Tree::predict_batch`], but a batch of the wrong width is an error.
@@ -362,7 +561,7 @@ impl Tree {
         for (row, mut o) in x.rows().into_iter().zip(out.rows_mut()) {
             let leaf = self.leaf_index_with(|j| row[j]);
             o.iter_mut()
-                .zip(self.leaf_value(leaf))
+                .zip(&self.leaf_value(leaf))
                 .for_each(|(o, v)| *o = *v);
         }
         out
@@ -379,10 +578,12 @@ impl Tree {
             .collect()
     }
 
-    /// Bytes the tree occupies in memory (nodes, leaves, category sets).
+    /// Bytes the tree occupies in memory: nodes (leaves included, with their outputs
+    /// and weights), the class probabilities of three or more classes, category sets,
+    /// and the per-input impurity decreases.
     pub fn heap_bytes(&self) -> usize {
         self.nodes.len() * std::mem::size_of::<Node>()
-            + (self.leaf_values.len() + self.leaf_weights.len() + self.decrease.len()) * 8
+            + (self.leaf_values.len() + self.decrease.len()) * 8
             + self.cat_sets.len() * 8
     }
 }
@@ -392,7 +593,7 @@ trait Walk {
     /// The node after `i` for the row whose values start at `rows[base]`; a leaf
     /// gives itself.
     fn next(&self, i: usize, rows: &[f64], base: usize) -> usize;
-    /// The leaf index if node `i` is a leaf.
+    /// `i` if node `i` is a leaf.
     fn leaf(&self, i: usize) -> Option<u32>;
     /// The row-by-row descent from node `start`, for small blocks.
     fn one(&self, start: usize, row: &[f64]) -> u32;
@@ -417,8 +618,7 @@ impl Walk for Tree {
 
     #[inline(always)]
     fn leaf(&self, i: usize) -> Option<u32> {
-        let n = &self.nodes[i];
-        (n.feature == LEAF).then_some(n.child)
+        (self.nodes[i].feature == LEAF).then_some(i as u32)
     }
 
     fn one(&self, start: usize, row: &[f64]) -> u32 {
@@ -431,7 +631,7 @@ const STEP_LEAF: u16 = 4;
 
 /// A node of a [`CompactTree`]: go to `next` when the value of input `feature` is at
 /// most `threshold` (or missing with [`MISSING_LEFT`]), else to `next + 1`. A leaf
-/// leads back to itself and keeps its leaf index in its (NaN) threshold.
+/// leads back to itself and keeps its node index in its (NaN) threshold.
 #[derive(Debug, Clone, Copy)]
 struct Step {
     threshold: f64,
@@ -721,6 +921,55 @@ mod tests {
         got.fill(u32::MAX);
         compact.leaf_indices_from(&flat, 4, &picks, &starts, &mut got);
         assert_eq!(got, want);
+    }
+
+    #[test]
+    fn a_node_record_gives_back_the_node_exactly() {
+        // Leaves and internal nodes with values at the edges of every field: the
+        // record's swaps and shift must undo to the same bits.
+        let weights = [1.0f32, 3.0, 0.37, f32::from_bits(1), f32::MAX];
+        let values = [0.0, 1.0, 0.5, 1.0 / 3.0, -2.5e300, 0.0, f64::MIN_POSITIVE];
+        let mut nodes = Vec::new();
+        for (k, &w) in weights.iter().enumerate() {
+            for &v in &values {
+                nodes.push(Node {
+                    split: v.to_bits(),
+                    child: weight_bits(f64::from(w)),
+                    feature: LEAF,
+                    flags: 0,
+                });
+                nodes.push(Node {
+                    split: v.to_bits() ^ k as u64,
+                    child: [0, 1, 250, 65_536, u32::MAX][k],
+                    feature: [0, 1, 249, 250, LEAF - 1][k],
+                    flags: [0, MISSING_LEFT, CATEGORICAL, MISSING_LEFT | CATEGORICAL, 0][k],
+                });
+            }
+        }
+        nodes.push(Node {
+            split: (7u64 << 32) | 300,
+            child: 12,
+            feature: 3,
+            flags: CATEGORICAL,
+        });
+        for n in nodes {
+            let r = NodeRecord::from(n);
+            assert_eq!(Node::from(r), n, "{r:?}");
+            // Small fields stay small: a leaf's input mark and any child index below
+            // 2^24 are written unswapped or as smaller numbers.
+            assert!(r.child <= n.child && r.split <= n.split);
+            if n.is_leaf() {
+                assert_eq!(r.feature, 0);
+            }
+        }
+        // A whole-number leaf weight's bits, swapped, are a number below 2^16.
+        let r = NodeRecord::from(Node {
+            split: 0.5f64.to_bits(),
+            child: weight_bits(3.0),
+            feature: LEAF,
+            flags: 0,
+        });
+        assert!(r.child < 1 << 16 && r.split < 1 << 16, "{r:?}");
     }
 
     #[test]
