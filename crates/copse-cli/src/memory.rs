@@ -6,8 +6,10 @@
 //! leaves hold at least `min_leaf` of its `r` distinct in-sample rows has at most
 //! `r / min_leaf` leaves and so at most `2 r / min_leaf` nodes (a binary tree with L
 //! leaves has 2L - 1 nodes; common practice), and no more than `2^(depth + 1)` with a
-//! depth limit. Each node takes 16 bytes in memory and each leaf its outputs (8 bytes
-//! per class or value) and case weight (8 bytes). Only a request over the available
+//! depth limit. Each node takes 16 bytes in memory, a leaf's output and case weight
+//! included; a leaf with three or more classes also keeps its class shares apart (8
+//! bytes a class); with `--keep-draws` the model holds one byte per row and tree. Only
+//! a request over the available
 //! memory by that estimate is refused: trees on classes usually stop well short of the
 //! bound (pure leaves come early), while saving briefly needs room for the encoded file
 //! too, so the estimate is neither padded nor cut.
@@ -32,6 +34,8 @@ pub struct Request {
     pub outputs: u64,
     /// How each tree's rows are drawn.
     pub sampling: Sampling,
+    /// Whether the in-bag counts are kept (`--keep-draws`: a byte per row and tree).
+    pub keep_draws: bool,
 }
 
 /// Distinct rows a tree sees: about 63.2% of them under the bootstrap (1 - 1/e, the
@@ -53,7 +57,14 @@ pub fn model_bytes(r: &Request) -> f64 {
         _ => leaves_by_rows,
     };
     let nodes = 2.0 * leaves - 1.0;
-    let per_tree = nodes * NODE_BYTES as f64 + leaves * 8.0 * (r.outputs as f64 + 1.0);
+    // Up to two outputs live in the leaf's node; more are kept in a table apart.
+    let shares = if r.outputs >= 3 {
+        r.outputs as f64
+    } else {
+        0.0
+    };
+    let draws = if r.keep_draws { r.rows as f64 } else { 0.0 };
+    let per_tree = nodes * NODE_BYTES as f64 + leaves * 8.0 * shares + draws;
     per_tree * r.trees as f64
 }
 
@@ -111,11 +122,19 @@ mod tests {
             max_depth: None,
             outputs: 2,
             sampling: Sampling::Whole,
+            keep_draws: false,
         };
-        // 10,000 leaves and 19,999 nodes per tree: 16 * 19,999 + 24 * 10,000 bytes,
-        // for 100 trees.
-        let want = (16.0 * 19_999.0 + 24.0 * 10_000.0) * 100.0;
+        // 10,000 leaves and 19,999 nodes per tree: 16 * 19,999 bytes, for 100 trees.
+        let want = 16.0 * 19_999.0 * 100.0;
         assert!((model_bytes(&base) - want).abs() < 1.0);
+        // Three classes: 24 more bytes per leaf; kept draws: a byte per row and tree.
+        let three = Request { outputs: 3, ..base };
+        assert!((model_bytes(&three) - want - 24.0 * 10_000.0 * 100.0).abs() < 1.0);
+        let draws = Request {
+            keep_draws: true,
+            ..base
+        };
+        assert!((model_bytes(&draws) - want - 10_000.0 * 100.0).abs() < 1.0);
         let bigger_leaves = Request {
             min_leaf: 10,
             ..base
@@ -126,7 +145,7 @@ mod tests {
             ..base
         };
         // At most 8 leaves, 15 nodes.
-        assert!((model_bytes(&shallow) - (16.0 * 15.0 + 24.0 * 8.0) * 100.0).abs() < 1.0);
+        assert!((model_bytes(&shallow) - 16.0 * 15.0 * 100.0).abs() < 1.0);
         assert_eq!(words(3.0 * 1024.0 * 1024.0 * 1024.0), "3.0 GiB");
     }
 }

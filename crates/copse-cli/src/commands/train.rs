@@ -239,6 +239,7 @@ fn check_memory(data: &TrainingData, settings: &ForestSettings, a: &TrainArgs) -
         max_depth: a.max_depth,
         outputs: data.schema.target.classes.len().max(1) as u64,
         sampling: settings.sampling,
+        keep_draws: a.keep_draws,
     };
     let need = memory::model_bytes(&request);
     if need > available as f64 {
