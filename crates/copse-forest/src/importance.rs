@@ -328,6 +328,11 @@ fn tree_permutation_increase(
             compact.leaf_indices_from(&block, p, part, from, found);
             for (&pos, &leaf) in part.iter().zip(found.iter()) {
                 let pos = pos as usize;
+                if leaf == leaves[pos] {
+                    // The same leaf, so the same loss: the differences would be exact
+                    // zeros, which leave the sums as they are.
+                    continue;
+                }
                 let l = row_loss(outcome, rows[pos], &tree.leaf_value(leaf as usize));
                 de += l.error - base[pos].error;
                 db += l.brier - base[pos].brier;
