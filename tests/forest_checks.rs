@@ -9,6 +9,8 @@ use copse_forest::{
 };
 use ndarray::{Array2, Axis, ShapeBuilder};
 
+mod support;
+
 // ---------------------------------------------------------------------------------
 // Helpers
 // ---------------------------------------------------------------------------------
@@ -20,6 +22,14 @@ fn settings(trees: usize, k: FeaturesPerSplit, seed: u64) -> ForestSettings {
         seed,
         oob_importance: false,
         ..Default::default()
+    }
+}
+
+/// `settings` with the default inputs per split and out-of-bag importance measured.
+fn importance_settings(trees: usize, seed: u64) -> ForestSettings {
+    ForestSettings {
+        oob_importance: true,
+        ..settings(trees, FeaturesPerSplit::Auto, seed)
     }
 }
 
@@ -274,10 +284,7 @@ fn friedman1_importance_finds_the_five_real_inputs() {
     // 200 training cases; 300 here. Every real input must rank above every noise input
     // in out-of-bag permutation importance (MSE increase).
     let d = synth::friedman1(300, 31);
-    let s = ForestSettings {
-        oob_importance: true,
-        ..settings(200, FeaturesPerSplit::Auto, 32)
-    };
+    let s = importance_settings(200, 32);
     let t = train(&d, &s);
     let imp = &t
         .forest
@@ -335,10 +342,7 @@ fn replicated_importance(gen: &dyn Fn(u64) -> Synthetic, reps: u64, trees: usize
     let mut oob = 0.0;
     for r in 0..reps {
         let d = gen(5000 + r);
-        let s = ForestSettings {
-            oob_importance: true,
-            ..settings(trees, FeaturesPerSplit::Auto, 6000 + r)
-        };
+        let s = importance_settings(trees, 6000 + r);
         let t = train(&d, &s);
         let imp = &t.forest.oob_importance().expect("requested").error;
         per_set.push(imp.features.iter().map(|f| f.mean).collect());
@@ -372,10 +376,7 @@ fn waveform40_importance_ignores_the_noise_inputs() {
     // zero in all three base waves (CART p. 49), so they are noise too; the top ten
     // must all be among the first 21.
     let d = synth::waveform40(600, 41);
-    let s = ForestSettings {
-        oob_importance: true,
-        ..settings(200, FeaturesPerSplit::Auto, 42)
-    };
+    let s = importance_settings(200, 42);
     let t = train(&d, &s);
     let imp = &t.forest.oob_importance().expect("requested").error;
     let top: Vec<usize> = imp.ranked().iter().take(10).map(|f| f.feature).collect();
@@ -523,70 +524,16 @@ fn forests_are_stable_across_seeds() {
 // Open data sets
 // ---------------------------------------------------------------------------------
 
-/// Reads `tests/data/<name>`, encoding every column but `target`: numeric when every
-/// cell other than `NA` parses as a number, else categorical with sorted levels.
-/// `NA` becomes NaN (missing); rows with missing values are kept.
+/// Reads `tests/data/<name>` (see `support::read_data_set`) with `target` as the
+/// outcome, `NA` missing.
 fn read_csv(name: &str, target: &str) -> Synthetic {
-    let path = format!("{}/../../tests/data/{name}", env!("CARGO_MANIFEST_DIR"));
-    let mut r = csv::Reader::from_path(&path).expect("test data file opens");
-    let header: Vec<String> = r
-        .headers()
-        .expect("header")
-        .iter()
-        .map(String::from)
-        .collect();
-    let rows: Vec<Vec<String>> = r
-        .records()
-        .map(|rec| rec.expect("record").iter().map(String::from).collect())
-        .collect();
-    let ti = header
-        .iter()
-        .position(|h| h == target)
-        .expect("target column");
-    let mut meta = Vec::new();
-    let mut cols: Vec<Vec<f64>> = Vec::new();
-    for (j, name) in header.iter().enumerate() {
-        if j == ti {
-            continue;
-        }
-        let cells: Vec<&str> = rows.iter().map(|r| r[j].as_str()).collect();
-        if cells.iter().all(|c| *c == "NA" || c.parse::<f64>().is_ok()) {
-            meta.push(FeatureMeta::numeric(name));
-            cols.push(
-                cells
-                    .iter()
-                    .map(|c| c.parse().unwrap_or(f64::NAN))
-                    .collect(),
-            );
-        } else {
-            let mut levels: Vec<String> = cells
-                .iter()
-                .filter(|c| **c != "NA")
-                .map(|c| c.to_string())
-                .collect();
-            levels.sort();
-            levels.dedup();
-            cols.push(
-                cells
-                    .iter()
-                    .map(|c| {
-                        levels
-                            .iter()
-                            .position(|l| l == c)
-                            .map_or(f64::NAN, |k| k as f64)
-                    })
-                    .collect(),
-            );
-            meta.push(FeatureMeta::categorical(name, levels));
-        }
+    let d = support::read_data_set(name, target);
+    let outcome = Outcome::from_labels(d.target.iter().map(|c| (c != "NA").then_some(c.as_str())));
+    Synthetic {
+        x: d.x,
+        meta: d.meta,
+        outcome,
     }
-    let n = rows.len();
-    let x = Array2::from_shape_fn((n, cols.len()), |(i, j)| cols[j][i]);
-    let outcome = Outcome::from_labels(
-        rows.iter()
-            .map(|r| (r[ti] != "NA").then_some(r[ti].as_str())),
-    );
-    Synthetic { x, meta, outcome }
 }
 
 #[test]
@@ -641,10 +588,7 @@ fn same_model_for_any_thread_count() {
     let classes = read_csv("penguins.csv", "species");
     let values = synth::friedman1(400, 91);
     for d in [&classes, &values] {
-        let s = ForestSettings {
-            oob_importance: true,
-            ..settings(60, FeaturesPerSplit::Auto, 92)
-        };
+        let s = importance_settings(60, 92);
         let runs: Vec<(Vec<u8>, Vec<u64>, Vec<u64>)> = [1, 2, 4]
             .iter()
             .map(|&n| {
@@ -896,8 +840,7 @@ fn rows_with_missing_outcome_are_left_out_and_counted() {
     };
     let s = ForestSettings {
         sampling: Sampling::Subsample(0.5),
-        oob_importance: true,
-        ..settings(40, FeaturesPerSplit::Auto, 142)
+        ..importance_settings(40, 142)
     };
     let t = train(&partial, &s);
     let o = t.forest.oob();

@@ -15,31 +15,11 @@ use proptest::test_runner::{Config as ProptestConfig, RngSeed};
 use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 
+mod support;
+
 // ---------------------------------------------------------------------------------------
 // Reading the data files
 // ---------------------------------------------------------------------------------------
-
-/// A small CSV table read into column strings.
-struct Table {
-    header: Vec<String>,
-    rows: Vec<Vec<String>>,
-}
-
-fn read_table(name: &str) -> Table {
-    let path = format!("{}/../../tests/data/{name}", env!("CARGO_MANIFEST_DIR"));
-    let mut r = csv::Reader::from_path(&path).expect("test data file opens");
-    let header = r
-        .headers()
-        .expect("header")
-        .iter()
-        .map(String::from)
-        .collect();
-    let rows = r
-        .records()
-        .map(|rec| rec.expect("record").iter().map(String::from).collect())
-        .collect();
-    Table { header, rows }
-}
 
 /// A data file encoded for the tree: inputs, their descriptions, class codes and labels.
 struct Encoded {
@@ -111,65 +91,21 @@ impl Encoded {
     }
 }
 
-/// Encodes every column of `t` except `target`: numeric when all non-`NA` cells parse,
-/// categorical otherwise (levels in sorted order, `NA` missing).
-fn encode(t: &Table, target: &str) -> Encoded {
-    let ti = t
-        .header
-        .iter()
-        .position(|h| h == target)
-        .expect("target column");
-    let mut meta = Vec::new();
-    let mut cols: Vec<Vec<f64>> = Vec::new();
-    for (j, name) in t.header.iter().enumerate() {
-        if j == ti {
-            continue;
-        }
-        let cells: Vec<&str> = t.rows.iter().map(|r| r[j].as_str()).collect();
-        let numeric = cells.iter().all(|c| *c == "NA" || c.parse::<f64>().is_ok());
-        if numeric {
-            meta.push(FeatureMeta::numeric(name));
-            cols.push(
-                cells
-                    .iter()
-                    .map(|c| c.parse().unwrap_or(f64::NAN))
-                    .collect(),
-            );
-        } else {
-            let mut levels: Vec<String> = cells
-                .iter()
-                .filter(|c| **c != "NA")
-                .map(|c| c.to_string())
-                .collect();
-            levels.sort();
-            levels.dedup();
-            cols.push(
-                cells
-                    .iter()
-                    .map(|c| {
-                        levels
-                            .iter()
-                            .position(|l| l == c)
-                            .map_or(f64::NAN, |p| p as f64)
-                    })
-                    .collect(),
-            );
-            meta.push(FeatureMeta::categorical(name, levels));
-        }
-    }
-    let n = t.rows.len();
-    let x = Array2::from_shape_fn((n, cols.len()), |(i, j)| cols[j][i]);
-    let mut classes: Vec<String> = t.rows.iter().map(|r| r[ti].clone()).collect();
+/// Reads `tests/data/<name>` (see `support::read_data_set`) with `target` as the class,
+/// its distinct cells in sorted order as the class labels.
+fn encode(name: &str, target: &str) -> Encoded {
+    let d = support::read_data_set(name, target);
+    let mut classes = d.target.clone();
     classes.sort();
     classes.dedup();
-    let y = t
-        .rows
+    let y = d
+        .target
         .iter()
-        .map(|r| classes.iter().position(|c| *c == r[ti]).expect("class") as u32)
+        .map(|t| classes.iter().position(|c| c == t).expect("class") as u32)
         .collect();
     Encoded {
-        x,
-        meta,
+        x: d.x,
+        meta: d.meta,
         y,
         classes,
     }
@@ -335,7 +271,7 @@ fn rows_by_leaf(tree: &Tree, x: &Array2<f64>, rows: &[usize]) -> Vec<Vec<usize>>
 // ---------------------------------------------------------------------------------------
 
 fn playtennis() -> Encoded {
-    encode(&read_table("playtennis.csv"), "class")
+    encode("playtennis.csv", "class")
 }
 
 const PLAYTENNIS_ATTRIBUTES: [&str; 4] = ["outlook", "temperature", "humidity", "windy"];
@@ -556,7 +492,7 @@ fn playtennis_entropy_tree_matches_the_published_tree() {
 
 #[test]
 fn iris_root_impurity() {
-    let d = encode(&read_table("iris.csv"), "species");
+    let d = encode("iris.csv", "species");
     let counts = d.class_counts();
     assert_eq!(counts, vec![50.0; 3]);
     // Computed (tests/data/README.md): Gini 1 - 3 (1/3)^2 = 0.6667 (printed to four
@@ -573,7 +509,7 @@ fn iris_best_first_split_isolates_setosa_under_both_measures() {
     // entropy 0.6667 bits; this is the best first split under either measure. Petal
     // length and petal width tie exactly; the documented tie rule (lowest input index)
     // picks petal length, input 2.
-    let d = encode(&read_table("iris.csv"), "species");
+    let d = encode("iris.csv", "species");
     let setosa = d.class("setosa") as usize;
     let cols: Vec<Vec<f64>> = (0..4).map(|j| d.x.column(j).to_vec()).collect();
     let rows: Vec<usize> = (0..150).collect();
@@ -816,7 +752,7 @@ fn regression_tree_finds_a_step_and_its_means() {
 
 #[test]
 fn penguins_grow_with_missing_values_and_categories_and_keep_every_row() {
-    let d = encode(&read_table("penguins.csv"), "species");
+    let d = encode("penguins.csv", "species");
     assert_eq!(d.y.len(), 344);
     assert!(d.meta[d.feature("island")].is_categorical());
     assert!(d.meta[d.feature("sex")].is_categorical());
@@ -870,7 +806,7 @@ fn whole_weights(n: usize) -> Vec<f64> {
 /// Penguins as a two-class problem: Adelie against Chinstrap (both live on Dream
 /// island, so the island splits and the measurements overlap), Gentoo left out.
 fn adelie_chinstrap() -> Encoded {
-    let d = encode(&read_table("penguins.csv"), "species");
+    let d = encode("penguins.csv", "species");
     let gentoo = d.class("Gentoo");
     let mut two = d.subset(|i| d.y[i] != gentoo);
     assert_eq!(two.classes, ["Adelie", "Chinstrap", "Gentoo"]);
@@ -939,7 +875,7 @@ fn two_class_leaves_live_in_their_nodes() {
 #[test]
 fn regression_leaves_live_in_their_nodes() {
     // Body mass from the other measurements, island, sex and species.
-    let d = encode(&read_table("penguins.csv"), "body_mass_g");
+    let d = encode("penguins.csv", "body_mass_g");
     let mass: Vec<f64> =
         d.y.iter()
             .map(|&c| d.classes[c as usize].parse().unwrap_or(f64::NAN))

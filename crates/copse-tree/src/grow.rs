@@ -1312,16 +1312,7 @@ fn scan_two_gini(
             continue;
         }
         let pos = i / per;
-        let cut = match subset.as_mut() {
-            Some((side, nb)) => {
-                record_sides(side, *nb, order, pos);
-                Cut::Subset
-            }
-            None => Cut::Threshold {
-                a: order[pos] as usize,
-                b: order[pos + 1] as usize,
-            },
-        };
+        let cut = cut_after(&mut subset, order, pos);
         *best = Some(Best {
             gain,
             feature: f,
@@ -1370,16 +1361,7 @@ fn scan_two_with<S: TwoClassScore>(
     }
     let mut record =
         |pos: usize, missing_left: bool, found: (f64, f64, f64), best: &mut Option<Best>| {
-            let cut = match subset.as_mut() {
-                Some((side, nb)) => {
-                    record_sides(side, *nb, order, pos);
-                    Cut::Subset
-                }
-                None => Cut::Threshold {
-                    a: order[pos] as usize,
-                    b: order[pos + 1] as usize,
-                },
-            };
+            let cut = cut_after(&mut subset, order, pos);
             *best = Some(Best {
                 gain: found.0,
                 feature: f,
@@ -1409,6 +1391,21 @@ fn scan_two_with<S: TwoClassScore>(
                 record(pos, false, found, best);
             }
         }
+    }
+}
+
+/// The cut between positions `pos` and `pos + 1` of `order`: a category split, its
+/// sides recorded in `subset`, or else the threshold between those two bins.
+fn cut_after(subset: &mut Option<(&mut [u8], usize)>, order: &[u32], pos: usize) -> Cut {
+    match subset.as_mut() {
+        Some((side, nb)) => {
+            record_sides(side, *nb, order, pos);
+            Cut::Subset
+        }
+        None => Cut::Threshold {
+            a: order[pos] as usize,
+            b: order[pos + 1] as usize,
+        },
     }
 }
 
@@ -1462,16 +1459,7 @@ fn scan_general(
             if !Best::beaten_by(best, gain, f) {
                 continue;
             }
-            let cut = match subset.as_mut() {
-                Some((side, nb)) => {
-                    record_sides(side, *nb, order, pos);
-                    Cut::Subset
-                }
-                None => Cut::Threshold {
-                    a: b,
-                    b: order[pos + 1] as usize,
-                },
-            };
+            let cut = cut_after(&mut subset, order, pos);
             *best = Some(Best {
                 gain,
                 feature: f,

@@ -362,16 +362,21 @@ impl Tree {
             if n.feature == LEAF {
                 return i;
             }
-            let v = value(n.feature as usize);
-            let left = if n.flags & CATEGORICAL == 0 {
-                // The common case without a branch on the outcome: a NaN compares
-                // false, and goes left only when the node sends missing values left.
-                (v <= f64::from_bits(n.split)) | (v.is_nan() & (n.flags & MISSING_LEFT != 0))
-            } else {
-                self.goes_left(&n, v)
-            };
-            i = n.child as usize + usize::from(!left);
+            i = self.child_of(&n, value(n.feature as usize));
         }
+    }
+
+    /// The child of internal node `n` that a row whose input value is `v` goes to:
+    /// one step of every descent, row by row and by blocks (where it is also taken at
+    /// a leaf and its result discarded).
+    #[inline(always)]
+    fn child_of(&self, n: &Node, v: f64) -> usize {
+        let left = if n.flags & CATEGORICAL == 0 {
+            numeric_left(v, f64::from_bits(n.split), n.flags)
+        } else {
+            self.goes_left(n, v)
+        };
+        n.child as usize + usize::from(!left)
     }
 
     /// Leaves reached by a block of rows: row `r` is `rows[r * width..(r + 1) * width]`
@@ -399,9 +404,7 @@ impl Tree {
     /// When a pick is not a row of `rows`, `leaves` is shorter than `picks`, or
     /// `width` is less than [`Tree::n_features`].
     pub fn leaf_indices_of(&self, rows: &[f64], width: usize, picks: &[u32], leaves: &mut [u32]) {
-        let m = picks.len();
-        let top = picks.iter().max().map_or(0, |&r| r as usize + 1);
-        self.check_block(rows, width, top);
+        let m = self.check_picks(rows, width, picks, None);
         self.descend_block(rows, width, |k| (picks[k] as usize, 0), &mut leaves[..m]);
     }
 
@@ -419,13 +422,7 @@ impl Tree {
         starts: &[u32],
         leaves: &mut [u32],
     ) {
-        let m = picks.len();
-        let top = picks.iter().max().map_or(0, |&r| r as usize + 1);
-        self.check_block(rows, width, top);
-        assert!(
-            starts.len() >= m && starts[..m].iter().all(|&s| (s as usize) < self.nodes.len()),
-            "every start must be a node of the tree"
-        );
+        let m = self.check_picks(rows, width, picks, Some(starts));
         self.descend_block(
             rows,
             width,
@@ -440,6 +437,27 @@ impl Tree {
             "a block needs {m} rows of at least {} values",
             self.n_features()
         );
+    }
+
+    /// Checks a block of `rows` for the rows numbered `picks`, each starting at node
+    /// `starts[k]` when starts are given; returns the number of picks.
+    fn check_picks(
+        &self,
+        rows: &[f64],
+        width: usize,
+        picks: &[u32],
+        starts: Option<&[u32]>,
+    ) -> usize {
+        let m = picks.len();
+        let top = picks.iter().max().map_or(0, |&r| r as usize + 1);
+        self.check_block(rows, width, top);
+        if let Some(starts) = starts {
+            assert!(
+                starts.len() >= m && starts[..m].iter().all(|&s| (s as usize) < self.nodes.len()),
+                "every start must be a node of the tree"
+            );
+        }
+        m
     }
 
     /// The descent of [`Tree::leaf_indices`]: `leaves[k]` gets the leaf reached from
@@ -607,13 +625,7 @@ impl Walk for Tree {
         // the row stays where it is, with no branch on where a row is.
         let stay = 0usize.wrapping_sub(usize::from(n.feature == LEAF));
         let v = rows[base + (n.feature as usize & !stay)];
-        let left = if n.flags & CATEGORICAL == 0 {
-            (v <= f64::from_bits(n.split)) | (v.is_nan() & (n.flags & MISSING_LEFT != 0))
-        } else {
-            self.goes_left(&n, v)
-        };
-        let step = n.child as usize + usize::from(!left);
-        (step & !stay) | (i & stay)
+        (self.child_of(&n, v) & !stay) | (i & stay)
     }
 
     #[inline(always)]
@@ -624,6 +636,14 @@ impl Walk for Tree {
     fn one(&self, start: usize, row: &[f64]) -> u32 {
         self.leaf_from(start, |j| row[j]) as u32
     }
+}
+
+/// Whether a numeric split at `threshold` with node flags `flags` sends value `v`
+/// left, without a branch on the outcome: a NaN compares false, and goes left only
+/// when the node sends missing values left.
+#[inline(always)]
+fn numeric_left(v: f64, threshold: f64, flags: u16) -> bool {
+    (v <= threshold) | (v.is_nan() & (flags & MISSING_LEFT != 0))
 }
 
 /// Step flag: the node is a leaf (its step leads back to itself).
@@ -662,7 +682,7 @@ impl<const MIXED: bool> Walk for Walker<'_, '_, MIXED> {
         let s = self.0.steps[i];
         let v = rows[base + s.feature as usize];
         let left = if !MIXED || s.flags & CATEGORICAL == 0 {
-            (v <= s.threshold) | (v.is_nan() & (s.flags & MISSING_LEFT != 0))
+            numeric_left(v, s.threshold, s.flags)
         } else {
             self.0.tree.goes_left(&self.0.tree.nodes[i], v)
         };
@@ -714,9 +734,7 @@ impl<'a> CompactTree<'a> {
     /// # Panics
     /// As [`Tree::leaf_indices_of`].
     pub fn leaf_indices_of(&self, rows: &[f64], width: usize, picks: &[u32], leaves: &mut [u32]) {
-        let m = picks.len();
-        let top = picks.iter().max().map_or(0, |&r| r as usize + 1);
-        self.tree.check_block(rows, width, top);
+        let m = self.tree.check_picks(rows, width, picks, None);
         self.descend(rows, width, |k| (picks[k] as usize, 0), &mut leaves[..m]);
     }
 
@@ -732,13 +750,7 @@ impl<'a> CompactTree<'a> {
         starts: &[u32],
         leaves: &mut [u32],
     ) {
-        let m = picks.len();
-        let top = picks.iter().max().map_or(0, |&r| r as usize + 1);
-        self.tree.check_block(rows, width, top);
-        assert!(
-            starts.len() >= m && starts[..m].iter().all(|&s| (s as usize) < self.steps.len()),
-            "every start must be a node of the tree"
-        );
+        let m = self.tree.check_picks(rows, width, picks, Some(starts));
         self.descend(
             rows,
             width,

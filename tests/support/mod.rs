@@ -1,0 +1,78 @@
+//! Test support shared by the tree and forest checks: an open data set under
+//! `tests/data/` (sources in `tests/data/README.md`) read into an input matrix, the
+//! inputs' descriptions and the target column.
+use copse_tree::FeatureMeta;
+use ndarray::Array2;
+
+/// A data file encoded for training: every column but the target as an input.
+pub struct DataSet {
+    /// Inputs, one row per record: numbers as read, categories as codes, NaN missing.
+    pub x: Array2<f64>,
+    /// Description of each input column, in file order.
+    pub meta: Vec<FeatureMeta>,
+    /// The target column's cells as written (`NA` included).
+    pub target: Vec<String>,
+}
+
+/// Reads `tests/data/<name>`, encoding every column but `target`: numeric when every
+/// cell other than `NA` parses as a number, else categorical with sorted levels.
+/// `NA` becomes NaN (missing); rows with missing values are kept.
+pub fn read_data_set(name: &str, target: &str) -> DataSet {
+    let path = format!("{}/../../tests/data/{name}", env!("CARGO_MANIFEST_DIR"));
+    let mut r = csv::Reader::from_path(&path).expect("test data file opens");
+    let header: Vec<String> = r
+        .headers()
+        .expect("header")
+        .iter()
+        .map(String::from)
+        .collect();
+    let rows: Vec<Vec<String>> = r
+        .records()
+        .map(|rec| rec.expect("record").iter().map(String::from).collect())
+        .collect();
+    let ti = header
+        .iter()
+        .position(|h| h == target)
+        .expect("target column");
+    let mut meta = Vec::new();
+    let mut cols: Vec<Vec<f64>> = Vec::new();
+    for (j, name) in header.iter().enumerate() {
+        if j == ti {
+            continue;
+        }
+        let cells: Vec<&str> = rows.iter().map(|r| r[j].as_str()).collect();
+        if cells.iter().all(|c| *c == "NA" || c.parse::<f64>().is_ok()) {
+            meta.push(FeatureMeta::numeric(name));
+            cols.push(
+                cells
+                    .iter()
+                    .map(|c| c.parse().unwrap_or(f64::NAN))
+                    .collect(),
+            );
+        } else {
+            let mut levels: Vec<String> = cells
+                .iter()
+                .filter(|c| **c != "NA")
+                .map(|c| c.to_string())
+                .collect();
+            levels.sort();
+            levels.dedup();
+            cols.push(
+                cells
+                    .iter()
+                    .map(|c| {
+                        levels
+                            .iter()
+                            .position(|l| l == c)
+                            .map_or(f64::NAN, |k| k as f64)
+                    })
+                    .collect(),
+            );
+            meta.push(FeatureMeta::categorical(name, levels));
+        }
+    }
+    let n = rows.len();
+    let x = Array2::from_shape_fn((n, cols.len()), |(i, j)| cols[j][i]);
+    let target = rows.into_iter().map(|mut r| r.swap_remove(ti)).collect();
+    DataSet { x, meta, target }
+}
