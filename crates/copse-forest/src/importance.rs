@@ -183,76 +183,66 @@ fn row_loss(outcome: &Outcome, i: usize, pred: &[f64]) -> Loss {
     }
 }
 
-/// The distinct inputs tested on the way from the root to each leaf, ascending, each
-/// with the first node on the way that tests it: those of the leaf at node `l` are
-/// `inputs[start[l]..start[l + 1]]` and `first[start[l]..start[l + 1]]` (indexed by
-/// node, as leaves are known by their node index; internal nodes have none).
+/// The nodes on the way from the root to each leaf, grouped by the input they test
+/// (ascending), from the root down within an input, each with the side the way takes:
+/// those of the leaf at node `l` are `pairs[span[l].0..span[l].1]`, each pair being
+/// `(input, node << 1 | went_left)` (indexed by node, as leaves are known by their
+/// node index; internal nodes have none).
 struct LeafPaths {
-    start: Vec<usize>,
-    inputs: Vec<u32>,
-    first: Vec<u32>,
+    span: Vec<(u32, u32)>,
+    pairs: Vec<(u32, u32)>,
 }
 
 impl LeafPaths {
     fn of(tree: &Tree) -> Self {
         let nodes = tree.nodes();
-        let slots = nodes.len();
-        let mut found: Vec<Vec<(u32, u32)>> = vec![Vec::new(); slots];
-        // Depth-first, with the (input, node) pairs of the path to the current node on
-        // a stack.
+        let mut span = vec![(0u32, 0u32); nodes.len()];
+        let mut pairs = Vec::new();
+        // Depth-first, with the pairs of the way to the current node on a stack.
         let mut path: Vec<(u32, u32)> = Vec::new();
-        let mut stack = vec![(0usize, 0usize)];
-        while let Some((i, depth)) = stack.pop() {
-            path.truncate(depth);
+        let mut stack = vec![(0usize, 0usize, u32::MAX)];
+        while let Some((i, depth, step)) = stack.pop() {
+            // The ancestors above the parent stay; the parent's test comes next.
+            path.truncate(depth.saturating_sub(1));
+            if step != u32::MAX {
+                let parent = &nodes[(step >> 1) as usize];
+                path.push((parent.feature().unwrap_or(0) as u32, step));
+            }
             let n = &nodes[i];
-            match n.feature() {
-                None => {
-                    if let Some(f) = found.get_mut(i) {
-                        f.extend_from_slice(&path);
-                        // By input, then from the root down; keep each input's first.
-                        f.sort_unstable();
-                        f.dedup_by_key(|e| e.0);
-                    }
-                }
-                Some(j) => {
-                    path.push((j as u32, i as u32));
-                    stack.push((n.child() + 1, depth + 1));
-                    stack.push((n.child(), depth + 1));
-                }
+            if n.is_leaf() {
+                let from = pairs.len();
+                pairs.extend_from_slice(&path);
+                // By input, then from the root down (a child's number exceeds its
+                // parent's).
+                pairs[from..].sort_unstable();
+                span[i] = (from as u32, pairs.len() as u32);
+            } else {
+                let me = (i as u32) << 1;
+                stack.push((n.child() + 1, depth + 1, me));
+                stack.push((n.child(), depth + 1, me | 1));
             }
         }
-        let mut start = Vec::with_capacity(slots + 1);
-        let (mut inputs, mut first) = (Vec::new(), Vec::new());
-        start.push(0);
-        for f in found {
-            for (j, node) in f {
-                inputs.push(j);
-                first.push(node);
-            }
-            start.push(inputs.len());
-        }
-        LeafPaths {
-            start,
-            inputs,
-            first,
-        }
+        LeafPaths { span, pairs }
     }
 
-    fn inputs(&self, leaf: usize) -> (&[u32], &[u32]) {
-        let r = self.start[leaf]..self.start[leaf + 1];
-        (&self.inputs[r.clone()], &self.first[r])
+    /// Where in `pairs` the leaf's way begins and ends.
+    fn range(&self, leaf: u32) -> std::ops::Range<usize> {
+        let (a, b) = self.span[leaf as usize];
+        a as usize..b as usize
     }
 }
 
 /// One tree's increases in (error, Brier) per input when each input is permuted among
 /// the tree's out-of-bag rows `rows`.
 ///
-/// A row whose path through the tree never tests input `j` reaches the same leaf
-/// whatever its value of `j`, so only the rows whose path tests `j` are sent down the
-/// tree again: the result is exactly that of re-predicting every row, at a cost that
-/// grows with the depth of the tree rather than with the number of inputs. Rows are
-/// copied into contiguous blocks and descend several at a time
-/// ([`Tree::leaf_indices`]); every sum is taken in row order as before.
+/// A row reaches the same leaf as before unless a node on its way that tests input
+/// `j` sends the permuted value to the other side: so only the rows whose way tests
+/// `j` are looked at, each only at those nodes, and a row is sent down the tree again
+/// only from the first of them that turns it, into the side it did not take. The
+/// result is exactly that of re-predicting every row, at a cost that grows with the
+/// rows that change course rather than with the number of inputs. Rows are copied into
+/// contiguous blocks and descend several at a time ([`Tree::leaf_indices`]); every sum
+/// is taken in row order as before.
 fn tree_permutation_increase(
     tree: &Tree,
     x: ArrayView2<'_, f64>,
@@ -262,6 +252,7 @@ fn tree_permutation_increase(
 ) -> (Vec<f64>, Vec<f64>) {
     let p = x.ncols();
     let m = rows.len();
+    let nodes = tree.nodes();
     // The tree's rows, copied once (row-major) and read in order from then on.
     let mut block = vec![0.0; m * p];
     copy_rows(x, rows, &mut block);
@@ -273,20 +264,25 @@ fn tree_permutation_increase(
             compact.leaf_indices(part, p, out);
         }
     }
-    // Baseline loss of each row, and the distinct inputs on its path.
+    // Baseline loss of each row, and the nodes on its way.
     let paths = LeafPaths::of(tree);
     let base: Vec<Loss> = rows
         .iter()
         .zip(&leaves)
         .map(|(&i, &leaf)| row_loss(outcome, i, &tree.leaf_value(leaf as usize)))
         .collect();
-    // Invert: for each input, the positions (in `rows`) of the rows whose path tests
-    // it, and the first node on the path that does: above it nothing can change, so
-    // the row's new descent starts there.
+    // Invert: for each input, the positions (in `rows`) of the rows whose way tests
+    // it, and where in the paths its first node testing the input stands.
     let mut per_feature = vec![0usize; p + 1];
+    let pairs = &paths.pairs;
+    let firsts = |leaf: u32| {
+        let r = paths.range(leaf);
+        let from = r.start;
+        r.filter(move |&k| k == from || pairs[k].0 != pairs[k - 1].0)
+    };
     for &leaf in &leaves {
-        for &j in paths.inputs(leaf as usize).0 {
-            per_feature[j as usize + 1] += 1;
+        for at in firsts(leaf) {
+            per_feature[pairs[at].0 as usize + 1] += 1;
         }
     }
     for j in 0..p {
@@ -296,19 +292,20 @@ fn tree_permutation_increase(
     let mut affected = vec![0u32; per_feature[p]];
     let mut entry = vec![0u32; per_feature[p]];
     for (pos, &leaf) in leaves.iter().enumerate() {
-        let (inputs, first) = paths.inputs(leaf as usize);
-        for (&j, &node) in inputs.iter().zip(first) {
-            affected[fill[j as usize]] = pos as u32;
-            entry[fill[j as usize]] = node;
-            fill[j as usize] += 1;
+        for at in firsts(leaf) {
+            let j = pairs[at].0 as usize;
+            affected[fill[j]] = pos as u32;
+            entry[fill[j]] = at as u32;
+            fill[j] += 1;
         }
     }
     let (mut inc_err, mut inc_brier) = (vec![0.0; p], vec![0.0; p]);
+    let (mut picks, mut starts) = (Vec::with_capacity(STRETCH), Vec::with_capacity(STRETCH));
     let mut found = vec![0u32; STRETCH];
     let (mut original, mut vals) = (Vec::with_capacity(m), Vec::with_capacity(m));
     for j in 0..p {
         let hit = &affected[per_feature[j]..per_feature[j + 1]];
-        let starts = &entry[per_feature[j]..per_feature[j + 1]];
+        let at = &entry[per_feature[j]..per_feature[j + 1]];
         if hit.is_empty() {
             // The tree never tests input j: its predictions cannot change.
             continue;
@@ -323,16 +320,32 @@ fn tree_permutation_increase(
             block[pos as usize * p + j] = vals[pos as usize];
         }
         let (mut de, mut db) = (0.0, 0.0);
-        for (part, from) in hit.chunks(STRETCH).zip(starts.chunks(STRETCH)) {
-            let found = &mut found[..part.len()];
-            compact.leaf_indices_from(&block, p, part, from, found);
-            for (&pos, &leaf) in part.iter().zip(found.iter()) {
-                let pos = pos as usize;
-                if leaf == leaves[pos] {
-                    // The same leaf, so the same loss: the differences would be exact
-                    // zeros, which leave the sums as they are.
-                    continue;
+        for (part, from) in hit.chunks(STRETCH).zip(at.chunks(STRETCH)) {
+            // The rows that change course, each from the side it did not take at the
+            // first node (testing j) that turns it; the others keep their leaf and add
+            // exact zeros, which leave the sums as they are.
+            picks.clear();
+            starts.clear();
+            for (&pos, &first) in part.iter().zip(from) {
+                let v = vals[pos as usize];
+                let end = paths.range(leaves[pos as usize]).end;
+                let mut k = first as usize;
+                while k < end && pairs[k].0 as usize == j {
+                    let step = pairs[k].1;
+                    let node = &nodes[(step >> 1) as usize];
+                    let left = tree.goes_left(node, v);
+                    if left != (step & 1 == 1) {
+                        picks.push(pos);
+                        starts.push((node.child() + usize::from(!left)) as u32);
+                        break;
+                    }
+                    k += 1;
                 }
+            }
+            let found = &mut found[..picks.len()];
+            compact.leaf_indices_from(&block, p, &picks, &starts, found);
+            for (&pos, &leaf) in picks.iter().zip(found.iter()) {
+                let pos = pos as usize;
                 let l = row_loss(outcome, rows[pos], &tree.leaf_value(leaf as usize));
                 de += l.error - base[pos].error;
                 db += l.brier - base[pos].brier;
@@ -636,7 +649,21 @@ mod tests {
 
     #[test]
     fn path_shortcut_equals_full_reprediction() {
-        for d in [synth::waveform40(300, 1), synth::friedman1(300, 2)] {
+        // Also a set with a category input and missing values, whose rows take their
+        // sides by category subsets and by the nodes' missing directions.
+        let mut mixed = synth::waveform40(300, 3);
+        for (i, mut row) in mixed.x.rows_mut().into_iter().enumerate() {
+            row[0] = (row[0].abs() * 2.0).floor().min(5.0);
+            if i % 7 == 0 {
+                row[1] = f64::NAN;
+            }
+            if i % 11 == 0 {
+                row[0] = f64::NAN;
+            }
+        }
+        let levels = (0..6).map(|k| format!("k{k}")).collect();
+        mixed.meta[0] = FeatureMeta::categorical("c", levels);
+        for d in [synth::waveform40(300, 1), synth::friedman1(300, 2), mixed] {
             let s = ForestSettings {
                 trees: 3,
                 oob_importance: false,
@@ -645,6 +672,13 @@ mod tests {
             let f = Forest::train(d.x.view(), &d.meta, &d.outcome, &s)
                 .expect("trains")
                 .forest;
+            if d.meta[0].is_categorical() {
+                assert!(f
+                    .trees()
+                    .iter()
+                    .flat_map(Tree::nodes)
+                    .any(|n| n.is_categorical()));
+            }
             let rows: Vec<usize> = (0..300).step_by(2).collect();
             for (t, tree) in f.trees().iter().enumerate() {
                 let rng = |j: usize| task_rng(9, Purpose::OobPermute, t as u64, j as u64);
