@@ -183,23 +183,34 @@ fn row_loss(outcome: &Outcome, i: usize, pred: &[f64]) -> Loss {
     }
 }
 
-/// The nodes on the way from the root to each leaf, grouped by the input they test
-/// (ascending), from the root down within an input, each with the side the way takes:
-/// those of the leaf at node `l` are `pairs[span[l].0..span[l].1]`, each pair being
-/// `(input, node << 1 | went_left)` (indexed by node, as leaves are known by their
-/// node index; internal nodes have none).
+/// The nodes on the way from the root to each leaf, grouped by the input they test:
+/// the leaf at node `l` has the runs `runs[span[l].0..span[l].1]`, one per input its
+/// way tests (ascending), and a run's steps `steps[run.from..run.to]` are its nodes
+/// testing that input, from the root down, each `node << 1 | went_left` (indexed by
+/// node, as leaves are known by their node index; internal nodes have none).
 struct LeafPaths {
     span: Vec<(u32, u32)>,
-    pairs: Vec<(u32, u32)>,
+    runs: Vec<Run>,
+    steps: Vec<u32>,
+}
+
+/// The nodes of one leaf's way that test one input: `steps[from..to]`.
+#[derive(Debug, Clone, Copy)]
+struct Run {
+    input: u32,
+    from: u32,
+    to: u32,
 }
 
 impl LeafPaths {
     fn of(tree: &Tree) -> Self {
         let nodes = tree.nodes();
         let mut span = vec![(0u32, 0u32); nodes.len()];
-        let mut pairs = Vec::new();
-        // Depth-first, with the pairs of the way to the current node on a stack.
+        let (mut runs, mut steps) = (Vec::new(), Vec::new());
+        // Depth-first, with the (input, step) pairs of the way to the current node on
+        // a stack, and one buffer to sort a leaf's pairs in.
         let mut path: Vec<(u32, u32)> = Vec::new();
+        let mut sorted: Vec<(u32, u32)> = Vec::new();
         let mut stack = vec![(0usize, 0usize, u32::MAX)];
         while let Some((i, depth, step)) = stack.pop() {
             // The ancestors above the parent stay; the parent's test comes next.
@@ -210,25 +221,39 @@ impl LeafPaths {
             }
             let n = &nodes[i];
             if n.is_leaf() {
-                let from = pairs.len();
-                pairs.extend_from_slice(&path);
+                sorted.clone_from(&path);
                 // By input, then from the root down (a child's number exceeds its
                 // parent's).
-                pairs[from..].sort_unstable();
-                span[i] = (from as u32, pairs.len() as u32);
+                sorted.sort_unstable();
+                let first = runs.len() as u32;
+                for (k, &(j, s)) in sorted.iter().enumerate() {
+                    if k == 0 || sorted[k - 1].0 != j {
+                        let at = steps.len() as u32;
+                        runs.push(Run {
+                            input: j,
+                            from: at,
+                            to: at,
+                        });
+                    }
+                    steps.push(s);
+                    if let Some(r) = runs.last_mut() {
+                        r.to += 1;
+                    }
+                }
+                span[i] = (first, runs.len() as u32);
             } else {
                 let me = (i as u32) << 1;
                 stack.push((n.child() + 1, depth + 1, me));
                 stack.push((n.child(), depth + 1, me | 1));
             }
         }
-        LeafPaths { span, pairs }
+        LeafPaths { span, runs, steps }
     }
 
-    /// Where in `pairs` the leaf's way begins and ends.
-    fn range(&self, leaf: u32) -> std::ops::Range<usize> {
+    /// The runs of the leaf at node `leaf`.
+    fn runs(&self, leaf: u32) -> &[Run] {
         let (a, b) = self.span[leaf as usize];
-        a as usize..b as usize
+        &self.runs[a as usize..b as usize]
     }
 }
 
@@ -253,9 +278,11 @@ fn tree_permutation_increase(
     let p = x.ncols();
     let m = rows.len();
     let nodes = tree.nodes();
-    // The tree's rows, copied once (row-major) and read in order from then on.
+    // The tree's rows, copied once row by row (for the descents) and input by input
+    // (the values each permutation starts from), and read in order from then on.
     let mut block = vec![0.0; m * p];
-    copy_rows(x, rows, &mut block);
+    let mut columns = vec![0.0; m * p];
+    copy_rows(x, rows, &mut block, &mut columns);
     let mut leaves = vec![0u32; m];
     // Laid out for scoring once: the tree serves all its out-of-bag rows once per input.
     let compact = tree.compact();
@@ -272,17 +299,11 @@ fn tree_permutation_increase(
         .map(|(&i, &leaf)| row_loss(outcome, i, &tree.leaf_value(leaf as usize)))
         .collect();
     // Invert: for each input, the positions (in `rows`) of the rows whose way tests
-    // it, and where in the paths its first node testing the input stands.
+    // it, and the run of its nodes that do.
     let mut per_feature = vec![0usize; p + 1];
-    let pairs = &paths.pairs;
-    let firsts = |leaf: u32| {
-        let r = paths.range(leaf);
-        let from = r.start;
-        r.filter(move |&k| k == from || pairs[k].0 != pairs[k - 1].0)
-    };
     for &leaf in &leaves {
-        for at in firsts(leaf) {
-            per_feature[pairs[at].0 as usize + 1] += 1;
+        for r in paths.runs(leaf) {
+            per_feature[r.input as usize + 1] += 1;
         }
     }
     for j in 0..p {
@@ -290,29 +311,28 @@ fn tree_permutation_increase(
     }
     let mut fill = per_feature.clone();
     let mut affected = vec![0u32; per_feature[p]];
-    let mut entry = vec![0u32; per_feature[p]];
+    let mut entry = vec![(0u32, 0u32); per_feature[p]];
     for (pos, &leaf) in leaves.iter().enumerate() {
-        for at in firsts(leaf) {
-            let j = pairs[at].0 as usize;
+        for r in paths.runs(leaf) {
+            let j = r.input as usize;
             affected[fill[j]] = pos as u32;
-            entry[fill[j]] = at as u32;
+            entry[fill[j]] = (r.from, r.to);
             fill[j] += 1;
         }
     }
     let (mut inc_err, mut inc_brier) = (vec![0.0; p], vec![0.0; p]);
     let (mut picks, mut starts) = (Vec::with_capacity(STRETCH), Vec::with_capacity(STRETCH));
     let mut found = vec![0u32; STRETCH];
-    let (mut original, mut vals) = (Vec::with_capacity(m), Vec::with_capacity(m));
-    for j in 0..p {
+    let mut vals = Vec::with_capacity(m);
+    for (j, original) in columns.chunks_exact(m.max(1)).enumerate().take(p) {
         let hit = &affected[per_feature[j]..per_feature[j + 1]];
-        let at = &entry[per_feature[j]..per_feature[j + 1]];
+        let runs = &entry[per_feature[j]..per_feature[j + 1]];
         if hit.is_empty() {
             // The tree never tests input j: its predictions cannot change.
             continue;
         }
-        original.clear();
-        original.extend(block.iter().skip(j).step_by(p).copied());
-        vals.clone_from(&original);
+        vals.clear();
+        vals.extend_from_slice(original);
         vals.shuffle(&mut rng_for(j));
         // The permuted values go into the block where they are needed, and back out
         // after.
@@ -320,18 +340,15 @@ fn tree_permutation_increase(
             block[pos as usize * p + j] = vals[pos as usize];
         }
         let (mut de, mut db) = (0.0, 0.0);
-        for (part, from) in hit.chunks(STRETCH).zip(at.chunks(STRETCH)) {
+        for (part, runs) in hit.chunks(STRETCH).zip(runs.chunks(STRETCH)) {
             // The rows that change course, each from the side it did not take at the
             // first node (testing j) that turns it; the others keep their leaf and add
             // exact zeros, which leave the sums as they are.
             picks.clear();
             starts.clear();
-            for (&pos, &first) in part.iter().zip(from) {
+            for (&pos, &(from, to)) in part.iter().zip(runs) {
                 let v = vals[pos as usize];
-                let end = paths.range(leaves[pos as usize]).end;
-                let mut k = first as usize;
-                while k < end && pairs[k].0 as usize == j {
-                    let step = pairs[k].1;
+                for &step in &paths.steps[from as usize..to as usize] {
                     let node = &nodes[(step >> 1) as usize];
                     let left = tree.goes_left(node, v);
                     if left != (step & 1 == 1) {
@@ -339,7 +356,6 @@ fn tree_permutation_increase(
                         starts.push((node.child() + usize::from(!left)) as u32);
                         break;
                     }
-                    k += 1;
                 }
             }
             let found = &mut found[..picks.len()];
@@ -364,17 +380,21 @@ fn tree_permutation_increase(
 /// in cache beside a tree. Does not change any result.
 const STRETCH: usize = 256;
 
-/// Copies rows `rows` of `x` into `dst`, row-major.
-fn copy_rows(x: ArrayView2<'_, f64>, rows: &[usize], dst: &mut [f64]) {
-    let p = x.ncols();
+/// Copies rows `rows` of `x` into `dst`, row-major, and into `columns`, input by
+/// input (`columns[j * m + k]` is input `j` of row `rows[k]`).
+fn copy_rows(x: ArrayView2<'_, f64>, rows: &[usize], dst: &mut [f64], columns: &mut [f64]) {
+    let (m, p) = (rows.len(), x.ncols());
     if p == 0 {
         return;
     }
-    for (out, &i) in dst.chunks_exact_mut(p).zip(rows) {
+    for (k, (out, &i)) in dst.chunks_exact_mut(p).zip(rows).enumerate() {
         let row = x.row(i);
         match row.as_slice() {
             Some(s) => out.copy_from_slice(s),
             None => out.iter_mut().zip(row.iter()).for_each(|(d, &v)| *d = v),
+        }
+        for (j, &v) in out.iter().enumerate() {
+            columns[j * m + k] = v;
         }
     }
 }
