@@ -334,11 +334,6 @@ fn tree_permutation_increase(
         vals.clear();
         vals.extend_from_slice(original);
         vals.shuffle(&mut rng_for(j));
-        // The permuted values go into the block where they are needed, and back out
-        // after.
-        for &pos in hit {
-            block[pos as usize * p + j] = vals[pos as usize];
-        }
         let (mut de, mut db) = (0.0, 0.0);
         for (part, runs) in hit.chunks(STRETCH).zip(runs.chunks(STRETCH)) {
             // The rows that change course, each from the side it did not take at the
@@ -354,6 +349,9 @@ fn tree_permutation_increase(
                     if left != (step & 1 == 1) {
                         picks.push(pos);
                         starts.push((node.child() + usize::from(!left)) as u32);
+                        // Only a row that descends again needs its permuted value in
+                        // the block (and back out after).
+                        block[pos as usize * p + j] = v;
                         break;
                     }
                 }
@@ -365,10 +363,8 @@ fn tree_permutation_increase(
                 let l = row_loss(outcome, rows[pos], &tree.leaf_value(leaf as usize));
                 de += l.error - base[pos].error;
                 db += l.brier - base[pos].brier;
+                block[pos * p + j] = original[pos];
             }
-        }
-        for &pos in hit {
-            block[pos as usize * p + j] = original[pos as usize];
         }
         inc_err[j] = de / m as f64;
         inc_brier[j] = db / m as f64;
