@@ -156,13 +156,14 @@ fn main() {
         .map(|t| 8 * t.impurity_decrease().len())
         .sum();
     table.row(
-        "bytes per node in memory (nodes with leaves, leaf tables, category sets)",
+        "bytes per node in memory (tree structure)",
         format!("{:.2}", (forest.heap_bytes() - sums) as f64 / nodes as f64),
         String::new(),
         "<= 16",
     );
     table.note(&format!(
-        "(with each tree's impurity sums, 8 bytes an input: {:.3} bytes per node in all)",
+        "nodes with their leaves' outputs, leaf tables, category sets; with each tree's \
+         impurity sums, 8 bytes an input: {:.3} bytes per node in all",
         forest.heap_bytes() as f64 / nodes as f64
     ));
     let encoded = bincode::serde::encode_to_vec(forest, bincode::config::standard())
