@@ -15,6 +15,8 @@ use crate::reader::{CsvInput, Row};
 use crate::schema::Missing;
 use crate::ui::Ui;
 use ndarray::ArrayView2;
+use rayon::prelude::*;
+use std::io::Write;
 
 /// What a scoring run did.
 pub struct ScoreRun {
@@ -100,15 +102,10 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         }
     }
 
-    let out = Output::create(a.out.as_deref())?;
+    let mut out = Output::create(a.out.as_deref())?;
     let out_name = out.name().to_string();
-    let mut w = csv::WriterBuilder::new()
-        .delimiter(crate::reader::Delimiter::from(a.csv.delimiter).byte())
-        .from_writer(out);
-    let werr = |e: csv::Error| match e.into_kind() {
-        csv::ErrorKind::Io(io) => CliError::write(&out_name, &io),
-        other => CliError::failure(format!("could not write {out_name}: {other:?}")),
-    };
+    let delimiter = crate::reader::Delimiter::from(a.csv.delimiter).byte();
+    let header_text = csv_text(delimiter, 256, |w| w.write_record(&header))?;
     // The header goes out with the first block, so a fault in the first rows leaves
     // standard output empty.
     let mut header_written = false;
@@ -119,8 +116,6 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     let p = forest.n_features();
     let source = input.name().to_string();
     let size = input.size();
-    let mut fields = csv::StringRecord::new();
-    let mut probs: Vec<f64> = Vec::with_capacity(classes.len());
     let mut rows: u64 = 0;
     // Prediction columns per row: the prediction, plus one probability per class.
     let out_fields = if classes.is_empty() {
@@ -161,42 +156,62 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         } else {
             (forest.predict(x).map_err(fail)?, None)
         };
+        // The rows' text is made in parallel, in pieces written in order.
+        let texts: Vec<CliResult<Vec<u8>>> = (0..m.div_ceil(TEXT_ROWS))
+            .into_par_iter()
+            .map(|c| {
+                let part = c * TEXT_ROWS..((c + 1) * TEXT_ROWS).min(m);
+                csv_text(delimiter, part.len() * 64, |w| {
+                    let mut fields = csv::StringRecord::new();
+                    let mut probs: Vec<f64> = Vec::with_capacity(classes.len());
+                    for i in part {
+                        fields.clear();
+                        for &c in &keep {
+                            fields.push_field(b.records[i].get(c).unwrap_or(""));
+                        }
+                        if b.blank[i] {
+                            // An empty prediction and empty probabilities: the row is
+                            // kept in its place, never dropped.
+                            for _ in 0..out_fields {
+                                fields.push_field("");
+                            }
+                        } else if classes.is_empty() {
+                            fields.push_field(&compact(preds[[i, 0]]));
+                        } else {
+                            probs.clear();
+                            probs.extend(preds.row(i).iter());
+                            fields.push_field(forest.class_label(&probs).unwrap_or(""));
+                            for &v in &probs {
+                                fields.push_field(&compact(v));
+                            }
+                        }
+                        if let Some(se) = &se {
+                            for &v in se.row(i) {
+                                // An unscorable row gets no standard error either.
+                                let cell = if b.blank[i] {
+                                    String::new()
+                                } else {
+                                    compact(v)
+                                };
+                                fields.push_field(&cell);
+                            }
+                        }
+                        w.write_record(&fields)?;
+                    }
+                    Ok(())
+                })
+            })
+            .collect();
+        let put = |out: &mut Output, text: &[u8]| {
+            out.write_all(text)
+                .map_err(|e| CliError::write(&out_name, &e))
+        };
         if !header_written {
-            w.write_record(&header).map_err(werr)?;
+            put(&mut out, &header_text)?;
             header_written = true;
         }
-        for (i, pred) in preds.rows().into_iter().enumerate() {
-            fields.clear();
-            for &c in &keep {
-                fields.push_field(b.records[i].get(c).unwrap_or(""));
-            }
-            if b.blank[i] {
-                // An empty prediction and empty probabilities: the row is kept in its
-                // place, never dropped.
-                for _ in 0..out_fields {
-                    fields.push_field("");
-                }
-            } else if classes.is_empty() {
-                fields.push_field(&compact(pred[0]));
-            } else {
-                probs.clear();
-                probs.extend(pred.iter());
-                fields.push_field(forest.class_label(&probs).unwrap_or(""));
-                for &v in &probs {
-                    fields.push_field(&compact(v));
-                }
-            }
-            if let Some(se) = &se {
-                for &v in se.row(i) {
-                    // An unscorable row gets no standard error either.
-                    fields.push_field(&if b.blank[i] {
-                        String::new()
-                    } else {
-                        compact(v)
-                    });
-                }
-            }
-            w.write_record(&fields).map_err(werr)?;
+        for text in texts {
+            put(&mut out, &text?)?;
         }
         rows += m as u64;
         bar.advance_to(b.bytes as usize);
@@ -210,11 +225,9 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     )?;
     bar.finish();
     if !header_written {
-        w.write_record(&header).map_err(werr)?;
+        out.write_all(&header_text)
+            .map_err(|e| CliError::write(&out_name, &e))?;
     }
-    let out = w
-        .into_inner()
-        .map_err(|e| CliError::write(&out_name, e.error()))?;
     out.finish()?;
     if let Some(warning) = enc.unseen_warning() {
         ui.warn(&warning);
@@ -246,6 +259,27 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         output: out_name,
         unscorable: skipped.count,
     })
+}
+
+/// Output rows whose text one task makes (the text of a block is made in parallel).
+const TEXT_ROWS: usize = 2048;
+
+/// The CSV text of what `write` puts out, with `delimiter` and quoting as needed.
+///
+/// # Errors
+/// None in practice (the text goes to memory); a failure of the CSV writer is reported
+/// as an internal fault.
+fn csv_text(
+    delimiter: u8,
+    capacity: usize,
+    write: impl FnOnce(&mut csv::Writer<Vec<u8>>) -> csv::Result<()>,
+) -> CliResult<Vec<u8>> {
+    let mut w = csv::WriterBuilder::new()
+        .delimiter(delimiter)
+        .from_writer(Vec::with_capacity(capacity));
+    write(&mut w).map_err(|e| CliError::failure(format!("internal: {e}")))?;
+    w.into_inner()
+        .map_err(|e| CliError::failure(format!("internal: {}", e.error())))
 }
 
 /// A block of input rows: their records (for the kept columns), their encoded input
