@@ -93,21 +93,21 @@ fn train_args<'a>(data: &'a str, target: &'a str) -> Vec<&'a str> {
     ]
 }
 
+/// Training on the file `d.csv` holding `csv`, with target `target`, is refused with
+/// exit code 2 and a message holding each of `needles` (see [`refused`]).
+fn train_refused(csv: impl AsRef<[u8]>, target: &str, needles: &[&str]) {
+    let dir = tmp();
+    put(dir.path(), "d.csv", csv);
+    refused(dir.path(), &train_args("d.csv", target), None, 2, needles);
+}
+
 // ---------------------------------------------------------------------------------
 // Reading training data
 // ---------------------------------------------------------------------------------
 
 #[test]
 fn m01_empty_file() {
-    let dir = tmp();
-    put(dir.path(), "d.csv", "");
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
-        &["d.csv is empty", "needs a header row"],
-    );
+    train_refused("", "y", &["d.csv is empty", "needs a header row"]);
 }
 
 #[test]
@@ -124,13 +124,9 @@ fn m02_empty_standard_input() {
 
 #[test]
 fn m03_header_only() {
-    let dir = tmp();
-    put(dir.path(), "d.csv", "a,b,y\n");
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+    train_refused(
+        "a,b,y\n",
+        "y",
         &[
             "d.csv has a header but no data rows",
             "add at least two rows",
@@ -140,17 +136,9 @@ fn m03_header_only() {
 
 #[test]
 fn m04_ragged_row() {
-    let dir = tmp();
-    put(
-        dir.path(),
-        "d.csv",
+    train_refused(
         "a,b,y\n1,2,p\n3,4,q\n5,6,p,extra\n7,8,q\n",
-    );
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+        "y",
         &[
             "d.csv line 4: found 4 fields but the header has 3",
             "quoted",
@@ -161,26 +149,18 @@ fn m04_ragged_row() {
 /// An opening quote never closed swallows the line break; the row comes out short.
 #[test]
 fn m05_unterminated_quote() {
-    let dir = tmp();
-    put(dir.path(), "d.csv", "a,b,y\n1,2,p\n3,\"4,q\n5,6,p\n");
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+    train_refused(
+        "a,b,y\n1,2,p\n3,\"4,q\n5,6,p\n",
+        "y",
         &["d.csv line 3", "no quote is missing"],
     );
 }
 
 #[test]
 fn m06_duplicate_column_names() {
-    let dir = tmp();
-    put(dir.path(), "d.csv", "depth,y,depth\n1,p,2\n3,q,4\n");
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+    train_refused(
+        "depth,y,depth\n1,p,2\n3,q,4\n",
+        "y",
         &[
             "d.csv line 1",
             "'depth' is used by column 1 and column 3",
@@ -191,26 +171,18 @@ fn m06_duplicate_column_names() {
 
 #[test]
 fn m07_unnamed_column() {
-    let dir = tmp();
-    put(dir.path(), "d.csv", "a,,y\n1,2,p\n3,4,q\n");
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+    train_refused(
+        "a,,y\n1,2,p\n3,4,q\n",
+        "y",
         &["d.csv line 1, column 2", "name every column"],
     );
 }
 
 #[test]
 fn m08_target_column_absent() {
-    let dir = tmp();
-    put(dir.path(), "d.csv", "a,b,y\n1,2,p\n3,4,q\n");
-    refused(
-        dir.path(),
-        &train_args("d.csv", "outcome"),
-        None,
-        2,
+    train_refused(
+        "a,b,y\n1,2,p\n3,4,q\n",
+        "outcome",
         &[
             "--target",
             "'outcome'",
@@ -222,13 +194,9 @@ fn m08_target_column_absent() {
 
 #[test]
 fn m09_target_all_missing() {
-    let dir = tmp();
-    put(dir.path(), "d.csv", "a,b,y\n1,2,NA\n3,4,\n5,6,?\n");
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+    train_refused(
+        "a,b,y\n1,2,NA\n3,4,\n5,6,?\n",
+        "y",
         &[
             "d.csv",
             "every row's target 'y' is missing",
@@ -239,13 +207,9 @@ fn m09_target_all_missing() {
 
 #[test]
 fn m10_single_row() {
-    let dir = tmp();
-    put(dir.path(), "d.csv", "a,b,y\n1,2,p\n");
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+    train_refused(
+        "a,b,y\n1,2,p\n",
+        "y",
         &["d.csv has only 1 row", "at least two are needed"],
     );
 }
@@ -395,17 +359,9 @@ fn m16_more_categories_than_supported() {
 
 #[test]
 fn m17_invalid_utf8_in_a_cell() {
-    let dir = tmp();
-    put(
-        dir.path(),
-        "d.csv",
+    train_refused(
         b"a,b,y\n1,x,p\n2,caf\xe9,q\n3,y,p\n".as_slice(),
-    );
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+        "y",
         &[
             "d.csv line 3, column 2 ('b')",
             "not valid UTF-8",
@@ -416,13 +372,9 @@ fn m17_invalid_utf8_in_a_cell() {
 
 #[test]
 fn m18_invalid_utf8_in_the_header() {
-    let dir = tmp();
-    put(dir.path(), "d.csv", b"a,\xff\xfe,y\n1,2,p\n".as_slice());
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+    train_refused(
+        b"a,\xff\xfe,y\n1,2,p\n".as_slice(),
+        "y",
         &["d.csv line 1, column 2", "not valid UTF-8"],
     );
 }
@@ -430,17 +382,9 @@ fn m18_invalid_utf8_in_the_header() {
 /// A record after a quoted field holding a line break: messages count file lines.
 #[test]
 fn m19_line_numbers_after_an_embedded_line_break() {
-    let dir = tmp();
-    put(
-        dir.path(),
-        "d.csv",
+    train_refused(
         "a,b,y\n1,\"two\nlines\",p\n3,x,q\n5,x\n",
-    );
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+        "y",
         &["d.csv line 5: found 2 fields"],
     );
 }
@@ -486,13 +430,9 @@ fn m21_data_is_a_folder_or_absent() {
 /// A semicolon file read with the default comma: the hint names the flag.
 #[test]
 fn m22_wrong_delimiter() {
-    let dir = tmp();
-    put(dir.path(), "d.csv", "a;b;y\n1,5;2;p\n3;4;q\n");
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+    train_refused(
+        "a;b;y\n1,5;2;p\n3;4;q\n",
+        "y",
         &["d.csv has a single column", "--delimiter semicolon"],
     );
 }
@@ -1312,13 +1252,9 @@ fn m42_training_that_cannot_fit_in_memory_is_refused() {
 /// read, naming line and column, instead of a model that cannot be read back.
 #[test]
 fn m43_regression_target_too_large() {
-    let dir = tmp();
-    put(dir.path(), "d.csv", "a,y\n1,2\n2,-3e200\n3,4\n");
-    refused(
-        dir.path(),
-        &train_args("d.csv", "y"),
-        None,
-        2,
+    train_refused(
+        "a,y\n1,2\n2,-3e200\n3,4\n",
+        "y",
         &[
             "d.csv line 3, column 'y'",
             "-3e200 is too large",
