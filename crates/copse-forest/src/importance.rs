@@ -189,9 +189,21 @@ fn row_loss(outcome: &Outcome, i: usize, pred: &[f64]) -> Loss {
 /// testing that input, from the root down, each `node << 1 | went_left` (indexed by
 /// node, as leaves are known by their node index; internal nodes have none).
 struct LeafPaths {
-    span: Vec<(u32, u32)>,
+    span: Vec<Span>,
     runs: Vec<Run>,
     steps: Vec<u32>,
+    /// Whether every input is below 64, so that [`Span::tests`] names them all.
+    narrow: bool,
+}
+
+/// Where a leaf's runs stand in [`LeafPaths::runs`], and the inputs below 64 its way
+/// tests (bit `j` for input `j`): one look tells whether the way tests an input, and
+/// which run is its (the runs being in input order).
+#[derive(Debug, Clone, Copy, Default)]
+struct Span {
+    from: u32,
+    to: u32,
+    tests: u64,
 }
 
 /// The nodes of one leaf's way that test one input: `steps[from..to]`.
@@ -205,7 +217,8 @@ struct Run {
 impl LeafPaths {
     fn of(tree: &Tree) -> Self {
         let nodes = tree.nodes();
-        let mut span = vec![(0u32, 0u32); nodes.len()];
+        let mut span = vec![Span::default(); nodes.len()];
+        let mut narrow = true;
         let (mut runs, mut steps) = (Vec::new(), Vec::new());
         // Depth-first, with the (input, step) pairs of the way to the current node on
         // a stack, and one buffer to sort a leaf's pairs in.
@@ -226,7 +239,13 @@ impl LeafPaths {
                 // parent's).
                 sorted.sort_unstable();
                 let first = runs.len() as u32;
+                let mut tests = 0u64;
                 for (k, &(j, s)) in sorted.iter().enumerate() {
+                    if j < 64 {
+                        tests |= 1 << j;
+                    } else {
+                        narrow = false;
+                    }
                     if k == 0 || sorted[k - 1].0 != j {
                         let at = steps.len() as u32;
                         runs.push(Run {
@@ -240,20 +259,47 @@ impl LeafPaths {
                         r.to += 1;
                     }
                 }
-                span[i] = (first, runs.len() as u32);
+                span[i] = Span {
+                    from: first,
+                    to: runs.len() as u32,
+                    tests,
+                };
             } else {
                 let me = (i as u32) << 1;
                 stack.push((n.child() + 1, depth + 1, me));
                 stack.push((n.child(), depth + 1, me | 1));
             }
         }
-        LeafPaths { span, runs, steps }
+        LeafPaths {
+            span,
+            runs,
+            steps,
+            narrow,
+        }
     }
 
     /// The runs of the leaf at node `leaf`.
     fn runs(&self, leaf: u32) -> &[Run] {
-        let (a, b) = self.span[leaf as usize];
-        &self.runs[a as usize..b as usize]
+        let s = self.span[leaf as usize];
+        &self.runs[s.from as usize..s.to as usize]
+    }
+
+    /// The run of input `j` on the way to the leaf at node `leaf`, if the way tests it.
+    #[inline]
+    fn run(&self, leaf: usize, j: usize) -> Option<&Run> {
+        let s = self.span[leaf];
+        if self.narrow {
+            if s.tests >> j & 1 == 0 {
+                return None;
+            }
+            // The runs of the inputs below j come first.
+            let below = (s.tests & ((1u64 << j) - 1)).count_ones();
+            self.runs.get((s.from + below) as usize)
+        } else {
+            self.runs[s.from as usize..s.to as usize]
+                .iter()
+                .find(|r| r.input as usize == j)
+        }
     }
 }
 
@@ -282,7 +328,7 @@ fn tree_permutation_increase(
     // (the values each permutation starts from), and read in order from then on.
     let mut block = vec![0.0; m * p];
     let mut columns = vec![0.0; m * p];
-    copy_rows(x, rows, &mut block, &mut columns);
+    copy_rows(x, rows, &mut block, Some(&mut columns));
     let mut leaves = vec![0u32; m];
     // Laid out for scoring once: the tree serves all its out-of-bag rows once per input.
     let compact = tree.compact();
@@ -372,13 +418,54 @@ fn tree_permutation_increase(
     (inc_err, inc_brier)
 }
 
+/// The leaf that a row which reached `leaf` of `tree` reaches when its input `j` takes
+/// the value `v` instead (its other values in `row`), `run` being the nodes on the way
+/// that test `j`: the same leaf unless one of them sends `v` the other way, and then
+/// the leaf below the first such node on the other side.
+fn turned_leaf(
+    tree: &Tree,
+    paths: &LeafPaths,
+    run: &Run,
+    leaf: usize,
+    j: usize,
+    v: f64,
+    row: &[f64],
+) -> usize {
+    for &step in &paths.steps[run.from as usize..run.to as usize] {
+        let node = &tree.nodes()[(step >> 1) as usize];
+        let left = tree.goes_left(node, v);
+        if left != (step & 1 == 1) {
+            let start = node.child() + usize::from(!left);
+            return tree.leaf_index_from(start, |c| if c == j { v } else { row[c] });
+        }
+    }
+    leaf
+}
+
+/// A tree's rows grouped by the leaf they reach: `order` holds their positions, leaf
+/// by leaf, and each group is `(leaf, end of its positions in order)`.
+struct LeafGroups {
+    order: Vec<u32>,
+    groups: Vec<(u32, u32)>,
+}
+
+/// Most bytes the held-out path shortcut may hold (the rows grouped by leaf in every
+/// tree, and the rows' values); beyond it every row is predicted again for every
+/// permutation.
+const SHORTCUT_BYTES: usize = 1 << 29;
+
 /// Rows scored together by the importance passes: few enough that their values stay
 /// in cache beside a tree. Does not change any result.
 const STRETCH: usize = 256;
 
-/// Copies rows `rows` of `x` into `dst`, row-major, and into `columns`, input by
-/// input (`columns[j * m + k]` is input `j` of row `rows[k]`).
-fn copy_rows(x: ArrayView2<'_, f64>, rows: &[usize], dst: &mut [f64], columns: &mut [f64]) {
+/// Copies rows `rows` of `x` into `dst`, row-major, and into `columns` if given, input
+/// by input (`columns[j * m + k]` is input `j` of row `rows[k]`).
+fn copy_rows(
+    x: ArrayView2<'_, f64>,
+    rows: &[usize],
+    dst: &mut [f64],
+    mut columns: Option<&mut [f64]>,
+) {
     let (m, p) = (rows.len(), x.ncols());
     if p == 0 {
         return;
@@ -389,8 +476,10 @@ fn copy_rows(x: ArrayView2<'_, f64>, rows: &[usize], dst: &mut [f64], columns: &
             Some(s) => out.copy_from_slice(s),
             None => out.iter_mut().zip(row.iter()).for_each(|(d, &v)| *d = v),
         }
-        for (j, &v) in out.iter().enumerate() {
-            columns[j * m + k] = v;
+        if let Some(columns) = columns.as_deref_mut() {
+            for (j, &v) in out.iter().enumerate() {
+                columns[j * m + k] = v;
+            }
         }
     }
 }
@@ -548,28 +637,20 @@ impl Forest {
             ));
         }
         let p = self.n_features();
-        let scorers = self.scorers(rows.len());
-        let base = self.forest_loss(&scorers, x, &outcome, &rows, None);
         let tasks: Vec<(usize, usize)> = (0..repeats)
             .flat_map(|r| (0..p).map(move |j| (r, j)))
             .collect();
-        let inc: Vec<Loss> = tasks
-            .par_iter()
-            .map(|&(r, j)| {
-                let mut vals: Vec<f64> = rows.iter().map(|&i| x[[i, j]]).collect();
-                vals.shuffle(&mut task_rng(
-                    seed,
-                    Purpose::HeldOutPermute,
-                    j as u64,
-                    r as u64,
-                ));
-                let l = self.forest_loss(&scorers, x, &outcome, &rows, Some((j, &vals)));
-                Loss {
-                    error: l.error - base.error,
-                    brier: l.brier - base.brier,
-                }
-            })
-            .collect();
+        let permuted = |r: usize, j: usize| -> Vec<f64> {
+            let mut vals: Vec<f64> = rows.iter().map(|&i| x[[i, j]]).collect();
+            vals.shuffle(&mut task_rng(
+                seed,
+                Purpose::HeldOutPermute,
+                j as u64,
+                r as u64,
+            ));
+            vals
+        };
+        let inc = self.held_out_increases(x, &outcome, &rows, &tasks, &permuted, SHORTCUT_BYTES);
         let errs: Vec<Vec<f64>> = inc
             .chunks(p)
             .map(|c| c.iter().map(|l| l.error).collect())
@@ -585,6 +666,132 @@ impl Forest {
             &errs,
             &briers,
         ))
+    }
+
+    /// The increase in the forest's mean loss on `rows` for each task `(repeat, input
+    /// j)`, input `j` taking the values `permuted(repeat, j)`.
+    ///
+    /// When its tables fit in `budget` bytes (the rows grouped by leaf in every tree,
+    /// and the rows' values), by the path shortcut: a row's leaf in a tree changes only if a
+    /// node on its way that tests `j` sends the new value the other way, and then the
+    /// row goes down again from there; every row's prediction is still summed over its
+    /// trees in tree order and its loss added in the blocks of [`Forest::forest_loss`],
+    /// so the numbers are those of re-predicting every row, to the last bit (a test
+    /// checks both ways agree). Otherwise by re-predicting every row for every task.
+    fn held_out_increases(
+        &self,
+        x: ArrayView2<'_, f64>,
+        outcome: &Outcome,
+        rows: &[usize],
+        tasks: &[(usize, usize)],
+        permuted: &(dyn Fn(usize, usize) -> Vec<f64> + Sync),
+        budget: usize,
+    ) -> Vec<Loss> {
+        let (m, nt, p) = (rows.len(), self.trees.len(), self.n_features());
+        let scorers = self.scorers(m);
+        // Per row and tree: its place in the tree's order (4 bytes) and at most one
+        // group (8 bytes); per row its values.
+        let need = m.saturating_mul(nt * 12 + p * 8);
+        if need > budget || p == 0 {
+            let base = self.forest_loss(&scorers, x, outcome, rows, None);
+            return tasks
+                .par_iter()
+                .map(|&(r, j)| {
+                    let vals = permuted(r, j);
+                    let l = self.forest_loss(&scorers, x, outcome, rows, Some((j, &vals)));
+                    Loss {
+                        error: l.error - base.error,
+                        brier: l.brier - base.brier,
+                    }
+                })
+                .collect();
+        }
+        // The rows, row-major; for every tree, the rows grouped by the leaf they reach
+        // (`order`, positions in `rows`), each group `(leaf, end of its positions)`.
+        let mut block = vec![0.0; m * p];
+        copy_rows(x, rows, &mut block, None);
+        let grouped: Vec<LeafGroups> = scorers
+            .par_iter()
+            .map(|scorer| {
+                let mut leaves = vec![0u32; m];
+                for (part, found) in block.chunks(STRETCH * p).zip(leaves.chunks_mut(STRETCH)) {
+                    scorer.leaf_indices(part, p, found);
+                }
+                let mut order: Vec<u32> = (0..m as u32).collect();
+                order.sort_by_key(|&pos| leaves[pos as usize]);
+                let mut groups: Vec<(u32, u32)> = Vec::new();
+                for (end, &pos) in order.iter().enumerate() {
+                    let leaf = leaves[pos as usize];
+                    match groups.last_mut() {
+                        Some(g) if g.0 == leaf => g.1 = end as u32 + 1,
+                        _ => groups.push((leaf, end as u32 + 1)),
+                    }
+                }
+                LeafGroups { order, groups }
+            })
+            .collect();
+        let paths: Vec<LeafPaths> = self.trees.par_iter().map(LeafPaths::of).collect();
+        let k = self.n_outputs();
+        let bs = block_rows(m);
+        let loss_with = |swap: Option<(usize, &[f64])>| -> Loss {
+            // Trees in the outer loop, and within a tree the rows of one leaf together,
+            // keep the tables looked at in cache; each row still sums its trees in tree
+            // order.
+            let mut pred = vec![0.0; m * k];
+            for (t, tree) in self.trees.iter().enumerate() {
+                let LeafGroups { order, groups } = &grouped[t];
+                let mut from = 0;
+                for &(leaf, end) in groups {
+                    let leaf = leaf as usize;
+                    let run = swap.and_then(|(j, _)| paths[t].run(leaf, j));
+                    for &pos in &order[from..end as usize] {
+                        let pos = pos as usize;
+                        let reached = match (run, swap) {
+                            (Some(run), Some((j, vals))) => {
+                                let row = &block[pos * p..(pos + 1) * p];
+                                turned_leaf(tree, &paths[t], run, leaf, j, vals[pos], row)
+                            }
+                            _ => leaf,
+                        };
+                        pred[pos * k..(pos + 1) * k]
+                            .iter_mut()
+                            .zip(&tree.leaf_value(reached))
+                            .for_each(|(o, v)| *o += v);
+                    }
+                    from = end as usize;
+                }
+            }
+            let trees = nt.max(1) as f64;
+            pred.iter_mut().for_each(|o| *o /= trees);
+            // Losses added in the blocks of `forest_loss`, in the same order.
+            let (mut e, mut b) = (0.0, 0.0);
+            for (from, part) in pred.chunks(bs * k).enumerate() {
+                let mut total = Loss::default();
+                for (off, o) in part.chunks_exact(k).enumerate() {
+                    let l = row_loss(outcome, rows[from * bs + off], o);
+                    total.error += l.error;
+                    total.brier += l.brier;
+                }
+                e += total.error;
+                b += total.brier;
+            }
+            Loss {
+                error: e / m as f64,
+                brier: b / m as f64,
+            }
+        };
+        let base = loss_with(None);
+        tasks
+            .par_iter()
+            .map(|&(r, j)| {
+                let vals = permuted(r, j);
+                let l = loss_with(Some((j, &vals)));
+                Loss {
+                    error: l.error - base.error,
+                    brier: l.brier - base.brier,
+                }
+            })
+            .collect()
     }
 
     /// Mean loss of the forest on `rows`, with input `j` (if any) taking the values
@@ -663,12 +870,12 @@ mod tests {
         ((e1 - e0) / m, (b1 - b0) / m)
     }
 
-    #[test]
-    fn path_shortcut_equals_full_reprediction() {
-        // Also a set with a category input and missing values, whose rows take their
-        // sides by category subsets and by the nodes' missing directions.
-        let mut mixed = synth::waveform40(300, 3);
-        for (i, mut row) in mixed.x.rows_mut().into_iter().enumerate() {
+    /// Waveform rows whose first input is made a category (six levels) and whose first
+    /// two inputs have missing values, so that rows take their sides by category
+    /// subsets and by the nodes' missing directions too.
+    fn mixed_waveform(n: usize, seed: u64) -> synth::Synthetic {
+        let mut d = synth::waveform40(n, seed);
+        for (i, mut row) in d.x.rows_mut().into_iter().enumerate() {
             row[0] = (row[0].abs() * 2.0).floor().min(5.0);
             if i % 7 == 0 {
                 row[1] = f64::NAN;
@@ -678,7 +885,58 @@ mod tests {
             }
         }
         let levels = (0..6).map(|k| format!("k{k}")).collect();
-        mixed.meta[0] = FeatureMeta::categorical("c", levels);
+        d.meta[0] = FeatureMeta::categorical("c", levels);
+        d
+    }
+
+    #[test]
+    fn held_out_shortcut_equals_full_reprediction_to_the_last_bit() {
+        // Classes (with a category input and missing values) and regression: the
+        // shortcut and the full re-prediction must give the same numbers, bit for bit.
+        for d in [mixed_waveform(240, 5), synth::friedman1(240, 6)] {
+            let s = ForestSettings {
+                trees: 12,
+                oob_importance: false,
+                ..Default::default()
+            };
+            let f = Forest::train(d.x.view(), &d.meta, &d.outcome, &s)
+                .expect("trains")
+                .forest;
+            let fresh = if d.meta[0].is_categorical() {
+                mixed_waveform(200, 8)
+            } else {
+                synth::friedman1(200, 9)
+            };
+            let outcome = f.align(&fresh.outcome).expect("same classes");
+            let rows: Vec<usize> = (0..200).collect();
+            let tasks: Vec<(usize, usize)> = (0..2)
+                .flat_map(|r| (0..fresh.x.ncols()).map(move |j| (r, j)))
+                .collect();
+            let x = fresh.x.view();
+            let permuted = |r: usize, j: usize| -> Vec<f64> {
+                let mut vals: Vec<f64> = rows.iter().map(|&i| x[[i, j]]).collect();
+                vals.shuffle(&mut task_rng(
+                    3,
+                    Purpose::HeldOutPermute,
+                    j as u64,
+                    r as u64,
+                ));
+                vals
+            };
+            let fast = f.held_out_increases(x, &outcome, &rows, &tasks, &permuted, usize::MAX);
+            let full = f.held_out_increases(x, &outcome, &rows, &tasks, &permuted, 0);
+            assert!(fast.iter().any(|l| l.error != 0.0), "some input matters");
+            for (a, b) in fast.iter().zip(&full) {
+                assert_eq!(a.error.to_bits(), b.error.to_bits());
+                assert_eq!(a.brier.to_bits(), b.brier.to_bits());
+            }
+        }
+    }
+
+    #[test]
+    fn path_shortcut_equals_full_reprediction() {
+        // Also a set with a category input and missing values.
+        let mixed = mixed_waveform(300, 3);
         for d in [synth::waveform40(300, 1), synth::friedman1(300, 2), mixed] {
             let s = ForestSettings {
                 trees: 3,

@@ -352,6 +352,17 @@ impl Tree {
         self.leaf_from(0, value)
     }
 
+    /// Leaf (its node index) reached from node `start` by a row whose input `j` has
+    /// value `value(j)`: the rest of a descent known to pass through `start`.
+    ///
+    /// # Panics
+    /// When `start` is not a node of the tree.
+    #[inline]
+    pub fn leaf_index_from(&self, start: usize, value: impl Fn(usize) -> f64) -> usize {
+        assert!(start < self.nodes.len(), "node {start} is not in the tree");
+        self.leaf_from(start, value)
+    }
+
     /// Leaf reached from node `start` by a row whose input `j` has value `value(j)`.
     #[inline]
     fn leaf_from(&self, start: usize, value: impl Fn(usize) -> f64) -> usize {
