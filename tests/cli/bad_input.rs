@@ -93,6 +93,24 @@ fn train_args<'a>(data: &'a str, target: &'a str) -> Vec<&'a str> {
     ]
 }
 
+/// Scoring the file `new.csv` holding `csv` with a small iris model is refused with
+/// exit code 2 and a message holding each of `needles` (see [`refused`]).
+fn score_refused(csv: impl AsRef<[u8]>, needles: &[&str]) {
+    let dir = tmp();
+    iris_model(dir.path());
+    put(dir.path(), "new.csv", csv);
+    let args = [
+        "score",
+        "--model",
+        "iris.copse",
+        "--data",
+        "new.csv",
+        "--out",
+        "s.csv",
+    ];
+    refused(dir.path(), &args, None, 2, needles);
+}
+
 /// Training on the file `d.csv` holding `csv`, with target `target`, is refused with
 /// exit code 2 and a message holding each of `needles` (see [`refused`]).
 fn train_refused(csv: impl AsRef<[u8]>, target: &str, needles: &[&str]) {
@@ -470,22 +488,8 @@ fn m23_contradictory_column_roles() {
 
 #[test]
 fn m24_scoring_file_missing_two_columns() {
-    let dir = tmp();
-    iris_model(dir.path());
-    put(dir.path(), "new.csv", "sepal_length,sepal_width\n5.1,3.5\n");
-    refused(
-        dir.path(),
-        &[
-            "score",
-            "--model",
-            "iris.copse",
-            "--data",
-            "new.csv",
-            "--out",
-            "s.csv",
-        ],
-        None,
-        2,
+    score_refused(
+        "sepal_length,sepal_width\n5.1,3.5\n",
         &[
             "new.csv has no columns 'petal_length', 'petal_width'",
             "add them",
@@ -544,26 +548,8 @@ fn m25_bom_and_crlf_in_the_scoring_file() {
 /// also offers --blank-unscorable; nothing written.
 #[test]
 fn m26_column_of_another_kind_at_scoring() {
-    let dir = tmp();
-    iris_model(dir.path());
-    put(
-        dir.path(),
-        "new.csv",
+    score_refused(
         "sepal_length,sepal_width,petal_length,petal_width\n5.1,3.5,1.4,0.2\n5.0,wide,1.4,0.2\n",
-    );
-    refused(
-        dir.path(),
-        &[
-            "score",
-            "--model",
-            "iris.copse",
-            "--data",
-            "new.csv",
-            "--out",
-            "s.csv",
-        ],
-        None,
-        2,
         &[
             "new.csv line 3, column 'sepal_width'",
             "'wide' is not a finite number",
