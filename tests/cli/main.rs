@@ -11,6 +11,7 @@ use std::process::{Command, Output, Stdio};
 
 mod bad_input;
 mod extras;
+mod library;
 
 /// A file of the repository.
 fn repo(rel: &str) -> PathBuf {
@@ -442,12 +443,14 @@ fn tampered_model_files_are_refused_clearly() {
     b[..4].copy_from_slice(b"PK\x03\x04");
     cases.push(("zip.copse", b, "not a copse model"));
     let mut b = good.clone();
-    b[8] = 3;
+    b[8] = 4;
     cases.push(("future.copse", b, "newer copse"));
-    // Format 1 kept leaf outputs beside the nodes; this copse reads format 2 only.
-    let mut b = good.clone();
-    b[8] = 1;
-    cases.push(("format1.copse", b, "trained again with this copse"));
+    // Formats 1 and 2 are earlier layouts; this copse reads format 3 only.
+    for old in [1, 2] {
+        let mut b = good.clone();
+        b[8] = old;
+        cases.push(("earlier.copse", b, "trained again with this copse"));
+    }
     let mut b = good.clone();
     b[12..20].copy_from_slice(&(1u64 << 44).to_le_bytes());
     cases.push(("huge_length.copse", b, "damaged"));

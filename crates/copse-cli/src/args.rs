@@ -1,9 +1,10 @@
 //! Command-line arguments, parsed with no I/O: the raw values each subcommand accepts.
 //! Checks that need no files (ranges, words) happen here, so a bad flag is a usage
 //! error (exit 2) before any work starts.
-use crate::reader::Delimiter;
-use crate::schema::{Roles, Task};
 use clap::{Args, Parser, Subcommand, ValueEnum};
+use copse_data::Delimiter;
+use copse_data::Roles;
+use copse_forest::Task;
 use copse_forest::{FeaturesPerSplit, Impurity, Sampling};
 use std::path::PathBuf;
 

@@ -70,7 +70,7 @@ impl CliError {
         }
         CliError::failure(format!(
             "could not write {what}: {}; check the disk has room and the folder is writable",
-            crate::reader::io_reason(e)
+            copse_forest::io_reason(e)
         ))
     }
 
@@ -93,6 +93,14 @@ impl fmt::Display for CliError {
 
 impl std::error::Error for CliError {}
 
+impl From<copse_data::Error> for CliError {
+    /// Every fault of the data layer is bad input: its message already names the
+    /// file, line and column.
+    fn from(e: copse_data::Error) -> Self {
+        CliError::input(e.message())
+    }
+}
+
 /// Result with [`CliError`].
 pub type CliResult<T> = std::result::Result<T, CliError>;
 
@@ -110,7 +118,13 @@ pub fn forest_error(e: &copse_forest::Error, context: &str) -> CliError {
         | K::BadValue
         | K::TooLarge
         | K::OutcomeMismatch
-        | K::InvalidModel => CliError::input(text),
+        | K::InvalidModel
+        | K::NotAModel
+        | K::NewerFormat
+        | K::OlderFormat
+        | K::Damaged
+        | K::Undecodable
+        | K::FileTooLarge => CliError::input(text),
         _ => CliError::failure(text),
     }
 }

@@ -4,13 +4,10 @@
 //!
 //! Each takes one byte of settings from the front of the input, so a fuzzer explores
 //! the options too.
-use crate::encode::RowEncoder;
-use crate::model::Model;
-use crate::model_file::{self, FORMAT_VERSION, HEADER_LEN, MAGIC};
-use crate::reader::{CsvInput, Delimiter};
 use crate::report::{self, Style};
-use crate::schema::{load_training, Missing, Roles, Task};
-use copse_forest::{ForestSettings, TreeSettings};
+use copse_data::{CsvInput, Delimiter, Missing, Roles, RowEncoder, TrainingTable};
+use copse_forest::model_file::{FORMAT_VERSION, HEADER_LEN, MAGIC};
+use copse_forest::{Forest as Model, ForestSettings, Task, TreeSettings};
 use ndarray::Array2;
 use std::io::Cursor;
 
@@ -59,7 +56,7 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
         task,
         ..Roles::default()
     };
-    let training = load_training(input, &roles, Missing::standard()).ok()?;
+    let training = TrainingTable::from_csv(input, &roles, Missing::standard()).ok()?;
     if training.x.nrows() > TRAIN_ROWS {
         return None;
     }
@@ -73,12 +70,7 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
         seed: u64::from(ctrl),
         ..ForestSettings::default()
     };
-    let trained = match copse_forest::Forest::train(
-        training.x.view(),
-        &training.schema.features,
-        &training.outcome,
-        &settings,
-    ) {
+    let trained = match training.train(&settings, Default::default(), &|_| {}) {
         Ok(t) => t,
         // Data that passed reading may still be refused by the engine for a reason
         // about the data; anything else (a fault inside a tree, exit 1 in the command)
@@ -91,16 +83,8 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
             e.message()
         ),
     };
-    let mut model = crate::commands::train::build_model(&training, trained.forest, "fuzz");
-    model.schema.bins = copse_tree::BinnedData::new(
-        training.x.view(),
-        &training.schema.features,
-        settings.bin_limit,
-    )
-    .ok()?
-    .bins()
-    .to_vec();
-    let bytes = model_file::encode(&model).ok()?;
+    let model = trained.forest;
+    let bytes = model.to_bytes().ok()?;
     let back = match Model::from_bytes(&bytes, "fuzz.copse") {
         Ok(m) => m,
         Err(e) => panic!("a freshly trained model does not read back: {e}"),
@@ -111,11 +95,11 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
     let Some(mut input) = csv_input(rest, delimiter) else {
         panic!("the training bytes fail to open a second time");
     };
-    let mut enc = match RowEncoder::new(&input, &back.schema, back.schema.missing.clone(), false) {
+    let mut enc = match RowEncoder::new(&input, &back, Missing::of_model(&back), false) {
         Ok(enc) => enc,
         Err(e) => panic!("the training file lacks columns of its own model: {e}"),
     };
-    let p = back.forest.n_features();
+    let p = back.n_features();
     let mut row = vec![0.0; p];
     let mut record = csv::StringRecord::new();
     let mut values = Vec::new();
@@ -140,7 +124,7 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
     );
     assert_eq!(rows, training.rows_read, "every row scored once");
     let x = Array2::from_shape_vec((rows, p), values).ok()?;
-    let preds = match back.forest.predict(x.view()) {
+    let preds = match back.predict(x.view()) {
         Ok(p) => p,
         Err(e) => panic!(
             "a model cannot score its own training rows: {}",
@@ -191,7 +175,7 @@ pub fn wrap_payload(payload: &[u8]) -> Vec<u8> {
 /// Uses a model the way the commands do: predictions on rows of awkward values, every
 /// tree's rules, the reports and the JSON object.
 fn exercise(model: &Model) {
-    let p = model.forest.n_features();
+    let p = model.n_features();
     let awkward = [
         f64::NAN,
         0.0,
@@ -205,10 +189,10 @@ fn exercise(model: &Model) {
     let x = Array2::from_shape_fn((awkward.len(), p), |(i, j)| {
         awkward[(i + j) % awkward.len()]
     });
-    let _ = model.forest.predict(x.view());
-    let classes = (!model.forest.classes().is_empty()).then(|| model.forest.classes());
-    for t in model.forest.trees().iter().take(8) {
-        let _ = copse_tree::render::render(t, model.forest.meta(), classes);
+    let _ = model.predict(x.view());
+    let classes = (!model.classes().is_empty()).then(|| model.classes());
+    for t in model.trees().iter().take(8) {
+        let _ = copse_tree::render::render(t, model.meta(), classes);
     }
     let st = Style::new(false);
     let mut text = String::new();

@@ -1,9 +1,9 @@
 //! The machine-readable reports (`--json`): one JSON object per command, with the
 //! same facts as the printed report. The shape is documented in the README; keys are
 //! only ever added, never renamed.
-use crate::model::Model;
 use crate::report::CAUTION;
-use crate::schema::Task;
+use copse_forest::Forest as Model;
+use copse_forest::Task;
 use copse_forest::{
     mirrored_null_test, FeatureKind, Importance, ImportanceMeasure, ImportanceMethod, Metrics,
     PermutationImportance, Sampling, Significance, SignificanceTest,
@@ -36,7 +36,7 @@ pub fn metrics(m: &Metrics) -> Value {
 
 /// The model's out-of-bag summary; `error` is null when no row was out of bag.
 pub fn oob(model: &Model) -> Value {
-    let o = model.forest.oob();
+    let o = model.oob();
     let mut v = match &o.metrics {
         Some(m) => metrics(m),
         None => json!({ "rows": 0, "error": null }),
@@ -121,22 +121,21 @@ fn sampling(s: &Sampling) -> Value {
 /// The common part of every command's object: task, target, classes, trees, inputs,
 /// settings, training data, out-of-bag summary and out-of-bag importance.
 pub fn model_object(command: &str, model: &Model) -> Map<String, Value> {
-    let f = &model.forest;
+    let f = model;
     let s = f.settings();
-    let t = &model.training;
+    let t = model.card();
     let mut map = Map::new();
     map.insert("command".into(), json!(command));
     map.insert("copse_version".into(), json!(env!("CARGO_PKG_VERSION")));
-    map.insert("task".into(), json!(model.schema.target.task.name()));
-    map.insert("target".into(), json!(model.schema.target.name));
+    map.insert("task".into(), json!(model.task().name()));
+    map.insert("target".into(), json!(model.card().target));
     map.insert("classes".into(), json!(f.classes()));
     map.insert("trees".into(), json!(f.trees().len()));
     let inputs: Vec<Value> = model
-        .schema
-        .features
+        .meta()
         .iter()
         .enumerate()
-        .map(|(j, m)| match (&m.kind, model.schema.bins.get(j)) {
+        .map(|(j, m)| match (&m.kind, model.bins().get(j)) {
             (FeatureKind::Categorical { levels }, _) => {
                 json!({ "name": m.name, "kind": "categorical", "categories": levels })
             }
@@ -162,7 +161,7 @@ pub fn model_object(command: &str, model: &Model) -> Map<String, Value> {
             "features_per_split_rule": t.features_rule,
             "sampling": sampling(&s.sampling),
             "balanced": s.balanced,
-            "impurity": if model.schema.target.task == Task::Classify {
+            "impurity": if model.task() == Task::Classify {
                 json!(format!("{:?}", s.tree.impurity).to_lowercase())
             } else {
                 json!("variance")
@@ -182,7 +181,7 @@ pub fn model_object(command: &str, model: &Model) -> Map<String, Value> {
             "rows_without_target": t.rows_without_outcome,
             "ignored": t.ignored,
             "class_counts": t.class_counts,
-            "missing_tokens": model.schema.missing.tokens(),
+            "missing_tokens": model.card().missing_tokens,
         }),
     );
     map.insert("oob".into(), oob(model));

@@ -1,5 +1,5 @@
-//! copse-cli as a library: the pieces of the `copse` command (CSV reading, schema
-//! inference, row encoding, the model file container, outputs, subcommands), so the
+//! copse-cli as a library: the pieces of the `copse` command (arguments, outputs,
+//! reports, subcommands), so the
 //! binary in `main.rs` stays a thin shell and fuzz targets and property tests can call
 //! the readers and decoders directly.
 #![forbid(unsafe_code)]
@@ -12,17 +12,12 @@
 pub mod args;
 pub mod commands;
 pub mod demo_data;
-pub mod encode;
 pub mod error;
 pub mod harness;
 pub mod interrupt;
 pub mod json;
 pub mod memory;
-pub mod model;
-pub mod model_file;
 pub mod output;
 pub mod plots;
-pub mod reader;
 pub mod report;
-pub mod schema;
 pub mod ui;

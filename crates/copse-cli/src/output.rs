@@ -3,7 +3,7 @@
 //! destination only once it is complete and flushed to disk. Standard output and
 //! device files (such as `/dev/null`) are written directly.
 use crate::error::{CliError, CliResult};
-use crate::reader::io_reason;
+use copse_forest::io_reason;
 use std::fs::{self, File, OpenOptions};
 use std::io::{self, BufWriter, Stdout, Write};
 use std::path::{Path, PathBuf};

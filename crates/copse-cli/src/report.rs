@@ -2,8 +2,8 @@
 //! label/value lines, a confusion table with the share wrong at the end of each row,
 //! and an importance ranking with a bar per input. Every report ends with the caution
 //! that a model supports, and does not replace, professional judgement.
-use crate::model::Model;
-use crate::schema::Task;
+use copse_forest::Forest as Model;
+use copse_forest::Task;
 use copse_forest::{
     mirrored_null_test, ClassMetrics, FeatureKind, Importance, ImportanceMeasure, Metrics,
     PermutationImportance, Sampling, Significance, SignificanceTest, ValueMetrics,
@@ -99,8 +99,7 @@ pub fn sampling_words(s: &Sampling, balanced: bool) -> String {
 
 /// The data section.
 pub fn data_section(out: &mut String, st: Style, model: &Model) {
-    let t = &model.training;
-    let schema = &model.schema;
+    let t = model.card();
     let _ = writeln!(out, "{}", st.head("DATA"));
     line(out, "source", &t.source);
     let used = t.rows_read.saturating_sub(t.rows_without_outcome);
@@ -112,26 +111,20 @@ pub fn data_section(out: &mut String, st: Style, model: &Model) {
             t.rows_read, t.rows_without_outcome
         ),
     );
-    match schema.target.task {
+    match model.task() {
         Task::Classify => {
             line(
                 out,
                 "target",
                 &format!(
                     "{} (classification, {} classes)",
-                    schema.target.name,
-                    schema.target.classes.len()
+                    t.target,
+                    model.classes().len()
                 ),
             );
             let total: u64 = t.class_counts.iter().sum::<u64>().max(1);
-            let w = schema
-                .target
-                .classes
-                .iter()
-                .map(|c| c.len())
-                .max()
-                .unwrap_or(0);
-            for (c, n) in schema.target.classes.iter().zip(&t.class_counts) {
+            let w = model.classes().iter().map(|c| c.len()).max().unwrap_or(0);
+            for (c, n) in model.classes().iter().zip(&t.class_counts) {
                 line(
                     out,
                     "",
@@ -151,29 +144,21 @@ pub fn data_section(out: &mut String, st: Style, model: &Model) {
                     )
                 })
                 .unwrap_or_default();
-            line(
-                out,
-                "target",
-                &format!("{} (regression{range})", schema.target.name),
-            );
+            line(out, "target", &format!("{} (regression{range})", t.target));
         }
     }
-    let n_cat = schema
-        .features
-        .iter()
-        .filter(|f| f.is_categorical())
-        .count();
+    let n_cat = model.meta().iter().filter(|f| f.is_categorical()).count();
     line(
         out,
         "inputs",
         &format!(
             "{}: {} numeric, {n_cat} categorical",
-            schema.features.len(),
-            schema.features.len() - n_cat
+            model.meta().len(),
+            model.meta().len() - n_cat
         ),
     );
-    for (j, f) in schema.features.iter().enumerate().take(40) {
-        let kind = match (&f.kind, schema.bins.get(j)) {
+    for (j, f) in model.meta().iter().enumerate().take(40) {
+        let kind = match (&f.kind, model.bins().get(j)) {
             (FeatureKind::Categorical { levels }, _) => {
                 format!("categorical, {} categories", levels.len())
             }
@@ -187,11 +172,11 @@ pub fn data_section(out: &mut String, st: Style, model: &Model) {
         };
         line(out, "", &format!("  {:<24}{kind}", f.name));
     }
-    if schema.features.len() > 40 {
+    if model.meta().len() > 40 {
         line(
             out,
             "",
-            &format!("  ... and {} more", schema.features.len() - 40),
+            &format!("  ... and {} more", model.meta().len() - 40),
         );
     }
     if !t.ignored.is_empty() {
@@ -202,17 +187,17 @@ pub fn data_section(out: &mut String, st: Style, model: &Model) {
 
 /// The settings section.
 pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Option<usize>) {
-    let f = &model.forest;
+    let f = model;
     let s = f.settings();
     let _ = writeln!(out, "{}", st.head("SETTINGS"));
     line(out, "trees", &s.trees.to_string());
     let p = f.n_features();
     let k = f.features_per_split();
-    let classify = model.schema.target.task == Task::Classify;
+    let classify = model.task() == Task::Classify;
     let kind = if k >= p {
         "every input: bagged trees".to_string()
     } else {
-        let rule = model.training.features_rule.as_str();
+        let rule = model.card().features_rule.as_str();
         match rule {
             "auto" if classify => {
                 "square root of the inputs, the usual choice for classes".to_string()
@@ -230,7 +215,7 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
         "rows per tree",
         &sampling_words(&s.sampling, s.balanced),
     );
-    if model.schema.target.task == Task::Classify {
+    if model.task() == Task::Classify {
         line(
             out,
             "split measure",
@@ -360,7 +345,7 @@ pub fn value_block(out: &mut String, m: &ValueMetrics, rows_label: &str) {
 
 /// The out-of-bag section.
 pub fn oob_section(out: &mut String, st: Style, model: &Model) {
-    let f = &model.forest;
+    let f = model;
     let oob = f.oob();
     let _ = writeln!(
         out,
@@ -605,7 +590,7 @@ pub fn importance_section_with(
     shuffle: Option<&Significance>,
 ) {
     let _ = writeln!(out, "{}", st.head("WHICH INPUTS MATTER"));
-    match model.forest.oob_importance() {
+    match model.oob_importance() {
         Some(imp) => {
             let _ = writeln!(out, "{}", importance_intro(&imp.error, false));
             let _ = writeln!(out);
@@ -629,15 +614,15 @@ pub fn importance_section_with(
 
 /// Advice when a rare class is mostly missed at the plain majority vote.
 pub fn rare_class_advice(model: &Model) -> Option<String> {
-    let Some(Metrics::Classes(m)) = &model.forest.oob().metrics else {
+    let Some(Metrics::Classes(m)) = &model.oob().metrics else {
         return None;
     };
-    let total: u64 = model.training.class_counts.iter().sum();
+    let total: u64 = model.card().class_counts.iter().sum();
     if total == 0 {
         return None;
     }
-    for (c, label) in model.forest.classes().iter().enumerate() {
-        let share = model.training.class_counts.get(c).copied().unwrap_or(0) as f64 / total as f64;
+    for (c, label) in model.classes().iter().enumerate() {
+        let share = model.card().class_counts.get(c).copied().unwrap_or(0) as f64 / total as f64;
         let err = m.class_error.get(c).copied().flatten().unwrap_or(0.0);
         if share < 0.25 && err > 0.5 {
             return Some(format!(

@@ -1,6 +1,7 @@
 //! Typed errors of the forest engine: a kind a caller can match on and a message a
 //! person can act on.
 use std::fmt;
+use std::io;
 
 /// What went wrong, for callers that react differently to different failures.
 #[non_exhaustive]
@@ -25,6 +26,20 @@ pub enum ErrorKind {
     InvalidModel,
     /// A failure of the tree core that has no closer match here.
     Tree,
+    /// A model file cannot be opened, read or written.
+    Io,
+    /// A file that is not a copse model (it lacks the model marker).
+    NotAModel,
+    /// A model file written by a newer copse.
+    NewerFormat,
+    /// A model file written by an earlier copse, in a format this one no longer reads.
+    OlderFormat,
+    /// A model file cut short, padded or altered: its length or checksum does not match.
+    Damaged,
+    /// A model file whose checksum matches but whose contents do not decode as a model.
+    Undecodable,
+    /// A model file larger than copse agrees to read.
+    FileTooLarge,
 }
 
 /// An error from the forest engine.
@@ -84,4 +99,19 @@ pub type Result<T> = std::result::Result<T, Error>;
 /// Shorthand for an `InvalidSetting` error.
 pub(crate) fn bad_setting<T>(message: impl Into<String>) -> Result<T> {
     Err(Error::new(ErrorKind::InvalidSetting, message))
+}
+
+/// The reason part of an I/O error, without the OS error number.
+pub fn io_reason(e: &io::Error) -> String {
+    match e.kind() {
+        io::ErrorKind::NotFound => "no such file".to_string(),
+        io::ErrorKind::PermissionDenied => "permission denied".to_string(),
+        _ => {
+            let s = e.to_string();
+            match s.find(" (os error") {
+                Some(i) => s[..i].to_string(),
+                None => s,
+            }
+        }
+    }
 }

@@ -1,31 +1,23 @@
 //! The trained model: trees, the task, the settings that made it, and the summaries
 //! computed while training (out-of-bag accuracy, importance).
+use crate::card::ModelCard;
 use crate::error::{Error, ErrorKind, Result};
 use crate::importance::{Importance, PermutationImportance};
 use crate::inbag::InBag;
 use crate::oob::{OobReport, OobSummary};
 use crate::outcome::{Outcome, MISSING};
 use crate::settings::ForestSettings;
-use copse_tree::{FeatureMeta, Tree};
+use crate::task::Task;
+use copse_tree::{FeatureBins, FeatureMeta, Tree};
 use serde::{Deserialize, Serialize};
-
-/// What the forest predicts.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub enum Task {
-    /// Class probabilities, one column per class in this order.
-    Classification {
-        /// Class labels in model order.
-        classes: Vec<String>,
-    },
-    /// One value per row.
-    Regression,
-}
 
 /// A trained ensemble of trees.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Forest {
     pub(crate) meta: Vec<FeatureMeta>,
     pub(crate) task: Task,
+    /// Class labels in model order (empty for regression).
+    pub(crate) classes: Vec<String>,
     pub(crate) trees: Vec<Tree>,
     pub(crate) settings: ForestSettings,
     pub(crate) features_per_split: usize,
@@ -35,6 +27,11 @@ pub struct Forest {
     pub(crate) impurity_importance: Importance,
     /// Times each tree drew each training row, when kept ([`crate::TrainOptions`]).
     pub(crate) inbag: Option<InBag>,
+    /// Each input's bin layout as training used it (for numeric inputs, the lowest and
+    /// highest training value in each bin).
+    pub(crate) bins: Vec<FeatureBins>,
+    /// How the model was made.
+    pub(crate) card: ModelCard,
 }
 
 /// What [`Forest::train`] returns: the model, and the per-row out-of-bag results that
@@ -59,24 +56,46 @@ impl Forest {
     }
 
     /// What the forest predicts.
-    pub fn task(&self) -> &Task {
-        &self.task
+    pub fn task(&self) -> Task {
+        self.task
     }
 
     /// Class labels in model order (empty for regression).
     pub fn classes(&self) -> &[String] {
-        match &self.task {
-            Task::Classification { classes } => classes,
-            Task::Regression => &[],
-        }
+        &self.classes
     }
 
     /// Width of a prediction row: number of classes, or 1.
     pub fn n_outputs(&self) -> usize {
-        match &self.task {
-            Task::Classification { classes } => classes.len(),
-            Task::Regression => 1,
+        match self.task {
+            Task::Classify => self.classes.len(),
+            Task::Regress => 1,
         }
+    }
+
+    /// Each input's bin layout as training used it.
+    pub fn bins(&self) -> &[FeatureBins] {
+        &self.bins
+    }
+
+    /// How the model was made: outcome column, missing tokens, source, row counts.
+    pub fn card(&self) -> &ModelCard {
+        &self.card
+    }
+
+    /// Replaces the model card (the data layer records the file the rows came from).
+    ///
+    /// # Errors
+    /// `InvalidModel` when the card's counts do not fit the model.
+    pub fn set_card(&mut self, card: ModelCard) -> Result<()> {
+        card.check(self.classes.len(), &self.oob).map_err(|e| {
+            Error::new(
+                ErrorKind::InvalidModel,
+                format!("the model card does not fit: {}", e.message()),
+            )
+        })?;
+        self.card = card;
+        Ok(())
     }
 
     /// The trees, in index order.
@@ -156,6 +175,32 @@ impl Forest {
         if self.trees.is_empty() {
             return bad(0, "is missing: the model has no trees".into());
         }
+        let whole = |what: String| {
+            Err(Error::new(
+                ErrorKind::InvalidModel,
+                format!("the model is inconsistent: {what}; retrain or use another model file"),
+            ))
+        };
+        match self.task {
+            Task::Classify if self.classes.is_empty() => {
+                return whole("it predicts classes but lists none".into())
+            }
+            Task::Regress if !self.classes.is_empty() => {
+                return whole("it is a regression model with class outputs".into())
+            }
+            _ => {}
+        }
+        let bins_fit = self.bins.len() == p
+            && self
+                .bins
+                .iter()
+                .all(|b| b.categorical || (b.lo.len() == b.n_bins && b.hi.len() == b.n_bins));
+        if !bins_fit {
+            return whole("its bin layout does not match its inputs".into());
+        }
+        if let Err(e) = self.card.check(self.classes.len(), &self.oob) {
+            return whole(e.message().to_string());
+        }
         for (t, tree) in self.trees.iter().enumerate() {
             if tree.n_features() != p {
                 return bad(
@@ -186,8 +231,9 @@ impl Forest {
     /// value outcome fits a regression model.
     pub(crate) fn align(&self, outcome: &Outcome) -> Result<Outcome> {
         outcome.validate()?;
-        match (&self.task, outcome) {
-            (Task::Classification { classes }, Outcome::Classes { codes, labels }) => {
+        let classes = &self.classes;
+        match (self.task, outcome) {
+            (Task::Classify, Outcome::Classes { codes, labels }) => {
                 let mut map = Vec::with_capacity(labels.len());
                 for l in labels {
                     map.push(classes.iter().position(|c| c == l));
@@ -218,13 +264,13 @@ impl Forest {
                     labels: classes.clone(),
                 })
             }
-            (Task::Regression, Outcome::Values(v)) => Ok(Outcome::Values(v.clone())),
-            (Task::Classification { .. }, Outcome::Values(_)) => Err(Error::new(
+            (Task::Regress, Outcome::Values(v)) => Ok(Outcome::Values(v.clone())),
+            (Task::Classify, Outcome::Values(_)) => Err(Error::new(
                 ErrorKind::OutcomeMismatch,
                 "the model predicts classes but the outcome given is numeric; give the class \
                  labels",
             )),
-            (Task::Regression, Outcome::Classes { .. }) => Err(Error::new(
+            (Task::Regress, Outcome::Classes { .. }) => Err(Error::new(
                 ErrorKind::OutcomeMismatch,
                 "the model predicts values but the outcome given is classes; give numbers",
             )),

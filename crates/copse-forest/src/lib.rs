@@ -11,6 +11,9 @@
 //! - [`predict`]: batch prediction and evaluation on labelled data;
 //! - [`metrics`]: error, confusion matrix, log loss, Brier score, ROC AUC, MSE;
 //! - [`importance`]: permutation and impurity-decrease importance;
+//! - [`card`]: what a model file records about how the model was made ([`ModelCard`]);
+//! - [`model_file`]: the model file: save, load, bytes, checks on reading;
+//! - [`task`]: classes or numbers ([`Task`]);
 //! - [`inbag`]: how many times each tree drew each row, kept on request ([`InBag`]);
 //! - [`significance`]: p-values for permutation importance;
 //! - [`stability`]: how one tree, bagged trees and a forest vary over seeds;
@@ -37,12 +40,16 @@
 //! ```
 #![deny(missing_docs)]
 #![forbid(unsafe_code)]
+// Tests may unwrap: a panic there is a failed test, not a user-facing crash.
+#![cfg_attr(test, allow(clippy::unwrap_used))]
 
+pub mod card;
 pub mod error;
 pub mod forest;
 pub mod importance;
 pub mod inbag;
 pub mod metrics;
+pub mod model_file;
 pub mod oob;
 pub mod outcome;
 pub mod predict;
@@ -52,20 +59,25 @@ pub mod settings;
 pub mod significance;
 pub mod stability;
 pub mod synth;
+pub mod task;
 pub mod train;
 pub mod uncertainty;
 
+pub use card::{ModelCard, STANDARD_MISSING_TOKENS};
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
-pub use error::{Error, ErrorKind, Result};
-pub use forest::{Forest, Task, Trained};
+pub use error::{io_reason, Error, ErrorKind, Result};
+pub use forest::{Forest, Trained};
 pub use importance::{
     FeatureImportance, Importance, ImportanceMeasure, ImportanceMethod, PermutationImportance,
     IMPURITY_CAUTION,
 };
 pub use inbag::InBag;
 pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics};
+/// The array crate copse takes its tables from, re-exported so a user names the same
+/// version.
+pub use ndarray;
 pub use oob::{OobReport, OobSummary};
-pub use outcome::{Outcome, MISSING};
+pub use outcome::{natural_order, Outcome, MISSING};
 pub use predict::Evaluation;
 pub use settings::{FeaturesPerSplit, ForestSettings, Sampling};
 pub use significance::{
@@ -75,10 +87,6 @@ pub use significance::{
 pub use stability::{
     stability_report, KindStability, ModelKind, StabilityReport, StabilitySettings,
 };
+pub use task::Task;
 pub use train::{Progress, Stage, TrainOptions};
 pub use uncertainty::Uncertainty;
-
-/// The README's Rust examples, compiled as doctests so they cannot drift from the API.
-#[cfg(doctest)]
-#[doc = include_str!("../../../README.md")]
-pub struct ReadmeExamples;

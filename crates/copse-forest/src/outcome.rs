@@ -2,9 +2,30 @@
 use crate::error::{Error, ErrorKind, Result};
 use copse_tree::target::MISSING_CLASS;
 use copse_tree::Target;
+use std::cmp::Ordering;
 
 /// Class code that marks a missing outcome.
 pub const MISSING: u32 = MISSING_CLASS;
+
+/// Natural order of labels: finite numbers by value first, then text in byte order.
+/// Both the engine ([`Outcome::from_labels`]) and the data layer list classes and
+/// categories in this order, so codes never depend on row order.
+///
+/// # Example
+/// ```
+/// let mut v = vec!["10", "b", "2", "a", "1.5"];
+/// v.sort_by(|a, b| copse_forest::natural_order(a, b));
+/// assert_eq!(v, ["1.5", "2", "10", "a", "b"]);
+/// ```
+pub fn natural_order(a: &str, b: &str) -> Ordering {
+    let number = |s: &str| s.parse::<f64>().ok().filter(|v| v.is_finite());
+    match (number(a), number(b)) {
+        (Some(x), Some(y)) => x.total_cmp(&y).then_with(|| a.cmp(b)),
+        (Some(_), None) => Ordering::Less,
+        (None, Some(_)) => Ordering::Greater,
+        (None, None) => a.cmp(b),
+    }
+}
 
 /// The outcome, one entry per row.
 #[derive(Debug, Clone, PartialEq)]
@@ -23,7 +44,9 @@ pub enum Outcome {
 
 impl Outcome {
     /// Class outcome from one optional label per row; the classes are the distinct
-    /// labels in sorted (byte) order, so the class order does not depend on row order.
+    /// labels in [`natural_order`] (numbers by value, then text), the same order the
+    /// data layer gives a class column read from a file, so the class order does not
+    /// depend on row order or on how the labels arrived.
     pub fn from_labels<I, S>(labels: I) -> Outcome
     where
         I: IntoIterator<Item = Option<S>>,
@@ -34,12 +57,14 @@ impl Outcome {
             .map(|l| l.map(|s| s.as_ref().to_string()))
             .collect();
         let mut classes: Vec<String> = raw.iter().flatten().cloned().collect();
-        classes.sort();
+        classes.sort_by(|a, b| natural_order(a, b));
         classes.dedup();
         let codes = raw
             .iter()
             .map(|l| match l {
-                Some(s) => classes.binary_search(s).map_or(MISSING, |k| k as u32),
+                Some(s) => classes
+                    .binary_search_by(|c| natural_order(c, s))
+                    .map_or(MISSING, |k| k as u32),
                 None => MISSING,
             })
             .collect();

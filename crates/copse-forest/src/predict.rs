@@ -2,9 +2,10 @@
 //! class distributions) or values (mean of the trees' leaf means), and evaluation of
 //! predictions against a known outcome.
 use crate::error::{Error, ErrorKind, Result};
-use crate::forest::{Forest, Task};
+use crate::forest::Forest;
 use crate::metrics::{class_metrics, predicted_class, value_metrics, Metrics};
 use crate::outcome::Outcome;
+use crate::task::Task;
 use copse_tree::tree::CompactTree;
 use copse_tree::Tree;
 use ndarray::{Array2, ArrayView1, ArrayView2};
@@ -80,11 +81,9 @@ impl Forest {
     /// Label of the predicted class for a row of probabilities (highest probability,
     /// ties to the first class in model order); `None` for regression.
     pub fn class_label(&self, probs: &[f64]) -> Option<&str> {
-        match &self.task {
-            Task::Classification { classes } => {
-                classes.get(predicted_class(probs)).map(String::as_str)
-            }
-            Task::Regression => None,
+        match self.task {
+            Task::Classify => self.classes.get(predicted_class(probs)).map(String::as_str),
+            Task::Regress => None,
         }
     }
 

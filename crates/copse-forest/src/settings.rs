@@ -58,6 +58,20 @@ impl FeaturesPerSplit {
     }
 }
 
+impl std::fmt::Display for FeaturesPerSplit {
+    /// The rule as it is spelled on the command line (`auto`, `sqrt`, `4`, `0.5`, ...).
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            FeaturesPerSplit::Auto => f.write_str("auto"),
+            FeaturesPerSplit::Sqrt => f.write_str("sqrt"),
+            FeaturesPerSplit::Log2 => f.write_str("log2"),
+            FeaturesPerSplit::All => f.write_str("all"),
+            FeaturesPerSplit::Count(k) => write!(f, "{k}"),
+            FeaturesPerSplit::Fraction(x) => write!(f, "{x}"),
+        }
+    }
+}
+
 impl FromStr for FeaturesPerSplit {
     type Err = Error;
 

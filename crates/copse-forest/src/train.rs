@@ -1,8 +1,9 @@
 //! Training: grow the trees in parallel on one shared binned copy of the data, then
 //! compute the out-of-bag estimates and importance, all combined in tree-index order
 //! so the model is the same for any number of threads.
+use crate::card::ModelCard;
 use crate::error::{bad_setting, Error, ErrorKind, Result};
-use crate::forest::{Forest, Task, Trained};
+use crate::forest::{Forest, Trained};
 use crate::importance::{impurity_importance, oob_permutation};
 use crate::inbag::InBag;
 use crate::oob::{out_of_bag, OobMask};
@@ -10,6 +11,7 @@ use crate::outcome::Outcome;
 use crate::rng::{task_rng, Purpose};
 use crate::sample::Sampler;
 use crate::settings::ForestSettings;
+use crate::task::Task;
 use copse_tree::{BinnedData, FeatureMeta, Grower, Tree};
 use ndarray::ArrayView2;
 use rayon::prelude::*;
@@ -169,6 +171,7 @@ impl Forest {
                 },
             )
             .collect::<Result<Vec<_>>>()?;
+        let bins = data.bins().to_vec();
         drop(data);
 
         let mut trees = Vec::with_capacity(n_trees);
@@ -196,15 +199,15 @@ impl Forest {
             None
         };
         let impurity = impurity_importance(&trees, &bag_weights, meta, outcome, &settings.tree);
-        let task = match outcome {
-            Outcome::Classes { labels, .. } => Task::Classification {
-                classes: labels.clone(),
-            },
-            Outcome::Values(_) => Task::Regression,
+        let (task, classes) = match outcome {
+            Outcome::Classes { labels, .. } => (Task::Classify, labels.clone()),
+            Outcome::Values(_) => (Task::Regress, Vec::new()),
         };
+        let card = ModelCard::for_outcome(outcome, settings.features_per_split.to_string());
         let forest = Forest {
             meta: meta.to_vec(),
             task,
+            classes,
             trees,
             settings: settings.clone(),
             features_per_split: k,
@@ -213,6 +216,8 @@ impl Forest {
             oob_importance,
             impurity_importance: impurity,
             inbag,
+            bins,
+            card,
         };
         Ok(Trained {
             forest,

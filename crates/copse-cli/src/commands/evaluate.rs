@@ -16,7 +16,6 @@ use std::fmt::Write;
 pub fn run(a: &EvaluateArgs, ui: &Ui) -> CliResult<()> {
     let (model, source, data) = load_labelled(&a.model, &a.data, &a.csv, ui)?;
     let eval = model
-        .forest
         .evaluate(data.x.view(), &data.outcome)
         .map_err(|e| forest_error(&e, &format!("cannot evaluate on {source}")))?;
     let unseen: u64 = data.encoder.unseen_counts().iter().sum();
@@ -57,13 +56,11 @@ pub fn run(a: &EvaluateArgs, ui: &Ui) -> CliResult<()> {
     let _ = writeln!(text);
     let _ = writeln!(text, "{}", st.head("HOW WELL IT PREDICTS THESE ROWS"));
     match &eval.metrics {
-        Metrics::Classes(m) => {
-            report::class_block(&mut text, m, model.forest.classes(), "rows judged")
-        }
+        Metrics::Classes(m) => report::class_block(&mut text, m, model.classes(), "rows judged"),
         Metrics::Values(m) => report::value_block(&mut text, m, "rows judged"),
     }
     let _ = writeln!(text);
-    if let Some(oob) = &model.forest.oob().metrics {
+    if let Some(oob) = &model.oob().metrics {
         let (now, then) = match (&eval.metrics, oob) {
             (Metrics::Classes(e), Metrics::Classes(o)) => (pct(e.error), pct(o.error)),
             _ => (sig(eval.metrics.error(), 4), sig(oob.error(), 4)),

@@ -6,9 +6,9 @@ use crate::commands::{emit, load_labelled};
 use crate::error::{forest_error, CliError, CliResult};
 use crate::output::write_file;
 use crate::report::{self, Style};
-use crate::schema::Task;
 use crate::ui::Ui;
 use crate::{json, plots};
+use copse_forest::Task;
 use serde_json::json;
 use std::fmt::Write;
 
@@ -22,12 +22,11 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
     }
     let (model, source, data) = load_labelled(&a.model, &a.data, &a.csv, ui)?;
     let imp = model
-        .forest
         .permutation_importance(data.x.view(), &data.outcome, a.repeats as usize, a.seed)
         .map_err(|e| forest_error(&e, &format!("cannot compute importance on {source}")))?;
 
     if let Some(path) = &a.plot {
-        let measure = match model.schema.target.task {
+        let measure = match model.task() {
             Task::Classify => "misclassification rate",
             Task::Regress => "mean squared error",
         };

@@ -4,9 +4,9 @@ use crate::args::InspectArgs;
 use crate::commands::emit;
 use crate::error::{CliError, CliResult};
 use crate::json;
-use crate::model::Model;
 use crate::report::{self, bytes_words, Style};
 use crate::ui::Ui;
+use copse_forest::Forest as Model;
 use copse_tree::render::render;
 use serde_json::json;
 use std::fmt::Write;
@@ -23,15 +23,15 @@ struct Sizes {
 }
 
 fn sizes(model: &Model, file_bytes: u64) -> Sizes {
-    let trees = model.forest.trees();
+    let trees = model.trees();
     let depths: Vec<usize> = trees.iter().map(|t| t.depth()).collect();
     Sizes {
         trees: trees.len(),
-        nodes: model.forest.n_nodes(),
+        nodes: model.n_nodes(),
         leaves: trees.iter().map(|t| t.n_leaves()).sum(),
         deepest: depths.iter().copied().max().unwrap_or(0),
         mean_depth: depths.iter().sum::<usize>() as f64 / depths.len().max(1) as f64,
-        bytes_in_memory: model.forest.heap_bytes(),
+        bytes_in_memory: model.heap_bytes(),
         file_bytes,
     }
 }
@@ -41,9 +41,9 @@ fn sizes(model: &Model, file_bytes: u64) -> Sizes {
 /// # Errors
 /// Input errors for a bad model or tree number; failures when writing.
 pub fn run(a: &InspectArgs, ui: &Ui) -> CliResult<()> {
-    let model = Model::load(&a.model)?;
+    let model = crate::commands::load_model(&a.model)?;
     let file_bytes = std::fs::metadata(&a.model).map(|m| m.len()).unwrap_or(0);
-    let n_trees = model.forest.trees().len();
+    let n_trees = model.trees().len();
     let tree = match a.tree {
         Some(k) if k >= n_trees => {
             return Err(CliError::input(format!(
@@ -51,11 +51,11 @@ pub fn run(a: &InspectArgs, ui: &Ui) -> CliResult<()> {
                 n_trees - 1
             )))
         }
-        Some(k) => Some((k, &model.forest.trees()[k])),
+        Some(k) => Some((k, &model.trees()[k])),
         None => None,
     };
-    let classes = (!model.forest.classes().is_empty()).then(|| model.forest.classes());
-    let rules = tree.map(|(k, t)| (k, t, render(t, model.forest.meta(), classes)));
+    let classes = (!model.classes().is_empty()).then(|| model.classes());
+    let rules = tree.map(|(k, t)| (k, t, render(t, model.meta(), classes)));
     let s = sizes(&model, file_bytes);
 
     if a.json {
@@ -75,7 +75,7 @@ pub fn run(a: &InspectArgs, ui: &Ui) -> CliResult<()> {
         );
         map.insert(
             "impurity_importance".into(),
-            json::ranking(model.forest.impurity_importance()),
+            json::ranking(model.impurity_importance()),
         );
         if let Some((k, t, text)) = &rules {
             map.insert(
@@ -98,7 +98,7 @@ pub fn run(a: &InspectArgs, ui: &Ui) -> CliResult<()> {
         text,
         "copse model {} (made by copse {})\n",
         a.model.display(),
-        model.training.copse_version
+        model.card().copse_version
     );
     report::data_section(&mut text, st, &model);
     report::settings_section(&mut text, st, &model, None);

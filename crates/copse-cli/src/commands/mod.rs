@@ -68,7 +68,7 @@ pub fn make_folder(dir: &std::path::Path) -> CliResult<()> {
         CliError::failure(format!(
             "could not create the folder {}: {}",
             dir.display(),
-            crate::reader::io_reason(&e)
+            copse_forest::io_reason(&e)
         ))
     })
 }
@@ -99,6 +99,15 @@ pub fn check_destination(path: &std::path::Path) -> CliResult<()> {
     Ok(())
 }
 
+/// Reads a model file with every check a file from elsewhere must pass.
+///
+/// # Errors
+/// An input error (exit 2) for a missing, damaged, foreign, newer or inconsistent
+/// file, naming it and saying what to do.
+pub fn load_model(path: &std::path::Path) -> CliResult<copse_forest::Forest> {
+    copse_forest::Forest::load(path).map_err(|e| CliError::input(e.message()))
+}
+
 /// Loads a model and reads labelled rows it has not seen, the common start of
 /// `evaluate` and `importance`: missing tokens default to the model's, and categories
 /// the model never saw are warned about. Returns the model, the data's name and rows.
@@ -110,15 +119,15 @@ pub fn load_labelled(
     data: &str,
     csv: &crate::args::CsvArgs,
     ui: &Ui,
-) -> CliResult<(crate::model::Model, String, crate::encode::Labelled)> {
-    let model = crate::model::Model::load(model)?;
-    let input = crate::reader::CsvInput::open(data, csv.delimiter.into())?;
+) -> CliResult<(copse_forest::Forest, String, copse_data::Labelled)> {
+    let model = load_model(model)?;
+    let input = copse_data::CsvInput::open(data, csv.delimiter.into())?;
     let source = input.name().to_string();
     let missing = csv.missing.as_deref().map_or_else(
-        || model.schema.missing.clone(),
-        crate::schema::Missing::from_list,
+        || copse_data::Missing::of_model(&model),
+        copse_data::Missing::from_list,
     );
-    let labelled = crate::encode::read_labelled(input, &model.schema, missing)?;
+    let labelled = copse_data::read_labelled(input, &model, missing)?;
     if let Some(w) = labelled.encoder.unseen_warning() {
         ui.warn(&w);
     }
@@ -130,19 +139,19 @@ pub fn load_labelled(
 /// data go to standard error.
 ///
 /// # Errors
-/// Input errors naming the file, line and column, as from [`crate::schema::load_training`].
+/// Input errors naming the file, line and column, as from [`copse_data::TrainingTable::from_csv`].
 pub fn read_training(
     data: &str,
     roles: &crate::args::ColumnRoles,
     csv: &crate::args::CsvArgs,
     ui: &Ui,
-) -> CliResult<crate::schema::TrainingData> {
-    let input = crate::reader::CsvInput::open(data, csv.delimiter.into())?;
+) -> CliResult<copse_data::TrainingTable> {
+    let input = copse_data::CsvInput::open(data, csv.delimiter.into())?;
     let missing = csv.missing.as_deref().map_or_else(
-        crate::schema::Missing::standard,
-        crate::schema::Missing::from_list,
+        copse_data::Missing::standard,
+        copse_data::Missing::from_list,
     );
-    let training = crate::schema::load_training(input, &roles.into(), missing)?;
+    let training = copse_data::TrainingTable::from_csv(input, &roles.into(), missing)?;
     for n in &training.notes {
         ui.note(n);
     }
@@ -155,9 +164,9 @@ pub fn read_training(
 /// An input error naming the file and the counts allowed.
 pub fn check_features_per_split(
     rule: copse_forest::FeaturesPerSplit,
-    data: &crate::schema::TrainingData,
+    data: &copse_data::TrainingTable,
 ) -> CliResult<()> {
-    let p = data.schema.features.len();
+    let p = data.features.len();
     match rule {
         copse_forest::FeaturesPerSplit::Count(k) if k > p => Err(CliError::input(format!(
             "--features-per-split {k} is more than the {p} inputs in {}; choose 1 to {p}",

@@ -7,13 +7,12 @@
 //! of the input.
 use crate::args::ScoreArgs;
 use crate::commands::train::compact;
-use crate::encode::RowEncoder;
 use crate::error::{forest_error, CliError, CliResult};
-use crate::model::Model;
 use crate::output::{refuse_overwrite, Output};
-use crate::reader::{CsvInput, Row};
-use crate::schema::Missing;
 use crate::ui::Ui;
+use copse_data::Missing;
+use copse_data::RowEncoder;
+use copse_data::{CsvInput, Row};
 use ndarray::ArrayView2;
 use rayon::prelude::*;
 use std::io::Write;
@@ -53,8 +52,8 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
             ));
         }
     }
-    let model = Model::load(&a.model)?;
-    let forest = &model.forest;
+    let model = crate::commands::load_model(&a.model)?;
+    let forest = &model;
     if a.uncertainty && forest.inbag().is_none() {
         return Err(CliError::input(format!(
             "{} holds no record of which rows each tree drew, which --uncertainty needs; \
@@ -67,8 +66,8 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         .csv
         .missing
         .as_deref()
-        .map_or_else(|| model.schema.missing.clone(), Missing::from_list);
-    let mut enc = RowEncoder::new(&input, &model.schema, missing, false)?;
+        .map_or_else(|| Missing::of_model(&model), Missing::from_list);
+    let mut enc = RowEncoder::new(&input, &model, missing, false)?;
 
     let keep: Vec<usize> = a
         .keep
@@ -104,7 +103,7 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
 
     let mut out = Output::create(a.out.as_deref())?;
     let out_name = out.name().to_string();
-    let delimiter = crate::reader::Delimiter::from(a.csv.delimiter).byte();
+    let delimiter = copse_data::Delimiter::from(a.csv.delimiter).byte();
     let header_text = csv_text(delimiter, 256, |w| w.write_record(&header))?;
     // The header goes out with the first block, so a fault in the first rows leaves
     // standard output empty.
@@ -443,7 +442,7 @@ struct Unscorable {
 impl Unscorable {
     const SHOWN: usize = 10;
 
-    fn add(&mut self, line: u64, e: CliError) {
+    fn add(&mut self, line: u64, e: copse_data::Error) {
         self.count += 1;
         if self.lines.len() < Self::SHOWN {
             self.lines.push(line);

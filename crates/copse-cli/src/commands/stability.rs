@@ -50,7 +50,7 @@ pub fn run(a: &StabilityArgs, ui: &Ui) -> CliResult<()> {
     let bar = ui.bar(total, "training models");
     let result = stability_report(
         data.x.view(),
-        &data.schema.features,
+        &data.features,
         &data.outcome,
         &settings,
         &|done, _| bar.advance_to(done),
@@ -58,13 +58,8 @@ pub fn run(a: &StabilityArgs, ui: &Ui) -> CliResult<()> {
     bar.finish();
     let r = result
         .map_err(|e| forest_error(&e, &format!("cannot compare models on {}", data.source)))?;
-    let names: Vec<String> = data
-        .schema
-        .features
-        .iter()
-        .map(|f| f.name.clone())
-        .collect();
-    let target = &data.schema.target.name;
+    let names: Vec<String> = data.features.iter().map(|f| f.name.clone()).collect();
+    let target = &data.target;
 
     if let Some(path) = &a.plot {
         let sub = format!(

@@ -6,15 +6,14 @@ use crate::commands::{
 };
 use crate::error::{forest_error, CliError, CliResult};
 use crate::memory;
-use crate::model::{Model, TrainingRecord};
 use crate::output::{write_file, Output};
 use crate::report::{self, bytes_words, Style};
-use crate::schema::{Task, TrainingData};
 use crate::ui::{Bar, Ui};
 use crate::{json, plots};
+use copse_data::TrainingTable as TrainingData;
 use copse_forest::{
-    response_permutation_test, FeaturesPerSplit, Forest, ForestSettings, Outcome,
-    PermutationSignificance, Progress, Sampling, Significance, Stage, TrainOptions, Trained,
+    response_permutation_test, FeaturesPerSplit, Forest, ForestSettings, PermutationSignificance,
+    Progress, Sampling, Significance, Stage, Task, TrainOptions, Trained,
 };
 use serde_json::{json, Map, Value};
 use std::fmt::Write as _;
@@ -46,17 +45,6 @@ pub fn run(a: &TrainArgs, ui: &Ui) -> CliResult<()> {
         json::print(r.json)
     } else {
         emit(&r.text)
-    }
-}
-
-fn rule_words(f: FeaturesPerSplit) -> String {
-    match f {
-        FeaturesPerSplit::Auto => "auto".into(),
-        FeaturesPerSplit::Sqrt => "sqrt".into(),
-        FeaturesPerSplit::Log2 => "log2".into(),
-        FeaturesPerSplit::All => "all".into(),
-        FeaturesPerSplit::Count(k) => k.to_string(),
-        FeaturesPerSplit::Fraction(x) => x.to_string(),
     }
 }
 
@@ -92,7 +80,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
              row out of bag; use bootstrap or subsample:F",
         ));
     }
-    if a.balanced && data.schema.target.task == Task::Regress {
+    if a.balanced && data.task == Task::Regress {
         return Err(CliError::input(
             "--balanced draws the same number of rows from each class, so it needs a class target; \
              drop --balanced or use --task classify",
@@ -139,19 +127,14 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     };
     let shuffle_error = shuffle.as_ref().map(|s| &s.error);
     let train_secs = started.elapsed().as_secs_f64();
-    let mut model = build_model(&data, trained.forest, &rule_words(fps));
-    // The bin layout the trees were grown on, kept in the schema for inspection. The
-    // forest binned the same data with the same limit, so this cannot fail where
-    // training succeeded.
-    model.schema.bins =
-        copse_tree::BinnedData::new(data.x.view(), &data.schema.features, settings.bin_limit)
-            .map_err(|e| CliError::failure(format!("binning {}: {}", data.source, e.message())))?
-            .bins()
-            .to_vec();
+    let model = trained.forest;
 
     let mut outputs = Vec::new();
-    model.save(&a.out)?;
-    let model_bytes = std::fs::metadata(&a.out).map(|m| m.len()).unwrap_or(0);
+    let bytes = model
+        .to_bytes()
+        .map_err(|e| CliError::failure(format!("{}; nothing was written", e.message())))?;
+    write_file(&a.out, &bytes)?;
+    let model_bytes = bytes.len() as u64;
     outputs.push(("model".to_string(), a.out.clone()));
     if let Some(path) = &a.oob_out {
         write_oob(path, &data, &model, &trained.oob)?;
@@ -178,11 +161,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     let _ = writeln!(text, "{}", st.head("OUTPUTS"));
     for (what, path) in &outputs {
         let size = if what == "model" {
-            format!(
-                " ({}, {} nodes)",
-                bytes_words(model_bytes),
-                model.forest.n_nodes()
-            )
+            format!(" ({}, {} nodes)", bytes_words(model_bytes), model.n_nodes())
         } else {
             String::new()
         };
@@ -196,16 +175,13 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     report::caution(&mut text, st);
 
     let mut map = json::model_object("train", &model);
-    if let Some(imp) = model.forest.oob_importance() {
+    if let Some(imp) = model.oob_importance() {
         json::put_p_values(&mut map, "importance", &imp.error, shuffle_error);
     }
-    map.insert(
-        "oob_error_curve".into(),
-        json!(model.forest.oob().error_curve),
-    );
+    map.insert("oob_error_curve".into(), json!(model.oob().error_curve));
     map.insert(
         "model_file".into(),
-        json!({ "path": a.out.display().to_string(), "bytes": model_bytes, "nodes": model.forest.n_nodes() }),
+        json!({ "path": a.out.display().to_string(), "bytes": model_bytes, "nodes": model.n_nodes() }),
     );
     map.insert(
         "outputs".into(),
@@ -237,7 +213,7 @@ fn check_memory(data: &TrainingData, settings: &ForestSettings, a: &TrainArgs) -
         trees: u64::from(a.trees),
         min_leaf: u64::from(a.min_leaf),
         max_depth: a.max_depth,
-        outputs: data.schema.target.classes.len().max(1) as u64,
+        outputs: data.classes().len().max(1) as u64,
         sampling: settings.sampling,
         keep_draws: a.keep_draws,
     };
@@ -269,7 +245,7 @@ fn shuffled_target_test(
     let bar = ui.bar(u64::from(permutations), "forests on a shuffled target");
     let result = response_permutation_test(
         data.x.view(),
-        &data.schema.features,
+        &data.features,
         &data.outcome,
         settings,
         imp,
@@ -301,51 +277,9 @@ fn grow(
         }
         bar.advance_to(p.done);
     };
-    let result = Forest::train_with_options(
-        data.x.view(),
-        &data.schema.features,
-        &data.outcome,
-        settings,
-        options,
-        &progress,
-    );
+    let result = data.train(settings, options, &progress);
     bar.finish();
     result.map_err(|e| forest_error(&e, &format!("cannot train on {}", data.source)))
-}
-
-pub(crate) fn build_model(data: &TrainingData, forest: Forest, rule: &str) -> Model {
-    let (class_counts, value_range) = match &data.outcome {
-        Outcome::Classes { codes, labels } => {
-            let mut counts = vec![0u64; labels.len()];
-            for &c in codes {
-                if let Some(n) = counts.get_mut(c as usize) {
-                    *n += 1;
-                }
-            }
-            (counts, None)
-        }
-        Outcome::Values(v) => {
-            let known: Vec<f64> = v.iter().copied().filter(|x| !x.is_nan()).collect();
-            let lo = known.iter().copied().fold(f64::INFINITY, f64::min);
-            let hi = known.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-            let mean = known.iter().sum::<f64>() / known.len().max(1) as f64;
-            (Vec::new(), Some([lo, mean, hi]))
-        }
-    };
-    Model {
-        schema: data.schema.clone(),
-        forest,
-        training: TrainingRecord {
-            copse_version: env!("CARGO_PKG_VERSION").to_string(),
-            source: data.source.clone(),
-            rows_read: data.rows_read,
-            rows_without_outcome: data.rows_without_outcome,
-            ignored: data.ignored.clone(),
-            class_counts,
-            features_rule: rule.to_string(),
-            value_range,
-        },
-    }
 }
 
 /// Formats a probability or value compactly: at most six decimals, no trailing zeros;
@@ -380,7 +314,7 @@ pub fn compact(v: f64) -> String {
 fn write_oob(
     path: &Path,
     data: &TrainingData,
-    model: &Model,
+    model: &Forest,
     oob: &copse_forest::OobReport,
 ) -> CliResult<()> {
     let p = path.to_string_lossy().to_string();
@@ -391,7 +325,7 @@ fn write_oob(
         csv::ErrorKind::Io(io) => CliError::write(&name, &io),
         other => CliError::failure(format!("could not write {name}: {other:?}")),
     };
-    let classes = model.forest.classes();
+    let classes = model.classes();
     let mut header = vec![
         "line".to_string(),
         "actual".to_string(),
@@ -407,17 +341,17 @@ fn write_oob(
         let pred = oob.predictions.row(i);
         let judged = oob.trees_out[i] > 0;
         match &data.outcome {
-            Outcome::Classes { codes, labels } => {
+            copse_forest::Outcome::Classes { codes, labels } => {
                 rec.push(labels.get(codes[i] as usize).cloned().unwrap_or_default());
                 let probs: Vec<f64> = pred.to_vec();
                 rec.push(if judged {
-                    model.forest.class_label(&probs).unwrap_or("").to_string()
+                    model.class_label(&probs).unwrap_or("").to_string()
                 } else {
                     String::new()
                 });
                 rec.extend(probs.iter().map(|&v| compact(v)));
             }
-            Outcome::Values(v) => {
+            copse_forest::Outcome::Values(v) => {
                 rec.push(compact(v[i]));
                 rec.push(compact(pred[0]));
             }
@@ -439,20 +373,20 @@ fn write_oob(
 /// A failure when drawing or writing fails.
 pub fn write_plots(
     dir: &Path,
-    model: &Model,
+    model: &Forest,
     shuffle: Option<&Significance>,
 ) -> CliResult<Vec<(String, PathBuf)>> {
     let mut written = Vec::new();
-    let f = &model.forest;
-    let measure = match model.schema.target.task {
+    let f = model;
+    let measure = match model.task() {
         Task::Classify => "misclassification rate",
         Task::Regress => "mean squared error",
     };
     let sub = format!(
         "{} trees, target '{}', data {}",
         f.trees().len(),
-        model.schema.target.name,
-        model.training.source
+        model.card().target,
+        model.card().source
     );
     let draw_err = |e: String| CliError::failure(format!("could not draw a chart: {e}"));
     if let Some(imp) = f.oob_importance() {

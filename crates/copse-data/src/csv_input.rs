@@ -1,7 +1,8 @@
 //! Reading CSV input: a file or standard input (`-`), a header row, one of three
 //! delimiters, with or without a UTF-8 byte-order mark, CRLF or LF line ends, quoted
 //! fields. Every fault is reported with the file name, line and column and a hint.
-use crate::error::{CliError, CliResult};
+use crate::error::{Error, ErrorKind, Result};
+use copse_forest::io_reason;
 use std::fs::File;
 use std::io::{self, Read};
 use std::path::Path;
@@ -47,7 +48,7 @@ pub enum Row {
     /// The input has no more rows.
     End,
     /// The row on this line cannot be read (the error says why); the next can.
-    Fault(u64, CliError),
+    Fault(u64, Error),
 }
 
 /// An open CSV input with its header read and checked.
@@ -158,22 +159,26 @@ impl CsvInput {
     /// # Errors
     /// An input error when the file cannot be opened, is empty, or its header is not
     /// valid UTF-8, has an empty name or a name used twice.
-    pub fn open(path: &str, delimiter: Delimiter) -> CliResult<Self> {
+    pub fn open(path: &str, delimiter: Delimiter) -> Result<Self> {
         let name = display_name(path);
         let (source, size): (Box<dyn Read + Send>, Option<u64>) = if path == "-" {
             (Box::new(io::stdin()), None)
         } else {
             let p = Path::new(path);
             if p.is_dir() {
-                return Err(CliError::input(format!(
-                    "{name} is a folder, not a CSV file; give the path of a file"
-                )));
+                return Err(Error::new(
+                    ErrorKind::Unreadable,
+                    format!("{name} is a folder, not a CSV file; give the path of a file"),
+                ));
             }
             let f = File::open(p).map_err(|e| {
-                CliError::input(format!(
-                    "cannot open {name}: {}; check the path and that you may read it",
-                    io_reason(&e)
-                ))
+                Error::new(
+                    ErrorKind::Unreadable,
+                    format!(
+                        "cannot open {name}: {}; check the path and that you may read it",
+                        io_reason(&e)
+                    ),
+                )
             })?;
             let size = f.metadata().ok().map(|m| m.len());
             (Box::new(f), size)
@@ -191,7 +196,7 @@ impl CsvInput {
         source: Box<dyn Read + Send>,
         size: Option<u64>,
         delimiter: Delimiter,
-    ) -> CliResult<Self> {
+    ) -> Result<Self> {
         let consumed = Arc::new(AtomicU64::new(0));
         let source: Box<dyn Read + Send> = Box::new(CrlfToLf::new(source, consumed.clone()));
         let reader = csv::ReaderBuilder::new()
@@ -211,29 +216,35 @@ impl CsvInput {
         Ok(input)
     }
 
-    fn read_headers(&mut self) -> CliResult<()> {
+    fn read_headers(&mut self) -> Result<()> {
         let record = match self.reader.headers() {
             Ok(r) => r.clone(),
             Err(e) => return Err(self.csv_error(&e)),
         };
         if record.is_empty() || (record.len() == 1 && record[0].trim().is_empty()) {
-            return Err(CliError::input(format!(
+            return Err(Error::new(
+                ErrorKind::Malformed,
+                format!(
                 "{} is empty; copse needs a header row naming the columns, then one row per case",
                 self.name
-            )));
+            ),
+            ));
         }
         let mut headers: Vec<String> = Vec::with_capacity(record.len());
         for (i, h) in record.iter().enumerate() {
             let h = h.trim();
             if h.is_empty() {
-                return Err(CliError::input(format!(
+                return Err(Error::new(
+                    ErrorKind::Malformed,
+                    format!(
                     "{} line 1, column {}: the header gives this column no name; name every column",
                     self.name,
                     i + 1
-                )));
+                ),
+                ));
             }
             if let Some(first) = headers.iter().position(|x| x == h) {
-                return Err(CliError::input(format!(
+                return Err(Error::new(ErrorKind::Malformed, format!(
                     "{} line 1: the name '{h}' is used by column {} and column {}; give each column its own name",
                     self.name,
                     first + 1,
@@ -273,7 +284,7 @@ impl CsvInput {
     /// # Errors
     /// An input error naming the line for a row of the wrong length, text that is not
     /// UTF-8, or a read failure.
-    pub fn read(&mut self, record: &mut csv::StringRecord) -> CliResult<bool> {
+    pub fn read(&mut self, record: &mut csv::StringRecord) -> Result<bool> {
         self.reader
             .read_record(record)
             .map_err(|e| self.csv_error(&e))
@@ -285,7 +296,7 @@ impl CsvInput {
     ///
     /// # Errors
     /// An input error when the input cannot be read further.
-    pub fn read_row(&mut self, record: &mut csv::StringRecord) -> CliResult<Row> {
+    pub fn read_row(&mut self, record: &mut csv::StringRecord) -> Result<Row> {
         match self.reader.read_record(record) {
             Ok(true) => Ok(Row::Record),
             Ok(false) => Ok(Row::End),
@@ -305,13 +316,16 @@ impl CsvInput {
     }
 
     /// Turns a CSV error into a message naming the file, line and column.
-    fn csv_error(&self, e: &csv::Error) -> CliError {
+    fn csv_error(&self, e: &csv::Error) -> Error {
         let name = &self.name;
         match e.kind() {
-            csv::ErrorKind::Io(io) => CliError::input(format!(
-                "could not read {name}: {}; check the file is readable",
-                io_reason(io)
-            )),
+            csv::ErrorKind::Io(io) => Error::new(
+                ErrorKind::Unreadable,
+                format!(
+                    "could not read {name}: {}; check the file is readable",
+                    io_reason(io)
+                ),
+            ),
             csv::ErrorKind::Utf8 { pos, err } => {
                 let line = pos.as_ref().map_or(0, |p| p.line());
                 let col = err.field();
@@ -321,7 +335,7 @@ impl CsvInput {
                     .map_or(format!("column {}", col + 1), |h| {
                         format!("column {} ('{h}')", col + 1)
                     });
-                CliError::input(format!(
+                Error::new(ErrorKind::Malformed, format!(
                     "{name} line {line}, {column}: the text is not valid UTF-8; save the file with UTF-8 encoding and try again"
                 ))
             }
@@ -331,14 +345,20 @@ impl CsvInput {
                 len,
             } => {
                 let line = pos.as_ref().map_or(0, |p| p.line());
-                CliError::input(format!(
+                Error::new(
+                    ErrorKind::Malformed,
+                    format!(
                     "{name} line {line}: found {len} fields but the header has {expected_len}; \
                      check that fields holding a {} are quoted and that no quote is missing \
                      (to read another delimiter, use --delimiter comma|tab|semicolon)",
                     self.delimiter.name()
-                ))
+                ),
+                )
             }
-            _ => CliError::input(format!("could not read {name} as CSV: {e}")),
+            _ => Error::new(
+                ErrorKind::Malformed,
+                format!("could not read {name} as CSV: {e}"),
+            ),
         }
     }
 
@@ -359,21 +379,6 @@ impl CsvInput {
                     d.name()
                 )
             })
-    }
-}
-
-/// The reason part of an I/O error, without the OS error number.
-pub fn io_reason(e: &io::Error) -> String {
-    match e.kind() {
-        io::ErrorKind::NotFound => "no such file".to_string(),
-        io::ErrorKind::PermissionDenied => "permission denied".to_string(),
-        _ => {
-            let s = e.to_string();
-            match s.find(" (os error") {
-                Some(i) => s[..i].to_string(),
-                None => s,
-            }
-        }
     }
 }
 

@@ -2,11 +2,10 @@
 //! model's inputs by name (any order, extra columns ignored), numbers parsed, category
 //! labels turned into the model's codes. A category the model never saw is treated as
 //! missing and counted, so the caller can warn about it.
-use crate::error::{CliError, CliResult};
-use crate::reader::CsvInput;
-use crate::schema::{clip, parse_number, Missing, Schema, Task};
-use copse_forest::{Outcome, MISSING};
-use copse_tree::FeatureKind;
+use crate::cells::{clip, parse_number, Missing};
+use crate::csv_input::CsvInput;
+use crate::error::{Error, ErrorKind, Result};
+use copse_forest::{FeatureKind, Forest, Outcome, Task, MISSING};
 use ndarray::Array2;
 use std::collections::HashMap;
 
@@ -25,26 +24,28 @@ pub struct RowEncoder {
 }
 
 impl RowEncoder {
-    /// Matches `input`'s columns to the model's inputs (and its target when
-    /// `need_target`).
+    /// Matches `input`'s columns to `model`'s inputs (and its outcome column when
+    /// `need_target`); `missing` gives the cells read as missing (usually the
+    /// model's own, [`Missing::of_model`]).
     ///
     /// # Errors
-    /// An input error naming every column the model needs that the file lacks.
+    /// `Columns`, naming every column the model needs that the file lacks.
     pub fn new(
         input: &CsvInput,
-        schema: &Schema,
+        model: &Forest,
         missing: Missing,
         need_target: bool,
-    ) -> CliResult<Self> {
-        let mut absent: Vec<&str> = schema
-            .features
+    ) -> Result<Self> {
+        let target = &model.card().target;
+        let mut absent: Vec<&str> = model
+            .meta()
             .iter()
             .map(|f| f.name.as_str())
             .filter(|n| input.column(n).is_none())
             .collect();
-        let target_col = input.column(&schema.target.name);
+        let target_col = input.column(target);
         if need_target && target_col.is_none() {
-            absent.push(&schema.target.name);
+            absent.push(target);
         }
         if !absent.is_empty() {
             let list = absent
@@ -66,15 +67,15 @@ impl RowEncoder {
                 msg.push_str("; ");
                 msg.push_str(&hint);
             }
-            return Err(CliError::input(msg));
+            return Err(Error::new(ErrorKind::Columns, msg));
         }
-        let cols = schema
-            .features
+        let cols = model
+            .meta()
             .iter()
             .map(|f| input.column(&f.name).unwrap_or(0))
             .collect();
-        let lookups = schema
-            .features
+        let lookups = model
+            .meta()
             .iter()
             .map(|f| match &f.kind {
                 FeatureKind::Categorical { levels } => Some(
@@ -87,20 +88,20 @@ impl RowEncoder {
                 FeatureKind::Numeric => None,
             })
             .collect();
-        let classes = schema.target.classes.clone();
+        let classes = model.classes().to_vec();
         let class_lookup = classes
             .iter()
             .enumerate()
             .map(|(i, l)| (l.clone(), i as u32))
             .collect();
-        let p = schema.features.len();
+        let p = model.n_features();
         Ok(RowEncoder {
             source: input.name().to_string(),
-            names: schema.features.iter().map(|f| f.name.clone()).collect(),
+            names: model.meta().iter().map(|f| f.name.clone()).collect(),
             cols,
             lookups,
             target: if need_target {
-                target_col.map(|c| (c, schema.target.name.clone()))
+                target_col.map(|c| (c, target.clone()))
             } else {
                 None
             },
@@ -116,7 +117,7 @@ impl RowEncoder {
     ///
     /// # Errors
     /// An input error naming the line and column when a numeric input holds text.
-    pub fn encode(&mut self, record: &csv::StringRecord, out: &mut [f64]) -> CliResult<()> {
+    pub fn encode(&mut self, record: &csv::StringRecord, out: &mut [f64]) -> Result<()> {
         for (k, o) in out.iter_mut().enumerate() {
             let cell = record.get(self.cols[k]).unwrap_or("").trim();
             if self.missing.is_missing(cell) {
@@ -139,7 +140,7 @@ impl RowEncoder {
                     Some(v) => v,
                     None => {
                         let line = record.position().map_or(0, |p| p.line());
-                        return Err(CliError::input(format!(
+                        return Err(Error::new(ErrorKind::BadValue, format!(
                             "{} line {line}, column '{}': '{}' is not a finite number, but the model was \
                              trained with '{}' as a numeric input; fix the value, or list it as missing with --missing",
                             self.source,
@@ -158,7 +159,7 @@ impl RowEncoder {
     ///
     /// # Errors
     /// An input error naming the line when the label is not one of the model's classes.
-    pub fn class(&self, record: &csv::StringRecord) -> CliResult<u32> {
+    pub fn class(&self, record: &csv::StringRecord) -> Result<u32> {
         let Some((col, name)) = &self.target else {
             return Ok(MISSING);
         };
@@ -168,7 +169,7 @@ impl RowEncoder {
         }
         self.class_lookup.get(cell).copied().ok_or_else(|| {
             let line = record.position().map_or(0, |p| p.line());
-            CliError::input(format!(
+            Error::new(ErrorKind::BadValue, format!(
                 "{} line {line}, column '{name}': class '{}' is not one the model knows ({}); \
                  a model cannot be judged on a class it never saw: remove those rows or retrain with them",
                 self.source,
@@ -182,7 +183,7 @@ impl RowEncoder {
     ///
     /// # Errors
     /// An input error naming the line when the cell is not a number.
-    pub fn value(&self, record: &csv::StringRecord) -> CliResult<f64> {
+    pub fn value(&self, record: &csv::StringRecord) -> Result<f64> {
         let Some((col, name)) = &self.target else {
             return Ok(f64::NAN);
         };
@@ -192,7 +193,7 @@ impl RowEncoder {
         }
         parse_number(cell).ok_or_else(|| {
             let line = record.position().map_or(0, |p| p.line());
-            CliError::input(format!(
+            Error::new(ErrorKind::BadValue, format!(
                 "{} line {line}, column '{name}': '{}' is not a finite number, and the model predicts numbers; \
                  fix the value or leave it empty",
                 self.source,
@@ -247,18 +248,14 @@ pub struct Labelled {
     pub encoder: RowEncoder,
 }
 
-/// Reads every row of `input` with `schema`, including the target column.
+/// Reads every row of `input` for `model`, including the outcome column.
 ///
 /// # Errors
-/// As for [`RowEncoder::new`], [`RowEncoder::encode`] and the outcome readers, and an
-/// input error for a file with no data rows.
-pub fn read_labelled(
-    mut input: CsvInput,
-    schema: &Schema,
-    missing: Missing,
-) -> CliResult<Labelled> {
-    let mut enc = RowEncoder::new(&input, schema, missing, true)?;
-    let p = schema.features.len();
+/// As for [`RowEncoder::new`], [`RowEncoder::encode`] and the outcome readers, and
+/// `NoRows` for a file with no data rows.
+pub fn read_labelled(mut input: CsvInput, model: &Forest, missing: Missing) -> Result<Labelled> {
+    let mut enc = RowEncoder::new(&input, model, missing, true)?;
+    let p = model.n_features();
     let mut values: Vec<f64> = Vec::new();
     let mut codes: Vec<u32> = Vec::new();
     let mut ys: Vec<f64> = Vec::new();
@@ -268,24 +265,26 @@ pub fn read_labelled(
     while input.read(&mut record)? {
         enc.encode(&record, &mut row)?;
         values.extend_from_slice(&row);
-        match schema.target.task {
+        match model.task() {
             Task::Classify => codes.push(enc.class(&record)?),
             Task::Regress => ys.push(enc.value(&record)?),
         }
         rows += 1;
     }
     if rows == 0 {
-        return Err(CliError::input(format!(
-            "{} has a header but no data rows; add the labelled rows to check the model on",
-            input.name()
-        )));
+        return Err(Error::new(
+            ErrorKind::NoRows,
+            format!(
+                "{} has a header but no data rows; add the labelled rows to check the model on",
+                input.name()
+            ),
+        ));
     }
-    let x = Array2::from_shape_vec((rows, p), values)
-        .map_err(|e| CliError::failure(format!("internal: {e}")))?;
-    let outcome = match schema.target.task {
+    let x = Array2::from_shape_fn((rows, p), |(i, j)| values[i * p + j]);
+    let outcome = match model.task() {
         Task::Classify => Outcome::Classes {
             codes,
-            labels: schema.target.classes.clone(),
+            labels: model.classes().to_vec(),
         },
         Task::Regress => Outcome::Values(ys),
     };

@@ -1,0 +1,226 @@
+//! Type inference over a whole training file: each used column is tallied (missing,
+//! numeric and text cells), then judged numeric or categorical, the task follows from
+//! the outcome column, and categorical columns get their labels in natural order.
+//!
+//! Inference rule: a column is numeric when every cell that is not missing parses as a
+//! finite number, otherwise categorical. Categories are listed in natural order
+//! (numbers by value, then text; [`copse_forest::natural_order`]), so codes do not
+//! depend on row order.
+use crate::cells::{clip, parse_number, Missing};
+use crate::csv_input::CsvInput;
+use crate::error::{Error, ErrorKind, Result};
+use crate::roles::{Layout, Roles};
+use copse_forest::{natural_order, Task};
+use std::collections::{HashMap, HashSet};
+
+/// Per-column tallies of the inference pass.
+#[derive(Debug, Default, Clone)]
+pub(crate) struct ColumnTally {
+    pub missing: usize,
+    pub numbers: usize,
+    pub texts: usize,
+    /// First few non-numeric cells: (line, text).
+    pub text_examples: Vec<(u64, String)>,
+}
+
+const EXAMPLES: usize = 3;
+
+/// Largest size of a regression target value. Squared deviations must stay finite
+/// when summed over many rows: (1e100)^2 = 1e200, far from the largest double (about
+/// 1.8e308), whereas values near 1e155 already have infinite squares and leave every
+/// split unscorable.
+pub const MAX_TARGET_SIZE: f64 = 1e100;
+
+/// The file line of a record.
+pub(crate) fn line_of(r: &csv::StringRecord) -> u64 {
+    r.position().map_or(0, |p| p.line())
+}
+
+/// Pass 1: reads every row of `input`, tallying each used column.
+pub(crate) fn tally(
+    input: &mut CsvInput,
+    layout: &Layout,
+    missing: &Missing,
+) -> Result<(Vec<csv::StringRecord>, Vec<ColumnTally>)> {
+    let mut records = Vec::new();
+    let mut tallies = vec![ColumnTally::default(); input.headers().len()];
+    let mut record = csv::StringRecord::new();
+    while input.read(&mut record)? {
+        let line = line_of(&record);
+        for &j in &layout.used {
+            let cell = record[j].trim();
+            let t = &mut tallies[j];
+            if missing.is_missing(cell) {
+                t.missing += 1;
+            } else if parse_number(cell).is_some() {
+                t.numbers += 1;
+            } else {
+                t.texts += 1;
+                if t.text_examples.len() < EXAMPLES {
+                    t.text_examples.push((line, cell.to_string()));
+                }
+            }
+        }
+        records.push(record.clone());
+    }
+    if records.is_empty() {
+        return Err(Error::new(
+            ErrorKind::NoRows,
+            format!(
+                "{} has a header but no data rows; add at least two rows",
+                input.name()
+            ),
+        ));
+    }
+    Ok((records, tallies))
+}
+
+fn list_examples(ex: &[(u64, String)], total: usize) -> String {
+    let shown: Vec<String> = ex
+        .iter()
+        .map(|(l, t)| format!("line {l} '{}'", clip(t)))
+        .collect();
+    let mut s = shown.join(", ");
+    if total > ex.len() {
+        s.push_str(&format!(" and {} more", total - ex.len()));
+    }
+    s
+}
+
+/// Judges each used column numeric or categorical (true), noting columns read as
+/// categorical because of a few stray texts.
+pub(crate) fn kinds(
+    name: &str,
+    headers: &[String],
+    layout: &Layout,
+    tallies: &[ColumnTally],
+    roles: &Roles,
+    notes: &mut Vec<String>,
+) -> Result<Vec<bool>> {
+    let mut categorical = vec![false; headers.len()];
+    for &j in &layout.used {
+        let h = &headers[j];
+        let t = &tallies[j];
+        if roles.numeric.contains(h) {
+            if let Some((line, text)) = t.text_examples.first() {
+                return Err(Error::new(
+                    ErrorKind::BadValue,
+                    format!(
+                        "{name} line {line}, column '{h}': '{}' is not a finite number, but --numeric lists '{h}'; \
+                         fix the value, or add it to the missing tokens with --missing",
+                        clip(text)
+                    ),
+                ));
+            }
+        } else if roles.categorical.contains(h) || t.texts > 0 {
+            categorical[j] = true;
+            if !roles.categorical.contains(h) && t.numbers >= t.texts {
+                notes.push(format!(
+                    "column '{h}' is read as categorical because of cells that are not finite numbers: {}; \
+                     if they mean 'missing', add them with --missing, or fix them",
+                    list_examples(&t.text_examples, t.texts)
+                ));
+            }
+        }
+    }
+    Ok(categorical)
+}
+
+/// The task: as forced by the roles, else classification for a categorical outcome
+/// and regression for a numeric one.
+pub(crate) fn task(
+    name: &str,
+    roles: &Roles,
+    target: &ColumnTally,
+    target_is_categorical: bool,
+    rows: usize,
+) -> Result<Task> {
+    let target_name = &roles.target;
+    if target.missing == rows {
+        return Err(Error::new(
+            ErrorKind::NoRows,
+            format!(
+                "{name}: every row's target '{target_name}' is missing; check --target names the outcome column"
+            ),
+        ));
+    }
+    Ok(match roles.task {
+        Some(Task::Regress) => {
+            if let Some((line, text)) = target.text_examples.first() {
+                return Err(Error::new(
+                    ErrorKind::BadValue,
+                    format!(
+                        "{name} line {line}, column '{target_name}': '{}' is not a number, so '{target_name}' cannot be \
+                         the target of a regression; fix the value or use --task classify",
+                        clip(text)
+                    ),
+                ));
+            }
+            Task::Regress
+        }
+        Some(Task::Classify) => Task::Classify,
+        None if target_is_categorical => Task::Classify,
+        None => Task::Regress,
+    })
+}
+
+/// Refuses a regression outcome too large for squared errors to stay finite.
+pub(crate) fn check_target_size(
+    records: &[csv::StringRecord],
+    col: usize,
+    missing: &Missing,
+    name: &str,
+    target: &str,
+) -> Result<()> {
+    for r in records {
+        let cell = r[col].trim();
+        if missing.is_missing(cell) {
+            continue;
+        }
+        if parse_number(cell).is_some_and(|v| v.abs() > MAX_TARGET_SIZE) {
+            return Err(Error::new(
+                ErrorKind::BadValue,
+                format!(
+                    "{name} line {}, column '{target}': {} is too large a value to fit a regression on \
+                     (at most 1e100 in size: larger values overflow the squared errors); rescale the target, \
+                     for example divide it by a power of ten or take its logarithm",
+                    line_of(r),
+                    clip(cell)
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// The labels of one categorical column in natural order, with their codes.
+pub(crate) struct Levels {
+    pub labels: Vec<String>,
+    pub codes: HashMap<String, u32>,
+}
+
+/// Labels for every categorical used column, by column index.
+pub(crate) fn levels(
+    records: &[csv::StringRecord],
+    layout: &Layout,
+    categorical: &[bool],
+    missing: &Missing,
+) -> HashMap<usize, Levels> {
+    let mut out = HashMap::new();
+    for &j in layout.used.iter().filter(|&&j| categorical[j]) {
+        let seen: HashSet<&str> = records
+            .iter()
+            .map(|r| r[j].trim())
+            .filter(|cell| !missing.is_missing(cell))
+            .collect();
+        let mut labels: Vec<String> = seen.into_iter().map(str::to_string).collect();
+        labels.sort_by(|a, b| natural_order(a, b));
+        let codes = labels
+            .iter()
+            .enumerate()
+            .map(|(i, l)| (l.clone(), i as u32))
+            .collect();
+        out.insert(j, Levels { labels, codes });
+    }
+    out
+}

@@ -1,0 +1,60 @@
+//! copse-data: tabular input for copse. Reading CSV (a file or standard input, three
+//! delimiters, quoted fields, CRLF or LF), inferring each column's kind with notes for
+//! the user, the training table a forest is grown on, and encoding new rows against a
+//! model's inputs (category codes, missing tokens, unseen categories counted). Every
+//! fault names the file, line and column and says what to do.
+//!
+//! The pieces, one concept per file:
+//! - [`csv_input`]: the CSV reader ([`CsvInput`]);
+//! - [`cells`]: missing tokens and numbers ([`Missing`]);
+//! - [`roles`]: which column is the outcome, which are left out ([`Roles`]);
+//! - `infer` (private): column kinds, the task, category labels;
+//! - [`training`]: the training table ([`TrainingTable`]) and training on it;
+//! - [`encode`]: new rows read the way a model's training rows were ([`RowEncoder`]).
+//!
+//! # Example
+//! ```
+//! use copse_data::{read_labelled, CsvInput, Delimiter, Missing, Roles, TrainingTable};
+//! use copse_forest::{Forest, ForestSettings};
+//! # let dir = std::env::temp_dir().join("copse-data-doc-lib");
+//! # std::fs::create_dir_all(&dir).unwrap();
+//! # let path = dir.join("pipes.csv");
+//! # let mut text = String::from("age,material,burst\n");
+//! # for i in 0..80 { text.push_str(&format!("{},{},{}\n", i, if i % 3 == 0 { "pvc" } else { "iron" }, if i > 40 { "yes" } else { "no" })); }
+//! # std::fs::write(&path, text).unwrap();
+//! let table = TrainingTable::read_csv(&path, &Roles::target("burst"))?;
+//! let settings = ForestSettings { trees: 25, seed: 3, ..Default::default() };
+//! let forest = table.train(&settings, Default::default(), &|_| {})?.forest;
+//! forest.save(dir.join("pipes.copse"))?;
+//! let model = Forest::load(dir.join("pipes.copse"))?;
+//! let input = CsvInput::open(&path.to_string_lossy(), Delimiter::Comma)?;
+//! let rows = read_labelled(input, &model, Missing::of_model(&model))?;
+//! let check = model.evaluate(rows.x.view(), &rows.outcome)?;
+//! println!("error on the training file: {:.3}", check.metrics.error());
+//! # Ok::<(), Box<dyn std::error::Error>>(())
+//! ```
+#![forbid(unsafe_code)]
+#![deny(missing_docs)]
+#![cfg_attr(test, allow(clippy::unwrap_used))]
+
+pub mod cells;
+pub mod csv_input;
+pub mod encode;
+pub mod error;
+mod infer;
+pub mod roles;
+pub mod training;
+
+pub use cells::{clip, parse_number, Missing};
+pub use csv_input::{CsvInput, Delimiter, Row};
+pub use encode::{read_labelled, Labelled, RowEncoder};
+pub use error::{Error, ErrorKind, Result};
+pub use infer::MAX_TARGET_SIZE;
+pub use roles::Roles;
+pub use training::{TrainingTable, MAX_CATEGORIES};
+
+/// The README's Rust examples, compiled as doctests so they cannot drift from the API
+/// (here, the crate that sees both the data layer and the engine).
+#[cfg(doctest)]
+#[doc = include_str!("../../../README.md")]
+pub struct ReadmeExamples;

@@ -1,0 +1,362 @@
+//! A training table: a whole file read into memory with its column kinds inferred,
+//! the outcome encoded, and remarks a careful analyst would want to see; and training
+//! a forest on it, so the model file records where its rows came from.
+use crate::cells::{parse_number, Missing};
+use crate::csv_input::{CsvInput, Delimiter};
+use crate::error::{Error, ErrorKind, Result};
+use crate::infer::{self, line_of, ColumnTally, Levels};
+use crate::roles::{lay_out, Layout, Roles};
+use copse_forest::{
+    FeatureKind, FeatureMeta, Forest, ForestSettings, ModelCard, Outcome, Progress, Task,
+    TrainOptions, Trained,
+};
+use ndarray::Array2;
+use std::collections::HashMap;
+
+/// Most categories one input may have (category codes are 16 bits in the tree core).
+pub const MAX_CATEGORIES: usize = 65535;
+
+/// A training file read into memory.
+#[derive(Debug, Clone)]
+pub struct TrainingTable {
+    /// The file's name as used in messages.
+    pub source: String,
+    /// Inputs in model order, with their kinds and category labels.
+    pub features: Vec<FeatureMeta>,
+    /// Name of the outcome column.
+    pub target: String,
+    /// Classification or regression.
+    pub task: Task,
+    /// Missing-value tokens in force.
+    pub missing: Missing,
+    /// Inputs, rows by inputs: numbers, category codes, NaN for missing.
+    pub x: Array2<f64>,
+    /// Outcome of each row (class labels in natural order).
+    pub outcome: Outcome,
+    /// File line of each row (for per-row output).
+    pub lines: Vec<u64>,
+    /// Rows read from the file (including those left out for a missing outcome).
+    pub rows_read: usize,
+    /// Rows left out because their outcome is missing.
+    pub rows_without_outcome: usize,
+    /// Columns left out by the roles.
+    pub ignored: Vec<String>,
+    /// Remarks about the data for the user.
+    pub notes: Vec<String>,
+}
+
+impl TrainingTable {
+    /// Reads the comma-separated file at `path` with the standard missing tokens.
+    ///
+    /// # Errors
+    /// As for [`TrainingTable::from_csv`], and `Unreadable` when the file cannot be
+    /// opened.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_data::{Roles, TrainingTable};
+    /// # let dir = std::env::temp_dir().join("copse-data-doc-read");
+    /// # std::fs::create_dir_all(&dir).unwrap();
+    /// # let path = dir.join("pipes.csv");
+    /// # std::fs::write(&path, "age,material,burst\n40,iron,yes\n5,pvc,no\n52,iron,yes\n9,pvc,no\n").unwrap();
+    /// let table = TrainingTable::read_csv(&path, &Roles::target("burst"))?;
+    /// assert_eq!(table.classes(), ["no", "yes"]);
+    /// assert_eq!(table.x.dim(), (4, 2));
+    /// # Ok::<(), copse_data::Error>(())
+    /// ```
+    pub fn read_csv(path: impl AsRef<std::path::Path>, roles: &Roles) -> Result<TrainingTable> {
+        let path = path.as_ref().to_string_lossy();
+        let input = CsvInput::open(&path, Delimiter::Comma)?;
+        TrainingTable::from_csv(input, roles, Missing::standard())
+    }
+
+    /// Reads every row of `input`, infers column kinds, and encodes it.
+    ///
+    /// # Errors
+    /// `Columns` for unknown column names, contradictory roles or too many
+    /// categories; `NoRows` for a file with no rows or an outcome that is always
+    /// missing; `BadValue` for a `--numeric` column holding text or a regression
+    /// outcome holding text or huge values; each names the file, line and column.
+    pub fn from_csv(mut input: CsvInput, roles: &Roles, missing: Missing) -> Result<TrainingTable> {
+        let layout = lay_out(&input, roles)?;
+        let name = input.name().to_string();
+        let headers = input.headers().to_vec();
+        let (records, tallies) = infer::tally(&mut input, &layout, &missing)?;
+        let n_read = records.len();
+        let mut notes = Vec::new();
+        let mut categorical = infer::kinds(&name, &headers, &layout, &tallies, roles, &mut notes)?;
+        let tc = layout.target;
+        let task = infer::task(&name, roles, &tallies[tc], categorical[tc], n_read)?;
+        categorical[tc] = task == Task::Classify;
+        if task == Task::Regress {
+            infer::check_target_size(&records, tc, &missing, &name, &roles.target)?;
+        }
+        let mut levels = infer::levels(&records, &layout, &categorical, &missing);
+        let rows = encode_rows(&records, &layout, &levels, task, &missing);
+        drop(records);
+
+        let features: Vec<FeatureMeta> = layout
+            .inputs
+            .iter()
+            .map(|&j| match levels.remove(&j) {
+                Some(l) => FeatureMeta::categorical(headers[j].clone(), l.labels),
+                None => FeatureMeta::numeric(headers[j].clone()),
+            })
+            .collect();
+        let labels = levels.remove(&tc).map(|l| l.labels).unwrap_or_default();
+        check_category_counts(&name, &features)?;
+        let outcome = match task {
+            Task::Classify => Outcome::Classes {
+                codes: rows.classes,
+                labels,
+            },
+            Task::Regress => Outcome::Values(rows.values),
+        };
+        let mut table = TrainingTable {
+            source: name,
+            features,
+            target: roles.target.clone(),
+            task,
+            missing,
+            x: rows.x,
+            outcome,
+            lines: rows.lines,
+            rows_read: n_read,
+            rows_without_outcome: n_read - rows.kept,
+            ignored: roles.ignore.clone(),
+            notes,
+        };
+        table.remark(&tallies, &layout, roles.task.is_none());
+        if rows.kept < 2 {
+            return Err(Error::new(
+                ErrorKind::NoRows,
+                format!(
+                    "{} has only {} row with a target value; at least two are needed to grow a model",
+                    table.source, rows.kept
+                ),
+            ));
+        }
+        Ok(table)
+    }
+
+    /// Class labels in model order (empty for regression).
+    pub fn classes(&self) -> &[String] {
+        match &self.outcome {
+            Outcome::Classes { labels, .. } => labels,
+            Outcome::Values(_) => &[],
+        }
+    }
+
+    /// The model card of `forest` (trained on this table) with this table's source
+    /// recorded: file name, outcome column, missing tokens, rows read and left out,
+    /// ignored columns.
+    pub fn card_for(&self, forest: &Forest) -> ModelCard {
+        ModelCard {
+            target: self.target.clone(),
+            missing_tokens: self.missing.tokens().to_vec(),
+            source: self.source.clone(),
+            rows_read: self.rows_read,
+            rows_without_outcome: self.rows_without_outcome,
+            ignored: self.ignored.clone(),
+            ..forest.card().clone()
+        }
+    }
+
+    /// Trains a forest on this table and records the table in its model card; the
+    /// model file it saves is the one `copse train` writes for the same file and
+    /// settings.
+    ///
+    /// # Errors
+    /// As for [`Forest::train_with_options`].
+    ///
+    /// # Example
+    /// ```
+    /// use copse_data::{Roles, TrainingTable};
+    /// use copse_forest::ForestSettings;
+    /// # let dir = std::env::temp_dir().join("copse-data-doc-train");
+    /// # std::fs::create_dir_all(&dir).unwrap();
+    /// # let path = dir.join("pipes.csv");
+    /// # let mut text = String::from("age,material,burst\n");
+    /// # for i in 0..60 { text.push_str(&format!("{},{},{}\n", i, if i % 3 == 0 { "pvc" } else { "iron" }, if i > 30 { "yes" } else { "no" })); }
+    /// # std::fs::write(&path, text).unwrap();
+    /// let table = TrainingTable::read_csv(&path, &Roles::target("burst"))?;
+    /// let settings = ForestSettings { trees: 20, ..Default::default() };
+    /// let trained = table.train(&settings, Default::default(), &|_| {})?;
+    /// assert_eq!(trained.forest.card().source, path.to_string_lossy());
+    /// # Ok::<(), Box<dyn std::error::Error>>(())
+    /// ```
+    pub fn train(
+        &self,
+        settings: &ForestSettings,
+        options: TrainOptions,
+        progress: &(dyn Fn(Progress) + Sync),
+    ) -> copse_forest::Result<Trained> {
+        let mut trained = Forest::train_with_options(
+            self.x.view(),
+            &self.features,
+            &self.outcome,
+            settings,
+            options,
+            progress,
+        )?;
+        let card = self.card_for(&trained.forest);
+        trained.forest.set_card(card)?;
+        Ok(trained)
+    }
+
+    /// Adds the remarks a careful analyst would want to see: useless or
+    /// identifier-like inputs, a single class, numbers that may be class codes, rows
+    /// left out for a missing outcome.
+    fn remark(&mut self, tallies: &[ColumnTally], layout: &Layout, task_inferred: bool) {
+        let n_read = self.rows_read;
+        let mut useless = 0;
+        for (k, f) in self.features.iter().enumerate() {
+            let present = n_read - tallies[layout.inputs[k]].missing;
+            let same = "has the same value in every row; it cannot help the model";
+            let note = if present == 0 {
+                Some((
+                    true,
+                    "is missing in every row; it cannot help the model".to_string(),
+                ))
+            } else if let FeatureKind::Categorical { levels } = &f.kind {
+                if levels.len() == 1 {
+                    Some((true, same.to_string()))
+                } else if present >= 20 && levels.len() == present {
+                    Some((false, format!(
+                        "has a different value in each of its {present} rows; it looks like an \
+                         identifier and cannot carry over to new rows: leave it out with --ignore {}",
+                        f.name
+                    )))
+                } else {
+                    None
+                }
+            } else {
+                let col = self.x.column(k);
+                let mut vals = col.iter().filter(|v| !v.is_nan());
+                let first = vals.next();
+                first
+                    .filter(|&first| vals.all(|v| v == first))
+                    .map(|_| (true, same.to_string()))
+            };
+            if let Some((is_useless, what)) = note {
+                useless += usize::from(is_useless);
+                self.notes.push(format!("input '{}' {what}", f.name));
+            }
+        }
+        let target = &self.target;
+        if useless == self.features.len() {
+            self.notes.push(format!(
+                "no input of {} varies, so no split is possible: the model is trivial and predicts the \
+                 overall {} for every row; check --target and --ignore, and the data",
+                self.source,
+                match self.task {
+                    Task::Classify => "class shares",
+                    Task::Regress => "mean",
+                }
+            ));
+        }
+        if let [only] = self.classes() {
+            self.notes.push(format!(
+                "the target '{target}' has a single class '{only}': the model is trivial and predicts it for every row"
+            ));
+        }
+        if let (Outcome::Values(values), true) = (&self.outcome, task_inferred) {
+            let mut distinct: Vec<f64> = values.iter().copied().filter(|v| !v.is_nan()).collect();
+            distinct.sort_by(f64::total_cmp);
+            distinct.dedup();
+            if distinct.len() <= 5 {
+                self.notes.push(format!(
+                    "the target '{target}' holds numbers, so copse fits a regression; it has only {} distinct \
+                     values: if they are classes, add --task classify",
+                    distinct.len()
+                ));
+            }
+        }
+        let dropped = self.rows_without_outcome;
+        if dropped > 0 {
+            self.notes.push(format!(
+                "{dropped} of {n_read} rows have no value for the target '{target}' and are left out of training"
+            ));
+        }
+    }
+}
+
+/// The rows that have an outcome, encoded.
+struct Rows {
+    x: Array2<f64>,
+    lines: Vec<u64>,
+    classes: Vec<u32>,
+    values: Vec<f64>,
+    kept: usize,
+}
+
+/// Pass 2: encodes the rows that have an outcome.
+fn encode_rows(
+    records: &[csv::StringRecord],
+    layout: &Layout,
+    levels: &HashMap<usize, Levels>,
+    task: Task,
+    missing: &Missing,
+) -> Rows {
+    let tc = layout.target;
+    let keep: Vec<&csv::StringRecord> = records
+        .iter()
+        .filter(|r| !missing.is_missing(r[tc].trim()))
+        .collect();
+    let mut x = Array2::<f64>::from_elem((keep.len(), layout.inputs.len()), f64::NAN);
+    let mut lines = Vec::with_capacity(keep.len());
+    let (mut classes, mut values) = (Vec::new(), Vec::new());
+    for (row, r) in keep.iter().enumerate() {
+        lines.push(line_of(r));
+        for (k, &j) in layout.inputs.iter().enumerate() {
+            let cell = r[j].trim();
+            if missing.is_missing(cell) {
+                continue;
+            }
+            x[[row, k]] = match levels.get(&j) {
+                Some(l) => l.codes.get(cell).map_or(f64::NAN, |&c| f64::from(c)),
+                None => parse_number(cell).unwrap_or(f64::NAN),
+            };
+        }
+        let cell = r[tc].trim();
+        match task {
+            Task::Classify => classes.push(
+                levels
+                    .get(&tc)
+                    .and_then(|l| l.codes.get(cell).copied())
+                    .unwrap_or(u32::MAX),
+            ),
+            Task::Regress => values.push(parse_number(cell).unwrap_or(f64::NAN)),
+        }
+    }
+    Rows {
+        x,
+        lines,
+        classes,
+        values,
+        kept: keep.len(),
+    }
+}
+
+/// Category codes are 16 bits in the tree core (65535 at most per input); a column
+/// with more is an identifier or free text, not a category.
+fn check_category_counts(name: &str, features: &[FeatureMeta]) -> Result<()> {
+    for f in features {
+        if let FeatureKind::Categorical { levels } = &f.kind {
+            if levels.len() > MAX_CATEGORIES {
+                return Err(Error::new(
+                    ErrorKind::Columns,
+                    format!(
+                        "{name}, column '{}': {} different values read as categories, more than the {MAX_CATEGORIES} \
+                         copse supports in one input; it looks like an identifier or free text: leave it out with \
+                         --ignore {}, or group its values into fewer categories",
+                        f.name,
+                        levels.len(),
+                        f.name
+                    ),
+                ));
+            }
+        }
+    }
+    Ok(())
+}
