@@ -10,7 +10,7 @@ use crate::model_file::{self, FORMAT_VERSION, HEADER_LEN, MAGIC};
 use crate::reader::{CsvInput, Delimiter};
 use crate::report::{self, Style};
 use crate::schema::{load_training, Missing, Roles, Task};
-use copse_forest::{ForestSettings, TreeSettings};
+use copse_forest::{ForestSettings, TrainOptions, TreeRules};
 use ndarray::Array2;
 use std::io::Cursor;
 
@@ -65,11 +65,11 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
     }
     let settings = ForestSettings {
         trees: 2,
-        tree: TreeSettings {
+        tree: TreeRules {
             max_depth: Some(8),
-            ..TreeSettings::default()
+            ..TreeRules::default()
         },
-        bin_limit: 32,
+        bins: 31,
         seed: u64::from(ctrl),
         ..ForestSettings::default()
     };
@@ -78,6 +78,7 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
         &training.schema.features,
         &training.outcome,
         &settings,
+        &TrainOptions::default(),
     ) {
         Ok(t) => t,
         // Data that passed reading may still be refused by the engine for a reason
@@ -95,7 +96,7 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
     model.schema.bins = copse_tree::BinnedData::new(
         training.x.view(),
         &training.schema.features,
-        settings.bin_limit,
+        settings.bin_limit(),
     )
     .ok()?
     .bins()

@@ -204,8 +204,14 @@ mod tests {
             seed: 2,
             ..ForestSettings::default()
         };
-        let trained =
-            copse_forest::Forest::train(x.view(), &meta, &data.outcome, &settings).unwrap();
+        let trained = copse_forest::Forest::train(
+            x.view(),
+            &meta,
+            &data.outcome,
+            &settings,
+            &copse_forest::TrainOptions::default(),
+        )
+        .unwrap();
         let classes = trained.forest.classes().to_vec();
         let bins = copse_tree::BinnedData::new(x.view(), &meta, 256)
             .unwrap()

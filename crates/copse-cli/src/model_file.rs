@@ -410,7 +410,7 @@ mod tests {
                 seed: 2,
                 ..ForestSettings::default()
             };
-            let f = Forest::train(d.x.view(), &d.meta, &d.outcome, &s)
+            let f = Forest::train(d.x.view(), &d.meta, &d.outcome, &s, &Default::default())
                 .unwrap()
                 .forest;
             let per_node = encode(&f).unwrap().len() as f64 / f.n_nodes() as f64;

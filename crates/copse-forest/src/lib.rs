@@ -11,7 +11,7 @@
 //! - [`predict`]: batch prediction and evaluation on labelled data;
 //! - [`metrics`]: error, confusion matrix, log loss, Brier score, ROC AUC, MSE;
 //! - [`importance`]: permutation and impurity-decrease importance;
-//! - [`inbag`]: how many times each tree drew each row, kept on request ([`InBag`]);
+//! - [`draws`]: how many times each tree drew each row, kept on request ([`Draws`]);
 //! - [`significance`]: p-values for permutation importance;
 //! - [`stability`]: how one tree, bagged trees and a forest vary over seeds;
 //! - [`uncertainty`]: standard errors of predictions (infinitesimal jackknife);
@@ -23,12 +23,12 @@
 //!
 //! # Example
 //! ```
-//! use copse_forest::{synth, Forest, ForestSettings};
+//! use copse_forest::{synth, Forest, ForestSettings, TrainOptions};
 //!
 //! // 300 cases of the twonorm problem (two overlapping 20-dimensional normals).
 //! let data = synth::twonorm(300, 42);
 //! let settings = ForestSettings { trees: 100, seed: 7, ..Default::default() };
-//! let trained = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings)?;
+//! let trained = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &TrainOptions::default())?;
 //! let oob = trained.forest.oob().metrics.as_ref().expect("rows were out of bag");
 //! println!("out-of-bag error: {:.3}", oob.error());
 //! // The best possible error on twonorm is 0.023; one tree gets about 0.2.
@@ -38,15 +38,25 @@
 #![deny(missing_docs)]
 #![forbid(unsafe_code)]
 
+/// The `ndarray` this crate is built with, so that callers use the matching version.
+pub use ndarray;
+
+pub mod draws;
 pub mod error;
 pub mod forest;
+pub mod held_out;
 pub mod importance;
-pub mod inbag;
+mod leaf_paths;
+mod loss;
 pub mod metrics;
 pub mod oob;
+pub mod oob_importance;
+pub mod oob_summary;
 pub mod outcome;
 pub mod predict;
+pub mod progress;
 mod rng;
+mod row_block;
 mod sample;
 pub mod settings;
 pub mod significance;
@@ -56,26 +66,27 @@ pub mod train;
 pub mod uncertainty;
 
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
+pub use draws::Draws;
 pub use error::{Error, ErrorKind, Result};
-pub use forest::{Forest, Task, Trained};
+pub use forest::{Forest, Task, Trained, NODE_BYTES};
 pub use importance::{
     FeatureImportance, Importance, ImportanceMeasure, ImportanceMethod, PermutationImportance,
     IMPURITY_CAUTION,
 };
-pub use inbag::InBag;
 pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics};
-pub use oob::{OobReport, OobSummary};
+pub use oob_summary::{OobReport, OobSummary};
 pub use outcome::{Outcome, MISSING};
 pub use predict::Evaluation;
-pub use settings::{FeaturesPerSplit, ForestSettings, Sampling};
+pub use progress::{Progress, Stage};
+pub use settings::{FeaturesPerSplit, ForestSettings, Sampling, TreeRules};
 pub use significance::{
     holdout_importance, mirrored_null_test, response_permutation_test, PermutationSignificance,
-    Significance, SignificanceTest,
+    Significance, SignificanceTest, MIRROR_MIN_NULL,
 };
 pub use stability::{
     stability_report, KindStability, ModelKind, StabilityReport, StabilitySettings,
 };
-pub use train::{Progress, Stage, TrainOptions};
+pub use train::TrainOptions;
 pub use uncertainty::Uncertainty;
 
 /// The README's Rust examples, compiled as doctests so they cannot drift from the API.

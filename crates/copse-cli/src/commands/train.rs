@@ -49,17 +49,6 @@ pub fn run(a: &TrainArgs, ui: &Ui) -> CliResult<()> {
     }
 }
 
-fn rule_words(f: FeaturesPerSplit) -> String {
-    match f {
-        FeaturesPerSplit::Auto => "auto".into(),
-        FeaturesPerSplit::Sqrt => "sqrt".into(),
-        FeaturesPerSplit::Log2 => "log2".into(),
-        FeaturesPerSplit::All => "all".into(),
-        FeaturesPerSplit::Count(k) => k.to_string(),
-        FeaturesPerSplit::Fraction(x) => x.to_string(),
-    }
-}
-
 /// Trains and writes every output; the caller prints.
 ///
 /// # Errors
@@ -110,9 +99,8 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         sampling: a.sampling,
         balanced: a.balanced,
         tree: tree_settings(a.impurity, a.max_depth, a.min_leaf),
-        bin_limit: a.bins as usize + 1,
+        bins: a.bins as usize,
         seed: a.seed,
-        oob_importance: true,
     };
     check_features_per_split(fps, &data)?;
 
@@ -120,7 +108,8 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         check_memory(&data, &settings, a)?;
     }
     let options = TrainOptions {
-        keep_inbag: a.keep_draws,
+        keep_draws: a.keep_draws,
+        ..TrainOptions::default()
     };
     let rows_used = data.outcome.n_labelled();
     if a.keep_draws && (a.trees as usize) < 2 * rows_used {
@@ -139,12 +128,12 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     };
     let shuffle_error = shuffle.as_ref().map(|s| &s.error);
     let train_secs = started.elapsed().as_secs_f64();
-    let mut model = build_model(&data, trained.forest, &rule_words(fps));
+    let mut model = build_model(&data, trained.forest, &fps.to_string());
     // The bin layout the trees were grown on, kept in the schema for inspection. The
     // forest binned the same data with the same limit, so this cannot fail where
     // training succeeded.
     model.schema.bins =
-        copse_tree::BinnedData::new(data.x.view(), &data.schema.features, settings.bin_limit)
+        copse_tree::BinnedData::new(data.x.view(), &data.schema.features, settings.bin_limit())
             .map_err(|e| CliError::failure(format!("binning {}: {}", data.source, e.message())))?
             .bins()
             .to_vec();
@@ -285,7 +274,7 @@ fn shuffled_target_test(
 fn grow(
     data: &TrainingData,
     settings: &ForestSettings,
-    options: TrainOptions,
+    options: TrainOptions<'_>,
     ui: &Ui,
 ) -> CliResult<Trained> {
     let bar: Bar = ui.bar(settings.trees as u64, "growing trees");
@@ -301,13 +290,16 @@ fn grow(
         }
         bar.advance_to(p.done);
     };
-    let result = Forest::train_with_options(
+    let options = TrainOptions {
+        progress: Some(&progress),
+        ..options
+    };
+    let result = Forest::train(
         data.x.view(),
         &data.schema.features,
         &data.outcome,
         settings,
-        options,
-        &progress,
+        &options,
     );
     bar.finish();
     result.map_err(|e| forest_error(&e, &format!("cannot train on {}", data.source)))
