@@ -37,6 +37,23 @@ impl Forest {
     /// `InvalidSetting` for `repeats` of 0; `LengthMismatch` for a wrong number of
     /// columns or outcomes; `OutcomeMismatch` for an outcome that does not fit the
     /// model; `NoTargets` with fewer than two known outcomes.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_forest::{synth, Forest, ForestSettings, TrainOptions};
+    ///
+    /// // Friedman #1: inputs 0 to 4 drive the outcome, 5 to 9 are noise.
+    /// let data = synth::friedman1(300, 1);
+    /// let settings = ForestSettings { trees: 40, ..Default::default() };
+    /// let options = TrainOptions { oob_importance: false, ..TrainOptions::default() };
+    /// let forest = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &options)?
+    ///     .forest;
+    /// let test = synth::friedman1(200, 2);
+    /// let imp = forest.permutation_importance(test.x.view(), &test.outcome, 2, 7)?;
+    /// assert!(imp.error.ranked()[0].feature < 5);
+    /// assert!(imp.brier.is_none()); // Brier scores are for classes
+    /// # Ok::<(), copse_forest::Error>(())
+    /// ```
     pub fn permutation_importance(
         &self,
         x: ArrayView2<'_, f64>,

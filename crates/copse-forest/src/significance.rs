@@ -108,6 +108,23 @@ impl Significance {
 /// around zero and that such inputs are many: p-values below 0.01 need a null sample
 /// of at least 99 values, so roughly 100 unrelated inputs. With few inputs, use
 /// [`response_permutation_test`].
+///
+/// # Example
+/// ```
+/// use copse_forest::{mirrored_null_test, synth, Forest, ForestSettings, TrainOptions};
+///
+/// let data = synth::friedman1(200, 1);
+/// let settings = ForestSettings { trees: 40, ..Default::default() };
+/// let trained =
+///     Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &TrainOptions::default())?;
+/// let imp = trained.forest.oob_importance().expect("measured while training");
+/// if let Some(test) = mirrored_null_test(&imp.error) {
+///     assert_eq!(test.p_values.len(), 10);
+///     // Ten inputs give too few null values for p-values worth reporting.
+///     assert!(!test.reportable());
+/// }
+/// # Ok::<(), copse_forest::Error>(())
+/// ```
 pub fn mirrored_null_test(importance: &Importance) -> Option<Significance> {
     let mut null: Vec<f64> = Vec::new();
     for f in &importance.features {

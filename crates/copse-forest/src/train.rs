@@ -75,6 +75,31 @@ impl Forest {
     /// `InvalidSetting` for bad settings; `LengthMismatch`, `EmptyData`, `BadValue`,
     /// `TooLarge` for data that does not fit; `NoTargets` with fewer than two known
     /// outcomes.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_forest::{synth, Forest, ForestSettings, Progress, TrainOptions};
+    /// use std::sync::atomic::{AtomicUsize, Ordering};
+    ///
+    /// let data = synth::friedman1(200, 1);
+    /// let settings = ForestSettings { trees: 40, ..Default::default() };
+    /// // Keep the draw counts (for standard errors) and count the progress reports.
+    /// let reports = AtomicUsize::new(0);
+    /// let progress = |_: Progress| {
+    ///     reports.fetch_add(1, Ordering::Relaxed);
+    /// };
+    /// let options = TrainOptions {
+    ///     keep_draws: true,
+    ///     progress: Some(&progress),
+    ///     ..TrainOptions::default()
+    /// };
+    /// let trained = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &options)?;
+    /// assert_eq!(trained.forest.trees().len(), 40);
+    /// assert!(trained.forest.draws().is_some());
+    /// assert!(trained.forest.oob_importance().is_some());
+    /// assert!(reports.load(Ordering::Relaxed) >= 40);
+    /// # Ok::<(), copse_forest::Error>(())
+    /// ```
     pub fn train(
         x: ArrayView2<'_, f64>,
         meta: &[FeatureMeta],

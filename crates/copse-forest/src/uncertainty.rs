@@ -94,6 +94,25 @@ impl Forest {
     /// `InvalidSetting` when the model holds no draw counts, was not trained with
     /// plain bootstrap samples, has fewer than two trees, or has saturated counts;
     /// `LengthMismatch` when `x` has the wrong number of columns.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_forest::{synth, Forest, ForestSettings, TrainOptions};
+    ///
+    /// let data = synth::friedman1(100, 1);
+    /// let settings = ForestSettings { trees: 200, ..Default::default() };
+    /// let options = TrainOptions { keep_draws: true, oob_importance: false, ..Default::default() };
+    /// let forest = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &options)?
+    ///     .forest;
+    /// let query = synth::friedman1(4, 2);
+    /// let u = forest.prediction_uncertainty(query.x.view())?;
+    /// assert_eq!(u.predictions, forest.predict(query.x.view())?);
+    /// // `None` where the bias-corrected variance came out negative.
+    /// let se = u.std_errors();
+    /// assert_eq!(se.dim(), (4, 1));
+    /// assert_eq!(se.iter().filter(|s| s.is_none()).count(), u.clamped);
+    /// # Ok::<(), copse_forest::Error>(())
+    /// ```
     pub fn prediction_uncertainty(&self, x: ArrayView2<'_, f64>) -> Result<Uncertainty> {
         let draws = self.usable_draws()?;
         self.check_columns(x)?;
