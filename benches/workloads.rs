@@ -39,7 +39,7 @@
 //! (VmHWM in /proc/self/status) is its own.
 use copse_forest::{
     synth, FeaturesPerSplit, Forest, ForestSettings, Outcome, Progress, Sampling, Stage,
-    TreeSettings,
+    TrainOptions, TreeRules,
 };
 use copse_tree::{BinnedData, Tree};
 use ndarray::ArrayView2;
@@ -425,17 +425,16 @@ fn pool(threads: usize) -> rayon::ThreadPool {
         .expect("a thread pool")
 }
 
-fn settings(importance: bool) -> ForestSettings {
+fn settings() -> ForestSettings {
     ForestSettings {
         trees: TREES,
         features_per_split: FeaturesPerSplit::Count(K),
         sampling: Sampling::Bootstrap,
-        tree: TreeSettings {
+        tree: TreeRules {
             min_leaf: 1.0,
-            ..TreeSettings::default()
+            ..TreeRules::default()
         },
         seed: 1,
-        oob_importance: importance,
         ..ForestSettings::default()
     }
 }
@@ -464,26 +463,26 @@ impl Fit {
 /// report of a stage marks its end).
 fn train_timed(data: &synth::Synthetic, threads: usize, importance: bool) -> Fit {
     let ends = Mutex::new([Duration::ZERO; 3]);
-    let s = settings(importance);
+    let s = settings();
     let start = Instant::now();
     let trained = pool(threads).install(|| {
-        Forest::train_with_progress(
-            data.x.view(),
-            &data.meta,
-            &data.outcome,
-            &s,
-            &|p: Progress| {
-                let i = match p.stage {
-                    Stage::Growing => 0,
-                    Stage::OutOfBag => 1,
-                    Stage::Importance => 2,
-                };
-                let t = start.elapsed();
-                if let Ok(mut e) = ends.lock() {
-                    e[i] = e[i].max(t);
-                }
-            },
-        )
+        let progress = |p: Progress| {
+            let i = match p.stage {
+                Stage::Growing => 0,
+                Stage::OutOfBag => 1,
+                Stage::Importance => 2,
+            };
+            let t = start.elapsed();
+            if let Ok(mut e) = ends.lock() {
+                e[i] = e[i].max(t);
+            }
+        };
+        let options = TrainOptions {
+            oob_importance: importance,
+            progress: Some(&progress),
+            ..TrainOptions::default()
+        };
+        Forest::train(data.x.view(), &data.meta, &data.outcome, &s, &options)
     });
     let total = start.elapsed();
     let trained = trained.expect("twonorm trains");
@@ -595,7 +594,7 @@ fn kernel_train_timed(x: &ArrayView2<'_, f64>, fit: &Fit, threads: usize) -> f64
 
 /// Column-major byte bin codes of `x`, binned as the forest bins its data.
 fn byte_codes(x: &ArrayView2<'_, f64>, forest: &Forest) -> Vec<u8> {
-    let data = BinnedData::new(*x, forest.meta(), forest.settings().bin_limit).expect("bins");
+    let data = BinnedData::new(*x, forest.meta(), forest.settings().bin_limit()).expect("bins");
     let (n, p) = x.dim();
     let mut codes = Vec::with_capacity(n * p);
     for j in 0..p {

@@ -5,7 +5,7 @@
 use copse_forest::synth::{self, Synthetic};
 use copse_forest::{
     predicted_class, FeatureMeta, FeaturesPerSplit, Forest, ForestSettings, ImportanceMeasure,
-    Metrics, Outcome, Sampling, Trained, MISSING,
+    Metrics, Outcome, Sampling, TrainOptions, Trained, MISSING,
 };
 use ndarray::{Array2, Axis, ShapeBuilder};
 
@@ -20,21 +20,28 @@ fn settings(trees: usize, k: FeaturesPerSplit, seed: u64) -> ForestSettings {
         trees,
         features_per_split: k,
         seed,
-        oob_importance: false,
         ..Default::default()
     }
 }
 
-/// `settings` with the default inputs per split and out-of-bag importance measured.
+/// `settings` with the default inputs per split (for [`train_importance`]).
 fn importance_settings(trees: usize, seed: u64) -> ForestSettings {
-    ForestSettings {
-        oob_importance: true,
-        ..settings(trees, FeaturesPerSplit::Auto, seed)
-    }
+    settings(trees, FeaturesPerSplit::Auto, seed)
 }
 
+/// Trains without out-of-bag importance.
 fn train(d: &Synthetic, s: &ForestSettings) -> Trained {
-    Forest::train(d.x.view(), &d.meta, &d.outcome, s).expect("training succeeds")
+    let options = TrainOptions {
+        oob_importance: false,
+        ..TrainOptions::default()
+    };
+    Forest::train(d.x.view(), &d.meta, &d.outcome, s, &options).expect("training succeeds")
+}
+
+/// Trains with out-of-bag importance measured.
+fn train_importance(d: &Synthetic, s: &ForestSettings) -> Trained {
+    Forest::train(d.x.view(), &d.meta, &d.outcome, s, &TrainOptions::default())
+        .expect("training succeeds")
 }
 
 fn codes(o: &Outcome) -> &[u32] {
@@ -80,7 +87,6 @@ fn single_tree(d: &Synthetic) -> Forest {
         trees: 1,
         features_per_split: FeaturesPerSplit::All,
         sampling: Sampling::Whole,
-        oob_importance: false,
         ..Default::default()
     };
     train(d, &s).forest
@@ -285,7 +291,7 @@ fn friedman1_importance_finds_the_five_real_inputs() {
     // in out-of-bag permutation importance (MSE increase).
     let d = synth::friedman1(300, 31);
     let s = importance_settings(200, 32);
-    let t = train(&d, &s);
+    let t = train_importance(&d, &s);
     let imp = &t
         .forest
         .oob_importance()
@@ -343,7 +349,7 @@ fn replicated_importance(gen: &dyn Fn(u64) -> Synthetic, reps: u64, trees: usize
     for r in 0..reps {
         let d = gen(5000 + r);
         let s = importance_settings(trees, 6000 + r);
-        let t = train(&d, &s);
+        let t = train_importance(&d, &s);
         let imp = &t.forest.oob_importance().expect("requested").error;
         per_set.push(imp.features.iter().map(|f| f.mean).collect());
         let dec = &t.forest.impurity_importance().features;
@@ -377,7 +383,7 @@ fn waveform40_importance_ignores_the_noise_inputs() {
     // must all be among the first 21.
     let d = synth::waveform40(600, 41);
     let s = importance_settings(200, 42);
-    let t = train(&d, &s);
+    let t = train_importance(&d, &s);
     let imp = &t.forest.oob_importance().expect("requested").error;
     let top: Vec<usize> = imp.ranked().iter().take(10).map(|f| f.feature).collect();
     println!("waveform-40 top ten inputs (0-based): {top:?}");
@@ -593,7 +599,7 @@ fn same_model_for_any_thread_count() {
             .iter()
             .map(|&n| {
                 with_threads(n, || {
-                    let t = train(d, &s);
+                    let t = train_importance(d, &s);
                     let imp = t
                         .forest
                         .permutation_importance(d.x.view(), &d.outcome, 3, 5)
@@ -766,7 +772,7 @@ fn bad_input_gives_typed_errors() {
     let d = synth::twonorm(50, 131);
     let s = settings(5, FeaturesPerSplit::Auto, 1);
     let kind = |x: &Array2<f64>, meta: &[FeatureMeta], o: &Outcome, s: &ForestSettings| {
-        Forest::train(x.view(), meta, o, s)
+        Forest::train(x.view(), meta, o, s, &TrainOptions::default())
             .map(|_| ())
             .expect_err("must fail")
             .kind()
@@ -842,7 +848,7 @@ fn rows_with_missing_outcome_are_left_out_and_counted() {
         sampling: Sampling::Subsample(0.5),
         ..importance_settings(40, 142)
     };
-    let t = train(&partial, &s);
+    let t = train_importance(&partial, &s);
     let o = t.forest.oob();
     assert_eq!(o.rows_missing_outcome, 20);
     assert_eq!(o.rows_labelled, 180);

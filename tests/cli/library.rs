@@ -43,7 +43,7 @@ fn same_bytes_both_ways(data: &str, target: &str, ignore: &[&str]) {
         ..ForestSettings::default()
     };
     let forest = table
-        .train(&settings, Default::default(), &|_| {})
+        .train(&settings, &Default::default())
         .expect("training succeeds")
         .forest;
     let lib_path = dir.path().join("lib.copse");

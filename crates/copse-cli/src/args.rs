@@ -284,7 +284,7 @@ pub struct ScoreArgs {
     pub blank_unscorable: bool,
 
     /// Rows read and scored together (memory use grows with it); by default sized
-    /// from the model (see `commands::score::default_block_rows`).
+    /// from the model (see `copse_forest::Forest::scoring_block_rows`).
     #[arg(long, value_name = "N", hide = true, value_parser = clap::value_parser!(u32).range(1..))]
     pub block_rows: Option<u32>,
 }

@@ -7,7 +7,7 @@
 use crate::report::{self, Style};
 use copse_data::{CsvInput, Delimiter, Missing, Roles, RowEncoder, TrainingTable};
 use copse_forest::model_file::{FORMAT_VERSION, HEADER_LEN, MAGIC};
-use copse_forest::{Forest as Model, ForestSettings, Task, TreeSettings};
+use copse_forest::{Forest as Model, ForestSettings, Task, TrainOptions, TreeRules};
 use ndarray::Array2;
 use std::io::Cursor;
 
@@ -62,15 +62,15 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
     }
     let settings = ForestSettings {
         trees: 2,
-        tree: TreeSettings {
+        tree: TreeRules {
             max_depth: Some(8),
-            ..TreeSettings::default()
+            ..TreeRules::default()
         },
-        bin_limit: 32,
+        bins: 31,
         seed: u64::from(ctrl),
         ..ForestSettings::default()
     };
-    let trained = match training.train(&settings, Default::default(), &|_| {}) {
+    let trained = match training.train(&settings, &TrainOptions::default()) {
         Ok(t) => t,
         // Data that passed reading may still be refused by the engine for a reason
         // about the data; anything else (a fault inside a tree, exit 1 in the command)

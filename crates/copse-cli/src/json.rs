@@ -5,8 +5,8 @@ use crate::report::CAUTION;
 use copse_forest::Forest as Model;
 use copse_forest::Task;
 use copse_forest::{
-    mirrored_null_test, FeatureKind, Importance, ImportanceMeasure, ImportanceMethod, Metrics,
-    PermutationImportance, Sampling, Significance, SignificanceTest,
+    mirrored_null_test, FeatureKind, Importance, Metrics, PermutationImportance, Sampling,
+    Significance, SignificanceTest,
 };
 use serde_json::{json, Map, Value};
 
@@ -48,25 +48,6 @@ pub fn oob(model: &Model) -> Value {
     v
 }
 
-fn measure_name(m: ImportanceMeasure) -> &'static str {
-    match m {
-        ImportanceMeasure::Misclassification => "misclassification",
-        ImportanceMeasure::Brier => "brier",
-        ImportanceMeasure::MeanSquaredError => "mse",
-        ImportanceMeasure::Gini => "gini",
-        ImportanceMeasure::Entropy => "entropy",
-        ImportanceMeasure::Variance => "variance",
-    }
-}
-
-fn method_name(m: ImportanceMethod) -> &'static str {
-    match m {
-        ImportanceMethod::OutOfBagPermutation => "out_of_bag_permutation",
-        ImportanceMethod::HeldOutPermutation => "held_out_permutation",
-        ImportanceMethod::ImpurityDecrease => "impurity_decrease",
-    }
-}
-
 /// A ranked list of `{feature, mean, std_error, rank}`.
 pub fn ranking(imp: &Importance) -> Value {
     Value::Array(
@@ -87,8 +68,8 @@ pub fn ranking(imp: &Importance) -> Value {
 /// What an importance list measures.
 pub fn importance_about(imp: &Importance) -> Value {
     json!({
-        "method": method_name(imp.method),
-        "measure": measure_name(imp.measure),
+        "method": imp.method.to_string(),
+        "measure": imp.measure.key(),
         "replicates": imp.replicates,
     })
 }
@@ -111,11 +92,7 @@ pub fn put_permutation(map: &mut Map<String, Value>, imp: Option<&PermutationImp
 }
 
 fn sampling(s: &Sampling) -> Value {
-    match s {
-        Sampling::Bootstrap => json!("bootstrap"),
-        Sampling::Subsample(f) => json!(format!("subsample:{f}")),
-        Sampling::Whole => json!("none"),
-    }
+    json!(s.to_string())
 }
 
 /// The common part of every command's object: task, target, classes, trees, inputs,
@@ -168,9 +145,9 @@ pub fn model_object(command: &str, model: &Model) -> Map<String, Value> {
             },
             "max_depth": s.tree.max_depth,
             "min_leaf": s.tree.min_leaf,
-            "bins": s.bin_limit.saturating_sub(1),
+            "bins": s.bins,
             "seed": s.seed,
-            "keep_draws": f.inbag().is_some(),
+            "keep_draws": f.draws().is_some(),
         }),
     );
     map.insert(
@@ -207,13 +184,6 @@ pub fn print(map: Map<String, Value>) -> crate::error::CliResult<()> {
         .map_err(|e| crate::error::CliError::write("standard output", &e))
 }
 
-fn test_name(t: SignificanceTest) -> &'static str {
-    match t {
-        SignificanceTest::MirroredNull => "mirrored_null",
-        SignificanceTest::ResponsePermutation => "shuffled_target",
-    }
-}
-
 fn p_key(t: SignificanceTest) -> &'static str {
     match t {
         SignificanceTest::MirroredNull => "p_mirror",
@@ -235,8 +205,8 @@ pub fn put_p_values(
     let mut tests = vec![match &mirror {
         Some(m) => test_about(m),
         None => json!({
-            "test": test_name(SignificanceTest::MirroredNull),
-            "measure": measure_name(imp.measure),
+            "test": SignificanceTest::MirroredNull.to_string(),
+            "measure": imp.measure.key(),
             "null_size": 0,
             "smallest_p": null,
         }),
@@ -264,8 +234,8 @@ pub fn put_p_values(
 
 fn test_about(s: &Significance) -> Value {
     json!({
-        "test": test_name(s.test),
-        "measure": measure_name(s.measure),
+        "test": s.test.to_string(),
+        "measure": s.measure.key(),
         "null_size": s.null_size,
         "smallest_p": 1.0 / (1.0 + s.null_size as f64),
     })

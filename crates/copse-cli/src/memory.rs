@@ -15,9 +15,8 @@
 //! too, so the estimate is neither padded nor cut.
 use copse_forest::Sampling;
 
-/// Bytes of one tree node in memory (copse-tree's `Node`: threshold or category-set
-/// reference, child, input and flags).
-const NODE_BYTES: u64 = 16;
+/// Bytes of one tree node in memory, as the engine lays it out.
+const NODE_BYTES: u64 = copse_forest::NODE_BYTES as u64;
 
 /// What an estimate is made from.
 #[derive(Debug, Clone, Copy)]

@@ -6,7 +6,7 @@
 //! - stability: three small panels side by side (error per seed, share of answers that
 //!   change between seeds, agreement of importance rankings), one column per kind of
 //!   model.
-use copse_forest::{Importance, KindStability, ModelKind, Significance, StabilityReport};
+use copse_forest::{Importance, KindStability, Significance, StabilityReport};
 use plotters::coord::ranged1d::SegmentValue;
 use plotters::prelude::*;
 
@@ -252,15 +252,6 @@ pub fn oob_curve_svg(curve: &[Option<f64>], measure: &str, subtitle: &str) -> Pl
     Ok(svg)
 }
 
-/// Short name of a kind of model for chart labels.
-fn kind_label(k: ModelKind) -> &'static str {
-    match k {
-        ModelKind::SingleTree => "one tree",
-        ModelKind::BaggedTrees => "bagged trees",
-        ModelKind::Forest => "random forest",
-    }
-}
-
 /// One panel of the stability chart: a column per kind of model; `values(k)` gives the
 /// points drawn for kind `k` (one dot each) and `bar(k)` the height of its bar, if any.
 #[allow(clippy::too_many_arguments)]
@@ -292,7 +283,7 @@ fn stability_panel(
         .x_label_formatter(&|v| match v {
             SegmentValue::CenterOf(i) => kinds
                 .get(*i as usize)
-                .map_or(String::new(), |k| kind_label(k.kind).to_string()),
+                .map_or(String::new(), |k| k.kind.to_string()),
             _ => String::new(),
         })
         .y_desc(axis)

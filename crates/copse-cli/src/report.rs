@@ -5,8 +5,8 @@
 use copse_forest::Forest as Model;
 use copse_forest::Task;
 use copse_forest::{
-    mirrored_null_test, ClassMetrics, FeatureKind, Importance, ImportanceMeasure, Metrics,
-    PermutationImportance, Sampling, Significance, SignificanceTest, ValueMetrics,
+    mirrored_null_test, ClassMetrics, FeatureKind, Importance, Metrics, PermutationImportance,
+    Sampling, Significance, SignificanceTest, ValueMetrics,
 };
 use std::fmt::Write;
 
@@ -244,16 +244,16 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
     line(
         out,
         "numeric bins",
-        &format!("at most {} per input", s.bin_limit.saturating_sub(1)),
+        &format!("at most {} per input", s.bins),
     );
     line(out, "seed", &s.seed.to_string());
-    if let Some(inbag) = f.inbag() {
+    if let Some(draws) = f.draws() {
         line(
             out,
             "row draws kept",
             &format!(
                 "yes, {} (for 'copse score --uncertainty')",
-                bytes_words(inbag.heap_bytes() as u64)
+                bytes_words(draws.heap_bytes() as u64)
             ),
         );
     }
@@ -377,20 +377,7 @@ pub fn oob_section(out: &mut String, st: Style, model: &Model) {
     let _ = writeln!(out);
 }
 
-fn measure_words(m: ImportanceMeasure) -> &'static str {
-    match m {
-        ImportanceMeasure::Misclassification => "misclassification rate",
-        ImportanceMeasure::Brier => "Brier score",
-        ImportanceMeasure::MeanSquaredError => "mean squared error",
-        ImportanceMeasure::Gini => "Gini impurity",
-        ImportanceMeasure::Entropy => "entropy",
-        ImportanceMeasure::Variance => "variance",
-    }
-}
-
-/// Smallest null sample for which the mirrored-null p-values are shown in reports: 19
-/// values allow a p-value of 0.05 (smallest possible p is 1 / (1 + null size)).
-pub const MIRROR_MIN_NULL: usize = 19;
+pub use copse_forest::MIRROR_MIN_NULL;
 
 /// A p-value as printed: three decimals, or `<0.001`.
 pub fn p_text(p: f64) -> String {
@@ -495,7 +482,7 @@ fn signed(v: f64, decimals: usize) -> String {
 
 /// Explains what an importance table measures.
 pub fn importance_intro(imp: &Importance, held_out: bool) -> String {
-    let what = measure_words(imp.measure);
+    let what = imp.measure.to_string();
     let text = if held_out {
         format!(
             "Rise in the model's {what} on these rows when one input's values are shuffled \
@@ -520,7 +507,7 @@ pub fn importance_intro(imp: &Importance, held_out: bool) -> String {
 /// The mirrored-null test of an importance, when its null sample is large enough to
 /// show ([`MIRROR_MIN_NULL`]).
 pub fn shown_mirror(imp: &Importance) -> Option<Significance> {
-    mirrored_null_test(imp).filter(|s| s.null_size >= MIRROR_MIN_NULL)
+    mirrored_null_test(imp).filter(Significance::reportable)
 }
 
 /// The importance table with its p-value columns and, under it, what each p-value
@@ -535,7 +522,7 @@ pub fn importance_with_tests(
     hint: &str,
 ) {
     let mirror = mirrored_null_test(&imp.error);
-    let mirror_shown = mirror.as_ref().filter(|s| s.null_size >= MIRROR_MIN_NULL);
+    let mirror_shown = mirror.as_ref().filter(|s| s.reportable());
     let cols: Vec<&Significance> = mirror_shown.into_iter().chain(shuffle).collect();
     importance_table(out, imp, show_brier, &cols);
     let mut notes = Vec::new();

@@ -24,7 +24,7 @@
 //! # std::fs::write(&path, text).unwrap();
 //! let table = TrainingTable::read_csv(&path, &Roles::target("burst"))?;
 //! let settings = ForestSettings { trees: 25, seed: 3, ..Default::default() };
-//! let forest = table.train(&settings, Default::default(), &|_| {})?.forest;
+//! let forest = table.train(&settings, &Default::default())?.forest;
 //! forest.save(dir.join("pipes.copse"))?;
 //! let model = Forest::load(dir.join("pipes.copse"))?;
 //! let input = CsvInput::open(&path.to_string_lossy(), Delimiter::Comma)?;

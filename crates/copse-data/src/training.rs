@@ -7,8 +7,8 @@ use crate::error::{Error, ErrorKind, Result};
 use crate::infer::{self, line_of, ColumnTally, Levels};
 use crate::roles::{lay_out, Layout, Roles};
 use copse_forest::{
-    FeatureKind, FeatureMeta, Forest, ForestSettings, ModelCard, Outcome, Progress, Task,
-    TrainOptions, Trained,
+    FeatureKind, FeatureMeta, Forest, ForestSettings, ModelCard, Outcome, Task, TrainOptions,
+    Trained,
 };
 use ndarray::Array2;
 use std::collections::HashMap;
@@ -167,7 +167,7 @@ impl TrainingTable {
     /// settings.
     ///
     /// # Errors
-    /// As for [`Forest::train_with_options`].
+    /// As for [`Forest::train`].
     ///
     /// # Example
     /// ```
@@ -181,23 +181,21 @@ impl TrainingTable {
     /// # std::fs::write(&path, text).unwrap();
     /// let table = TrainingTable::read_csv(&path, &Roles::target("burst"))?;
     /// let settings = ForestSettings { trees: 20, ..Default::default() };
-    /// let trained = table.train(&settings, Default::default(), &|_| {})?;
+    /// let trained = table.train(&settings, &Default::default())?;
     /// assert_eq!(trained.forest.card().source, path.to_string_lossy());
     /// # Ok::<(), Box<dyn std::error::Error>>(())
     /// ```
     pub fn train(
         &self,
         settings: &ForestSettings,
-        options: TrainOptions,
-        progress: &(dyn Fn(Progress) + Sync),
+        options: &TrainOptions<'_>,
     ) -> copse_forest::Result<Trained> {
-        let mut trained = Forest::train_with_options(
+        let mut trained = Forest::train(
             self.x.view(),
             &self.features,
             &self.outcome,
             settings,
             options,
-            progress,
         )?;
         let card = self.card_for(&trained.forest);
         trained.forest.set_card(card)?;

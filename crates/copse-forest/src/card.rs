@@ -4,7 +4,7 @@
 //! version). No clock times, so the same run gives the same file byte for byte.
 use crate::error::{Error, ErrorKind, Result};
 use crate::metrics::Metrics;
-use crate::oob::OobSummary;
+use crate::oob_summary::OobSummary;
 use crate::outcome::Outcome;
 use serde::{Deserialize, Serialize};
 

@@ -1,15 +1,20 @@
 //! The trained model: trees, the task, the settings that made it, and the summaries
 //! computed while training (out-of-bag accuracy, importance).
 use crate::card::ModelCard;
+use crate::draws::Draws;
 use crate::error::{Error, ErrorKind, Result};
 use crate::importance::{Importance, PermutationImportance};
-use crate::inbag::InBag;
-use crate::oob::{OobReport, OobSummary};
+use crate::oob_summary::{OobReport, OobSummary};
 use crate::outcome::{Outcome, MISSING};
 use crate::settings::ForestSettings;
 use crate::task::Task;
 use copse_tree::{FeatureBins, FeatureMeta, Tree};
 use serde::{Deserialize, Serialize};
+
+/// Bytes one tree node takes in memory (its output and case weight included; a leaf
+/// with three or more classes keeps its class shares apart, 8 bytes a class), for
+/// estimating a model's size before training.
+pub const NODE_BYTES: usize = std::mem::size_of::<copse_tree::tree::Node>();
 
 /// A trained ensemble of trees.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -26,7 +31,7 @@ pub struct Forest {
     pub(crate) oob_importance: Option<PermutationImportance>,
     pub(crate) impurity_importance: Importance,
     /// Times each tree drew each training row, when kept ([`crate::TrainOptions`]).
-    pub(crate) inbag: Option<InBag>,
+    pub(crate) draws: Option<Draws>,
     /// Each input's bin layout as training used it (for numeric inputs, the lowest and
     /// highest training value in each bin).
     pub(crate) bins: Vec<FeatureBins>,
@@ -136,9 +141,9 @@ impl Forest {
     }
 
     /// Times each tree drew each training row, if training kept them
-    /// ([`crate::TrainOptions::keep_inbag`]).
-    pub fn inbag(&self) -> Option<&InBag> {
-        self.inbag.as_ref()
+    /// ([`crate::TrainOptions::keep_draws`]).
+    pub fn draws(&self) -> Option<&Draws> {
+        self.draws.as_ref()
     }
 
     /// Total number of nodes over all trees.
@@ -221,8 +226,8 @@ impl Forest {
                 return bad(t, e.message().to_string());
             }
         }
-        if let Some(inbag) = &self.inbag {
-            inbag.check(self.training_rows, self.trees.len())?;
+        if let Some(draws) = &self.draws {
+            draws.check(self.training_rows, self.trees.len())?;
         }
         Ok(())
     }

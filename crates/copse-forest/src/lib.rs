@@ -14,7 +14,7 @@
 //! - [`card`]: what a model file records about how the model was made ([`ModelCard`]);
 //! - [`model_file`]: the model file: save, load, bytes, checks on reading;
 //! - [`task`]: classes or numbers ([`Task`]);
-//! - [`inbag`]: how many times each tree drew each row, kept on request ([`InBag`]);
+//! - [`draws`]: how many times each tree drew each row, kept on request ([`Draws`]);
 //! - [`significance`]: p-values for permutation importance;
 //! - [`stability`]: how one tree, bagged trees and a forest vary over seeds;
 //! - [`uncertainty`]: standard errors of predictions (infinitesimal jackknife);
@@ -26,12 +26,12 @@
 //!
 //! # Example
 //! ```
-//! use copse_forest::{synth, Forest, ForestSettings};
+//! use copse_forest::{synth, Forest, ForestSettings, TrainOptions};
 //!
 //! // 300 cases of the twonorm problem (two overlapping 20-dimensional normals).
 //! let data = synth::twonorm(300, 42);
 //! let settings = ForestSettings { trees: 100, seed: 7, ..Default::default() };
-//! let trained = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings)?;
+//! let trained = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &TrainOptions::default())?;
 //! let oob = trained.forest.oob().metrics.as_ref().expect("rows were out of bag");
 //! println!("out-of-bag error: {:.3}", oob.error());
 //! // The best possible error on twonorm is 0.023; one tree gets about 0.2.
@@ -43,17 +43,27 @@
 // Tests may unwrap: a panic there is a failed test, not a user-facing crash.
 #![cfg_attr(test, allow(clippy::unwrap_used))]
 
+/// The `ndarray` this crate is built with, so that callers use the matching version.
+pub use ndarray;
+
 pub mod card;
+pub mod draws;
 pub mod error;
 pub mod forest;
+pub mod held_out;
 pub mod importance;
-pub mod inbag;
+mod leaf_paths;
+mod loss;
 pub mod metrics;
 pub mod model_file;
 pub mod oob;
+pub mod oob_importance;
+pub mod oob_summary;
 pub mod outcome;
 pub mod predict;
+pub mod progress;
 mod rng;
+mod row_block;
 mod sample;
 pub mod settings;
 pub mod significance;
@@ -65,28 +75,26 @@ pub mod uncertainty;
 
 pub use card::{ModelCard, STANDARD_MISSING_TOKENS};
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
+pub use draws::Draws;
 pub use error::{io_reason, Error, ErrorKind, Result};
-pub use forest::{Forest, Trained};
+pub use forest::{Forest, Trained, NODE_BYTES};
 pub use importance::{
     FeatureImportance, Importance, ImportanceMeasure, ImportanceMethod, PermutationImportance,
     IMPURITY_CAUTION,
 };
-pub use inbag::InBag;
 pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics};
-/// The array crate copse takes its tables from, re-exported so a user names the same
-/// version.
-pub use ndarray;
-pub use oob::{OobReport, OobSummary};
+pub use oob_summary::{OobReport, OobSummary};
 pub use outcome::{natural_order, Outcome, MISSING};
 pub use predict::Evaluation;
-pub use settings::{FeaturesPerSplit, ForestSettings, Sampling};
+pub use progress::{Progress, Stage};
+pub use settings::{FeaturesPerSplit, ForestSettings, Sampling, TreeRules};
 pub use significance::{
     holdout_importance, mirrored_null_test, response_permutation_test, PermutationSignificance,
-    Significance, SignificanceTest,
+    Significance, SignificanceTest, MIRROR_MIN_NULL,
 };
 pub use stability::{
     stability_report, KindStability, ModelKind, StabilityReport, StabilitySettings,
 };
 pub use task::Task;
-pub use train::{Progress, Stage, TrainOptions};
+pub use train::TrainOptions;
 pub use uncertainty::Uncertainty;

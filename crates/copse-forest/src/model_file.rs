@@ -272,7 +272,7 @@ impl Forest {
     /// use copse_forest::{synth, Forest, ForestSettings};
     /// let d = synth::twonorm(100, 1);
     /// let s = ForestSettings { trees: 3, ..Default::default() };
-    /// let forest = Forest::train(d.x.view(), &d.meta, &d.outcome, &s)?.forest;
+    /// let forest = Forest::train(d.x.view(), &d.meta, &d.outcome, &s, &Default::default())?.forest;
     /// let bytes = forest.to_bytes()?;
     /// assert_eq!(Forest::from_bytes(&bytes, "in memory")?, forest);
     /// # Ok::<(), copse_forest::Error>(())
@@ -312,7 +312,7 @@ impl Forest {
     /// use copse_forest::{synth, Forest, ForestSettings};
     /// let d = synth::friedman1(200, 3);
     /// let s = ForestSettings { trees: 5, ..Default::default() };
-    /// let forest = Forest::train(d.x.view(), &d.meta, &d.outcome, &s)?.forest;
+    /// let forest = Forest::train(d.x.view(), &d.meta, &d.outcome, &s, &Default::default())?.forest;
     /// let path = std::env::temp_dir().join("copse-doc-example.copse");
     /// forest.save(&path)?;
     /// assert_eq!(Forest::load(&path)?, forest);
@@ -473,7 +473,7 @@ mod tests {
                 seed: 2,
                 ..ForestSettings::default()
             };
-            let f = Forest::train(d.x.view(), &d.meta, &d.outcome, &s)
+            let f = Forest::train(d.x.view(), &d.meta, &d.outcome, &s, &Default::default())
                 .unwrap()
                 .forest;
             // The trees alone: the rest of the file (bin layout, summaries) does not grow
@@ -526,9 +526,15 @@ mod tests {
             seed: 2,
             ..crate::ForestSettings::default()
         };
-        Forest::train(x.view(), &meta, &data.outcome, &settings)
-            .unwrap()
-            .forest
+        Forest::train(
+            x.view(),
+            &meta,
+            &data.outcome,
+            &settings,
+            &Default::default(),
+        )
+        .unwrap()
+        .forest
     }
 
     /// A hostile file can carry a valid checksum over altered contents. Whatever single

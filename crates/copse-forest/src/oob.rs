@@ -2,13 +2,14 @@
 //! estimates the forest's error without a holdout (Breiman 1996, "Out-of-bag
 //! estimation"; Breiman 2001, section 3.1).
 use crate::metrics::{class_metrics, predicted_class, value_metrics, Metrics};
+use crate::oob_summary::{OobReport, OobSummary};
 use crate::outcome::Outcome;
 use crate::predict::Scorer;
-use crate::train::{Progress, Stage};
+use crate::progress::{Progress, Stage};
 use copse_tree::Tree;
 use ndarray::{Array2, ArrayView2};
 use rayon::prelude::*;
-use serde::{Deserialize, Serialize};
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// Which rows a tree left out of its sample, one bit per data row (set = out of bag).
 /// Kept for the whole of training: `trees * rows / 8` bytes.
@@ -32,36 +33,6 @@ impl OobMask {
     pub(crate) fn contains(&self, i: usize) -> bool {
         self.0[i / 64] >> (i % 64) & 1 == 1
     }
-}
-
-/// Out-of-bag accuracy, kept in the model.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct OobSummary {
-    /// Measures over the rows with a known outcome that were out of bag for at least
-    /// one tree; `None` when there is no such row (for example with no resampling).
-    pub metrics: Option<Metrics>,
-    /// Rows with a known outcome.
-    pub rows_labelled: usize,
-    /// Rows with a known outcome that every tree drew: they have no out-of-bag
-    /// prediction and are left out of `metrics`.
-    pub rows_never_oob: usize,
-    /// Rows whose outcome was missing (never drawn, never measured).
-    pub rows_missing_outcome: usize,
-    /// Entry `k` is the out-of-bag error (misclassification rate, or mean squared
-    /// error) using only trees `0..=k`, over the rows out of bag for at least one of
-    /// them; `None` while there is no such row.
-    pub error_curve: Vec<Option<f64>>,
-}
-
-/// Per-row out-of-bag results of one training run (not stored in the model).
-#[derive(Debug, Clone)]
-pub struct OobReport {
-    /// Rows by outputs: mean of the class distributions (or values) of the leaves the
-    /// row reached in the trees where it was out of bag. NaN for a row that no tree
-    /// left out.
-    pub predictions: Array2<f64>,
-    /// Number of trees for which each row was out of bag.
-    pub trees_out: Vec<u32>,
 }
 
 /// Per-block results of the out-of-bag pass.
@@ -97,120 +68,25 @@ pub(crate) fn out_of_bag(
     progress: &(dyn Fn(Progress) + Sync),
 ) -> (OobReport, OobSummary) {
     let n = x.nrows();
-    let k = outcome_width(outcome);
     let nt = trees.len();
-    let bs = block_rows(n);
-    let n_blocks = n.div_ceil(bs);
     let per_tree = trees.iter().map(|t| t.nodes().len()).sum::<usize>() / nt.max(1);
-    let group = (2 * per_tree)
-        .min(GROUP_ROWS)
-        .min(n.div_ceil(rayon::current_num_threads()))
-        .div_ceil(bs)
-        .max(1);
-    let n_groups = n_blocks.div_ceil(group);
-    // Each tree laid out for scoring once, when there are rows enough to pay for it.
-    let scorers: Vec<Scorer<'_>> = trees
-        .iter()
-        .map(|t| {
-            if n >= 2 * per_tree {
-                Scorer::Compact(t.compact())
-            } else {
-                Scorer::Plain(t)
-            }
-        })
-        .collect();
-    let done = std::sync::atomic::AtomicUsize::new(0);
-    let groups: Vec<Vec<Block>> = (0..n_groups)
+    let pass = Pass {
+        scorers: scorers(trees, n, per_tree),
+        masks,
+        x,
+        outcome,
+        k: outcome_width(outcome),
+        bs: block_rows(n),
+    };
+    let n_blocks = n.div_ceil(pass.bs);
+    let group = group_blocks(n, per_tree, pass.bs);
+    let done = AtomicUsize::new(0);
+    let groups: Vec<Vec<Block>> = (0..n_blocks.div_ceil(group))
         .into_par_iter()
         .map(|g| {
-            let first = g * group;
-            let last = ((g + 1) * group).min(n_blocks);
-            let start = first * bs;
-            let end = (last * bs).min(n);
-            let mut blocks: Vec<Block> = (first..last)
-                .map(|b| {
-                    let len = ((b + 1) * bs).min(n) - b * bs;
-                    Block {
-                        preds: vec![0.0; len * k],
-                        trees_out: vec![0; len],
-                        d_cover: vec![0; nt],
-                        d_wrong: vec![0; nt],
-                        d_sse: vec![0.0; nt],
-                    }
-                })
-                .collect();
-            // Trees in the outer loop keep each tree in cache for the whole group of
-            // rows, copied once into a contiguous buffer, whose out-of-bag rows
-            // descend several at a time. Each row still meets its trees in tree order
-            // (the error curve needs it), and each tree the rows of a block in row
-            // order, so every sum is taken in the same order as row by row.
-            let len = end - start;
-            let p = x.ncols();
-            let mut was_wrong = vec![false; len];
-            let mut prev_sq = vec![0.0; len];
-            let mut rows = vec![0.0; len * p];
-            if p > 0 {
-                for (dst, i) in rows.chunks_exact_mut(p).zip(start..end) {
-                    let row = x.row(i);
-                    match row.as_slice() {
-                        Some(v) => dst.copy_from_slice(v),
-                        None => dst.iter_mut().zip(row.iter()).for_each(|(d, &v)| *d = v),
-                    }
-                }
-            }
-            let mut picks: Vec<u32> = Vec::with_capacity(len);
-            let mut leaves = vec![0u32; len];
-            for (t, scorer) in scorers.iter().enumerate() {
-                let tree = scorer.tree();
-                picks.clear();
-                picks.extend(
-                    (0..len)
-                        .filter(|&r| masks[t].contains(start + r))
-                        .map(|r| r as u32),
-                );
-                scorer.leaf_indices_of(&rows, p, &picks, &mut leaves);
-                for (&r, &leaf) in picks.iter().zip(&leaves) {
-                    let r = r as usize;
-                    let i = start + r;
-                    let (out, rb) = (&mut blocks[r / bs], r % bs);
-                    let sums = &mut out.preds[rb * k..(rb + 1) * k];
-                    sums.iter_mut()
-                        .zip(&tree.leaf_value(leaf as usize))
-                        .for_each(|(s, v)| *s += v);
-                    out.trees_out[rb] += 1;
-                    let count = out.trees_out[rb];
-                    if outcome.is_missing(i) {
-                        continue;
-                    }
-                    if count == 1 {
-                        out.d_cover[t] += 1;
-                    }
-                    match outcome {
-                        Outcome::Classes { codes, .. } => {
-                            let wrong = predicted_class(sums) != codes[i] as usize;
-                            out.d_wrong[t] += i64::from(wrong) - i64::from(was_wrong[r]);
-                            was_wrong[r] = wrong;
-                        }
-                        Outcome::Values(y) => {
-                            let e = sums[0] / f64::from(count) - y[i];
-                            out.d_sse[t] += e * e - prev_sq[r];
-                            prev_sq[r] = e * e;
-                        }
-                    }
-                }
-            }
-            for out in &mut blocks {
-                for (r, o) in out.preds.chunks_mut(k).enumerate() {
-                    let count = out.trees_out[r];
-                    if count == 0 {
-                        o.iter_mut().for_each(|v| *v = f64::NAN);
-                    } else {
-                        o.iter_mut().for_each(|v| *v /= f64::from(count));
-                    }
-                }
-            }
-            let d =
-                done.fetch_add(last - first, std::sync::atomic::Ordering::Relaxed) + (last - first);
+            let (first, last) = (g * group, ((g + 1) * group).min(n_blocks));
+            let blocks = pass.score_group(first, last);
+            let d = done.fetch_add(last - first, Ordering::Relaxed) + (last - first);
             progress(Progress {
                 stage: Stage::OutOfBag,
                 done: d,
@@ -220,25 +96,209 @@ pub(crate) fn out_of_bag(
         })
         .collect();
     let blocks: Vec<Block> = groups.into_iter().flatten().collect();
+    let curve = error_curve(&blocks, nt, outcome);
+    summarize(&blocks, n, pass.k, outcome, curve)
+}
 
-    let mut preds = Vec::with_capacity(n * k);
-    let mut trees_out = Vec::with_capacity(n);
-    for b in &blocks {
-        preds.extend_from_slice(&b.preds);
-        trees_out.extend_from_slice(&b.trees_out);
+/// Each tree laid out for scoring once, when there are rows enough to pay for it.
+fn scorers(trees: &[Tree], n: usize, per_tree: usize) -> Vec<Scorer<'_>> {
+    trees
+        .iter()
+        .map(|t| {
+            if n >= 2 * per_tree {
+                Scorer::Compact(t.compact())
+            } else {
+                Scorer::Plain(t)
+            }
+        })
+        .collect()
+}
+
+/// Blocks per group: about two rows per node of a tree, at most [`GROUP_ROWS`] rows,
+/// and no more than a thread's share of the rows.
+fn group_blocks(n: usize, per_tree: usize, bs: usize) -> usize {
+    (2 * per_tree)
+        .min(GROUP_ROWS)
+        .min(n.div_ceil(rayon::current_num_threads()))
+        .div_ceil(bs)
+        .max(1)
+}
+
+/// What every group of the out-of-bag pass reads.
+struct Pass<'a, 'x> {
+    scorers: Vec<Scorer<'a>>,
+    masks: &'a [OobMask],
+    x: ArrayView2<'x, f64>,
+    outcome: &'a Outcome,
+    /// Outputs per row.
+    k: usize,
+    /// Rows per block.
+    bs: usize,
+}
+
+/// Where a group's rows stand in the running error measures: whether each row's
+/// out-of-bag prediction so far is wrong (classes), or its squared error (values).
+struct Running {
+    was_wrong: Vec<bool>,
+    prev_sq: Vec<f64>,
+}
+
+impl Pass<'_, '_> {
+    /// Blocks `first..last` of rows, each row's out-of-bag prediction summed over its
+    /// trees and the per-tree changes of the error measures recorded.
+    ///
+    /// Trees in the outer loop keep each tree in cache for the whole group of rows,
+    /// copied once into a contiguous buffer, whose out-of-bag rows descend several at
+    /// a time. Each row still meets its trees in tree order (the error curve needs
+    /// it), and each tree the rows of a block in row order, so every sum is taken in
+    /// the same order as row by row.
+    fn score_group(&self, first: usize, last: usize) -> Vec<Block> {
+        let (n, bs, k) = (self.x.nrows(), self.bs, self.k);
+        let nt = self.scorers.len();
+        let start = first * bs;
+        let end = (last * bs).min(n);
+        let mut blocks: Vec<Block> = (first..last)
+            .map(|b| {
+                let len = ((b + 1) * bs).min(n) - b * bs;
+                Block {
+                    preds: vec![0.0; len * k],
+                    trees_out: vec![0; len],
+                    d_cover: vec![0; nt],
+                    d_wrong: vec![0; nt],
+                    d_sse: vec![0.0; nt],
+                }
+            })
+            .collect();
+        let len = end - start;
+        let p = self.x.ncols();
+        let rows = self.copy_rows(start, end);
+        let mut running = Running {
+            was_wrong: vec![false; len],
+            prev_sq: vec![0.0; len],
+        };
+        let mut picks: Vec<u32> = Vec::with_capacity(len);
+        let mut leaves = vec![0u32; len];
+        for (t, scorer) in self.scorers.iter().enumerate() {
+            picks.clear();
+            picks.extend(
+                (0..len)
+                    .filter(|&r| self.masks[t].contains(start + r))
+                    .map(|r| r as u32),
+            );
+            scorer.leaf_indices_of(&rows, p, &picks, &mut leaves);
+            for (&r, &leaf) in picks.iter().zip(&leaves) {
+                self.add_leaf(&mut blocks, &mut running, t, start, r as usize, leaf);
+            }
+        }
+        for out in &mut blocks {
+            mean_of_sums(out, k);
+        }
+        blocks
     }
+
+    /// Rows `start..end` of the data, row-major in one buffer.
+    fn copy_rows(&self, start: usize, end: usize) -> Vec<f64> {
+        let p = self.x.ncols();
+        let mut rows = vec![0.0; (end - start) * p];
+        if p > 0 {
+            for (dst, i) in rows.chunks_exact_mut(p).zip(start..end) {
+                let row = self.x.row(i);
+                match row.as_slice() {
+                    Some(v) => dst.copy_from_slice(v),
+                    None => dst.iter_mut().zip(row.iter()).for_each(|(d, &v)| *d = v),
+                }
+            }
+        }
+        rows
+    }
+
+    /// Adds tree `t`'s leaf `leaf` to row `r` of the group that starts at data row
+    /// `start`, and records how the error measures change with it.
+    fn add_leaf(
+        &self,
+        blocks: &mut [Block],
+        running: &mut Running,
+        t: usize,
+        start: usize,
+        r: usize,
+        leaf: u32,
+    ) {
+        let (bs, k) = (self.bs, self.k);
+        let tree = self.scorers[t].tree();
+        let i = start + r;
+        let (out, rb) = (&mut blocks[r / bs], r % bs);
+        let sums = &mut out.preds[rb * k..(rb + 1) * k];
+        sums.iter_mut()
+            .zip(&tree.leaf_value(leaf as usize))
+            .for_each(|(s, v)| *s += v);
+        out.trees_out[rb] += 1;
+        let count = out.trees_out[rb];
+        if self.outcome.is_missing(i) {
+            return;
+        }
+        if count == 1 {
+            out.d_cover[t] += 1;
+        }
+        match self.outcome {
+            Outcome::Classes { codes, .. } => {
+                let wrong = predicted_class(sums) != codes[i] as usize;
+                out.d_wrong[t] += i64::from(wrong) - i64::from(running.was_wrong[r]);
+                running.was_wrong[r] = wrong;
+            }
+            Outcome::Values(y) => {
+                let e = sums[0] / f64::from(count) - y[i];
+                out.d_sse[t] += e * e - running.prev_sq[r];
+                running.prev_sq[r] = e * e;
+            }
+        }
+    }
+}
+
+/// Turns a block's sums of leaf outputs into means over the trees that left each row
+/// out (NaN for a row no tree left out).
+fn mean_of_sums(out: &mut Block, k: usize) {
+    for (r, o) in out.preds.chunks_mut(k).enumerate() {
+        let count = out.trees_out[r];
+        if count == 0 {
+            o.iter_mut().for_each(|v| *v = f64::NAN);
+        } else {
+            o.iter_mut().for_each(|v| *v /= f64::from(count));
+        }
+    }
+}
+
+/// Entry `t`: the out-of-bag error of trees `0..=t`, the per-tree changes added over
+/// the blocks in block order.
+fn error_curve(blocks: &[Block], nt: usize, outcome: &Outcome) -> Vec<Option<f64>> {
     let (mut cover, mut wrong, mut sse) = (0i64, 0i64, 0.0f64);
-    let mut error_curve = Vec::with_capacity(nt);
+    let mut curve = Vec::with_capacity(nt);
     for t in 0..nt {
-        for b in &blocks {
+        for b in blocks {
             cover += b.d_cover[t];
             wrong += b.d_wrong[t];
             sse += b.d_sse[t];
         }
-        error_curve.push((cover > 0).then(|| match outcome {
+        curve.push((cover > 0).then(|| match outcome {
             Outcome::Classes { .. } => wrong as f64 / cover as f64,
             Outcome::Values(_) => sse.max(0.0) / cover as f64,
         }));
+    }
+    curve
+}
+
+/// The per-row predictions of all blocks, and the summary measures over them.
+fn summarize(
+    blocks: &[Block],
+    n: usize,
+    k: usize,
+    outcome: &Outcome,
+    error_curve: Vec<Option<f64>>,
+) -> (OobReport, OobSummary) {
+    let mut preds = Vec::with_capacity(n * k);
+    let mut trees_out = Vec::with_capacity(n);
+    for b in blocks {
+        preds.extend_from_slice(&b.preds);
+        trees_out.extend_from_slice(&b.trees_out);
     }
     let predictions =
         Array2::from_shape_vec((n, k), preds).expect("blocks hold n rows of k outputs");

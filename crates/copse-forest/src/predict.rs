@@ -35,6 +35,25 @@ impl Forest {
     ///
     /// # Errors
     /// `LengthMismatch` when the number of columns is not the model's.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_forest::ndarray::s;
+    /// use copse_forest::{synth, Forest, ForestSettings, TrainOptions};
+    ///
+    /// let data = synth::twonorm(200, 1);
+    /// let settings = ForestSettings { trees: 30, ..Default::default() };
+    /// let options = TrainOptions { oob_importance: false, ..TrainOptions::default() };
+    /// let forest = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &options)?
+    ///     .forest;
+    /// let fresh = synth::twonorm(10, 2);
+    /// let probs = forest.predict(fresh.x.slice(s![..3, ..]))?;
+    /// assert_eq!(probs.dim(), (3, 2)); // a column per class
+    /// for row in probs.rows() {
+    ///     assert!((row.sum() - 1.0).abs() < 1e-12);
+    /// }
+    /// # Ok::<(), copse_forest::Error>(())
+    /// ```
     pub fn predict(&self, x: ArrayView2<'_, f64>) -> Result<Array2<f64>> {
         self.check_columns(x)?;
         let (n, k) = (x.nrows(), self.n_outputs());
@@ -55,6 +74,32 @@ impl Forest {
                 self.predict_block(&scorers, chunk.len() / k, |r| x.row(start + r), None, chunk);
             });
         Ok(Array2::from_shape_vec((n, k), out).expect("n rows of k outputs by construction"))
+    }
+
+    /// Rows to read and score together when a caller streams data through
+    /// [`Forest::predict`] in batches: each tree is read from memory once per batch, so
+    /// a batch should hold many more rows than a tree has nodes, two rows per node for
+    /// every thread of the current rayon pool; at least 4,096 rows (a small model keeps
+    /// memory small) and at most 65,536 (a batch's text and values bound the memory
+    /// used, whatever the input's length). Measured on 1,000,000 rows scored by the
+    /// command line, 2 threads, trees of about 10,500 nodes: 4,096-row batches 125,000
+    /// rows/s, 32,768-row batches 175,000 rows/s, same output.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_forest::{synth, Forest, ForestSettings, TrainOptions};
+    ///
+    /// let data = synth::twonorm(100, 1);
+    /// let settings = ForestSettings { trees: 5, ..Default::default() };
+    /// let options = TrainOptions { oob_importance: false, ..TrainOptions::default() };
+    /// let forest = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &options)?
+    ///     .forest;
+    /// assert!((4096..=65536).contains(&forest.scoring_block_rows()));
+    /// # Ok::<(), copse_forest::Error>(())
+    /// ```
+    pub fn scoring_block_rows(&self) -> usize {
+        let per_tree = self.n_nodes() / self.trees.len().max(1);
+        (2 * rayon::current_num_threads() * per_tree).clamp(4096, 65536)
     }
 
     /// Prediction for one row of input values into `out` (length [`Forest::n_outputs`]).
@@ -94,6 +139,22 @@ impl Forest {
     /// `LengthMismatch` for a wrong number of columns or outcomes; `OutcomeMismatch`
     /// when the outcome does not fit the model or holds a class it never saw;
     /// `NoTargets` when no row has a known outcome.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_forest::{synth, Forest, ForestSettings, TrainOptions};
+    ///
+    /// let data = synth::twonorm(300, 1);
+    /// let settings = ForestSettings { trees: 50, ..Default::default() };
+    /// let options = TrainOptions { oob_importance: false, ..TrainOptions::default() };
+    /// let forest = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &options)?
+    ///     .forest;
+    /// let test = synth::twonorm(300, 2);
+    /// let e = forest.evaluate(test.x.view(), &test.outcome)?;
+    /// // The best possible error on twonorm is 0.023.
+    /// assert!(e.metrics.error() < 0.2);
+    /// # Ok::<(), copse_forest::Error>(())
+    /// ```
     pub fn evaluate(&self, x: ArrayView2<'_, f64>, outcome: &Outcome) -> Result<Evaluation> {
         if outcome.len() != x.nrows() {
             return Err(Error::new(

@@ -1,8 +1,9 @@
-//! What a forest is: number of trees, inputs tried per split, resampling, and the
-//! settings passed through to every tree.
+//! What a forest is: number of trees, inputs tried per split, resampling, value bins,
+//! and the rules every tree grows by.
 use crate::error::{bad_setting, Error, ErrorKind, Result};
-use copse_tree::TreeSettings;
+use copse_tree::{Impurity, TreeSettings};
 use serde::{Deserialize, Serialize};
+use std::fmt;
 use std::str::FromStr;
 
 /// How many inputs each split may choose from (a fresh random subset at every node).
@@ -58,20 +59,6 @@ impl FeaturesPerSplit {
     }
 }
 
-impl std::fmt::Display for FeaturesPerSplit {
-    /// The rule as it is spelled on the command line (`auto`, `sqrt`, `4`, `0.5`, ...).
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        match self {
-            FeaturesPerSplit::Auto => f.write_str("auto"),
-            FeaturesPerSplit::Sqrt => f.write_str("sqrt"),
-            FeaturesPerSplit::Log2 => f.write_str("log2"),
-            FeaturesPerSplit::All => f.write_str("all"),
-            FeaturesPerSplit::Count(k) => write!(f, "{k}"),
-            FeaturesPerSplit::Fraction(x) => write!(f, "{x}"),
-        }
-    }
-}
-
 impl FromStr for FeaturesPerSplit {
     type Err = Error;
 
@@ -102,6 +89,21 @@ impl FromStr for FeaturesPerSplit {
             return bad_value(s);
         }
         Ok(v)
+    }
+}
+
+impl fmt::Display for FeaturesPerSplit {
+    /// The rule as [`FeaturesPerSplit::from_str`] reads it: `auto`, `sqrt`, `log2`,
+    /// `all`, the count, or the fraction.
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            FeaturesPerSplit::Auto => f.write_str("auto"),
+            FeaturesPerSplit::Sqrt => f.write_str("sqrt"),
+            FeaturesPerSplit::Log2 => f.write_str("log2"),
+            FeaturesPerSplit::All => f.write_str("all"),
+            FeaturesPerSplit::Count(k) => write!(f, "{k}"),
+            FeaturesPerSplit::Fraction(x) => write!(f, "{x}"),
+        }
     }
 }
 
@@ -147,6 +149,62 @@ impl FromStr for Sampling {
     }
 }
 
+/// How every tree of a forest grows: the tree settings a forest honours. The inputs
+/// tried per split are the forest's own ([`ForestSettings::features_per_split`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TreeRules {
+    /// Impurity measure for classification (regression always uses variance).
+    pub impurity: Impurity,
+    /// Deepest level a node may sit at (the root is depth 0); `None` for no limit.
+    pub max_depth: Option<usize>,
+    /// Fewest cases a leaf may hold (default 1).
+    pub min_leaf: f64,
+    /// Fewest cases a node needs before a split is tried (default 2).
+    pub min_split: f64,
+    /// Smallest impurity decrease worth a split (default 0: any strict decrease).
+    pub min_decrease: f64,
+}
+
+impl Default for TreeRules {
+    fn default() -> Self {
+        let t = TreeSettings::default();
+        TreeRules {
+            impurity: t.impurity,
+            max_depth: t.max_depth,
+            min_leaf: t.min_leaf,
+            min_split: t.min_split,
+            min_decrease: t.min_decrease,
+        }
+    }
+}
+
+impl TreeRules {
+    /// The settings of one tree: these rules, and `features_per_split` inputs drawn at
+    /// each node (`None` tries every input).
+    pub fn tree_settings(&self, features_per_split: Option<usize>) -> TreeSettings {
+        TreeSettings {
+            impurity: self.impurity,
+            max_depth: self.max_depth,
+            min_leaf: self.min_leaf,
+            min_split: self.min_split,
+            min_decrease: self.min_decrease,
+            features_per_split,
+        }
+    }
+}
+
+impl fmt::Display for Sampling {
+    /// The scheme as [`Sampling::from_str`] reads it: `bootstrap`, `subsample:F` or
+    /// `none`.
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Sampling::Bootstrap => f.write_str("bootstrap"),
+            Sampling::Subsample(x) => write!(f, "subsample:{x}"),
+            Sampling::Whole => f.write_str("none"),
+        }
+    }
+}
+
 /// Everything that defines how a forest is trained.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct ForestSettings {
@@ -161,15 +219,13 @@ pub struct ForestSettings {
     /// fraction) (Chen, Liaw & Breiman 2004, "Using random forest to learn imbalanced
     /// data"). Classes only, and not with [`Sampling::Whole`].
     pub balanced: bool,
-    /// Settings of every tree (impurity, depth, leaf and split sizes). Its own
-    /// `features_per_split` is ignored: the forest's [`FeaturesPerSplit`] decides.
-    pub tree: TreeSettings,
-    /// Bins a numeric input may use, counting the missing bin (3 to 65536; default 256).
-    pub bin_limit: usize,
+    /// How every tree grows (impurity, depth, leaf and split sizes).
+    pub tree: TreeRules,
+    /// Value bins a numeric input may use (2 to 65535; default 255). Missing values
+    /// get a bin of their own on top ([`ForestSettings::bin_limit`]).
+    pub bins: usize,
     /// Master seed; tree `t` draws only from a generator seeded by `(seed, t)`.
     pub seed: u64,
-    /// Compute out-of-bag permutation importance while training (default true).
-    pub oob_importance: bool,
 }
 
 impl Default for ForestSettings {
@@ -179,15 +235,20 @@ impl Default for ForestSettings {
             features_per_split: FeaturesPerSplit::Auto,
             sampling: Sampling::Bootstrap,
             balanced: false,
-            tree: TreeSettings::default(),
-            bin_limit: 256,
+            tree: TreeRules::default(),
+            bins: 255,
             seed: 1,
-            oob_importance: true,
         }
     }
 }
 
 impl ForestSettings {
+    /// Bins a numeric input may use counting the bin of missing values: [`Self::bins`]
+    /// plus one, as [`copse_tree::BinnedData::new`] takes it.
+    pub fn bin_limit(&self) -> usize {
+        self.bins + 1
+    }
+
     /// Checks every setting that can be checked without the data.
     ///
     /// # Errors
@@ -220,13 +281,14 @@ impl ForestSettings {
                  sampling, not none",
             );
         }
-        if !(3..=65536).contains(&self.bin_limit) {
+        if !(2..=65535).contains(&self.bins) {
             return bad_setting(format!(
-                "bin limit {} is out of range; use 3 to 65536",
-                self.bin_limit
+                "{} value bins is out of range; use 2 to 65535",
+                self.bins
             ));
         }
         self.tree
+            .tree_settings(None)
             .validate()
             .map_err(|e| Error::new(ErrorKind::InvalidSetting, e.message()))
     }

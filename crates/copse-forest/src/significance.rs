@@ -28,6 +28,7 @@ use crate::importance::{
 use crate::outcome::Outcome;
 use crate::rng::{task_rng, Purpose};
 use crate::settings::ForestSettings;
+use crate::train::TrainOptions;
 use copse_tree::FeatureMeta;
 use ndarray::{ArrayView2, Axis};
 use rand::seq::SliceRandom;
@@ -62,6 +63,32 @@ pub struct Significance {
     pub p_values: Vec<f64>,
 }
 
+impl std::fmt::Display for SignificanceTest {
+    /// A stable name: `mirrored_null` or `shuffled_target`.
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            SignificanceTest::MirroredNull => "mirrored_null",
+            SignificanceTest::ResponsePermutation => "shuffled_target",
+        })
+    }
+}
+
+/// Smallest null sample for which mirrored-null p-values are worth reporting: 19 values
+/// allow a p-value of 0.05 (the smallest possible p is `1 / (1 + null size)`).
+pub const MIRROR_MIN_NULL: usize = 19;
+
+impl Significance {
+    /// Whether these p-values are worth reporting: a mirrored-null test needs at least
+    /// [`MIRROR_MIN_NULL`] null values; a response-permutation test has as many as the
+    /// caller asked for, so it always is.
+    pub fn reportable(&self) -> bool {
+        match self.test {
+            SignificanceTest::MirroredNull => self.null_size >= MIRROR_MIN_NULL,
+            SignificanceTest::ResponsePermutation => true,
+        }
+    }
+}
+
 /// The mirrored-null test of Janitza, Celik & Boulesteix (2018) on the mean
 /// importances of `importance`.
 ///
@@ -81,6 +108,23 @@ pub struct Significance {
 /// around zero and that such inputs are many: p-values below 0.01 need a null sample
 /// of at least 99 values, so roughly 100 unrelated inputs. With few inputs, use
 /// [`response_permutation_test`].
+///
+/// # Example
+/// ```
+/// use copse_forest::{mirrored_null_test, synth, Forest, ForestSettings, TrainOptions};
+///
+/// let data = synth::friedman1(200, 1);
+/// let settings = ForestSettings { trees: 40, ..Default::default() };
+/// let trained =
+///     Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &TrainOptions::default())?;
+/// let imp = trained.forest.oob_importance().expect("measured while training");
+/// if let Some(test) = mirrored_null_test(&imp.error) {
+///     assert_eq!(test.p_values.len(), 10);
+///     // Ten inputs give too few null values for p-values worth reporting.
+///     assert!(!test.reportable());
+/// }
+/// # Ok::<(), copse_forest::Error>(())
+/// ```
 pub fn mirrored_null_test(importance: &Importance) -> Option<Significance> {
     let mut null: Vec<f64> = Vec::new();
     for f in &importance.features {
@@ -193,8 +237,7 @@ pub fn response_permutation_test(
             let permuted = permute_outcome(outcome, &labelled, &order);
             let mut s = settings.clone();
             s.seed = rng.next_u64();
-            s.oob_importance = true;
-            let trained = Forest::train(x, meta, &permuted, &s)?;
+            let trained = Forest::train(x, meta, &permuted, &s, &TrainOptions::default())?;
             let imp = trained.forest.oob_importance.ok_or_else(|| {
                 Error::new(
                     ErrorKind::InvalidSetting,
@@ -258,9 +301,12 @@ pub fn holdout_importance(
     for (train, test) in [(a, b), (b, a)] {
         let mut s = settings.clone();
         s.seed = rng.next_u64();
-        s.oob_importance = false;
         let (xt, yt) = (x.select(Axis(0), train), subset(outcome, train));
-        let forest = Forest::train(xt.view(), meta, &yt, &s)?.forest;
+        let options = TrainOptions {
+            oob_importance: false,
+            ..TrainOptions::default()
+        };
+        let forest = Forest::train(xt.view(), meta, &yt, &s, &options)?.forest;
         let (xh, yh) = (x.select(Axis(0), test), subset(outcome, test));
         halves.push(forest.permutation_importance(xh.view(), &yh, 1, rng.next_u64())?);
     }

@@ -33,6 +33,7 @@ use crate::outcome::Outcome;
 use crate::rng::{task_rng, Purpose};
 use crate::settings::{FeaturesPerSplit, ForestSettings, Sampling};
 use crate::significance::subset;
+use crate::train::TrainOptions;
 use copse_tree::FeatureMeta;
 use ndarray::{Array2, ArrayView2, Axis};
 use rand::seq::SliceRandom;
@@ -75,6 +76,29 @@ pub enum ModelKind {
     /// A random forest: trees on bootstrap samples, a random subset of inputs at every
     /// split.
     Forest,
+}
+
+impl ModelKind {
+    /// A short stable name for machine-read output: `one_tree`, `bagged_trees` or
+    /// `random_forest`.
+    pub fn key(self) -> &'static str {
+        match self {
+            ModelKind::SingleTree => "one_tree",
+            ModelKind::BaggedTrees => "bagged_trees",
+            ModelKind::Forest => "random_forest",
+        }
+    }
+}
+
+impl std::fmt::Display for ModelKind {
+    /// The kind in words: "one tree", "bagged trees" or "random forest".
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.write_str(match self {
+            ModelKind::SingleTree => "one tree",
+            ModelKind::BaggedTrees => "bagged trees",
+            ModelKind::Forest => "random forest",
+        })
+    }
 }
 
 /// How a kind of model varied over the seeds.
@@ -167,7 +191,6 @@ pub fn stability_report(
     let mut bagged = settings.forest.clone();
     bagged.features_per_split = FeaturesPerSplit::All;
     bagged.sampling = Sampling::Bootstrap;
-    bagged.oob_importance = true;
     let mut forest = bagged.clone();
     forest.features_per_split = match settings.forest.features_per_split {
         FeaturesPerSplit::All => FeaturesPerSplit::Auto,
@@ -246,8 +269,11 @@ fn cross_validated_tree(
         features_per_split: FeaturesPerSplit::All,
         sampling: Sampling::Whole,
         balanced: false,
-        oob_importance: false,
         ..base.clone()
+    };
+    let options = TrainOptions {
+        oob_importance: false,
+        ..TrainOptions::default()
     };
     let n = x.nrows();
     let per_fold: Vec<(Vec<usize>, Vec<f64>, Vec<f64>)> = (0..folds)
@@ -261,7 +287,7 @@ fn cross_validated_tree(
                 .map(|(_, &i)| i)
                 .collect();
             let (xt, yt) = (x.select(Axis(0), &train), subset(outcome, &train));
-            let tree = Forest::train(xt.view(), meta, &yt, &tree_settings)?.forest;
+            let tree = Forest::train(xt.view(), meta, &yt, &tree_settings, &options)?.forest;
             let (xh, yh) = (x.select(Axis(0), &held), subset(outcome, &held));
             let preds = tree.predict(xh.view())?;
             let held_out = held_values(&preds, outcome.is_classes());
@@ -303,7 +329,7 @@ fn ensemble_run(
     outcome: &Outcome,
     settings: &ForestSettings,
 ) -> Result<Run> {
-    let trained = Forest::train(x, meta, outcome, settings)?;
+    let trained = Forest::train(x, meta, outcome, settings, &TrainOptions::default())?;
     let error = trained
         .forest
         .oob()

@@ -2,12 +2,14 @@
 //! compute the out-of-bag estimates and importance, all combined in tree-index order
 //! so the model is the same for any number of threads.
 use crate::card::ModelCard;
+use crate::draws::Draws;
 use crate::error::{bad_setting, Error, ErrorKind, Result};
 use crate::forest::{Forest, Trained};
-use crate::importance::{impurity_importance, oob_permutation};
-use crate::inbag::InBag;
+use crate::importance::impurity_importance;
 use crate::oob::{out_of_bag, OobMask};
+use crate::oob_importance::oob_permutation;
 use crate::outcome::Outcome;
+use crate::progress::{Progress, Stage};
 use crate::rng::{task_rng, Purpose};
 use crate::sample::Sampler;
 use crate::settings::ForestSettings;
@@ -17,36 +19,39 @@ use ndarray::ArrayView2;
 use rayon::prelude::*;
 use std::sync::atomic::{AtomicUsize, Ordering};
 
-/// Which phase of training a [`Progress`] report is about.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Stage {
-    /// Growing trees (`done` trees of `total`).
-    Growing,
-    /// Out-of-bag predictions (`done` row blocks of `total`).
-    OutOfBag,
-    /// Out-of-bag permutation importance (`done` trees of `total`).
-    Importance,
-}
-
-/// A progress report: `done` units of `total` finished in `stage`. Reports may arrive
-/// from several threads at once and slightly out of order.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub struct Progress {
-    /// The phase.
-    pub stage: Stage,
-    /// Units finished so far.
-    pub done: usize,
-    /// Units in the phase.
-    pub total: usize,
-}
-
-/// Optional records a training run keeps beyond what every model holds.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub struct TrainOptions {
+/// What a training run does beyond growing the trees, with what every model holds:
+/// the extras that cost time or memory, and a progress callback.
+#[derive(Clone, Copy)]
+pub struct TrainOptions<'a> {
+    /// Compute out-of-bag permutation importance while training (default true).
+    pub oob_importance: bool,
     /// Keep in the model how many times each tree drew each training row (one byte per
-    /// row and tree; see [`InBag`]). Needed for standard errors of predictions
+    /// row and tree; see [`Draws`]). Needed for standard errors of predictions
     /// ([`Forest::prediction_uncertainty`]). Default false.
-    pub keep_inbag: bool,
+    pub keep_draws: bool,
+    /// Told about progress (for a progress bar); reports may come from several threads
+    /// at once. Default none.
+    pub progress: Option<&'a (dyn Fn(Progress) + Sync)>,
+}
+
+impl Default for TrainOptions<'_> {
+    fn default() -> Self {
+        TrainOptions {
+            oob_importance: true,
+            keep_draws: false,
+            progress: None,
+        }
+    }
+}
+
+impl std::fmt::Debug for TrainOptions<'_> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("TrainOptions")
+            .field("oob_importance", &self.oob_importance)
+            .field("keep_draws", &self.keep_draws)
+            .field("progress", &self.progress.map(|_| "callback"))
+            .finish()
+    }
 }
 
 /// One tree and what training needs to remember about its sample.
@@ -54,8 +59,8 @@ struct Grown {
     tree: Tree,
     bag_weight: f64,
     oob: OobMask,
-    /// In-bag counts and how many saturated, when asked for.
-    inbag: Option<(Vec<u8>, usize)>,
+    /// Draw counts and how many saturated, when asked for.
+    draws: Option<(Vec<u8>, usize)>,
 }
 
 impl Forest {
@@ -72,49 +77,39 @@ impl Forest {
     /// `InvalidSetting` for bad settings; `LengthMismatch`, `EmptyData`, `BadValue`,
     /// `TooLarge` for data that does not fit; `NoTargets` with fewer than two known
     /// outcomes.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_forest::{synth, Forest, ForestSettings, Progress, TrainOptions};
+    /// use std::sync::atomic::{AtomicUsize, Ordering};
+    ///
+    /// let data = synth::friedman1(200, 1);
+    /// let settings = ForestSettings { trees: 40, ..Default::default() };
+    /// // Keep the draw counts (for standard errors) and count the progress reports.
+    /// let reports = AtomicUsize::new(0);
+    /// let progress = |_: Progress| {
+    ///     reports.fetch_add(1, Ordering::Relaxed);
+    /// };
+    /// let options = TrainOptions {
+    ///     keep_draws: true,
+    ///     progress: Some(&progress),
+    ///     ..TrainOptions::default()
+    /// };
+    /// let trained = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &options)?;
+    /// assert_eq!(trained.forest.trees().len(), 40);
+    /// assert!(trained.forest.draws().is_some());
+    /// assert!(trained.forest.oob_importance().is_some());
+    /// assert!(reports.load(Ordering::Relaxed) >= 40);
+    /// # Ok::<(), copse_forest::Error>(())
+    /// ```
     pub fn train(
         x: ArrayView2<'_, f64>,
         meta: &[FeatureMeta],
         outcome: &Outcome,
         settings: &ForestSettings,
+        options: &TrainOptions<'_>,
     ) -> Result<Trained> {
-        Self::train_with_progress(x, meta, outcome, settings, &|_| {})
-    }
-
-    /// [`Forest::train`] with a callback told about progress (for a progress bar).
-    ///
-    /// # Errors
-    /// As [`Forest::train`].
-    pub fn train_with_progress(
-        x: ArrayView2<'_, f64>,
-        meta: &[FeatureMeta],
-        outcome: &Outcome,
-        settings: &ForestSettings,
-        progress: &(dyn Fn(Progress) + Sync),
-    ) -> Result<Trained> {
-        Self::train_with_options(
-            x,
-            meta,
-            outcome,
-            settings,
-            TrainOptions::default(),
-            progress,
-        )
-    }
-
-    /// [`Forest::train_with_progress`] with optional records kept in the model
-    /// ([`TrainOptions`]).
-    ///
-    /// # Errors
-    /// As [`Forest::train`].
-    pub fn train_with_options(
-        x: ArrayView2<'_, f64>,
-        meta: &[FeatureMeta],
-        outcome: &Outcome,
-        settings: &ForestSettings,
-        options: TrainOptions,
-        progress: &(dyn Fn(Progress) + Sync),
-    ) -> Result<Trained> {
+        let progress: &(dyn Fn(Progress) + Sync) = options.progress.unwrap_or(&|_| {});
         settings.validate()?;
         let (n, p) = x.dim();
         if outcome.len() != n {
@@ -132,12 +127,11 @@ impl Forest {
                 "balanced sampling draws cases per class; it needs a class outcome",
             );
         }
-        let data = BinnedData::new(x, meta, settings.bin_limit)?;
+        let data = BinnedData::new(x, meta, settings.bin_limit())?;
         let k = settings
             .features_per_split
             .resolve(p, outcome.is_classes())?;
-        let mut tree_settings = settings.tree.clone();
-        tree_settings.features_per_split = (k < p).then_some(k);
+        let tree_settings = settings.tree.tree_settings((k < p).then_some(k));
         tree_settings.validate()?;
         let target = outcome.target()?;
         let sampler = Sampler::new(outcome, settings.sampling, settings.balanced)?;
@@ -155,7 +149,7 @@ impl Forest {
                     let tree = grower.grow(&data, &target, weights, &mut grow_rng)?;
                     let bag_weight = weights.iter().sum();
                     let oob = OobMask::from_weights(weights);
-                    let inbag = options.keep_inbag.then(|| InBag::column(weights));
+                    let draws = options.keep_draws.then(|| Draws::column(weights));
                     let d = done.fetch_add(1, Ordering::Relaxed) + 1;
                     progress(Progress {
                         stage: Stage::Growing,
@@ -166,7 +160,7 @@ impl Forest {
                         tree,
                         bag_weight,
                         oob,
-                        inbag,
+                        draws,
                     })
                 },
             )
@@ -177,28 +171,29 @@ impl Forest {
         let mut trees = Vec::with_capacity(n_trees);
         let mut masks = Vec::with_capacity(n_trees);
         let mut bag_weights = Vec::with_capacity(n_trees);
-        let mut inbag_columns = Vec::new();
+        let mut draw_columns = Vec::new();
         let mut saturated = 0;
         for g in grown {
             trees.push(g.tree);
             masks.push(g.oob);
             bag_weights.push(g.bag_weight);
-            if let Some((col, sat)) = g.inbag {
-                inbag_columns.push(col);
+            if let Some((col, sat)) = g.draws {
+                draw_columns.push(col);
                 saturated += sat;
             }
         }
-        let inbag = options
-            .keep_inbag
-            .then(|| InBag::from_tree_columns(&inbag_columns, n, outcome.n_labelled(), saturated));
-        drop(inbag_columns);
+        let draws = options
+            .keep_draws
+            .then(|| Draws::from_tree_columns(&draw_columns, n, outcome.n_labelled(), saturated));
+        drop(draw_columns);
         let (report, summary) = out_of_bag(&trees, &masks, x, outcome, progress);
-        let oob_importance = if settings.oob_importance {
+        let oob_importance = if options.oob_importance {
             oob_permutation(&trees, &masks, x, outcome, meta, settings.seed, progress)
         } else {
             None
         };
-        let impurity = impurity_importance(&trees, &bag_weights, meta, outcome, &settings.tree);
+        let impurity =
+            impurity_importance(&trees, &bag_weights, meta, outcome, settings.tree.impurity);
         let (task, classes) = match outcome {
             Outcome::Classes { labels, .. } => (Task::Classify, labels.clone()),
             Outcome::Values(_) => (Task::Regress, Vec::new()),
@@ -215,7 +210,7 @@ impl Forest {
             oob: summary,
             oob_importance,
             impurity_importance: impurity,
-            inbag,
+            draws,
             bins,
             card,
         };

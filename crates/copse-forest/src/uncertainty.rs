@@ -27,8 +27,8 @@
 //! formula assumes plain bootstrap samples, so other sampling schemes are refused.
 //!
 //! Cost: for each query row, one pass over `training rows x trees x outputs`
-//! multiply-adds. The in-bag counts must have been kept at training time
-//! ([`crate::TrainOptions::keep_inbag`]).
+//! multiply-adds. The draw counts must have been kept at training time
+//! ([`crate::TrainOptions::keep_draws`]).
 use crate::error::{Error, ErrorKind, Result};
 use crate::forest::Forest;
 use crate::settings::Sampling;
@@ -37,7 +37,7 @@ use rayon::prelude::*;
 
 /// Query rows per parallel block: the centred tree outputs of a block (`rows x outputs
 /// x trees` numbers) are reused for every training row, so a block should be large
-/// enough to amortise reading the in-bag table and small enough to stay in cache.
+/// enough to amortise reading the draw table and small enough to stay in cache.
 const BLOCK_ROWS: usize = 32;
 
 /// Predictions with their estimated variances over training sets.
@@ -55,12 +55,19 @@ pub struct Uncertainty {
     pub correction: Array2<f64>,
     /// Number of entries where `V_IJ-U` was negative and was set to 0.
     pub clamped: usize,
+    /// True where `V_IJ-U` was negative and was set to 0 in `variance`: the standard
+    /// error there is unknown (rows x outputs).
+    pub unknown: Array2<bool>,
 }
 
 impl Uncertainty {
-    /// Standard errors: the square roots of [`Uncertainty::variance`].
-    pub fn std_errors(&self) -> Array2<f64> {
-        self.variance.mapv(f64::sqrt)
+    /// Standard errors: the square roots of [`Uncertainty::variance`], `None` where
+    /// the bias-corrected estimate came out negative ([`Uncertainty::unknown`]): the
+    /// error there is unknown, not zero.
+    pub fn std_errors(&self) -> Array2<Option<f64>> {
+        ndarray::Zip::from(&self.variance)
+            .and(&self.unknown)
+            .map_collect(|&v, &unknown| (!unknown).then(|| v.sqrt()))
     }
 
     /// Standard errors from the uncorrected variance.
@@ -75,7 +82,7 @@ struct BlockOut {
     corrected: Vec<f64>,
     raw: Vec<f64>,
     correction: Vec<f64>,
-    clamped: usize,
+    unknown: Vec<bool>,
 }
 
 impl Forest {
@@ -84,15 +91,34 @@ impl Forest {
     /// result is the same for any number of threads.
     ///
     /// # Errors
-    /// `InvalidSetting` when the model holds no in-bag counts, was not trained with
+    /// `InvalidSetting` when the model holds no draw counts, was not trained with
     /// plain bootstrap samples, has fewer than two trees, or has saturated counts;
     /// `LengthMismatch` when `x` has the wrong number of columns.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_forest::{synth, Forest, ForestSettings, TrainOptions};
+    ///
+    /// let data = synth::friedman1(100, 1);
+    /// let settings = ForestSettings { trees: 200, ..Default::default() };
+    /// let options = TrainOptions { keep_draws: true, oob_importance: false, ..Default::default() };
+    /// let forest = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &options)?
+    ///     .forest;
+    /// let query = synth::friedman1(4, 2);
+    /// let u = forest.prediction_uncertainty(query.x.view())?;
+    /// assert_eq!(u.predictions, forest.predict(query.x.view())?);
+    /// // `None` where the bias-corrected variance came out negative.
+    /// let se = u.std_errors();
+    /// assert_eq!(se.dim(), (4, 1));
+    /// assert_eq!(se.iter().filter(|s| s.is_none()).count(), u.clamped);
+    /// # Ok::<(), copse_forest::Error>(())
+    /// ```
     pub fn prediction_uncertainty(&self, x: ArrayView2<'_, f64>) -> Result<Uncertainty> {
-        let inbag = self.usable_inbag()?;
+        let draws = self.usable_draws()?;
         self.check_columns(x)?;
         let (m, k) = (x.nrows(), self.n_outputs());
         let b = self.trees.len();
-        let n_pop = inbag.population() as f64;
+        let n_pop = draws.population() as f64;
         let blocks: Vec<BlockOut> = (0..m.div_ceil(BLOCK_ROWS))
             .into_par_iter()
             .map(|blk| {
@@ -129,8 +155,8 @@ impl Forest {
                 // C_i for every training row, squared and summed.
                 let mut v_ij = vec![0.0; width];
                 let mut c = vec![0.0; width];
-                for i in 0..inbag.rows() {
-                    let counts = inbag.row(i);
+                for i in 0..draws.rows() {
+                    let counts = draws.row(i);
                     if counts.iter().all(|&n| n == 0) {
                         // Never drawn (or outcome missing): C_i = 0.
                         continue;
@@ -154,25 +180,22 @@ impl Forest {
                     .iter()
                     .map(|s| n_pop * s / (b as f64 * b as f64))
                     .collect();
-                let mut clamped = 0;
+                let unknown: Vec<bool> = v_ij
+                    .iter()
+                    .zip(&correction)
+                    .map(|(v, c)| v - c < 0.0)
+                    .collect();
                 let corrected = v_ij
                     .iter()
                     .zip(&correction)
-                    .map(|(v, c)| {
-                        if v - c < 0.0 {
-                            clamped += 1;
-                            0.0
-                        } else {
-                            v - c
-                        }
-                    })
+                    .map(|(v, c)| if v - c < 0.0 { 0.0 } else { v - c })
                     .collect();
                 BlockOut {
                     pred: mean,
                     corrected,
                     raw: v_ij,
                     correction,
-                    clamped,
+                    unknown,
                 }
             })
             .collect();
@@ -180,32 +203,35 @@ impl Forest {
         let mut var = Vec::with_capacity(m * k);
         let mut raw = Vec::with_capacity(m * k);
         let mut corr = Vec::with_capacity(m * k);
-        let mut clamped = 0;
+        let mut unknown = Vec::with_capacity(m * k);
         for blk in blocks {
             pred.extend(blk.pred);
             var.extend(blk.corrected);
             raw.extend(blk.raw);
             corr.extend(blk.correction);
-            clamped += blk.clamped;
+            unknown.extend(blk.unknown);
         }
         let shape = |v: Vec<f64>| {
             Array2::from_shape_vec((m, k), v).expect("m rows of k outputs by construction")
         };
+        let clamped = unknown.iter().filter(|&&u| u).count();
         Ok(Uncertainty {
             predictions: shape(pred),
             variance: shape(var),
             variance_uncorrected: shape(raw),
             correction: shape(corr),
             clamped,
+            unknown: Array2::from_shape_vec((m, k), unknown)
+                .expect("m rows of k outputs by construction"),
         })
     }
 
-    /// The in-bag table, if this model's standard errors can be computed from it.
-    fn usable_inbag(&self) -> Result<&crate::inbag::InBag> {
+    /// The draw table, if this model's standard errors can be computed from it.
+    fn usable_draws(&self) -> Result<&crate::draws::Draws> {
         let refuse = |why: &str| Err(Error::new(ErrorKind::InvalidSetting, why.to_string()));
-        let Some(inbag) = self.inbag.as_ref() else {
+        let Some(draws) = self.draws.as_ref() else {
             return refuse(
-                "the model holds no in-bag counts, which standard errors need; retrain it \
+                "the model holds no draw counts, which standard errors need; retrain it \
                  keeping them",
             );
         };
@@ -218,12 +244,12 @@ impl Forest {
         if self.trees.len() < 2 {
             return refuse("standard errors need at least two trees; retrain with more");
         }
-        if inbag.saturated() > 0 {
+        if draws.saturated() > 0 {
             return refuse(
-                "some in-bag counts exceeded 255 and were stored as 255, so standard errors \
+                "some draw counts exceeded 255 and were stored as 255, so standard errors \
                  would be wrong; this needs a tiny data set with very many draws of one row",
             );
         }
-        Ok(inbag)
+        Ok(draws)
     }
 }

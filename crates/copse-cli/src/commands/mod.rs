@@ -191,11 +191,11 @@ pub fn tree_settings(
     impurity: crate::args::ImpurityArg,
     max_depth: Option<u32>,
     min_leaf: u32,
-) -> copse_forest::TreeSettings {
-    copse_forest::TreeSettings {
+) -> copse_forest::TreeRules {
+    copse_forest::TreeRules {
         impurity: impurity.into(),
         max_depth: max_depth.map(|d| d as usize),
         min_leaf: f64::from(min_leaf),
-        ..copse_forest::TreeSettings::default()
+        ..copse_forest::TreeRules::default()
     }
 }

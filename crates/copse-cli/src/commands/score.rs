@@ -54,7 +54,7 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     }
     let model = crate::commands::load_model(&a.model)?;
     let forest = &model;
-    if a.uncertainty && forest.inbag().is_none() {
+    if a.uncertainty && forest.draws().is_none() {
         return Err(CliError::input(format!(
             "{} holds no record of which rows each tree drew, which --uncertainty needs; \
              retrain it with 'copse train ... --keep-draws'",
@@ -111,7 +111,7 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
 
     let block = a
         .block_rows
-        .map_or_else(|| default_block_rows(forest), |b| b as usize);
+        .map_or_else(|| forest.scoring_block_rows(), |b| b as usize);
     let p = forest.n_features();
     let source = input.name().to_string();
     let size = input.size();
@@ -140,17 +140,8 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
         let (preds, se) = if a.uncertainty {
             let u = forest.prediction_uncertainty(x).map_err(fail)?;
             clamped += u.clamped;
-            // A corrected variance that came out negative (stored as 0 while the
-            // uncorrected one is positive) is unknown, not zero: its cell stays empty.
-            let se = ndarray::Zip::from(&u.variance)
-                .and(&u.variance_uncorrected)
-                .map_collect(|&v, &raw| {
-                    if v == 0.0 && raw > 0.0 {
-                        f64::NAN
-                    } else {
-                        v.sqrt()
-                    }
-                });
+            // A standard error the engine could not estimate stays an empty cell.
+            let se = u.std_errors().mapv(|s| s.unwrap_or(f64::NAN));
             (u.predictions, Some(se))
         } else {
             (forest.predict(x).map_err(fail)?, None)
@@ -249,7 +240,7 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
                  leave fewer unknown (in our checks, ten times as many trees as rows left \
                  almost none)",
                 forest.trees().len(),
-                forest.inbag().map_or(0, copse_forest::InBag::population)
+                forest.draws().map_or(0, copse_forest::Draws::population)
             ));
         }
     }
@@ -413,21 +404,6 @@ fn each_block(
         }
         Ok(())
     })
-}
-
-/// Rows read and scored together when `--block-rows` is not given. Each tree is read
-/// from memory once per block (see `Forest::predict`), so a block should hold many
-/// more rows than a tree has nodes: two rows per node for every thread. At least
-/// 4,096 rows (a small model such as the demo's keeps memory small) and at most 65,536
-/// (the block's text and values bound the memory used, whatever the input's length).
-/// Measured on the benchmark's 1,000,000-row scoring through `copse score`, 2 threads,
-/// trees of about 10,500 nodes: 4,096-row blocks 125,000 rows/s, 32,768-row blocks
-/// 175,000 rows/s, same output.
-pub fn default_block_rows(forest: &copse_forest::Forest) -> usize {
-    let trees = forest.trees();
-    let nodes: usize = trees.iter().map(|t| t.nodes().len()).sum();
-    let per_tree = nodes / trees.len().max(1);
-    (2 * rayon::current_num_threads() * per_tree).clamp(4096, 65536)
 }
 
 /// Rows written with an empty prediction: how many, the first few lines, and the first

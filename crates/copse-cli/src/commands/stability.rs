@@ -41,7 +41,7 @@ pub fn run(a: &StabilityArgs, ui: &Ui) -> CliResult<()> {
             trees: a.trees as usize,
             features_per_split: a.features_per_split.unwrap_or_default(),
             tree: tree_settings(a.impurity, a.max_depth, a.min_leaf),
-            bin_limit: a.bins as usize + 1,
+            bins: a.bins as usize,
             seed: a.seed,
             ..ForestSettings::default()
         },
@@ -76,22 +76,6 @@ pub fn run(a: &StabilityArgs, ui: &Ui) -> CliResult<()> {
     }
     let st = Style::new(ui.stdout_colour());
     emit(&stability_text(&r, st, &data.source, target, &names))
-}
-
-fn kind_words(k: ModelKind) -> &'static str {
-    match k {
-        ModelKind::SingleTree => "one tree",
-        ModelKind::BaggedTrees => "bagged trees",
-        ModelKind::Forest => "random forest",
-    }
-}
-
-fn kind_key(k: ModelKind) -> &'static str {
-    match k {
-        ModelKind::SingleTree => "one_tree",
-        ModelKind::BaggedTrees => "bagged_trees",
-        ModelKind::Forest => "random_forest",
-    }
 }
 
 /// The printed report.
@@ -188,7 +172,7 @@ fn stability_text(
     ]];
     for k in &r.kinds {
         rows.push([
-            kind_words(k.kind).to_string(),
+            k.kind.to_string(),
             fmt_err(k.error_mean),
             format!(
                 "± {} ({} to {})",
@@ -323,7 +307,7 @@ fn stability_json(
         .iter()
         .map(|k| {
             json!({
-                "model": kind_key(k.kind),
+                "model": k.kind.key(),
                 "errors": k.errors,
                 "error_mean": k.error_mean,
                 "error_sd": k.error_sd,

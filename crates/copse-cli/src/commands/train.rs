@@ -98,9 +98,8 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         sampling: a.sampling,
         balanced: a.balanced,
         tree: tree_settings(a.impurity, a.max_depth, a.min_leaf),
-        bin_limit: a.bins as usize + 1,
+        bins: a.bins as usize,
         seed: a.seed,
-        oob_importance: true,
     };
     check_features_per_split(fps, &data)?;
 
@@ -108,7 +107,8 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         check_memory(&data, &settings, a)?;
     }
     let options = TrainOptions {
-        keep_inbag: a.keep_draws,
+        keep_draws: a.keep_draws,
+        ..TrainOptions::default()
     };
     let rows_used = data.outcome.n_labelled();
     if a.keep_draws && (a.trees as usize) < 2 * rows_used {
@@ -261,7 +261,7 @@ fn shuffled_target_test(
 fn grow(
     data: &TrainingData,
     settings: &ForestSettings,
-    options: TrainOptions,
+    options: TrainOptions<'_>,
     ui: &Ui,
 ) -> CliResult<Trained> {
     let bar: Bar = ui.bar(settings.trees as u64, "growing trees");
@@ -277,7 +277,11 @@ fn grow(
         }
         bar.advance_to(p.done);
     };
-    let result = data.train(settings, options, &progress);
+    let options = TrainOptions {
+        progress: Some(&progress),
+        ..options
+    };
+    let result = data.train(settings, &options);
     bar.finish();
     result.map_err(|e| forest_error(&e, &format!("cannot train on {}", data.source)))
 }

@@ -1,5 +1,5 @@
-//! In-bag counts: how many times each tree drew each training row, kept in the model
-//! when asked for at training time ([`crate::TrainOptions::keep_inbag`]), because the
+//! Draw counts: how many times each tree drew each training row, kept in the model
+//! when asked for at training time ([`crate::TrainOptions::keep_draws`]), because the
 //! standard errors of predictions ([`crate::uncertainty`]) need them.
 //!
 //! Storage: one byte per (training row, tree), row by row, so a model of `B` trees on
@@ -7,13 +7,13 @@
 //! is stored as 255. That cannot happen with bootstrap sampling of fewer than 255 rows,
 //! and for larger data one row being drawn 255 times out of `n` draws has probability
 //! below `1 / 255!`; subsampling without replacement gives counts of 0 or 1. The number
-//! of saturated entries is recorded ([`InBag::saturated`]), so a caller can refuse them.
+//! of saturated entries is recorded ([`Draws::saturated`]), so a caller can refuse them.
 use crate::error::{Error, ErrorKind, Result};
 use serde::{Deserialize, Serialize};
 
 /// Times each tree drew each training row.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct InBag {
+pub struct Draws {
     rows: usize,
     trees: usize,
     population: usize,
@@ -22,7 +22,7 @@ pub struct InBag {
     counts: Vec<u8>,
 }
 
-impl InBag {
+impl Draws {
     /// Builds the row-major table from per-tree count columns (one `Vec` of `rows`
     /// counts per tree, in tree order). `population` is the number of rows each
     /// bootstrap sample was drawn from (rows with a known outcome).
@@ -39,7 +39,7 @@ impl InBag {
                 counts[i * trees + t] = c;
             }
         }
-        InBag {
+        Draws {
             rows,
             trees,
             population,
@@ -117,7 +117,7 @@ impl InBag {
             return Err(Error::new(
                 ErrorKind::InvalidModel,
                 format!(
-                    "the model is inconsistent: its in-bag table holds {} counts for {} rows \
+                    "the model is inconsistent: its draw table holds {} counts for {} rows \
                      and {} trees, but the model has {rows} rows and {trees} trees; retrain or \
                      use another model file",
                     self.counts.len(),
@@ -136,10 +136,10 @@ mod tests {
 
     #[test]
     fn columns_become_rows_and_counts_saturate() {
-        let (a, sa) = InBag::column(&[0.0, 2.0, 300.0]);
-        let (b, sb) = InBag::column(&[1.0, 0.0, 1.0]);
+        let (a, sa) = Draws::column(&[0.0, 2.0, 300.0]);
+        let (b, sb) = Draws::column(&[1.0, 0.0, 1.0]);
         assert_eq!((sa, sb), (1, 0));
-        let t = InBag::from_tree_columns(&[a, b], 3, 3, sa + sb);
+        let t = Draws::from_tree_columns(&[a, b], 3, 3, sa + sb);
         assert_eq!(t.row(0), &[0, 1]);
         assert_eq!(t.row(1), &[2, 0]);
         assert_eq!(t.row(2), &[255, 1]);
