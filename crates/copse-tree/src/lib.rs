@@ -1,12 +1,16 @@
 //! copse-tree: one CART-style decision tree grown on pre-binned, column-major data.
 //!
 //! The pieces, one concept per file:
-//! - [`data`]: input descriptions and the binned training matrix ([`BinnedData`]);
+//! - [`data`]: input descriptions and the binned training matrix ([`BinnedData`]),
+//!   with the binning itself in its own file;
 //! - [`target`]: the outcome being modelled ([`Target`]);
 //! - [`impurity`]: Gini, entropy and variance, and the split scores built from them;
 //! - [`settings`]: what the grower may do ([`TreeSettings`]);
-//! - [`grow`]: the grower itself ([`Grower`]), with reusable scratch buffers;
-//! - [`tree`]: the grown tree ([`Tree`]) and prediction;
+//! - [`grow`]: the grower itself ([`Grower`]), with reusable scratch buffers: the
+//!   candidate split, the two-class and general engines, the scans and partitioning,
+//!   one file each;
+//! - [`tree`]: the grown tree ([`Tree`]) and prediction: the node and its serialized
+//!   record, a leaf's output, descent by rows and blocks, the compact layout;
 //! - [`render`]: a text rendering of a tree for people to read.
 //!
 //! # Example
