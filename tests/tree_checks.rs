@@ -84,9 +84,8 @@ impl Encoded {
     fn grow(&self, settings: TreeSettings) -> Tree {
         let data = BinnedData::new(self.x.view(), &self.meta, 256).expect("bins");
         let target = Target::classes(&self.y, self.classes.len()).expect("target");
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(1);
         Grower::new(settings)
-            .grow(&data, &target, &vec![1.0; self.y.len()], &mut rng)
+            .grow(&data, &target, &vec![1.0; self.y.len()], 1)
             .expect("grows")
     }
 }
@@ -588,9 +587,8 @@ fn an_input_with_k_distinct_values_offers_k_minus_1_thresholds() {
     for labels in 0u32..64 {
         let y: Vec<u32> = (0..6).map(|i| labels >> i & 1).collect();
         let target = Target::classes(&y, 2).expect("target");
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(3);
         let tree = Grower::new(TreeSettings::default())
-            .grow(&data, &target, &[1.0; 6], &mut rng)
+            .grow(&data, &target, &[1.0; 6], 3)
             .expect("grows");
         if let Some(t) = tree.nodes()[0].threshold() {
             if !seen.contains(&t) {
@@ -625,9 +623,8 @@ fn identical_inputs_with_different_classes_end_in_one_impure_leaf() {
     let data = BinnedData::new(x.view(), &meta, 256).expect("bins");
     let y = [0, 0, 1, 0, 1, 1];
     let target = Target::classes(&y, 2).expect("target");
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(5);
     let tree = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0; 6], &mut rng)
+        .grow(&data, &target, &[1.0; 6], 5)
         .expect("grows");
     let impure: Vec<usize> = tree
         .leaves()
@@ -644,7 +641,7 @@ fn identical_inputs_with_different_classes_end_in_one_impure_leaf() {
     let data = BinnedData::new(same.view(), &[FeatureMeta::numeric("a")], 256).expect("bins");
     let target = Target::classes(&[0, 1, 1, 1], 2).expect("target");
     let tree = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0; 4], &mut rng)
+        .grow(&data, &target, &[1.0; 4], 5)
         .expect("grows");
     assert!(tree.is_single_leaf());
     assert_eq!(tree.leaf_value(0), &[0.25, 0.75]);
@@ -663,9 +660,8 @@ fn xor_data_stops_where_no_split_decreases_impurity() {
     let meta = [FeatureMeta::numeric("a"), FeatureMeta::numeric("b")];
     let data = BinnedData::new(x.view(), &meta, 256).expect("bins");
     let target = Target::classes(&[0, 1, 1, 0], 2).expect("target");
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(9);
     let tree = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0; 4], &mut rng)
+        .grow(&data, &target, &[1.0; 4], 9)
         .expect("grows");
     assert!(tree.is_single_leaf());
     assert_eq!(tree.leaf_value(0), &[0.5, 0.5]);
@@ -709,13 +705,12 @@ fn regression_tree_finds_a_step_and_its_means() {
     ] {
         let y: Vec<f64> = base.iter().map(|v| a * v + b).collect();
         let target = Target::values(&y).expect("target");
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(2);
         let stump = TreeSettings {
             max_depth: Some(1),
             ..TreeSettings::default()
         };
         let tree = Grower::new(stump)
-            .grow(&data, &target, &[1.0; 24], &mut rng)
+            .grow(&data, &target, &[1.0; 24], 2)
             .expect("grows");
         let root = tree.nodes()[0];
         assert_eq!(root.threshold(), Some(11.5), "a {a}, b {b}");
@@ -736,9 +731,8 @@ fn regression_tree_finds_a_step_and_its_means() {
     // Without a depth limit, a clean step gives two pure leaves and stops.
     let y: Vec<f64> = (0..24).map(|i| if i < 12 { 1.0 } else { 4.0 }).collect();
     let target = Target::values(&y).expect("target");
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(2);
     let tree = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0; 24], &mut rng)
+        .grow(&data, &target, &[1.0; 24], 2)
         .expect("grows");
     assert_eq!(tree.n_leaves(), 2);
     assert_eq!(tree.predict_row(&[11.0]), &[1.0]);
@@ -836,9 +830,8 @@ fn two_class_leaves_live_in_their_nodes() {
     let w = whole_weights(n);
     let data = BinnedData::new(d.x.view(), &d.meta, 256).expect("bins");
     let target = Target::classes(&d.y, 2).expect("target");
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(21);
     let tree = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &w, &mut rng)
+        .grow(&data, &target, &w, 21)
         .expect("grows");
     assert!(tree.n_leaves() > 2 && tree.nodes().iter().any(|n| n.is_categorical()));
     // (a) No per-leaf storage beyond the nodes.
@@ -885,13 +878,12 @@ fn regression_leaves_live_in_their_nodes() {
     let w = whole_weights(n);
     let data = BinnedData::new(d.x.view(), &d.meta, 256).expect("bins");
     let target = Target::values(&mass).expect("target");
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(22);
     let settings = TreeSettings {
         min_leaf: 5.0,
         ..TreeSettings::default()
     };
     let tree = Grower::new(settings)
-        .grow(&data, &target, &w, &mut rng)
+        .grow(&data, &target, &w, 22)
         .expect("grows");
     assert!(tree.n_leaves() > 2 && tree.nodes().iter().any(|n| n.is_categorical()));
     // (a) No per-leaf storage beyond the nodes.
@@ -937,44 +929,41 @@ fn empty_data_is_an_error() {
     // Rows exist but none has a positive case weight.
     let (data, n) = tiny(&[1.0, 2.0, 3.0]);
     let target = Target::classes(&[0, 1, 0], 2).expect("target");
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(0);
     let e = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &vec![0.0; n], &mut rng)
+        .grow(&data, &target, &vec![0.0; n], 0)
         .expect_err("no weight");
     assert_eq!(e.kind(), ErrorKind::EmptyData);
 }
 
 #[test]
 fn a_single_row_is_an_error() {
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(0);
     let (data, _) = tiny(&[1.0]);
     let target = Target::classes(&[0], 2).expect("target");
     let e = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0], &mut rng)
+        .grow(&data, &target, &[1.0], 0)
         .expect_err("one row");
     assert_eq!(e.kind(), ErrorKind::SingleRow);
     // Two rows, but only one with an outcome.
     let (data, _) = tiny(&[1.0, 2.0]);
     let target = Target::values(&[3.0, f64::NAN]).expect("target");
     let e = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0; 2], &mut rng)
+        .grow(&data, &target, &[1.0; 2], 0)
         .expect_err("one outcome");
     assert_eq!(e.kind(), ErrorKind::SingleRow);
 }
 
 #[test]
 fn all_targets_missing_is_an_error() {
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(0);
     let (data, _) = tiny(&[1.0, 2.0, 3.0]);
     let codes = [MISSING_CLASS; 3];
     let target = Target::classes(&codes, 2).expect("target");
     let e = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0; 3], &mut rng)
+        .grow(&data, &target, &[1.0; 3], 0)
         .expect_err("no classes");
     assert_eq!(e.kind(), ErrorKind::NoTargets);
     let target = Target::values(&[f64::NAN; 3]).expect("target");
     let e = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0; 3], &mut rng)
+        .grow(&data, &target, &[1.0; 3], 0)
         .expect_err("no values");
     assert_eq!(e.kind(), ErrorKind::NoTargets);
 }
@@ -982,12 +971,11 @@ fn all_targets_missing_is_an_error() {
 #[test]
 fn a_single_class_grows_a_single_leaf() {
     // Allowed, but the caller can tell: the tree is one leaf predicting that class.
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(0);
     let (data, _) = tiny(&[1.0, 2.0, 3.0, 4.0]);
     for n_classes in [1, 3] {
         let target = Target::classes(&[0, 0, 0, 0], n_classes).expect("target");
         let tree = Grower::new(TreeSettings::default())
-            .grow(&data, &target, &[1.0; 4], &mut rng)
+            .grow(&data, &target, &[1.0; 4], 0)
             .expect("grows");
         assert!(tree.is_single_leaf());
         assert_eq!(tree.n_leaves(), 1);
@@ -997,7 +985,7 @@ fn a_single_class_grows_a_single_leaf() {
     // The same for a constant regression outcome.
     let target = Target::values(&[2.5; 4]).expect("target");
     let tree = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0; 4], &mut rng)
+        .grow(&data, &target, &[1.0; 4], 0)
         .expect("grows");
     assert!(tree.is_single_leaf());
     assert_eq!(tree.predict_row(&[0.0]), &[2.5]);
@@ -1005,19 +993,18 @@ fn a_single_class_grows_a_single_leaf() {
 
 #[test]
 fn mismatched_lengths_are_an_error() {
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(0);
     let x = Array2::<f64>::zeros((3, 2));
     let e = BinnedData::new(x.view(), &[FeatureMeta::numeric("a")], 256).expect_err("meta");
     assert_eq!(e.kind(), ErrorKind::LengthMismatch);
     let (data, _) = tiny(&[1.0, 2.0, 3.0]);
     let short = Target::classes(&[0, 1], 2).expect("target");
     let e = Grower::new(TreeSettings::default())
-        .grow(&data, &short, &[1.0; 3], &mut rng)
+        .grow(&data, &short, &[1.0; 3], 0)
         .expect_err("target length");
     assert_eq!(e.kind(), ErrorKind::LengthMismatch);
     let target = Target::classes(&[0, 1, 1], 2).expect("target");
     let e = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0; 4], &mut rng)
+        .grow(&data, &target, &[1.0; 4], 0)
         .expect_err("weight length");
     assert_eq!(e.kind(), ErrorKind::LengthMismatch);
     // Prediction on a row narrower than the training data.
@@ -1025,7 +1012,7 @@ fn mismatched_lengths_are_an_error() {
     let meta = [FeatureMeta::numeric("a"), FeatureMeta::numeric("b")];
     let data = BinnedData::new(wide.view(), &meta, 256).expect("bins");
     let tree = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0; 3], &mut rng)
+        .grow(&data, &target, &[1.0; 3], 0)
         .expect("grows");
     assert_eq!(tree.n_features(), 2);
     let e = tree.try_predict_row(&[1.0]).expect_err("narrow row");
@@ -1052,9 +1039,8 @@ fn infinite_numbers_are_an_error() {
     // An infinite case weight is refused too.
     let (data, _) = tiny(&[1.0, 2.0]);
     let target = Target::classes(&[0, 1], 2).expect("target");
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(0);
     let e = Grower::new(TreeSettings::default())
-        .grow(&data, &target, &[1.0, f64::INFINITY], &mut rng)
+        .grow(&data, &target, &[1.0, f64::INFINITY], 0)
         .expect_err("weight");
     assert_eq!(e.kind(), ErrorKind::InvalidSetting);
 }
@@ -1080,7 +1066,6 @@ fn bad_codes_and_settings_are_errors() {
     .expect_err("bin limit");
     assert_eq!(e.kind(), ErrorKind::InvalidSetting);
     let target = Target::classes(&[0, 1], 2).expect("target");
-    let mut rng = Xoshiro256PlusPlus::seed_from_u64(0);
     for bad in [
         TreeSettings {
             min_leaf: 0.0,
@@ -1096,7 +1081,7 @@ fn bad_codes_and_settings_are_errors() {
         },
     ] {
         let e = Grower::new(bad)
-            .grow(&data, &target, &[1.0; 2], &mut rng)
+            .grow(&data, &target, &[1.0; 2], 0)
             .expect_err("setting");
         assert_eq!(e.kind(), ErrorKind::InvalidSetting);
     }
@@ -1165,8 +1150,7 @@ impl Sample {
         let x = self.x();
         let data = BinnedData::new(x.view(), &self.meta(), bin_limit).expect("bins");
         let target = Target::classes(&self.y, self.n_classes).expect("target");
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
-        match Grower::new(settings).grow(&data, &target, &self.w, &mut rng) {
+        match Grower::new(settings).grow(&data, &target, &self.w, seed) {
             Ok(t) => Some((t, data)),
             Err(e) => {
                 // Only the documented refusals for too few usable rows.
@@ -1320,9 +1304,8 @@ proptest! {
         let x = s.x();
         let data = BinnedData::new(x.view(), &s.meta(), 256).expect("bins");
         let target = Target::values(&y).expect("target");
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(16);
         let tree = Grower::new(TreeSettings::default())
-            .grow(&data, &target, &s.w, &mut rng)
+            .grow(&data, &target, &s.w, 16)
             .expect("grows");
         for (i, (row, want)) in x.rows().into_iter().zip(&y).enumerate() {
             let row: Vec<f64> = row.to_vec();
@@ -1464,10 +1447,8 @@ proptest! {
         prop_assert_eq!(&a, &b);
         let target = Target::classes(&s.y, s.n_classes).expect("target");
         let mut g = Grower::new(settings);
-        let mut other = Xoshiro256PlusPlus::seed_from_u64(seed ^ 0xffff);
-        g.grow(&data, &target, &vec![1.0; s.n()], &mut other).expect("other tree");
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
-        let c = g.grow(&data, &target, &s.w, &mut rng).expect("grows with reused buffers");
+        g.grow(&data, &target, &vec![1.0; s.n()], seed ^ 0xffff).expect("other tree");
+        let c = g.grow(&data, &target, &s.w, seed).expect("grows with reused buffers");
         prop_assert_eq!(&a, &c);
         let bits = |t: &Tree| -> Vec<u64> {
             t.leaves().flat_map(|l| t.leaf_value(l).iter().map(|v| v.to_bits()).collect::<Vec<_>>()).collect()
@@ -1534,8 +1515,7 @@ proptest! {
             features_per_split: k,
             ..TreeSettings::default()
         };
-        let mut rng = Xoshiro256PlusPlus::seed_from_u64(15);
-        let Ok(tree) = Grower::new(settings).grow(&data, &target, &weights[..n], &mut rng) else {
+        let Ok(tree) = Grower::new(settings).grow(&data, &target, &weights[..n], 15) else {
             return Ok(());
         };
         let out = tree.try_predict_batch(x.view()).expect("width matches");

@@ -17,7 +17,6 @@
 //! ```
 //! use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
 //! use ndarray::array;
-//! use rand::SeedableRng;
 //!
 //! let x = array![[1.0], [2.0], [3.0], [4.0]];
 //! let meta = vec![FeatureMeta::numeric("size")];
@@ -25,8 +24,7 @@
 //! let classes = [0u32, 0, 1, 1];
 //! let target = Target::classes(&classes, 2).unwrap();
 //! let mut grower = Grower::new(TreeSettings::default());
-//! let mut rng = rand::rngs::StdRng::seed_from_u64(7);
-//! let tree = grower.grow(&data, &target, &[1.0; 4], &mut rng).unwrap();
+//! let tree = grower.grow(&data, &target, &[1.0; 4], 7).unwrap();
 //! // The only useful threshold is the midpoint between 2 and 3.
 //! assert_eq!(tree.predict_row(&[2.4]), &[1.0, 0.0]);
 //! assert_eq!(tree.predict_row(&[2.6]), &[0.0, 1.0]);

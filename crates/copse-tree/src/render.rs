@@ -164,7 +164,6 @@ mod tests {
     use super::*;
     use crate::{BinnedData, Grower, Target, TreeSettings};
     use ndarray::array;
-    use rand::SeedableRng;
 
     fn small_tree() -> (Tree, Vec<FeatureMeta>) {
         let x = array![[1.0, 0.0], [2.0, 1.0], [3.0, 1.0], [4.0, f64::NAN]];
@@ -174,9 +173,8 @@ mod tests {
         ];
         let data = BinnedData::new(x.view(), &meta, 256).expect("test input is valid");
         let target = Target::classes(&[0, 1, 1, 1], 2).expect("test input is valid");
-        let mut rng = rand::rngs::StdRng::seed_from_u64(1);
         let tree = Grower::new(TreeSettings::default())
-            .grow(&data, &target, &[1.0; 4], &mut rng)
+            .grow(&data, &target, &[1.0; 4], 1)
             .expect("test input is valid");
         (tree, meta)
     }
@@ -220,9 +218,8 @@ mod tests {
         let data = BinnedData::new(x.view(), &meta, 256).expect("test input is valid");
         let y = [1.0, 1.0, 2.5];
         let target = Target::values(&y).expect("test input is valid");
-        let mut rng = rand::rngs::StdRng::seed_from_u64(1);
         let tree = Grower::new(TreeSettings::default())
-            .grow(&data, &target, &[1.0; 3], &mut rng)
+            .grow(&data, &target, &[1.0; 3], 1)
             .expect("test input is valid");
         let text = render(&tree, &meta, None);
         // With no missing values in training, missing ones follow the heavier child.

@@ -29,8 +29,8 @@
 //!   minimum decrease setting. The last rule means a node whose every split leaves the
 //!   class shares unchanged (for example four cases at the corners of a square labelled
 //!   by XOR) stays an impure leaf even though its cases differ.
-//! - Determinism: the only randomness is the supplied generator, so the same data,
-//!   settings and generator state give the same tree bit for bit.
+//! - Determinism: the only randomness is a generator seeded from the caller's seed, so
+//!   the same data, settings and seed give the same tree bit for bit.
 //!
 //! How the work is organised (the results do not depend on it):
 //! - Two classes with whole-number case weights (bootstrap counts, the common case) use
@@ -58,7 +58,8 @@ use crate::settings::TreeSettings;
 use crate::target::Target;
 use crate::tree::{weight_bits, Node, Tree, CATEGORICAL, LEAF, MISSING_LEFT};
 use candidate::{Best, Cut, Task, ABSENT, LEFT};
-use rand::Rng;
+use rand::{Rng, SeedableRng};
+use rand_xoshiro::Xoshiro256PlusPlus;
 use scan::ScanScratch;
 
 /// Low half of a two-class cell: the case weight of the second class.
@@ -165,18 +166,43 @@ impl Grower {
     /// (bootstrap counts, real weights, or 0 to leave a row out). Rows with a missing
     /// outcome are left out whatever their weight.
     ///
+    /// `seed` drives the only random choice, the inputs drawn at each node when
+    /// [`TreeSettings::features_per_split`] is set: it seeds a Xoshiro256++ generator
+    /// (expanded by SplitMix64), so the same data, settings and seed give the same
+    /// tree bit for bit. With every input tried at every node the seed changes nothing.
+    ///
     /// # Errors
     /// `LengthMismatch` when lengths differ; `NoTargets` when every outcome is missing;
     /// `SingleRow` when fewer than two rows have an outcome; `EmptyData` when no row
     /// has positive weight; `InvalidSetting` for bad settings or a negative, infinite
     /// or NaN weight.
-    pub fn grow<R: Rng + ?Sized>(
+    ///
+    /// # Example
+    /// ```
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use ndarray::array;
+    ///
+    /// // Two inputs; the class follows the second one.
+    /// let x = array![[5.0, 0.1], [3.0, 0.2], [4.0, 0.9], [1.0, 0.8], [2.0, 0.7]];
+    /// let meta = vec![FeatureMeta::numeric("a"), FeatureMeta::numeric("b")];
+    /// let data = BinnedData::new(x.view(), &meta, 256)?;
+    /// let classes = [0u32, 0, 1, 1, 1];
+    /// let target = Target::classes(&classes, 2)?;
+    /// let settings = TreeSettings { features_per_split: Some(1), ..TreeSettings::default() };
+    /// let mut grower = Grower::new(settings);
+    /// let tree = grower.grow(&data, &target, &[1.0; 5], 42)?;
+    /// // The same seed grows the same tree.
+    /// assert_eq!(tree, grower.grow(&data, &target, &[1.0; 5], 42)?);
+    /// # Ok::<(), copse_tree::Error>(())
+    /// ```
+    pub fn grow(
         &mut self,
         data: &BinnedData,
         target: &Target<'_>,
         weights: &[f64],
-        rng: &mut R,
+        seed: u64,
     ) -> Result<Tree> {
+        let rng = &mut Xoshiro256PlusPlus::seed_from_u64(seed);
         self.settings.validate()?;
         let n = data.n_rows();
         if target.len() != n || weights.len() != n {

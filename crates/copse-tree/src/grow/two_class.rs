@@ -331,20 +331,10 @@ mod tests {
             let three = Target::classes(&y, 3).expect("valid");
             let seed = 100 + case as u64;
             let a = Grower::new(settings.clone())
-                .grow(
-                    &data,
-                    &two,
-                    &weights,
-                    &mut rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(seed),
-                )
+                .grow(&data, &two, &weights, seed)
                 .expect("grows");
             let b = Grower::new(settings)
-                .grow(
-                    &data,
-                    &three,
-                    &weights,
-                    &mut rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(seed),
-                )
+                .grow(&data, &three, &weights, seed)
                 .expect("grows");
             // Same internal nodes and leaves in the same places; a leaf's payload is
             // laid out differently (two classes keep class 1's share in the node,

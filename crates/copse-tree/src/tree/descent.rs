@@ -298,7 +298,7 @@ mod tests {
         let data = BinnedData::new(x.view(), &meta, 256).expect("valid data");
         let target = Target::classes(&y, 2).expect("valid classes");
         let tree = Grower::new(TreeSettings::default())
-            .grow(&data, &target, &vec![1.0; n], &mut rng)
+            .grow(&data, &target, &vec![1.0; n], 4)
             .expect("grows");
         assert!(tree.nodes().iter().any(Node::is_categorical));
         let flat: Vec<f64> = x.iter().copied().collect();
@@ -315,7 +315,7 @@ mod tests {
         ];
         let plain_data = BinnedData::new(x.view(), &numeric, 256).expect("valid data");
         let plain = Grower::new(TreeSettings::default())
-            .grow(&plain_data, &target, &vec![1.0; n], &mut rng)
+            .grow(&plain_data, &target, &vec![1.0; n], 4)
             .expect("grows");
         let mut got = vec![u32::MAX; n];
         plain.compact().leaf_indices(&flat, 4, &mut got);
