@@ -7,6 +7,8 @@ impl Tree {
     /// The tree laid out for scoring many rows: [`CompactTree::leaf_indices`] gives
     /// the same leaves as [`Tree::leaf_indices`], faster, once the layout (one pass
     /// over the nodes) is paid for; worth it when far more rows than nodes are scored.
+    // The forest engine's descent kernel; not part of the stable API.
+    #[doc(hidden)]
     pub fn compact(&self) -> CompactTree<'_> {
         let steps = self
             .nodes
@@ -60,6 +62,8 @@ struct Step {
 /// leads back to itself, so a row that has reached its leaf needs no test to stay
 /// there. Node numbers are the tree's; the tree itself is read only at category
 /// splits.
+// Layout for the forest engine's descent kernels; not part of the stable API.
+#[doc(hidden)]
 #[derive(Debug, Clone)]
 pub struct CompactTree<'a> {
     tree: &'a Tree,

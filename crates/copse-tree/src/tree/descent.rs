@@ -4,6 +4,8 @@ use super::{Node, Tree, CATEGORICAL, LEAF, MISSING_LEFT};
 
 impl Tree {
     /// Whether node `n` sends a row whose input value is `v` to the left.
+    // The forest engine's descent kernel; not part of the stable API.
+    #[doc(hidden)]
     #[inline(always)]
     pub fn goes_left(&self, n: &Node, v: f64) -> bool {
         if v.is_nan() {
@@ -22,6 +24,8 @@ impl Tree {
     }
 
     /// Leaf (its node index) reached by a row whose input `j` has value `value(j)`.
+    // The forest engine's descent kernel; not part of the stable API.
+    #[doc(hidden)]
     #[inline]
     pub fn leaf_index_with(&self, value: impl Fn(usize) -> f64) -> usize {
         self.leaf_from(0, value)
@@ -32,6 +36,8 @@ impl Tree {
     ///
     /// # Panics
     /// When `start` is not a node of the tree.
+    // The forest engine's descent kernel; not part of the stable API.
+    #[doc(hidden)]
     #[inline]
     pub fn leaf_index_from(&self, start: usize, value: impl Fn(usize) -> f64) -> usize {
         assert!(start < self.nodes.len(), "node {start} is not in the tree");
@@ -77,6 +83,8 @@ impl Tree {
     /// # Panics
     /// When `rows` holds fewer than `leaves.len()` rows of `width`, or `width` is less
     /// than [`Tree::n_features`].
+    // The forest engine's descent kernel; not part of the stable API.
+    #[doc(hidden)]
     pub fn leaf_indices(&self, rows: &[f64], width: usize, leaves: &mut [u32]) {
         let m = leaves.len();
         self.check_block(rows, width, m);
@@ -89,6 +97,8 @@ impl Tree {
     /// # Panics
     /// When a pick is not a row of `rows`, `leaves` is shorter than `picks`, or
     /// `width` is less than [`Tree::n_features`].
+    // The forest engine's descent kernel; not part of the stable API.
+    #[doc(hidden)]
     pub fn leaf_indices_of(&self, rows: &[f64], width: usize, picks: &[u32], leaves: &mut [u32]) {
         let m = self.check_picks(rows, width, picks, None);
         self.descend_block(rows, width, |k| (picks[k] as usize, 0), &mut leaves[..m]);
@@ -100,6 +110,8 @@ impl Tree {
     /// # Panics
     /// As [`Tree::leaf_indices_of`], and when `starts` is shorter than `picks` or
     /// names a node the tree does not have.
+    // The forest engine's descent kernel; not part of the stable API.
+    #[doc(hidden)]
     pub fn leaf_indices_from(
         &self,
         rows: &[f64],

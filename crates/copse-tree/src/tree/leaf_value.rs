@@ -1,6 +1,6 @@
 //! A leaf's output as prediction hands it out, built inline for one or two outputs.
 
-/// A leaf's output as [`Tree::leaf_value`] gives it: derefs to `[f64]` (the class
+/// A leaf's output as [`Tree::leaf_value`](super::Tree::leaf_value) gives it: derefs to `[f64]` (the class
 /// probabilities, or the one value in regression). Two-class and regression leaves
 /// keep their output inside their node, so the slice is built here, inline, with no
 /// allocation; with three or more classes it borrows the tree's table.

@@ -3,13 +3,16 @@
 //!
 //! The pieces: [`Node`] and its serialized record (`node.rs`), a leaf's output
 //! ([`LeafValue`], `leaf_value.rs`), descent of rows one by one and by blocks
-//! (`descent.rs`), and the tree laid out for scoring many rows ([`CompactTree`],
-//! `compact.rs`).
+//! (`descent.rs`), and the tree laid out for scoring many rows (`CompactTree`,
+//! `compact.rs`). The block descents and the compact layout are the forest engine's
+//! kernels, public for it but hidden from these docs and not part of the stable API.
 mod compact;
 mod descent;
 mod leaf_value;
 mod node;
 
+// Layout for the forest engine's descent kernels; not part of the stable API.
+#[doc(hidden)]
 pub use compact::CompactTree;
 pub use leaf_value::LeafValue;
 pub use node::Node;
@@ -47,9 +50,9 @@ impl Tree {
         self.nodes.iter().filter(|n| n.is_leaf()).count()
     }
 
-    /// The leaves' node indices, in node order: the ids that [`Tree::leaf_index`] and
-    /// [`Tree::leaf_indices`] return and [`Tree::leaf_value`] and
-    /// [`Tree::leaf_weight`] take. They are not consecutive: a table kept per leaf is
+    /// The leaves' node indices, in node order: the ids that [`Tree::leaf_index`] (and
+    /// every other descent) returns and [`Tree::leaf_value`] and [`Tree::leaf_weight`]
+    /// take. They are not consecutive: a table kept per leaf is
     /// indexed by node, sized by `nodes().len()`.
     pub fn leaves(&self) -> impl Iterator<Item = usize> + '_ {
         self.nodes
@@ -236,7 +239,7 @@ impl Tree {
 }
 
 /// Index of the largest value; ties go to the lowest index.
-pub fn argmax(v: &[f64]) -> usize {
+pub(crate) fn argmax(v: &[f64]) -> usize {
     let mut best = 0;
     for (i, &x) in v.iter().enumerate() {
         if x > v[best] {

@@ -20,7 +20,7 @@ pub struct Node {
     /// category bit sets (categorical). Leaf: the bits of its output as an `f64` (the
     /// mean in regression, class 1's probability with two classes, the one class's
     /// share with one), or with three or more classes the offset of its class
-    /// probabilities in [`Tree`]'s `leaf_values`.
+    /// probabilities in [`Tree`](super::Tree)'s `leaf_values`.
     pub(crate) split: u64,
     /// Internal: left child. Leaf: the case weight that reached it, as `f32` bits (see
     /// [`weight_bits`]).
@@ -53,7 +53,7 @@ impl Node {
         !self.is_leaf() && self.flags & CATEGORICAL != 0
     }
     /// Index of the left child (the right child follows it); meaningless for a leaf
-    /// (whose `child` field holds its weight: see [`Tree::leaf_weight`]).
+    /// (whose `child` field holds its weight: see [`Tree::leaf_weight`](super::Tree::leaf_weight)).
     pub fn child(&self) -> usize {
         self.child as usize
     }
@@ -73,7 +73,7 @@ const CHILD_SWAPPED: u16 = 0x20;
 /// child indices and offsets, already small, stay as they are. A node then takes at
 /// most 16 bytes in such a file, and usually fewer. Reading undoes each step exactly,
 /// whatever the values (a record that makes no sense gives a node that
-/// [`Tree::check`] refuses).
+/// [`Tree::check`](super::Tree::check) refuses).
 #[derive(Debug, Clone, Copy, Serialize, Deserialize)]
 struct NodeRecord {
     split: u64,
