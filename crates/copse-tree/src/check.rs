@@ -15,6 +15,22 @@ impl Tree {
     ///
     /// # Errors
     /// `InvalidModel` naming the first fault found.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use ndarray::array;
+    ///
+    /// let x = array![[1.0], [2.0], [3.0], [4.0]];
+    /// let meta = vec![FeatureMeta::numeric("size")];
+    /// let data = BinnedData::new(x.view(), &meta, 256)?;
+    /// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+    /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
+    /// tree.check(&meta)?;
+    /// // The tree tests input 0, which a description of no inputs lacks.
+    /// assert!(tree.check(&[]).is_err());
+    /// # Ok::<(), copse_tree::Error>(())
+    /// ```
     pub fn check(&self, meta: &[FeatureMeta]) -> Result<()> {
         let bad = |m: String| Err(Error::new(ErrorKind::InvalidModel, m));
         let n = self.nodes.len();

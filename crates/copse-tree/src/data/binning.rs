@@ -19,6 +19,24 @@ impl BinnedData {
     /// the columns, `NonFinite` for an infinite number, `BadCategory` for a code that
     /// is not a listed category, `TooLarge` beyond 65534 inputs or 65535 bins,
     /// `InvalidSetting` for a bin limit below 3.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_tree::{BinnedData, FeatureMeta, MISSING_BIN};
+    /// use ndarray::array;
+    ///
+    /// // A numeric input with a missing value, and a categorical one (codes 0 and 1).
+    /// let x = array![[0.5, 1.0], [f64::NAN, 0.0], [2.0, 1.0]];
+    /// let meta = vec![
+    ///     FeatureMeta::numeric("length"),
+    ///     FeatureMeta::categorical("colour", vec!["red".into(), "blue".into()]),
+    /// ];
+    /// let data = BinnedData::new(x.view(), &meta, 256)?;
+    /// assert_eq!(data.bin(1, 0), MISSING_BIN);
+    /// assert_eq!(data.candidate_thresholds(0), Some(1));
+    /// assert_eq!(data.bin(0, 1), 2); // category code c is bin c + 1
+    /// # Ok::<(), copse_tree::Error>(())
+    /// ```
     pub fn new(x: ArrayView2<'_, f64>, meta: &[FeatureMeta], bin_limit: usize) -> Result<Self> {
         let (n_rows, p) = x.dim();
         if n_rows == 0 || p == 0 {

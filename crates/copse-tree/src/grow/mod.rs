@@ -128,7 +128,20 @@ struct Frame {
 }
 
 impl Grower {
-    /// A grower with the given settings.
+    /// A grower with the given settings. Reuse it for many trees: its buffers are
+    /// kept between calls to [`Grower::grow`].
+    ///
+    /// # Example
+    /// ```
+    /// use copse_tree::{Grower, Impurity, TreeSettings};
+    ///
+    /// let grower = Grower::new(TreeSettings {
+    ///     impurity: Impurity::Entropy,
+    ///     max_depth: Some(3),
+    ///     ..TreeSettings::default()
+    /// });
+    /// assert_eq!(grower.settings().max_depth, Some(3));
+    /// ```
     pub fn new(settings: TreeSettings) -> Self {
         Grower {
             settings,

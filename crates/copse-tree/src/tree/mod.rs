@@ -147,6 +147,24 @@ impl Tree {
     ///
     /// # Panics
     /// When `row` is shorter than [`Tree::n_features`].
+    ///
+    /// # Example
+    /// ```
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use ndarray::array;
+    ///
+    /// // The class is 1 when `size` is above 2.5; the midpoint is the threshold.
+    /// let x = array![[1.0], [2.0], [3.0], [4.0]];
+    /// let meta = vec![FeatureMeta::numeric("size")];
+    /// let data = BinnedData::new(x.view(), &meta, 256)?;
+    /// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+    /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
+    /// let leaf = tree.leaf_index(&[4.0]);
+    /// assert!(tree.nodes()[leaf].is_leaf());
+    /// assert_eq!(tree.leaf_weight(leaf), 2.0);
+    /// assert_eq!(tree.leaf_value(leaf), &[0.0, 1.0]);
+    /// # Ok::<(), copse_tree::Error>(())
+    /// ```
     #[inline]
     pub fn leaf_index(&self, row: &[f64]) -> usize {
         self.leaf_index_with(|j| row[j])
@@ -157,6 +175,23 @@ impl Tree {
     /// # Panics
     /// When `row` is shorter than [`Tree::n_features`]; use [`Tree::try_predict_row`]
     /// for rows that come from outside the program.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use ndarray::array;
+    ///
+    /// // The class is 1 when `size` is above 2.5; the midpoint is the threshold.
+    /// let x = array![[1.0], [2.0], [3.0], [4.0]];
+    /// let meta = vec![FeatureMeta::numeric("size")];
+    /// let data = BinnedData::new(x.view(), &meta, 256)?;
+    /// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+    /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
+    /// assert_eq!(tree.predict_row(&[2.4]), &[1.0, 0.0]);
+    /// // A missing value follows the node's missing-value direction.
+    /// assert_eq!(tree.predict_row(&[f64::NAN]).len(), 2);
+    /// # Ok::<(), copse_tree::Error>(())
+    /// ```
     pub fn predict_row(&self, row: &[f64]) -> LeafValue<'_> {
         self.leaf_value(self.leaf_index(row))
     }
@@ -165,6 +200,22 @@ impl Tree {
     ///
     /// # Errors
     /// `LengthMismatch` when `row` has fewer values than the tree has inputs.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use ndarray::array;
+    ///
+    /// // The class is 1 when `size` is above 2.5; the midpoint is the threshold.
+    /// let x = array![[1.0], [2.0], [3.0], [4.0]];
+    /// let meta = vec![FeatureMeta::numeric("size")];
+    /// let data = BinnedData::new(x.view(), &meta, 256)?;
+    /// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+    /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
+    /// assert_eq!(tree.try_predict_row(&[3.5])?, &[0.0, 1.0]);
+    /// assert!(tree.try_predict_row(&[]).is_err());
+    /// # Ok::<(), copse_tree::Error>(())
+    /// ```
     pub fn try_predict_row(&self, row: &[f64]) -> Result<LeafValue<'_>> {
         self.check_width(row.len())?;
         Ok(self.predict_row(row))
@@ -206,6 +257,22 @@ impl Tree {
     /// # Panics
     /// When `x` has fewer columns than [`Tree::n_features`]; see
     /// [`Tree::try_predict_batch`].
+    ///
+    /// # Example
+    /// ```
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use ndarray::array;
+    ///
+    /// // The class is 1 when `size` is above 2.5; the midpoint is the threshold.
+    /// let x = array![[1.0], [2.0], [3.0], [4.0]];
+    /// let meta = vec![FeatureMeta::numeric("size")];
+    /// let data = BinnedData::new(x.view(), &meta, 256)?;
+    /// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+    /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
+    /// let out = tree.predict_batch(array![[0.0], [9.0]].view());
+    /// assert_eq!(out, array![[1.0, 0.0], [0.0, 1.0]]);
+    /// # Ok::<(), copse_tree::Error>(())
+    /// ```
     pub fn predict_batch(&self, x: ArrayView2<'_, f64>) -> Array2<f64> {
         let mut out = Array2::zeros((x.nrows(), self.n_outputs));
         for (row, mut o) in x.rows().into_iter().zip(out.rows_mut()) {
