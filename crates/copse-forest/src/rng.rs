@@ -32,15 +32,19 @@ fn splitmix64(x: u64) -> u64 {
     z ^ (z >> 31)
 }
 
-/// The generator for `(seed, purpose, index, sub)`: the four numbers are chained
-/// through SplitMix64 into one 64-bit seed, which Xoshiro256++ expands (again with
-/// SplitMix64) into its 256-bit state.
-pub(crate) fn task_rng(seed: u64, purpose: Purpose, index: u64, sub: u64) -> Xoshiro256PlusPlus {
+/// The 64-bit seed of `(seed, purpose, index, sub)`: the four numbers chained through
+/// SplitMix64. Handed as is to code that seeds its own generator (the tree grower).
+pub(crate) fn task_seed(seed: u64, purpose: Purpose, index: u64, sub: u64) -> u64 {
     let mut h = splitmix64(seed);
     h = splitmix64(h ^ purpose as u64);
     h = splitmix64(h ^ index);
-    h = splitmix64(h ^ sub);
-    Xoshiro256PlusPlus::seed_from_u64(h)
+    splitmix64(h ^ sub)
+}
+
+/// The generator for `(seed, purpose, index, sub)`: the [`task_seed`], which
+/// Xoshiro256++ expands (again with SplitMix64) into its 256-bit state.
+pub(crate) fn task_rng(seed: u64, purpose: Purpose, index: u64, sub: u64) -> Xoshiro256PlusPlus {
+    Xoshiro256PlusPlus::seed_from_u64(task_seed(seed, purpose, index, sub))
 }
 
 #[cfg(test)]

@@ -10,7 +10,7 @@ use crate::oob::{out_of_bag, OobMask};
 use crate::oob_importance::oob_permutation;
 use crate::outcome::Outcome;
 use crate::progress::{Progress, Stage};
-use crate::rng::{task_rng, Purpose};
+use crate::rng::{task_rng, task_seed, Purpose};
 use crate::sample::Sampler;
 use crate::settings::ForestSettings;
 use crate::task::Task;
@@ -145,8 +145,8 @@ impl Forest {
                 |(grower, weights, scratch), t| -> Result<Grown> {
                     let mut sample_rng = task_rng(settings.seed, Purpose::Sample, t as u64, 0);
                     sampler.draw(&mut sample_rng, weights, scratch);
-                    let mut grow_rng = task_rng(settings.seed, Purpose::Grow, t as u64, 0);
-                    let tree = grower.grow(&data, &target, weights, &mut grow_rng)?;
+                    let grow_seed = task_seed(settings.seed, Purpose::Grow, t as u64, 0);
+                    let tree = grower.grow(&data, &target, weights, grow_seed)?;
                     let bag_weight = weights.iter().sum();
                     let oob = OobMask::from_weights(weights);
                     let draws = options.keep_draws.then(|| Draws::column(weights));

@@ -15,6 +15,22 @@ impl Tree {
     ///
     /// # Errors
     /// `InvalidModel` naming the first fault found.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use ndarray::array;
+    ///
+    /// let x = array![[1.0], [2.0], [3.0], [4.0]];
+    /// let meta = vec![FeatureMeta::numeric("size")];
+    /// let data = BinnedData::new(x.view(), &meta, 256)?;
+    /// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+    /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
+    /// tree.check(&meta)?;
+    /// // The tree tests input 0, which a description of no inputs lacks.
+    /// assert!(tree.check(&[]).is_err());
+    /// # Ok::<(), copse_tree::Error>(())
+    /// ```
     pub fn check(&self, meta: &[FeatureMeta]) -> Result<()> {
         let bad = |m: String| Err(Error::new(ErrorKind::InvalidModel, m));
         let n = self.nodes.len();
@@ -119,7 +135,6 @@ impl Tree {
 mod tests {
     use crate::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
     use ndarray::array;
-    use rand::SeedableRng;
 
     #[test]
     fn a_grown_tree_passes_and_damage_is_caught() {
@@ -131,9 +146,8 @@ mod tests {
         let data = BinnedData::new(x.view(), &meta, 256).expect("bins");
         let y = [0u32, 1, 0, 1];
         let t = Target::classes(&y, 2).expect("target");
-        let mut rng = rand::rngs::StdRng::seed_from_u64(3);
         let tree = Grower::new(TreeSettings::default())
-            .grow(&data, &t, &[1.0; 4], &mut rng)
+            .grow(&data, &t, &[1.0; 4], 3)
             .expect("grows");
         tree.check(&meta).expect("a grown tree is well formed");
         assert!(tree.nodes[0].is_categorical());
@@ -171,7 +185,7 @@ mod tests {
         let y3 = [0u32, 1, 2, 1];
         let t3 = Target::classes(&y3, 3).expect("target");
         let three = Grower::new(TreeSettings::default())
-            .grow(&data, &t3, &[1.0; 4], &mut rng)
+            .grow(&data, &t3, &[1.0; 4], 3)
             .expect("grows");
         three.check(&meta).expect("a grown tree is well formed");
         let mut short = three.clone();
@@ -192,7 +206,7 @@ mod tests {
         let values = [1.0e6, -3.0, 2.5, 7.0];
         let tv = Target::values(&values).expect("target");
         let reg = Grower::new(TreeSettings::default())
-            .grow(&data, &tv, &[1.0; 4], &mut rng)
+            .grow(&data, &tv, &[1.0; 4], 3)
             .expect("grows");
         reg.check(&meta).expect("a grown tree is well formed");
         let leaf = reg.leaves().next().expect("a leaf");

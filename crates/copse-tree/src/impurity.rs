@@ -18,6 +18,14 @@ pub enum Impurity {
 }
 
 /// Gini index of weighted class counts: `1 - sum (c_k / w)^2`. Zero for an empty node.
+///
+/// # Example
+/// ```
+/// use copse_tree::impurity::gini;
+///
+/// assert_eq!(gini(&[5.0, 5.0]), 0.5);
+/// assert_eq!(gini(&[4.0, 0.0]), 0.0);
+/// ```
 pub fn gini(counts: &[f64]) -> f64 {
     let w: f64 = counts.iter().sum();
     if w <= 0.0 {
@@ -27,6 +35,14 @@ pub fn gini(counts: &[f64]) -> f64 {
 }
 
 /// Entropy in bits of weighted class counts: `-sum p_k log2 p_k`. Zero for an empty node.
+///
+/// # Example
+/// ```
+/// use copse_tree::impurity::entropy;
+///
+/// assert_eq!(entropy(&[5.0, 5.0]), 1.0);
+/// assert_eq!(entropy(&[1.0, 1.0, 1.0, 1.0]), 2.0);
+/// ```
 pub fn entropy(counts: &[f64]) -> f64 {
     let w: f64 = counts.iter().sum();
     if w <= 0.0 {

@@ -33,6 +33,26 @@ fn node_totals(tree: &Tree) -> (Vec<f64>, Vec<f64>) {
 
 /// Renders `tree` with input names from `meta` and class labels (`None` for
 /// regression).
+///
+/// # Example
+/// ```
+/// use copse_tree::render::render;
+/// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+/// use ndarray::array;
+///
+/// let x = array![[1.0], [2.0], [3.0], [4.0]];
+/// let meta = vec![FeatureMeta::numeric("size")];
+/// let data = BinnedData::new(x.view(), &meta, 256)?;
+/// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+/// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
+/// let labels = vec!["small".to_string(), "large".to_string()];
+/// let text = render(&tree, &meta, Some(&labels));
+/// // A summary line, then one line per node: the root and its two leaves.
+/// assert_eq!(text.lines().next(), Some("tree: 3 nodes, 2 leaves, depth 1"));
+/// assert_eq!(text.lines().count(), 4);
+/// assert!(text.contains("=> large"));
+/// # Ok::<(), copse_tree::Error>(())
+/// ```
 pub fn render(tree: &Tree, meta: &[FeatureMeta], classes: Option<&[String]>) -> String {
     let (w, sums) = node_totals(tree);
     let k = tree.n_outputs();
@@ -164,7 +184,6 @@ mod tests {
     use super::*;
     use crate::{BinnedData, Grower, Target, TreeSettings};
     use ndarray::array;
-    use rand::SeedableRng;
 
     fn small_tree() -> (Tree, Vec<FeatureMeta>) {
         let x = array![[1.0, 0.0], [2.0, 1.0], [3.0, 1.0], [4.0, f64::NAN]];
@@ -174,9 +193,8 @@ mod tests {
         ];
         let data = BinnedData::new(x.view(), &meta, 256).expect("test input is valid");
         let target = Target::classes(&[0, 1, 1, 1], 2).expect("test input is valid");
-        let mut rng = rand::rngs::StdRng::seed_from_u64(1);
         let tree = Grower::new(TreeSettings::default())
-            .grow(&data, &target, &[1.0; 4], &mut rng)
+            .grow(&data, &target, &[1.0; 4], 1)
             .expect("test input is valid");
         (tree, meta)
     }
@@ -220,9 +238,8 @@ mod tests {
         let data = BinnedData::new(x.view(), &meta, 256).expect("test input is valid");
         let y = [1.0, 1.0, 2.5];
         let target = Target::values(&y).expect("test input is valid");
-        let mut rng = rand::rngs::StdRng::seed_from_u64(1);
         let tree = Grower::new(TreeSettings::default())
-            .grow(&data, &target, &[1.0; 3], &mut rng)
+            .grow(&data, &target, &[1.0; 3], 1)
             .expect("test input is valid");
         let text = render(&tree, &meta, None);
         // With no missing values in training, missing ones follow the heavier child.

@@ -31,6 +31,18 @@ impl<'a> Target<'a> {
     /// # Errors
     /// `InvalidSetting` when `n_classes` is 0, `TooLarge` above [`MAX_CLASSES`],
     /// `BadCategory` when a code is out of range.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_tree::target::{Target, MISSING_CLASS};
+    ///
+    /// let codes = [0, 2, MISSING_CLASS, 1];
+    /// let target = Target::classes(&codes, 3)?;
+    /// assert_eq!(target.n_outputs(), 3);
+    /// assert!(target.is_missing(2));
+    /// assert!(Target::classes(&codes, 2).is_err()); // code 2 needs three classes
+    /// # Ok::<(), copse_tree::Error>(())
+    /// ```
     pub fn classes(codes: &'a [u32], n_classes: usize) -> Result<Self> {
         if n_classes == 0 {
             return Err(Error::new(
@@ -61,6 +73,18 @@ impl<'a> Target<'a> {
     ///
     /// # Errors
     /// `NonFinite` when a value is infinite.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_tree::Target;
+    ///
+    /// let y = [1.5, f64::NAN, 3.0];
+    /// let target = Target::values(&y)?;
+    /// assert_eq!(target.n_outputs(), 1);
+    /// assert!(target.is_missing(1));
+    /// assert!(Target::values(&[f64::INFINITY]).is_err());
+    /// # Ok::<(), copse_tree::Error>(())
+    /// ```
     pub fn values(values: &'a [f64]) -> Result<Self> {
         if let Some(i) = values.iter().position(|v| v.is_infinite()) {
             return Err(Error::new(

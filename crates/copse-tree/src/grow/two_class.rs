@@ -1,0 +1,363 @@
+//! The two-class engine: whole-number case weights as exact integer counts, one
+//! 64-bit cell per row (case weight high, second class low), and node-ordered records
+//! copied between two buffers at each split so every histogram pass reads in order.
+use super::candidate::{Best, Cut, Task, LEFT};
+use super::partition::move_records;
+use super::scan::scan_two;
+use super::{ascending, Frame, Grower, LOW, SPARSE_RATIO, XLOGX_LIMIT};
+use crate::data::{BinnedData, FeatureBins, MISSING_BIN};
+use crate::impurity::Impurity;
+use crate::tree::Tree;
+use rand::Rng;
+
+/// Calls `$f::<R>(args)` with the record size `$rec` as a constant for the common
+/// sizes (so the compiler can unroll record access), and `$f::<0>` (size read from
+/// the data) otherwise.
+macro_rules! with_record_size {
+    ($rec:expr, $f:ident, $records:expr, $($arg:expr),*) => {
+        match $rec {
+            2 => $f::<2>($records, 2, $($arg),*),
+            3 => $f::<3>($records, 3, $($arg),*),
+            4 => $f::<4>($records, 4, $($arg),*),
+            5 => $f::<5>($records, 5, $($arg),*),
+            r => $f::<0>($records, r, $($arg),*),
+        }
+    };
+}
+
+/// Where the two-class engine finds an input's code in a record.
+#[derive(Debug, Clone, Copy)]
+struct Layout {
+    /// Words per record: the cell, then the code words.
+    rec: usize,
+    /// Codes per word and bits per code.
+    per_word: usize,
+    bits: usize,
+}
+
+impl Layout {
+    /// Word index within a record, shift and mask of input `f`'s code.
+    #[inline]
+    fn field(&self, f: usize) -> (usize, u32, u64) {
+        (
+            1 + f / self.per_word,
+            ((f % self.per_word) * self.bits) as u32,
+            (1u64 << self.bits) - 1,
+        )
+    }
+}
+
+impl Grower {
+    pub(super) fn grow_two<R: Rng + ?Sized>(&mut self, data: &BinnedData, rng: &mut R) -> Tree {
+        let task = Task::Classes(2, self.settings.impurity);
+        if self.settings.impurity == Impurity::Entropy {
+            let total: u64 = self.packed.iter().map(|p| p >> 32).sum();
+            let want = (total as usize + 1).min(XLOGX_LIMIT);
+            for c in self.xlogx.len()..want {
+                let x = c as f64;
+                self.xlogx.push(if c == 0 { 0.0 } else { x * x.log2() });
+            }
+        }
+        let words = data.row_words();
+        let layout = Layout {
+            rec: words.per_row + 1,
+            per_word: 64 / words.bits,
+            bits: words.bits,
+        };
+        let m = self.rows.len();
+        let [first, second] = &mut self.blocks;
+        first.clear();
+        first.reserve(m * layout.rec);
+        for (&r, &p) in self.rows.iter().zip(&self.packed) {
+            let r = r as usize;
+            first.push(p);
+            first.extend_from_slice(&words.words[r * words.per_row..(r + 1) * words.per_row]);
+        }
+        second.clear();
+        second.resize(m * layout.rec, 0);
+        // Cleared in full once per tree, so a tree never depends on the last one.
+        self.hist2.clear();
+        self.hist2.resize(data.max_bins(), 0);
+        let mut tree = self.start_tree(data, 2, 2);
+        let tot: u64 = self.packed.iter().sum();
+        self.stack.push(Frame {
+            start: 0,
+            end: m,
+            depth: 0,
+            node: 0,
+            buf: 0,
+            tot,
+        });
+        let bins = data.bins();
+        while let Some(frame) = self.stack.pop() {
+            let (w, p) = (frame.tot >> 32, frame.tot & LOW);
+            self.totals[0] = (w - p) as f64;
+            self.totals[1] = p as f64;
+            let w_t = task.weight(&self.totals);
+            let best = if self.may_split(p == 0 || p == w, w_t, frame.depth) {
+                self.search(rng, |g, f, best| {
+                    g.eval_two(&bins[f], f, layout, frame, best)
+                })
+            } else {
+                None
+            };
+            // A decrease below rounding noise is no decrease: the scores being
+            // differenced are of the order of the node weight.
+            let tol = 1e-12 * (task.score(&self.totals).abs() + w_t);
+            match best {
+                Some(b) if b.gain > tol && b.gain / w_t >= self.settings.min_decrease => {
+                    let moved = self.split_two(&bins[b.feature], layout, frame, &b);
+                    self.make_split(&mut tree, &bins[b.feature], frame, &b, moved);
+                }
+                _ => self.make_leaf(&mut tree, frame, task, w_t),
+            }
+        }
+        tree
+    }
+
+    /// Evaluates every split of input `f` in the node (two-class engine); returns
+    /// false when the input is constant there (fewer than two distinct non-missing
+    /// values).
+    fn eval_two(
+        &mut self,
+        fb: &FeatureBins,
+        f: usize,
+        layout: Layout,
+        frame: Frame,
+        best: &mut Option<Best>,
+    ) -> bool {
+        let nb = fb.n_bins;
+        let (s, e) = (frame.start, frame.end);
+        let rec = layout.rec;
+        let records = &self.blocks[frame.buf][s * rec..e * rec];
+        let (word, shift, mask) = layout.field(f);
+        let hist = &mut self.hist2[..=nb];
+        let seq = &mut self.seq[..=nb + 1];
+        let field = (word, shift, mask);
+        let len = if (e - s) * SPARSE_RATIO < nb {
+            // Few rows: list each value bin the first time a row lands in it.
+            let len = with_record_size!(rec, fill_sparse, records, field, hist, seq);
+            ascending(&mut seq[..len], nb, &mut self.bitmap);
+            len
+        } else {
+            with_record_size!(rec, fill_dense, records, field, hist, seq);
+            let mut len = 0;
+            for (b, &h) in hist.iter().enumerate().skip(1) {
+                seq[len] = b as u32;
+                len += usize::from(h != 0);
+            }
+            len
+        };
+        let varies = len >= 2;
+        if varies {
+            let imp = self.settings.impurity;
+            let min_leaf = self.settings.min_leaf;
+            let sides = if fb.categorical {
+                // Categories ordered by the second class's share (CART section 9.4).
+                self.order.clear();
+                for &b in &seq[..len] {
+                    let c = hist[b as usize];
+                    let (w, p) = (c >> 32, c & LOW);
+                    let share = p as f64 / ((w - p) as f64 + p as f64);
+                    self.order.push((share, b));
+                }
+                self.order
+                    .sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+                for (slot, o) in seq.iter_mut().zip(&self.order) {
+                    *slot = o.1;
+                }
+                Some((&mut self.best_side[..=nb], nb))
+            } else {
+                None
+            };
+            scan_two(
+                hist,
+                &seq[..len],
+                frame.tot,
+                imp,
+                &self.xlogx,
+                min_leaf,
+                f,
+                sides,
+                best,
+                &mut self.scan,
+            );
+        }
+        for &b in &seq[..len] {
+            hist[b as usize] = 0;
+        }
+        hist[MISSING_BIN] = 0;
+        varies
+    }
+
+    /// Copies the node's records into the other buffer, left side first; returns the
+    /// start of the right side, the buffer, and the left side's total cell.
+    fn split_two(
+        &mut self,
+        fb: &FeatureBins,
+        layout: Layout,
+        frame: Frame,
+        b: &Best,
+    ) -> (usize, usize, u64) {
+        let missing_left = b.missing_left();
+        let (s, e) = (frame.start, frame.end);
+        let rec = layout.rec;
+        let (word, shift, mask) = layout.field(b.feature);
+        let [first, second] = &mut self.blocks;
+        let (src, dst) = if frame.buf == 0 {
+            (&*first, second)
+        } else {
+            (&*second, first)
+        };
+        let (src, dst) = (&src[s * rec..e * rec], &mut dst[s * rec..e * rec]);
+        let nb = fb.n_bins;
+        let (left, tot_left) = match b.cut {
+            Cut::Threshold { a, .. } => move_records(src, dst, rec, word, |w| {
+                let bin = ((w >> shift) & mask) as usize;
+                if bin == MISSING_BIN {
+                    missing_left
+                } else {
+                    bin <= a
+                }
+            }),
+            Cut::Subset => {
+                let side = &self.best_side[..=nb];
+                move_records(src, dst, rec, word, |w| {
+                    let bin = ((w >> shift) & mask) as usize;
+                    if bin == MISSING_BIN {
+                        missing_left
+                    } else {
+                        side.get(bin) == Some(&LEFT)
+                    }
+                })
+            }
+        };
+        (s + left, 1 - frame.buf, tot_left)
+    }
+}
+
+/// Adds every record's cell into the histogram cell of its code (dense nodes).
+/// `R` is the record size when known at compile time, else 0 and `rec` holds it.
+#[inline]
+fn fill_dense<const R: usize>(
+    records: &[u64],
+    rec: usize,
+    (word, shift, mask): (usize, u32, u64),
+    hist: &mut [u64],
+    _: &mut [u32],
+) {
+    let rec = if R > 0 { R } else { rec };
+    for r in records.chunks_exact(rec) {
+        hist[((r[word] >> shift) & mask) as usize] += r[0];
+    }
+}
+
+/// Like [`fill_dense`], and lists in `seq` each value bin the first time a record
+/// lands in it; returns the number listed.
+#[inline]
+fn fill_sparse<const R: usize>(
+    records: &[u64],
+    rec: usize,
+    (word, shift, mask): (usize, u32, u64),
+    hist: &mut [u64],
+    seq: &mut [u32],
+) -> usize {
+    let rec = if R > 0 { R } else { rec };
+    let mut len = 0;
+    for r in records.chunks_exact(rec) {
+        let b = ((r[word] >> shift) & mask) as usize;
+        let h = hist[b];
+        seq[len] = b as u32;
+        len += usize::from(h == 0 && b != MISSING_BIN);
+        hist[b] = h + r[0];
+    }
+    len
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::data::FeatureMeta;
+    use crate::settings::TreeSettings;
+    use crate::target::Target;
+    use ndarray::Array2;
+    use rand::SeedableRng;
+
+    /// The two-class integer engine must give the trees the general engine gives. A
+    /// third class that never occurs sends the same data through the general engine
+    /// (its scores over counts with a zero class are the same numbers), so the two
+    /// trees can be compared: same nodes, same thresholds, same leaf shares.
+    #[test]
+    fn two_class_counts_engine_matches_the_general_engine() {
+        let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(11);
+        for case in 0..12 {
+            let n = 150 + 40 * case;
+            let p = 1 + case % 5;
+            let mut x = Array2::<f64>::zeros((n, p));
+            let mut y = Vec::with_capacity(n);
+            for i in 0..n {
+                let mut s = 0.0;
+                for j in 0..p {
+                    let v: f64 = if case % 3 == 0 {
+                        rng.gen_range(0..6) as f64
+                    } else {
+                        rng.gen_range(-1.0..1.0)
+                    };
+                    s += v;
+                    x[[i, j]] = if rng.gen_bool(0.05 * (case % 2) as f64) {
+                        f64::NAN
+                    } else {
+                        v
+                    };
+                }
+                y.push(u32::from(s + rng.gen_range(-0.8..0.8) > 0.0));
+            }
+            let meta: Vec<FeatureMeta> = (0..p)
+                .map(|j| FeatureMeta::numeric(format!("x{j}")))
+                .collect();
+            let data = BinnedData::new(x.view(), &meta, 4 + 40 * (case % 3)).expect("valid");
+            let weights: Vec<f64> = (0..n).map(|_| rng.gen_range(0..3) as f64).collect();
+            let settings = TreeSettings {
+                impurity: if case % 2 == 0 {
+                    Impurity::Gini
+                } else {
+                    Impurity::Entropy
+                },
+                features_per_split: (case % 4 == 1).then_some(1),
+                min_leaf: [1.0, 2.0, 3.0][case % 3],
+                ..TreeSettings::default()
+            };
+            let two = Target::classes(&y, 2).expect("valid");
+            let three = Target::classes(&y, 3).expect("valid");
+            let seed = 100 + case as u64;
+            let a = Grower::new(settings.clone())
+                .grow(&data, &two, &weights, seed)
+                .expect("grows");
+            let b = Grower::new(settings)
+                .grow(&data, &three, &weights, seed)
+                .expect("grows");
+            // Same internal nodes and leaves in the same places; a leaf's payload is
+            // laid out differently (two classes keep class 1's share in the node,
+            // three an offset into the tree's table), so leaves compare by value.
+            assert_eq!(a.nodes.len(), b.nodes.len(), "case {case}");
+            for (na, nb) in a.nodes.iter().zip(&b.nodes) {
+                assert_eq!(na.is_leaf(), nb.is_leaf(), "case {case}");
+                if !na.is_leaf() {
+                    assert_eq!(na, nb, "case {case}");
+                }
+            }
+            assert_eq!(a.decrease, b.decrease, "case {case}");
+            for leaf in a.leaves() {
+                assert_eq!(a.leaf_weight(leaf), b.leaf_weight(leaf), "case {case}");
+                let (va, vb) = (a.leaf_value(leaf), b.leaf_value(leaf));
+                assert_eq!(vb[2], 0.0, "case {case}");
+                assert_eq!(va[1], vb[1], "case {case}");
+                // Class 0's share is 1 - p in the two-class tree and c0 / w in the
+                // other: with whole-number weights they differ by at most two
+                // roundings of numbers at most 1, so by at most one unit in the last
+                // place of 1 (f64::EPSILON).
+                assert!((va[0] - vb[0]).abs() <= f64::EPSILON, "case {case}");
+            }
+        }
+    }
+}
