@@ -43,7 +43,7 @@ use copse_forest::{
 };
 use copse_tree::{BinnedData, Tree};
 use ndarray::ArrayView2;
-use rand::{Rng, SeedableRng};
+use rand::{RngExt, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use rayon::prelude::*;
 use std::fmt::Write as _;
@@ -608,7 +608,7 @@ fn in_bag_rows(n: usize, seed: u64) -> Vec<u32> {
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
     let mut drawn = vec![false; n];
     for _ in 0..n {
-        drawn[rng.gen_range(0..n)] = true;
+        drawn[rng.random_range(0..n)] = true;
     }
     (0..n as u32).filter(|&i| drawn[i as usize]).collect()
 }
@@ -681,14 +681,14 @@ impl ScoreKernel {
         let mut thresholds = Vec::with_capacity(trees);
         let mut leaves = Vec::with_capacity(trees);
         for _ in 0..trees {
-            let f: Vec<u32> = (0..internal).map(|_| rng.gen_range(0..p) as u32).collect();
+            let f: Vec<u32> = (0..internal).map(|_| rng.random_range(0..p) as u32).collect();
             let t: Vec<f64> = f
                 .iter()
-                .map(|&j| x[[rng.gen_range(0..n), j as usize]])
+                .map(|&j| x[[rng.random_range(0..n), j as usize]])
                 .collect();
             features.push(f);
             thresholds.push(t);
-            leaves.push((0..=internal).map(|_| rng.gen::<f64>()).collect());
+            leaves.push((0..=internal).map(|_| rng.random::<f64>()).collect());
         }
         ScoreKernel {
             levels,

@@ -10,7 +10,7 @@ use copse_forest::{
     TrainOptions, TreeRules,
 };
 use ndarray::Array2;
-use rand::{Rng, SeedableRng};
+use rand::{RngExt, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 
 // ---------------------------------------------------------------------------------
@@ -61,17 +61,17 @@ fn regression_settings(trees: usize, seed: u64) -> ForestSettings {
 /// two equally likely classes, or a uniform value.
 fn pure_noise(n: usize, p: usize, classes: bool, seed: u64) -> Synthetic {
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
-    let x = Array2::from_shape_fn((n, p), |_| rng.gen::<f64>());
+    let x = Array2::from_shape_fn((n, p), |_| rng.random::<f64>());
     let meta = (1..=p)
         .map(|j| FeatureMeta::numeric(format!("z{j}")))
         .collect();
     let outcome = if classes {
         Outcome::Classes {
-            codes: (0..n).map(|_| rng.gen_range(0..2u32)).collect(),
+            codes: (0..n).map(|_| rng.random_range(0..2u32)).collect(),
             labels: vec!["a".into(), "b".into()],
         }
     } else {
-        Outcome::Values((0..n).map(|_| rng.gen::<f64>()).collect())
+        Outcome::Values((0..n).map(|_| rng.random::<f64>()).collect())
     };
     Synthetic { x, meta, outcome }
 }
@@ -171,7 +171,7 @@ fn jackknife_variance_matches_the_variance_over_training_sets() {
             if r == 0 {
                 0.5
             } else {
-                rng.gen::<f64>()
+                rng.random::<f64>()
             }
         },
     );
@@ -228,7 +228,7 @@ fn jackknife_variance_matches_the_variance_over_training_sets() {
     let resampled: Vec<f64> = (0..200)
         .map(|_| {
             let sets: Vec<usize> = (0..SETS as usize)
-                .map(|_| rng.gen_range(0..SETS as usize))
+                .map(|_| rng.random_range(0..SETS as usize))
                 .collect();
             pooled(&sets)
         })
@@ -465,7 +465,7 @@ fn friedman_real_inputs_are_significant_by_the_mirrored_null() {
         if j < 10 {
             base.x[[i, j]]
         } else {
-            rng.gen::<f64>()
+            rng.random::<f64>()
         }
     });
     let meta: Vec<FeatureMeta> = (1..=200)

@@ -415,7 +415,7 @@ fn waveform40_importance_ignores_the_noise_inputs() {
 /// Strobl et al. (2007) null case: X1 ~ N(0,1) and X2..X5 categorical, uniform on 2, 4,
 /// 10 and 20 categories, Y ~ Bernoulli(1/2) independent of all (memory: n = 120).
 fn strobl_null(n: usize, seed: u64) -> Synthetic {
-    use rand::{Rng, SeedableRng};
+    use rand::{RngExt, SeedableRng};
     let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(seed);
     let levels = [2usize, 4, 10, 20];
     let mut x = Array2::zeros((n, 5));
@@ -423,9 +423,9 @@ fn strobl_null(n: usize, seed: u64) -> Synthetic {
     for i in 0..n {
         x[[i, 0]] = rng.sample::<f64, _>(rand_distr::StandardNormal);
         for (j, &l) in levels.iter().enumerate() {
-            x[[i, j + 1]] = rng.gen_range(0..l) as f64;
+            x[[i, j + 1]] = rng.random_range(0..l) as f64;
         }
-        y.push(rng.gen_range(0..2u32));
+        y.push(rng.random_range(0..2u32));
     }
     let mut meta = vec![FeatureMeta::numeric("x1")];
     for (j, &l) in levels.iter().enumerate() {
@@ -721,11 +721,11 @@ fn balanced_sampling_lowers_the_minority_class_error() {
     // 3000 test cases hold about 300 of class 2, so its error is known to about
     // sqrt(0.25 / 300) = 0.03 at worst; the two forests are compared on the same cases.
     let keep = |d: Synthetic, seed: u64| -> Synthetic {
-        use rand::{Rng, SeedableRng};
+        use rand::{RngExt, SeedableRng};
         let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(seed);
         let c = codes(&d.outcome).to_vec();
         let rows: Vec<usize> = (0..c.len())
-            .filter(|&i| c[i] == 0 || rng.gen_bool(1.0 / 9.0))
+            .filter(|&i| c[i] == 0 || rng.random_bool(1.0 / 9.0))
             .collect();
         Synthetic {
             x: d.x.select(Axis(0), &rows),

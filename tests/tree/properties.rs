@@ -323,13 +323,13 @@ proptest! {
         seed in any::<u64>(),
         ent in any::<bool>(),
     ) {
-        use rand::Rng;
+        use rand::RngExt;
         let (imp, f) = measure(ent);
         let mut rng = Xoshiro256PlusPlus::seed_from_u64(seed);
         let cols: Vec<Vec<f64>> = (0..p)
-            .map(|_| (0..n).map(|_| f64::from(rng.gen_range(0..600)) / 8.0).collect())
+            .map(|_| (0..n).map(|_| f64::from(rng.random_range(0..600)) / 8.0).collect())
             .collect();
-        let y: Vec<u32> = (0..n).map(|i| u32::from(cols[0][i] + rng.gen_range(0.0..20.0) > 45.0)).collect();
+        let y: Vec<u32> = (0..n).map(|i| u32::from(cols[0][i] + rng.random_range(0.0..20.0) > 45.0)).collect();
         let s = Sample { cols, kinds: vec![Kind::Numeric; p], y, n_classes: 2, w: vec![1.0; n] };
         let stump = TreeSettings { impurity: imp, max_depth: Some(1), ..TreeSettings::default() };
         let Some((tree, data)) = s.grow(stump, limit, 14) else { return Ok(()) };

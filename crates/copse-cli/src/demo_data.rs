@@ -21,7 +21,7 @@
 //!
 //! The score file holds further segments from the same generator, without the outcome.
 //! Output is byte-for-byte reproducible for a given seed and size.
-use rand::Rng;
+use rand::RngExt;
 use rand::SeedableRng;
 use rand_distr::{Distribution, LogNormal, Normal, Poisson};
 use rand_xoshiro::Xoshiro256PlusPlus;
@@ -110,9 +110,9 @@ pub struct Segment {
     pub failed: bool,
 }
 
-fn pick<T: Copy>(rng: &mut impl Rng, items: &[(T, f64)]) -> T {
+fn pick<T: Copy>(rng: &mut impl RngExt, items: &[(T, f64)]) -> T {
     let total: f64 = items.iter().map(|(_, w)| w).sum();
-    let mut u = rng.gen::<f64>() * total;
+    let mut u = rng.random::<f64>() * total;
     for &(item, w) in items {
         if u < w {
             return item;
@@ -132,7 +132,7 @@ fn stream(seed: u64, which: u64) -> Xoshiro256PlusPlus {
 fn segment(rng: &mut Xoshiro256PlusPlus, number: u64) -> Segment {
     let era_items: Vec<(usize, f64)> = ERAS.iter().enumerate().map(|(i, e)| (i, e.2)).collect();
     let era = ERAS[pick(rng, &era_items)];
-    let year = rng.gen_range(era.0..=era.1);
+    let year = rng.random_range(era.0..=era.1);
     let mat_items: Vec<(usize, f64)> = era.3.iter().copied().enumerate().collect();
     let (material, mat_effect, metallic) = MATERIALS[pick(rng, &mat_items)];
     let diameter_mm = pick(rng, &DIAMETERS);
@@ -163,7 +163,7 @@ fn segment(rng: &mut Xoshiro256PlusPlus, number: u64) -> Segment {
     let past_repairs = Poisson::new(repair_mean.max(1e-9))
         .map(|d| d.sample(rng))
         .unwrap_or(0.0) as u32;
-    let valve_distance_m = (-rng.gen::<f64>().max(1e-12).ln() * 90.0).clamp(1.0, 2000.0);
+    let valve_distance_m = (-rng.random::<f64>().max(1e-12).ln() * 90.0).clamp(1.0, 2000.0);
     let logit = INTERCEPT
         + 0.02 * (age - 50.0)
         + mat_effect
@@ -173,9 +173,9 @@ fn segment(rng: &mut Xoshiro256PlusPlus, number: u64) -> Segment {
         - 0.003 * (f64::from(diameter_mm) - 200.0)
         + 0.35 * (length_m / 120.0).ln();
     let failure_probability = 1.0 / (1.0 + (-logit).exp());
-    let failed = rng.gen::<f64>() < failure_probability;
+    let failed = rng.random::<f64>() < failure_probability;
     let lost = if year < 1940 { 0.12 } else { 0.04 };
-    let install_year = (rng.gen::<f64>() >= lost).then_some(year);
+    let install_year = (rng.random::<f64>() >= lost).then_some(year);
     Segment {
         id: format!("TC-{number:06}"),
         install_year,

@@ -544,7 +544,7 @@ mod tests {
     /// a leaf output) and must decode and score, others must be refused.
     #[test]
     fn altered_contents_with_a_valid_checksum_never_panic() {
-        use rand::{Rng, SeedableRng};
+        use rand::{RngExt, SeedableRng};
         let forest = small_forest();
         let bytes = forest.to_bytes().unwrap();
         let n = bytes.len();
@@ -560,8 +560,8 @@ mod tests {
         let (mut decoded, mut scored, mut refused) = (0, 0, 0);
         for _ in 0..400 {
             let mut b = bytes.clone();
-            let at = rng.gen_range(HEADER_LEN..n - TRAILER_LEN);
-            b[at] ^= 1 << rng.gen_range(0..8);
+            let at = rng.random_range(HEADER_LEN..n - TRAILER_LEN);
+            b[at] ^= 1 << rng.random_range(0..8);
             let crc = crc32fast::hash(&b[..n - 4]);
             b[n - 4..].copy_from_slice(&crc.to_le_bytes());
             match Forest::from_bytes(&b, "hostile") {

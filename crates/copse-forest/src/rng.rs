@@ -50,7 +50,7 @@ pub(crate) fn task_rng(seed: u64, purpose: Purpose, index: u64, sub: u64) -> Xos
 #[cfg(test)]
 mod tests {
     use super::*;
-    use rand::RngCore;
+    use rand::Rng as _;
 
     #[test]
     fn streams_differ_and_repeat() {

@@ -3,7 +3,7 @@
 use crate::error::{Error, ErrorKind, Result};
 use crate::outcome::{Outcome, MISSING};
 use crate::settings::Sampling;
-use rand::Rng;
+use rand::RngExt;
 
 /// Knows which rows may be drawn and how; shared read-only by all threads.
 #[derive(Debug, Clone)]
@@ -68,7 +68,7 @@ impl Sampler {
 
     /// Fills `weights` (one per data row) with this tree's case weights; `scratch` is a
     /// reusable buffer. Rows never drawn get weight 0: they are out of bag.
-    pub(crate) fn draw<R: Rng + ?Sized>(
+    pub(crate) fn draw<R: RngExt + ?Sized>(
         &self,
         rng: &mut R,
         weights: &mut [f64],
@@ -80,7 +80,7 @@ impl Sampler {
                 Sampling::Whole => group.iter().for_each(|&i| weights[i as usize] = 1.0),
                 Sampling::Bootstrap => {
                     for _ in 0..self.draws {
-                        let i = group[rng.gen_range(0..group.len())];
+                        let i = group[rng.random_range(0..group.len())];
                         weights[i as usize] += 1.0;
                     }
                 }
@@ -90,7 +90,7 @@ impl Sampler {
                     scratch.clear();
                     scratch.extend_from_slice(group);
                     for k in 0..self.draws {
-                        let j = rng.gen_range(k..scratch.len());
+                        let j = rng.random_range(k..scratch.len());
                         scratch.swap(k, j);
                         weights[scratch[k] as usize] = 1.0;
                     }

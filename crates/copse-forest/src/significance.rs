@@ -32,7 +32,7 @@ use crate::train::TrainOptions;
 use copse_tree::FeatureMeta;
 use ndarray::{ArrayView2, Axis};
 use rand::seq::SliceRandom;
-use rand::RngCore;
+use rand::Rng as _;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 use std::sync::atomic::{AtomicUsize, Ordering};

@@ -37,7 +37,7 @@ use crate::train::TrainOptions;
 use copse_tree::FeatureMeta;
 use ndarray::{Array2, ArrayView2, Axis};
 use rand::seq::SliceRandom;
-use rand::RngCore;
+use rand::Rng as _;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 

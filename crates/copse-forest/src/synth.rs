@@ -10,7 +10,7 @@
 use crate::outcome::Outcome;
 use copse_tree::FeatureMeta;
 use ndarray::Array2;
-use rand::{Rng, SeedableRng};
+use rand::{RngExt, SeedableRng};
 use rand_distr::StandardNormal;
 use rand_xoshiro::Xoshiro256PlusPlus;
 
@@ -55,7 +55,7 @@ fn generate(
     let mut codes = Vec::with_capacity(n);
     let mut row = vec![0.0; d];
     for i in 0..n {
-        let c = rng.gen_range(0..k);
+        let c = rng.random_range(0..k);
         case(c, &mut rng, &mut row);
         x.row_mut(i).iter_mut().zip(&row).for_each(|(o, v)| *o = *v);
         codes.push(c as u32);
@@ -81,7 +81,7 @@ pub fn twonorm(n: usize, seed: u64) -> Synthetic {
 pub fn threenorm(n: usize, seed: u64) -> Synthetic {
     generate(n, 20, 2, seed, |c, rng, row| {
         if c == 0 {
-            let m = if rng.gen_bool(0.5) { NORM_A } else { -NORM_A };
+            let m = if rng.random_bool(0.5) { NORM_A } else { -NORM_A };
             row.iter_mut().for_each(|v| *v = m + normal(rng));
         } else {
             for (j, v) in row.iter_mut().enumerate() {
@@ -121,7 +121,7 @@ fn waveform(n: usize, noise_inputs: usize, seed: u64) -> Synthetic {
     // Class 1 mixes h1 and h2, class 2 h1 and h3, class 3 h2 and h3.
     const PAIRS: [(usize, usize); 3] = [(0, 1), (0, 2), (1, 2)];
     generate(n, 21 + noise_inputs, 3, seed, |c, rng, row| {
-        let u: f64 = rng.gen();
+        let u: f64 = rng.random();
         let (a, b) = PAIRS[c];
         for (j, v) in row.iter_mut().enumerate().take(21) {
             let pos = j + 1;
@@ -152,7 +152,7 @@ pub fn friedman1(n: usize, seed: u64) -> Synthetic {
     let mut y = Vec::with_capacity(n);
     for i in 0..n {
         let mut r = x.row_mut(i);
-        r.iter_mut().for_each(|v| *v = rng.gen::<f64>());
+        r.iter_mut().for_each(|v| *v = rng.random::<f64>());
         let f = 10.0 * (std::f64::consts::PI * r[0] * r[1]).sin()
             + 20.0 * (r[2] - 0.5).powi(2)
             + 10.0 * r[3]

@@ -392,24 +392,24 @@ mod tests {
         // The definition of a numeric code, checked by binary search over the bins, on
         // values that stress the sort: signs, both zeros, subnormals, huge values,
         // near-ties and repeats; exact and quantile binning; one and two bytes.
-        use rand::{Rng, SeedableRng};
+        use rand::{RngExt, SeedableRng};
         let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(8);
         for case in 0..24 {
             let n = [3, 40, 900, 5000][case % 4];
             let vals: Vec<f64> = (0..n)
                 .map(|_| match case % 6 {
-                    0 => rng.gen_range(-1e6..1e6),
-                    1 => [0.0, -0.0, 1.0, -1.0][rng.gen_range(0..4)],
-                    2 => f64::from_bits(rng.gen_range(0..40)) * if rng.gen() { -1.0 } else { 1.0 },
-                    3 => 1e15 + f64::from(rng.gen_range(0..3000)) * 0.125,
+                    0 => rng.random_range(-1e6..1e6),
+                    1 => [0.0, -0.0, 1.0, -1.0][rng.random_range(0..4)],
+                    2 => f64::from_bits(rng.random_range(0..40)) * if rng.random() { -1.0 } else { 1.0 },
+                    3 => 1e15 + f64::from(rng.random_range(0..3000)) * 0.125,
                     4 => {
-                        if rng.gen_bool(0.3) {
+                        if rng.random_bool(0.3) {
                             f64::NAN
                         } else {
-                            f64::from(rng.gen_range(-50..50))
+                            f64::from(rng.random_range(-50..50))
                         }
                     }
-                    _ => 1.0 + f64::from(rng.gen_range(0..60)) * f64::EPSILON,
+                    _ => 1.0 + f64::from(rng.random_range(0..60)) * f64::EPSILON,
                 })
                 .collect();
             let x = Array2::from_shape_vec((n, 1), vals.clone()).expect("test input is valid");

@@ -7,10 +7,10 @@ use super::scan::scan_general;
 use super::{ascending, Frame, Grower, SPARSE_RATIO};
 use crate::data::{BinCode, BinnedData, FeatureBins, MISSING_BIN};
 use crate::tree::Tree;
-use rand::Rng;
+use rand::RngExt;
 
 impl Grower {
-    pub(super) fn grow_general<B: BinCode, R: Rng + ?Sized>(
+    pub(super) fn grow_general<B: BinCode, R: RngExt + ?Sized>(
         &mut self,
         codes: &[B],
         data: &BinnedData,

@@ -58,7 +58,7 @@ use crate::settings::TreeSettings;
 use crate::target::Target;
 use crate::tree::{weight_bits, Node, Tree, CATEGORICAL, LEAF, MISSING_LEFT};
 use candidate::{Best, Cut, Task, ABSENT, LEFT};
-use rand::{Rng, SeedableRng};
+use rand::{RngExt, SeedableRng};
 use rand_xoshiro::Xoshiro256PlusPlus;
 use scan::ScanScratch;
 
@@ -438,7 +438,7 @@ impl Grower {
     /// returns false for an input constant in the node. With K inputs per split,
     /// inputs are drawn one at a time without replacement until K non-constant ones
     /// have been tried or none remain.
-    fn search<R: Rng + ?Sized>(
+    fn search<R: RngExt + ?Sized>(
         &mut self,
         rng: &mut R,
         mut eval: impl FnMut(&mut Self, usize, &mut Option<Best>) -> bool,
@@ -457,7 +457,7 @@ impl Grower {
         } else {
             let (mut i, mut tried) = (0, 0);
             while i < self.pool.len() && tried < k {
-                let j = rng.gen_range(i..self.pool.len());
+                let j = rng.random_range(i..self.pool.len());
                 self.pool.swap(i, j);
                 let f = self.pool[i] as usize;
                 i += 1;

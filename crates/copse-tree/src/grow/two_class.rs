@@ -8,7 +8,7 @@ use super::{ascending, Frame, Grower, LOW, SPARSE_RATIO, XLOGX_LIMIT};
 use crate::data::{BinnedData, FeatureBins, MISSING_BIN};
 use crate::impurity::Impurity;
 use crate::tree::Tree;
-use rand::Rng;
+use rand::RngExt;
 
 /// Calls `$f::<R>(args)` with the record size `$rec` as a constant for the common
 /// sizes (so the compiler can unroll record access), and `$f::<0>` (size read from
@@ -48,7 +48,7 @@ impl Layout {
 }
 
 impl Grower {
-    pub(super) fn grow_two<R: Rng + ?Sized>(&mut self, data: &BinnedData, rng: &mut R) -> Tree {
+    pub(super) fn grow_two<R: RngExt + ?Sized>(&mut self, data: &BinnedData, rng: &mut R) -> Tree {
         let task = Task::Classes(2, self.settings.impurity);
         if self.settings.impurity == Impurity::Entropy {
             let total: u64 = self.packed.iter().map(|p| p >> 32).sum();
@@ -299,24 +299,24 @@ mod tests {
                 let mut s = 0.0;
                 for j in 0..p {
                     let v: f64 = if case % 3 == 0 {
-                        rng.gen_range(0..6) as f64
+                        rng.random_range(0..6) as f64
                     } else {
-                        rng.gen_range(-1.0..1.0)
+                        rng.random_range(-1.0..1.0)
                     };
                     s += v;
-                    x[[i, j]] = if rng.gen_bool(0.05 * (case % 2) as f64) {
+                    x[[i, j]] = if rng.random_bool(0.05 * (case % 2) as f64) {
                         f64::NAN
                     } else {
                         v
                     };
                 }
-                y.push(u32::from(s + rng.gen_range(-0.8..0.8) > 0.0));
+                y.push(u32::from(s + rng.random_range(-0.8..0.8) > 0.0));
             }
             let meta: Vec<FeatureMeta> = (0..p)
                 .map(|j| FeatureMeta::numeric(format!("x{j}")))
                 .collect();
             let data = BinnedData::new(x.view(), &meta, 4 + 40 * (case % 3)).expect("valid");
-            let weights: Vec<f64> = (0..n).map(|_| rng.gen_range(0..3) as f64).collect();
+            let weights: Vec<f64> = (0..n).map(|_| rng.random_range(0..3) as f64).collect();
             let settings = TreeSettings {
                 impurity: if case % 2 == 0 {
                     Impurity::Gini

@@ -284,7 +284,7 @@ mod tests {
     #[test]
     fn block_descent_matches_row_by_row() {
         use crate::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
-        use rand::{Rng, SeedableRng};
+        use rand::{RngExt, SeedableRng};
         // A tree with numeric and categorical splits and missing values; the block
         // descents must reach the same leaf as the row-by-row one (the definition).
         let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(4);
@@ -292,13 +292,13 @@ mod tests {
         let mut x = ndarray::Array2::<f64>::zeros((n, 4));
         let mut y = Vec::with_capacity(n);
         for i in 0..n {
-            let a: f64 = rng.gen_range(-2.0..2.0);
-            let c = rng.gen_range(0..6) as f64;
-            x[[i, 0]] = if rng.gen_bool(0.1) { f64::NAN } else { a };
-            x[[i, 1]] = if rng.gen_bool(0.1) { f64::NAN } else { c };
-            x[[i, 2]] = rng.gen_range(0.0..1.0);
+            let a: f64 = rng.random_range(-2.0..2.0);
+            let c = rng.random_range(0..6) as f64;
+            x[[i, 0]] = if rng.random_bool(0.1) { f64::NAN } else { a };
+            x[[i, 1]] = if rng.random_bool(0.1) { f64::NAN } else { c };
+            x[[i, 2]] = rng.random_range(0.0..1.0);
             x[[i, 3]] = (i % 7) as f64;
-            y.push(u32::from(a + c / 3.0 + rng.gen_range(-1.0..1.0) > 1.0));
+            y.push(u32::from(a + c / 3.0 + rng.random_range(-1.0..1.0) > 1.0));
         }
         let levels = (0..6).map(|k| format!("k{k}")).collect();
         let meta = vec![
