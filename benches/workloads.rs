@@ -681,7 +681,9 @@ impl ScoreKernel {
         let mut thresholds = Vec::with_capacity(trees);
         let mut leaves = Vec::with_capacity(trees);
         for _ in 0..trees {
-            let f: Vec<u32> = (0..internal).map(|_| rng.random_range(0..p) as u32).collect();
+            let f: Vec<u32> = (0..internal)
+                .map(|_| rng.random_range(0..p) as u32)
+                .collect();
             let t: Vec<f64> = f
                 .iter()
                 .map(|&j| x[[rng.random_range(0..n), j as usize]])

@@ -165,16 +165,17 @@ fn jackknife_variance_matches_the_variance_over_training_sets() {
     let started = std::time::Instant::now();
     // The centre of the cube and 23 points drawn uniformly in it.
     let mut rng = Xoshiro256PlusPlus::seed_from_u64(21);
-    let points = Array2::from_shape_fn(
-        (POINTS, 10),
-        |(r, _)| {
-            if r == 0 {
-                0.5
-            } else {
-                rng.random::<f64>()
-            }
-        },
-    );
+    let points =
+        Array2::from_shape_fn(
+            (POINTS, 10),
+            |(r, _)| {
+                if r == 0 {
+                    0.5
+                } else {
+                    rng.random::<f64>()
+                }
+            },
+        );
     let mut pred = vec![Vec::new(); POINTS];
     let mut est = vec![Vec::new(); POINTS]; // corrected, B = 1000 (clamped, as reported)
     let mut raw_big = vec![Vec::new(); POINTS];

@@ -81,7 +81,11 @@ pub fn twonorm(n: usize, seed: u64) -> Synthetic {
 pub fn threenorm(n: usize, seed: u64) -> Synthetic {
     generate(n, 20, 2, seed, |c, rng, row| {
         if c == 0 {
-            let m = if rng.random_bool(0.5) { NORM_A } else { -NORM_A };
+            let m = if rng.random_bool(0.5) {
+                NORM_A
+            } else {
+                -NORM_A
+            };
             row.iter_mut().for_each(|v| *v = m + normal(rng));
         } else {
             for (j, v) in row.iter_mut().enumerate() {

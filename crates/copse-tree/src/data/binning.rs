@@ -400,7 +400,10 @@ mod tests {
                 .map(|_| match case % 6 {
                     0 => rng.random_range(-1e6..1e6),
                     1 => [0.0, -0.0, 1.0, -1.0][rng.random_range(0..4)],
-                    2 => f64::from_bits(rng.random_range(0..40)) * if rng.random() { -1.0 } else { 1.0 },
+                    2 => {
+                        f64::from_bits(rng.random_range(0..40))
+                            * if rng.random() { -1.0 } else { 1.0 }
+                    }
                     3 => 1e15 + f64::from(rng.random_range(0..3000)) * 0.125,
                     4 => {
                         if rng.random_bool(0.3) {
