@@ -171,7 +171,8 @@ fn table2_threenorm() {
 
 #[test]
 fn table2_ringnorm() {
-    // Published accounts differ on a (check-values.md): both are checked against the
+    // Published accounts of the generator differ on a (Breiman 1996, "Bias, variance and
+    // arcing classifiers", and later restatements): both are checked against the
     // published forest figure 4.9% (Table 2, memory). Bayes errors 0.0124 (a = 2/sqrt 20)
     // and 0.0150 (a = 1/sqrt 20) by Monte Carlo with 4e7 draws.
     check_table2(

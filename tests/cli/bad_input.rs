@@ -927,7 +927,7 @@ fn m36_output_path_equal_to_the_input() {
 /// A model written to a full device: exit 1, the device left in place.
 #[test]
 fn m37_model_to_a_full_device() {
-    if !Path::new("/dev/full").exists() {
+    if super::full_device("m37_model_to_a_full_device").is_none() {
         return;
     }
     let dir = tmp();
@@ -948,6 +948,7 @@ fn m37_model_to_a_full_device() {
         1,
         &["could not write /dev/full", "check the disk has room"],
     );
+    super::assert_full_device_intact();
 }
 
 // ---------------------------------------------------------------------------------

@@ -1,9 +1,9 @@
 //! Errors: each typed error, and no panic on any input.
 use crate::practice::one_column;
 use crate::properties::config;
+use copse_tree::outcome::MISSING_CLASS;
 use copse_tree::render::render;
-use copse_tree::target::MISSING_CLASS;
-use copse_tree::{BinnedData, ErrorKind, FeatureMeta, Grower, Target, TreeSettings};
+use copse_tree::{BinnedData, ErrorKind, FeatureMeta, Grower, OutcomeView, TreeSettings};
 use ndarray::Array2;
 use proptest::collection::vec;
 use proptest::prelude::*;
@@ -27,7 +27,7 @@ fn empty_data_is_an_error() {
     assert_eq!(e.kind(), ErrorKind::EmptyData);
     // Rows exist but none has a positive case weight.
     let (data, n) = tiny(&[1.0, 2.0, 3.0]);
-    let target = Target::classes(&[0, 1, 0], 2).expect("target");
+    let target = OutcomeView::classes(&[0, 1, 0], 2).expect("target");
     let e = Grower::new(TreeSettings::default())
         .grow(&data, &target, &vec![0.0; n], 0)
         .expect_err("no weight");
@@ -37,14 +37,14 @@ fn empty_data_is_an_error() {
 #[test]
 fn a_single_row_is_an_error() {
     let (data, _) = tiny(&[1.0]);
-    let target = Target::classes(&[0], 2).expect("target");
+    let target = OutcomeView::classes(&[0], 2).expect("target");
     let e = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0], 0)
         .expect_err("one row");
     assert_eq!(e.kind(), ErrorKind::SingleRow);
     // Two rows, but only one with an outcome.
     let (data, _) = tiny(&[1.0, 2.0]);
-    let target = Target::values(&[3.0, f64::NAN]).expect("target");
+    let target = OutcomeView::values(&[3.0, f64::NAN]).expect("target");
     let e = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0; 2], 0)
         .expect_err("one outcome");
@@ -55,12 +55,12 @@ fn a_single_row_is_an_error() {
 fn all_targets_missing_is_an_error() {
     let (data, _) = tiny(&[1.0, 2.0, 3.0]);
     let codes = [MISSING_CLASS; 3];
-    let target = Target::classes(&codes, 2).expect("target");
+    let target = OutcomeView::classes(&codes, 2).expect("target");
     let e = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0; 3], 0)
         .expect_err("no classes");
     assert_eq!(e.kind(), ErrorKind::NoTargets);
-    let target = Target::values(&[f64::NAN; 3]).expect("target");
+    let target = OutcomeView::values(&[f64::NAN; 3]).expect("target");
     let e = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0; 3], 0)
         .expect_err("no values");
@@ -72,7 +72,7 @@ fn a_single_class_grows_a_single_leaf() {
     // Allowed, but the caller can tell: the tree is one leaf predicting that class.
     let (data, _) = tiny(&[1.0, 2.0, 3.0, 4.0]);
     for n_classes in [1, 3] {
-        let target = Target::classes(&[0, 0, 0, 0], n_classes).expect("target");
+        let target = OutcomeView::classes(&[0, 0, 0, 0], n_classes).expect("target");
         let tree = Grower::new(TreeSettings::default())
             .grow(&data, &target, &[1.0; 4], 0)
             .expect("grows");
@@ -82,7 +82,7 @@ fn a_single_class_grows_a_single_leaf() {
         assert_eq!(tree.predict_class(&[9.0]), 0);
     }
     // The same for a constant regression outcome.
-    let target = Target::values(&[2.5; 4]).expect("target");
+    let target = OutcomeView::values(&[2.5; 4]).expect("target");
     let tree = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0; 4], 0)
         .expect("grows");
@@ -96,12 +96,12 @@ fn mismatched_lengths_are_an_error() {
     let e = BinnedData::new(x.view(), &[FeatureMeta::numeric("a")], 256).expect_err("meta");
     assert_eq!(e.kind(), ErrorKind::LengthMismatch);
     let (data, _) = tiny(&[1.0, 2.0, 3.0]);
-    let short = Target::classes(&[0, 1], 2).expect("target");
+    let short = OutcomeView::classes(&[0, 1], 2).expect("target");
     let e = Grower::new(TreeSettings::default())
         .grow(&data, &short, &[1.0; 3], 0)
         .expect_err("target length");
     assert_eq!(e.kind(), ErrorKind::LengthMismatch);
-    let target = Target::classes(&[0, 1, 1], 2).expect("target");
+    let target = OutcomeView::classes(&[0, 1, 1], 2).expect("target");
     let e = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0; 4], 0)
         .expect_err("weight length");
@@ -132,12 +132,12 @@ fn infinite_numbers_are_an_error() {
             .expect_err("infinite input");
         assert_eq!(e.kind(), ErrorKind::NonFinite);
         assert!(e.message().contains("row 1") && e.message().contains("depth"));
-        let e = Target::values(&[1.0, 2.0, bad]).expect_err("infinite outcome");
+        let e = OutcomeView::values(&[1.0, 2.0, bad]).expect_err("infinite outcome");
         assert_eq!(e.kind(), ErrorKind::NonFinite);
     }
     // An infinite case weight is refused too.
     let (data, _) = tiny(&[1.0, 2.0]);
-    let target = Target::classes(&[0, 1], 2).expect("target");
+    let target = OutcomeView::classes(&[0, 1], 2).expect("target");
     let e = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0, f64::INFINITY], 0)
         .expect_err("weight");
@@ -146,11 +146,11 @@ fn infinite_numbers_are_an_error() {
 
 #[test]
 fn bad_codes_and_settings_are_errors() {
-    let e = Target::classes(&[0, 2], 2).expect_err("class code");
+    let e = OutcomeView::classes(&[0, 2], 2).expect_err("class code");
     assert_eq!(e.kind(), ErrorKind::BadCategory);
-    let e = Target::classes(&[0, 1], 0).expect_err("no classes");
+    let e = OutcomeView::classes(&[0, 1], 0).expect_err("no classes");
     assert_eq!(e.kind(), ErrorKind::InvalidSetting);
-    let e = Target::classes(&[0, 1], usize::MAX).expect_err("too many classes");
+    let e = OutcomeView::classes(&[0, 1], usize::MAX).expect_err("too many classes");
     assert_eq!(e.kind(), ErrorKind::TooLarge);
     let x = Array2::from_shape_vec((2, 1), vec![0.0, 0.5]).expect("shape");
     let meta = [FeatureMeta::categorical("c", vec!["a".into(), "b".into()])];
@@ -164,7 +164,7 @@ fn bad_codes_and_settings_are_errors() {
     )
     .expect_err("bin limit");
     assert_eq!(e.kind(), ErrorKind::InvalidSetting);
-    let target = Target::classes(&[0, 1], 2).expect("target");
+    let target = OutcomeView::classes(&[0, 1], 2).expect("target");
     for bad in [
         TreeSettings {
             min_leaf: 0.0,
@@ -232,9 +232,9 @@ proptest! {
             .collect();
         let Ok(data) = BinnedData::new(x.view(), &meta, limit) else { return Ok(()) };
         let target = if regression {
-            Target::values(&values[..n])
+            OutcomeView::values(&values[..n])
         } else {
-            Target::classes(&codes[..n], n_classes)
+            OutcomeView::classes(&codes[..n], n_classes)
         };
         let Ok(target) = target else { return Ok(()) };
         let settings = TreeSettings {

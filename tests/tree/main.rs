@@ -15,7 +15,7 @@ mod reference;
 #[path = "../support/mod.rs"]
 mod support;
 
-use copse_tree::{BinnedData, FeatureMeta, Grower, Target, Tree, TreeSettings};
+use copse_tree::{BinnedData, FeatureMeta, Grower, OutcomeView, Tree, TreeSettings};
 use ndarray::Array2;
 
 // ---------------------------------------------------------------------------------------
@@ -84,7 +84,7 @@ impl Encoded {
 
     fn grow(&self, settings: TreeSettings) -> Tree {
         let data = BinnedData::new(self.x.view(), &self.meta, 256).expect("bins");
-        let target = Target::classes(&self.y, self.classes.len()).expect("target");
+        let target = OutcomeView::classes(&self.y, self.classes.len()).expect("target");
         Grower::new(settings)
             .grow(&data, &target, &vec![1.0; self.y.len()], 1)
             .expect("grows")

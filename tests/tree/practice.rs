@@ -1,6 +1,6 @@
 //! Facts of the trade (common practice) and regression trees, on small data sets of
 //! our own whose answers follow from the definitions.
-use copse_tree::{render::render, BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+use copse_tree::{render::render, BinnedData, FeatureMeta, Grower, OutcomeView, TreeSettings};
 use ndarray::Array2;
 
 // ---------------------------------------------------------------------------------------
@@ -32,7 +32,7 @@ fn an_input_with_k_distinct_values_offers_k_minus_1_thresholds() {
     let mut seen: Vec<f64> = Vec::new();
     for labels in 0u32..64 {
         let y: Vec<u32> = (0..6).map(|i| labels >> i & 1).collect();
-        let target = Target::classes(&y, 2).expect("target");
+        let target = OutcomeView::classes(&y, 2).expect("target");
         let tree = Grower::new(TreeSettings::default())
             .grow(&data, &target, &[1.0; 6], 3)
             .expect("grows");
@@ -68,7 +68,7 @@ fn identical_inputs_with_different_classes_end_in_one_impure_leaf() {
     let meta = [FeatureMeta::numeric("a"), FeatureMeta::numeric("b")];
     let data = BinnedData::new(x.view(), &meta, 256).expect("bins");
     let y = [0, 0, 1, 0, 1, 1];
-    let target = Target::classes(&y, 2).expect("target");
+    let target = OutcomeView::classes(&y, 2).expect("target");
     let tree = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0; 6], 5)
         .expect("grows");
@@ -85,7 +85,7 @@ fn identical_inputs_with_different_classes_end_in_one_impure_leaf() {
     // All rows identical: a single leaf holding the class shares.
     let same = Array2::from_elem((4, 1), 1.0);
     let data = BinnedData::new(same.view(), &[FeatureMeta::numeric("a")], 256).expect("bins");
-    let target = Target::classes(&[0, 1, 1, 1], 2).expect("target");
+    let target = OutcomeView::classes(&[0, 1, 1, 1], 2).expect("target");
     let tree = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0; 4], 5)
         .expect("grows");
@@ -105,7 +105,7 @@ fn xor_data_stops_where_no_split_decreases_impurity() {
         .expect("shape");
     let meta = [FeatureMeta::numeric("a"), FeatureMeta::numeric("b")];
     let data = BinnedData::new(x.view(), &meta, 256).expect("bins");
-    let target = Target::classes(&[0, 1, 1, 0], 2).expect("target");
+    let target = OutcomeView::classes(&[0, 1, 1, 0], 2).expect("target");
     let tree = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0; 4], 9)
         .expect("grows");
@@ -150,7 +150,7 @@ fn regression_tree_finds_a_step_and_its_means() {
         (1e9, -3e12),
     ] {
         let y: Vec<f64> = base.iter().map(|v| a * v + b).collect();
-        let target = Target::values(&y).expect("target");
+        let target = OutcomeView::values(&y).expect("target");
         let stump = TreeSettings {
             max_depth: Some(1),
             ..TreeSettings::default()
@@ -176,7 +176,7 @@ fn regression_tree_finds_a_step_and_its_means() {
     }
     // Without a depth limit, a clean step gives two pure leaves and stops.
     let y: Vec<f64> = (0..24).map(|i| if i < 12 { 1.0 } else { 4.0 }).collect();
-    let target = Target::values(&y).expect("target");
+    let target = OutcomeView::values(&y).expect("target");
     let tree = Grower::new(TreeSettings::default())
         .grow(&data, &target, &[1.0; 24], 2)
         .expect("grows");

@@ -1,9 +1,9 @@
 //! Property tests of the grower against the slow reference and the definitions.
 use crate::reference::{best_gain, decrease, node_counts, reference_splits, rows_by_leaf, Kind};
 use copse_tree::impurity::{entropy, gini};
-use copse_tree::target::MISSING_CLASS;
+use copse_tree::outcome::MISSING_CLASS;
 use copse_tree::{
-    BinnedData, ErrorKind, FeatureMeta, Grower, Impurity, Target, Tree, TreeSettings,
+    BinnedData, ErrorKind, FeatureMeta, Grower, Impurity, OutcomeView, Tree, TreeSettings,
 };
 use ndarray::Array2;
 use proptest::collection::vec;
@@ -74,7 +74,7 @@ impl Sample {
     ) -> Option<(Tree, BinnedData)> {
         let x = self.x();
         let data = BinnedData::new(x.view(), &self.meta(), bin_limit).expect("bins");
-        let target = Target::classes(&self.y, self.n_classes).expect("target");
+        let target = OutcomeView::classes(&self.y, self.n_classes).expect("target");
         match Grower::new(settings).grow(&data, &target, &self.w, seed) {
             Ok(t) => Some((t, data)),
             Err(e) => {
@@ -228,7 +228,7 @@ proptest! {
         let y: Vec<f64> = (0..s.n()).map(|i| offset + 10f64.powi(exponent) * u[i]).collect();
         let x = s.x();
         let data = BinnedData::new(x.view(), &s.meta(), 256).expect("bins");
-        let target = Target::values(&y).expect("target");
+        let target = OutcomeView::values(&y).expect("target");
         let tree = Grower::new(TreeSettings::default())
             .grow(&data, &target, &s.w, 16)
             .expect("grows");
@@ -370,7 +370,7 @@ proptest! {
         let Some((a, data)) = s.grow(settings.clone(), 256, seed) else { return Ok(()) };
         let (b, _) = s.grow(settings.clone(), 256, seed).expect("grows again");
         prop_assert_eq!(&a, &b);
-        let target = Target::classes(&s.y, s.n_classes).expect("target");
+        let target = OutcomeView::classes(&s.y, s.n_classes).expect("target");
         let mut g = Grower::new(settings);
         g.grow(&data, &target, &vec![1.0; s.n()], seed ^ 0xffff).expect("other tree");
         let c = g.grow(&data, &target, &s.w, seed).expect("grows with reused buffers");

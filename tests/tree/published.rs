@@ -4,7 +4,7 @@ use crate::reference::{best_gain, decrease, reference_splits, rows_by_leaf, Kind
 use crate::{encode, Encoded};
 use copse_tree::impurity::{entropy, gini};
 use copse_tree::{
-    render::render, BinnedData, FeatureMeta, Grower, Impurity, Target, Tree, TreeSettings,
+    render::render, BinnedData, FeatureMeta, Grower, Impurity, OutcomeView, Tree, TreeSettings,
 };
 
 // ---------------------------------------------------------------------------------------
@@ -394,7 +394,7 @@ fn two_class_leaves_live_in_their_nodes() {
     let n = d.y.len();
     let w = whole_weights(n);
     let data = BinnedData::new(d.x.view(), &d.meta, 256).expect("bins");
-    let target = Target::classes(&d.y, 2).expect("target");
+    let target = OutcomeView::classes(&d.y, 2).expect("target");
     let tree = Grower::new(TreeSettings::default())
         .grow(&data, &target, &w, 21)
         .expect("grows");
@@ -442,7 +442,7 @@ fn regression_leaves_live_in_their_nodes() {
     let n = mass.len();
     let w = whole_weights(n);
     let data = BinnedData::new(d.x.view(), &d.meta, 256).expect("bins");
-    let target = Target::values(&mass).expect("target");
+    let target = OutcomeView::values(&mass).expect("target");
     let settings = TreeSettings {
         min_leaf: 5.0,
         ..TreeSettings::default()

@@ -18,7 +18,7 @@
 //! - [`significance`]: p-values for permutation importance;
 //! - [`stability`]: how one tree, bagged trees and a forest vary over seeds;
 //! - [`uncertainty`]: standard errors of predictions (infinitesimal jackknife);
-//! - [`synth`]: seeded generators of published synthetic problems.
+//! - `synth` (feature `synth`): seeded generators of published synthetic problems.
 //!
 //! Determinism: every random draw comes from a generator seeded by the master seed
 //! and the index of the tree (or input and repeat), and results are combined in index
@@ -68,6 +68,7 @@ mod sample;
 pub mod settings;
 pub mod significance;
 pub mod stability;
+#[cfg(feature = "synth")]
 pub mod synth;
 pub mod task;
 pub mod train;

@@ -1,7 +1,7 @@
 //! The outcome a forest models, owned: class codes with their labels, or real values.
 use crate::error::{Error, ErrorKind, Result};
-use copse_tree::target::MISSING_CLASS;
-use copse_tree::Target;
+use copse_tree::outcome::MISSING_CLASS;
+use copse_tree::OutcomeView;
 use std::cmp::Ordering;
 
 /// Class code that marks a missing outcome.
@@ -158,10 +158,10 @@ impl Outcome {
     }
 
     /// The borrowed view the tree core grows on.
-    pub(crate) fn target(&self) -> Result<Target<'_>> {
+    pub(crate) fn view(&self) -> Result<OutcomeView<'_>> {
         Ok(match self {
-            Outcome::Classes { codes, labels } => Target::classes(codes, labels.len())?,
-            Outcome::Values(v) => Target::values(v)?,
+            Outcome::Classes { codes, labels } => OutcomeView::classes(codes, labels.len())?,
+            Outcome::Values(v) => OutcomeView::values(v)?,
         })
     }
 }

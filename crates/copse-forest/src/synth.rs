@@ -188,7 +188,8 @@ mod tests {
 
     #[test]
     fn friedman_mean_matches_its_computed_value() {
-        // E[f] = 14.413 (computed; check-values.md); y adds N(0,1) noise, and
+        // E[f] = 10 E[sin(pi x1 x2)] + 20/12 + 5 + 2.5 = 14.413, computed from the
+        // generating formula (Friedman 1991, Annals of Statistics 19:1-67); y adds N(0,1) noise, and
         // Var[y] = 23.83 + 1, so the sd of a mean of 20000 is sqrt(24.83/20000) = 0.035:
         // 4 sd = 0.14.
         let s = friedman1(20000, 11);

@@ -133,7 +133,7 @@ impl Forest {
             .resolve(p, outcome.is_classes())?;
         let tree_settings = settings.tree.tree_settings((k < p).then_some(k));
         tree_settings.validate()?;
-        let target = outcome.target()?;
+        let target = outcome.view()?;
         let sampler = Sampler::new(outcome, settings.sampling, settings.balanced)?;
 
         let n_trees = settings.trees;

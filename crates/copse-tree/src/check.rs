@@ -18,13 +18,13 @@ impl Tree {
     ///
     /// # Example
     /// ```
-    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, OutcomeView, TreeSettings};
     /// use ndarray::array;
     ///
     /// let x = array![[1.0], [2.0], [3.0], [4.0]];
     /// let meta = vec![FeatureMeta::numeric("size")];
     /// let data = BinnedData::new(x.view(), &meta, 256)?;
-    /// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+    /// let target = OutcomeView::classes(&[0, 0, 1, 1], 2)?;
     /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
     /// tree.check(&meta)?;
     /// // The tree tests input 0, which a description of no inputs lacks.
@@ -133,7 +133,7 @@ impl Tree {
 
 #[cfg(test)]
 mod tests {
-    use crate::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    use crate::{BinnedData, FeatureMeta, Grower, OutcomeView, TreeSettings};
     use ndarray::array;
 
     #[test]
@@ -145,7 +145,7 @@ mod tests {
         ];
         let data = BinnedData::new(x.view(), &meta, 256).expect("bins");
         let y = [0u32, 1, 0, 1];
-        let t = Target::classes(&y, 2).expect("target");
+        let t = OutcomeView::classes(&y, 2).expect("target");
         let tree = Grower::new(TreeSettings::default())
             .grow(&data, &t, &[1.0; 4], 3)
             .expect("grows");
@@ -183,7 +183,7 @@ mod tests {
 
         // Three classes: leaves point into the table of class probabilities.
         let y3 = [0u32, 1, 2, 1];
-        let t3 = Target::classes(&y3, 3).expect("target");
+        let t3 = OutcomeView::classes(&y3, 3).expect("target");
         let three = Grower::new(TreeSettings::default())
             .grow(&data, &t3, &[1.0; 4], 3)
             .expect("grows");
@@ -204,7 +204,7 @@ mod tests {
 
         // Regression: any finite mean, but not a missing one.
         let values = [1.0e6, -3.0, 2.5, 7.0];
-        let tv = Target::values(&values).expect("target");
+        let tv = OutcomeView::values(&values).expect("target");
         let reg = Grower::new(TreeSettings::default())
             .grow(&data, &tv, &[1.0; 4], 3)
             .expect("grows");

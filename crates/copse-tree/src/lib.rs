@@ -3,7 +3,7 @@
 //! The pieces, one concept per file:
 //! - [`data`]: input descriptions and the binned training matrix ([`BinnedData`]),
 //!   with the binning itself in its own file;
-//! - [`target`]: the outcome being modelled ([`Target`]);
+//! - [`outcome`]: a borrowed view of the outcome being modelled ([`OutcomeView`]);
 //! - [`impurity`]: Gini, entropy and variance, and the split scores built from them;
 //! - [`settings`]: what the grower may do ([`TreeSettings`]);
 //! - [`grow`]: the grower itself ([`Grower`]), with reusable scratch buffers: the
@@ -15,14 +15,14 @@
 //!
 //! # Example
 //! ```
-//! use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+//! use copse_tree::{BinnedData, FeatureMeta, Grower, OutcomeView, TreeSettings};
 //! use ndarray::array;
 //!
 //! let x = array![[1.0], [2.0], [3.0], [4.0]];
 //! let meta = vec![FeatureMeta::numeric("size")];
 //! let data = BinnedData::new(x.view(), &meta, 256).unwrap();
 //! let classes = [0u32, 0, 1, 1];
-//! let target = Target::classes(&classes, 2).unwrap();
+//! let target = OutcomeView::classes(&classes, 2).unwrap();
 //! let mut grower = Grower::new(TreeSettings::default());
 //! let tree = grower.grow(&data, &target, &[1.0; 4], 7).unwrap();
 //! // The only useful threshold is the midpoint between 2 and 3.
@@ -37,15 +37,15 @@ pub mod data;
 pub mod error;
 pub mod grow;
 pub mod impurity;
+pub mod outcome;
 pub mod render;
 pub mod settings;
-pub mod target;
 pub mod tree;
 
 pub use data::{BinnedData, FeatureBins, FeatureKind, FeatureMeta, MISSING_BIN};
 pub use error::{Error, ErrorKind, Result};
 pub use grow::Grower;
 pub use impurity::Impurity;
+pub use outcome::OutcomeView;
 pub use settings::TreeSettings;
-pub use target::Target;
 pub use tree::{LeafValue, Node, Tree};

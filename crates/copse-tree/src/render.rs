@@ -37,13 +37,13 @@ fn node_totals(tree: &Tree) -> (Vec<f64>, Vec<f64>) {
 /// # Example
 /// ```
 /// use copse_tree::render::render;
-/// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+/// use copse_tree::{BinnedData, FeatureMeta, Grower, OutcomeView, TreeSettings};
 /// use ndarray::array;
 ///
 /// let x = array![[1.0], [2.0], [3.0], [4.0]];
 /// let meta = vec![FeatureMeta::numeric("size")];
 /// let data = BinnedData::new(x.view(), &meta, 256)?;
-/// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+/// let target = OutcomeView::classes(&[0, 0, 1, 1], 2)?;
 /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
 /// let labels = vec!["small".to_string(), "large".to_string()];
 /// let text = render(&tree, &meta, Some(&labels));
@@ -182,7 +182,7 @@ fn fmt_num(v: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::{BinnedData, Grower, Target, TreeSettings};
+    use crate::{BinnedData, Grower, OutcomeView, TreeSettings};
     use ndarray::array;
 
     fn small_tree() -> (Tree, Vec<FeatureMeta>) {
@@ -192,7 +192,7 @@ mod tests {
             FeatureMeta::categorical("colour", vec!["red".into(), "blue".into()]),
         ];
         let data = BinnedData::new(x.view(), &meta, 256).expect("test input is valid");
-        let target = Target::classes(&[0, 1, 1, 1], 2).expect("test input is valid");
+        let target = OutcomeView::classes(&[0, 1, 1, 1], 2).expect("test input is valid");
         let tree = Grower::new(TreeSettings::default())
             .grow(&data, &target, &[1.0; 4], 1)
             .expect("test input is valid");
@@ -237,7 +237,7 @@ mod tests {
         let meta = vec![FeatureMeta::numeric("t")];
         let data = BinnedData::new(x.view(), &meta, 256).expect("test input is valid");
         let y = [1.0, 1.0, 2.5];
-        let target = Target::values(&y).expect("test input is valid");
+        let target = OutcomeView::values(&y).expect("test input is valid");
         let tree = Grower::new(TreeSettings::default())
             .grow(&data, &target, &[1.0; 3], 1)
             .expect("test input is valid");

@@ -54,8 +54,8 @@ mod two_class;
 
 use crate::data::{BinCodes, BinnedData, FeatureBins};
 use crate::error::{Error, ErrorKind, Result};
+use crate::outcome::OutcomeView;
 use crate::settings::TreeSettings;
-use crate::target::Target;
 use crate::tree::{weight_bits, Node, Tree, CATEGORICAL, LEAF, MISSING_LEFT};
 use candidate::{Best, Cut, Task, ABSENT, LEFT};
 use rand::{RngExt, SeedableRng};
@@ -192,7 +192,7 @@ impl Grower {
     ///
     /// # Example
     /// ```
-    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, OutcomeView, TreeSettings};
     /// use ndarray::array;
     ///
     /// // Two inputs; the class follows the second one.
@@ -200,7 +200,7 @@ impl Grower {
     /// let meta = vec![FeatureMeta::numeric("a"), FeatureMeta::numeric("b")];
     /// let data = BinnedData::new(x.view(), &meta, 256)?;
     /// let classes = [0u32, 0, 1, 1, 1];
-    /// let target = Target::classes(&classes, 2)?;
+    /// let target = OutcomeView::classes(&classes, 2)?;
     /// let settings = TreeSettings { features_per_split: Some(1), ..TreeSettings::default() };
     /// let mut grower = Grower::new(settings);
     /// let tree = grower.grow(&data, &target, &[1.0; 5], 42)?;
@@ -211,7 +211,7 @@ impl Grower {
     pub fn grow(
         &mut self,
         data: &BinnedData,
-        target: &Target<'_>,
+        target: &OutcomeView<'_>,
         weights: &[f64],
         seed: u64,
     ) -> Result<Tree> {
@@ -267,8 +267,10 @@ impl Grower {
             return Ok(self.grow_two(data, rng));
         }
         let task = match *target {
-            Target::Classes { n_classes, .. } => Task::Classes(n_classes, self.settings.impurity),
-            Target::Values(_) => Task::Values(0.0),
+            OutcomeView::Classes { n_classes, .. } => {
+                Task::Classes(n_classes, self.settings.impurity)
+            }
+            OutcomeView::Values(_) => Task::Values(0.0),
         };
         match data.codes() {
             BinCodes::Narrow(c) => Ok(self.grow_general(c, data, task, target.n_outputs(), rng)),
@@ -279,13 +281,13 @@ impl Grower {
     /// Fills the per-row outcome arrays; returns true when the two-class integer
     /// engine applies (two classes, whole-number weights whose total fits in 32 bits,
     /// so every count is exact).
-    fn load_outcome(&mut self, target: &Target<'_>, weights: &[f64]) -> bool {
+    fn load_outcome(&mut self, target: &OutcomeView<'_>, weights: &[f64]) -> bool {
         self.packed.clear();
         self.wgt.clear();
         self.lab.clear();
         self.val.clear();
         match *target {
-            Target::Classes { codes, n_classes } => {
+            OutcomeView::Classes { codes, n_classes } => {
                 let whole = n_classes == 2 && {
                     let mut total = 0.0;
                     self.rows.iter().all(|&r| {
@@ -307,7 +309,7 @@ impl Grower {
                 }
                 whole
             }
-            Target::Values(y) => {
+            OutcomeView::Values(y) => {
                 self.wgt
                     .extend(self.rows.iter().map(|&r| weights[r as usize]));
                 self.val.extend(self.rows.iter().map(|&r| y[r as usize]));

@@ -278,8 +278,8 @@ fn fill_sparse<const R: usize>(
 mod tests {
     use super::*;
     use crate::data::FeatureMeta;
+    use crate::outcome::OutcomeView;
     use crate::settings::TreeSettings;
-    use crate::target::Target;
     use ndarray::Array2;
     use rand::SeedableRng;
 
@@ -327,8 +327,8 @@ mod tests {
                 min_leaf: [1.0, 2.0, 3.0][case % 3],
                 ..TreeSettings::default()
             };
-            let two = Target::classes(&y, 2).expect("valid");
-            let three = Target::classes(&y, 3).expect("valid");
+            let two = OutcomeView::classes(&y, 2).expect("valid");
+            let three = OutcomeView::classes(&y, 3).expect("valid");
             let seed = 100 + case as u64;
             let a = Grower::new(settings.clone())
                 .grow(&data, &two, &weights, seed)

@@ -283,7 +283,7 @@ mod tests {
 
     #[test]
     fn block_descent_matches_row_by_row() {
-        use crate::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+        use crate::{BinnedData, FeatureMeta, Grower, OutcomeView, TreeSettings};
         use rand::{RngExt, SeedableRng};
         // A tree with numeric and categorical splits and missing values; the block
         // descents must reach the same leaf as the row-by-row one (the definition).
@@ -308,7 +308,7 @@ mod tests {
             FeatureMeta::numeric("m"),
         ];
         let data = BinnedData::new(x.view(), &meta, 256).expect("valid data");
-        let target = Target::classes(&y, 2).expect("valid classes");
+        let target = OutcomeView::classes(&y, 2).expect("valid classes");
         let tree = Grower::new(TreeSettings::default())
             .grow(&data, &target, &vec![1.0; n], 4)
             .expect("grows");

@@ -150,14 +150,14 @@ impl Tree {
     ///
     /// # Example
     /// ```
-    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, OutcomeView, TreeSettings};
     /// use ndarray::array;
     ///
     /// // The class is 1 when `size` is above 2.5; the midpoint is the threshold.
     /// let x = array![[1.0], [2.0], [3.0], [4.0]];
     /// let meta = vec![FeatureMeta::numeric("size")];
     /// let data = BinnedData::new(x.view(), &meta, 256)?;
-    /// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+    /// let target = OutcomeView::classes(&[0, 0, 1, 1], 2)?;
     /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
     /// let leaf = tree.leaf_index(&[4.0]);
     /// assert!(tree.nodes()[leaf].is_leaf());
@@ -178,14 +178,14 @@ impl Tree {
     ///
     /// # Example
     /// ```
-    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, OutcomeView, TreeSettings};
     /// use ndarray::array;
     ///
     /// // The class is 1 when `size` is above 2.5; the midpoint is the threshold.
     /// let x = array![[1.0], [2.0], [3.0], [4.0]];
     /// let meta = vec![FeatureMeta::numeric("size")];
     /// let data = BinnedData::new(x.view(), &meta, 256)?;
-    /// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+    /// let target = OutcomeView::classes(&[0, 0, 1, 1], 2)?;
     /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
     /// assert_eq!(tree.predict_row(&[2.4]), &[1.0, 0.0]);
     /// // A missing value follows the node's missing-value direction.
@@ -203,14 +203,14 @@ impl Tree {
     ///
     /// # Example
     /// ```
-    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, OutcomeView, TreeSettings};
     /// use ndarray::array;
     ///
     /// // The class is 1 when `size` is above 2.5; the midpoint is the threshold.
     /// let x = array![[1.0], [2.0], [3.0], [4.0]];
     /// let meta = vec![FeatureMeta::numeric("size")];
     /// let data = BinnedData::new(x.view(), &meta, 256)?;
-    /// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+    /// let target = OutcomeView::classes(&[0, 0, 1, 1], 2)?;
     /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
     /// assert_eq!(tree.try_predict_row(&[3.5])?, &[0.0, 1.0]);
     /// assert!(tree.try_predict_row(&[]).is_err());
@@ -260,14 +260,14 @@ impl Tree {
     ///
     /// # Example
     /// ```
-    /// use copse_tree::{BinnedData, FeatureMeta, Grower, Target, TreeSettings};
+    /// use copse_tree::{BinnedData, FeatureMeta, Grower, OutcomeView, TreeSettings};
     /// use ndarray::array;
     ///
     /// // The class is 1 when `size` is above 2.5; the midpoint is the threshold.
     /// let x = array![[1.0], [2.0], [3.0], [4.0]];
     /// let meta = vec![FeatureMeta::numeric("size")];
     /// let data = BinnedData::new(x.view(), &meta, 256)?;
-    /// let target = Target::classes(&[0, 0, 1, 1], 2)?;
+    /// let target = OutcomeView::classes(&[0, 0, 1, 1], 2)?;
     /// let tree = Grower::new(TreeSettings::default()).grow(&data, &target, &[1.0; 4], 0)?;
     /// let out = tree.predict_batch(array![[0.0], [9.0]].view());
     /// assert_eq!(out, array![[1.0, 0.0], [0.0, 1.0]]);

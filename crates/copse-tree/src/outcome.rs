@@ -1,4 +1,5 @@
-//! The outcome a tree models: class codes (classification) or real values (regression).
+//! The outcome a tree models, borrowed: class codes (classification) or real values
+//! (regression). copse-forest owns the outcome (`Outcome`) and lends this view.
 use crate::error::{Error, ErrorKind, Result};
 
 /// Marker for a missing class code.
@@ -13,7 +14,7 @@ pub const MAX_CLASSES: usize = 65_535;
 /// and NaN for values; such rows are left out of growing (the grower gives them no
 /// weight), never guessed.
 #[derive(Debug, Clone, Copy)]
-pub enum Target<'a> {
+pub enum OutcomeView<'a> {
     /// Class codes `0..n_classes`.
     Classes {
         /// One code per row.
@@ -25,7 +26,7 @@ pub enum Target<'a> {
     Values(&'a [f64]),
 }
 
-impl<'a> Target<'a> {
+impl<'a> OutcomeView<'a> {
     /// Class codes in `0..n_classes` (or [`MISSING_CLASS`]).
     ///
     /// # Errors
@@ -34,13 +35,13 @@ impl<'a> Target<'a> {
     ///
     /// # Example
     /// ```
-    /// use copse_tree::target::{Target, MISSING_CLASS};
+    /// use copse_tree::outcome::{OutcomeView, MISSING_CLASS};
     ///
     /// let codes = [0, 2, MISSING_CLASS, 1];
-    /// let target = Target::classes(&codes, 3)?;
+    /// let target = OutcomeView::classes(&codes, 3)?;
     /// assert_eq!(target.n_outputs(), 3);
     /// assert!(target.is_missing(2));
-    /// assert!(Target::classes(&codes, 2).is_err()); // code 2 needs three classes
+    /// assert!(OutcomeView::classes(&codes, 2).is_err()); // code 2 needs three classes
     /// # Ok::<(), copse_tree::Error>(())
     /// ```
     pub fn classes(codes: &'a [u32], n_classes: usize) -> Result<Self> {
@@ -66,7 +67,7 @@ impl<'a> Target<'a> {
                 format!("row {i}: class code {c} is not below the number of classes {n_classes}"),
             ));
         }
-        Ok(Target::Classes { codes, n_classes })
+        Ok(OutcomeView::Classes { codes, n_classes })
     }
 
     /// Real-valued target; NaN marks a missing value.
@@ -76,13 +77,13 @@ impl<'a> Target<'a> {
     ///
     /// # Example
     /// ```
-    /// use copse_tree::Target;
+    /// use copse_tree::OutcomeView;
     ///
     /// let y = [1.5, f64::NAN, 3.0];
-    /// let target = Target::values(&y)?;
+    /// let target = OutcomeView::values(&y)?;
     /// assert_eq!(target.n_outputs(), 1);
     /// assert!(target.is_missing(1));
-    /// assert!(Target::values(&[f64::INFINITY]).is_err());
+    /// assert!(OutcomeView::values(&[f64::INFINITY]).is_err());
     /// # Ok::<(), copse_tree::Error>(())
     /// ```
     pub fn values(values: &'a [f64]) -> Result<Self> {
@@ -94,14 +95,14 @@ impl<'a> Target<'a> {
                 ),
             ));
         }
-        Ok(Target::Values(values))
+        Ok(OutcomeView::Values(values))
     }
 
     /// Number of rows.
     pub fn len(&self) -> usize {
         match self {
-            Target::Classes { codes, .. } => codes.len(),
-            Target::Values(v) => v.len(),
+            OutcomeView::Classes { codes, .. } => codes.len(),
+            OutcomeView::Values(v) => v.len(),
         }
     }
 
@@ -113,16 +114,16 @@ impl<'a> Target<'a> {
     /// Width of a leaf's output: number of classes, or 1 for regression.
     pub fn n_outputs(&self) -> usize {
         match self {
-            Target::Classes { n_classes, .. } => *n_classes,
-            Target::Values(_) => 1,
+            OutcomeView::Classes { n_classes, .. } => *n_classes,
+            OutcomeView::Values(_) => 1,
         }
     }
 
     /// True when row `i`'s outcome is missing.
     pub fn is_missing(&self, i: usize) -> bool {
         match self {
-            Target::Classes { codes, .. } => codes[i] == MISSING_CLASS,
-            Target::Values(v) => v[i].is_nan(),
+            OutcomeView::Classes { codes, .. } => codes[i] == MISSING_CLASS,
+            OutcomeView::Values(v) => v[i].is_nan(),
         }
     }
 }
