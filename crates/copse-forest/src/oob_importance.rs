@@ -145,30 +145,13 @@ pub(crate) fn oob_permutation(
     progress: &(dyn Fn(Progress) + Sync),
 ) -> Option<PermutationImportance> {
     let n = x.nrows();
-    let nt = trees.len();
-    let done = AtomicUsize::new(0);
-    let per_tree: Vec<Option<(Vec<f64>, Vec<f64>)>> = (0..nt)
-        .into_par_iter()
-        .map(|t| {
-            let tree = &trees[t];
-            let rows: Vec<usize> = (0..n)
-                .filter(|&i| masks[t].contains(i) && !outcome.is_missing(i))
-                .collect();
-            let result = (!rows.is_empty()).then(|| {
-                tree_permutation_increase(tree, x, outcome, &rows, |j| {
-                    task_rng(seed, Purpose::OobPermute, t as u64, j as u64)
-                })
-            });
-            let d = done.fetch_add(1, Ordering::Relaxed) + 1;
-            progress(Progress {
-                stage: Stage::Importance,
-                done: d,
-                total: nt,
-            });
-            result
-        })
-        .collect();
-    let (errs, briers): (Vec<Vec<f64>>, Vec<Vec<f64>>) = per_tree.into_iter().flatten().unzip();
+    let rows_of = |t: usize| -> Vec<usize> {
+        (0..n)
+            .filter(|&i| masks[t].contains(i) && !outcome.is_missing(i))
+            .collect()
+    };
+    let rng_of = |t: usize, j: usize| task_rng(seed, Purpose::OobPermute, t as u64, j as u64);
+    let (errs, briers) = per_tree_increases(trees, x, outcome, &rows_of, &rng_of, progress);
     if errs.is_empty() {
         return None;
     }
@@ -179,6 +162,38 @@ pub(crate) fn oob_permutation(
         &errs,
         &briers,
     ))
+}
+
+/// Every tree's increases in (error, Brier) per input when each input is permuted
+/// among the rows `rows_of(t)` with the generator `rng_of(t, j)`, in tree order; trees
+/// with no rows are left out. Shared by the out-of-bag importance (each tree's own
+/// out-of-bag rows) and the hold-out importance (every tree the same held-out rows).
+pub(crate) fn per_tree_increases(
+    trees: &[Tree],
+    x: ArrayView2<'_, f64>,
+    outcome: &Outcome,
+    rows_of: &(dyn Fn(usize) -> Vec<usize> + Sync),
+    rng_of: &(dyn Fn(usize, usize) -> rand_xoshiro::Xoshiro256PlusPlus + Sync),
+    progress: &(dyn Fn(Progress) + Sync),
+) -> (Vec<Vec<f64>>, Vec<Vec<f64>>) {
+    let nt = trees.len();
+    let done = AtomicUsize::new(0);
+    let per_tree: Vec<Option<(Vec<f64>, Vec<f64>)>> = (0..nt)
+        .into_par_iter()
+        .map(|t| {
+            let rows = rows_of(t);
+            let result = (!rows.is_empty())
+                .then(|| tree_permutation_increase(&trees[t], x, outcome, &rows, |j| rng_of(t, j)));
+            let d = done.fetch_add(1, Ordering::Relaxed) + 1;
+            progress(Progress {
+                stage: Stage::Importance,
+                done: d,
+                total: nt,
+            });
+            result
+        })
+        .collect();
+    per_tree.into_iter().flatten().unzip()
 }
 
 #[cfg(test)]

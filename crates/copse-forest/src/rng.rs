@@ -21,6 +21,9 @@ pub(crate) enum Purpose {
     Stability = 6,
     /// The split of the rows into two halves for hold-out importance.
     HalfSplit = 7,
+    /// Permutation of input `j` among the held-out half's rows for tree `t` of one
+    /// half's forest (hold-out importance; each half has its own seed).
+    HalfPermute = 8,
 }
 
 /// SplitMix64 output function (Steele, Lea & Flood 2014, "Fast splittable
