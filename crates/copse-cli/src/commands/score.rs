@@ -6,8 +6,8 @@
 //! ahead while the other is scored, when more than one thread runs) whatever the length
 //! of the input.
 use crate::args::ScoreArgs;
-use crate::commands::train::compact;
 use crate::error::{forest_error, CliError, CliResult};
+use crate::numbers::compact;
 use crate::output::{refuse_overwrite, Output};
 use crate::ui::Ui;
 use copse_data::Missing;
