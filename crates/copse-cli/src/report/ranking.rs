@@ -337,3 +337,17 @@ pub fn importance_section(
     }
     let _ = writeln!(out);
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_model_without_out_of_bag_importance_gives_an_empty_list_and_no_tests() {
+        let view = ImportanceView::new(None, None);
+        assert_eq!(
+            crate::report::json_text(&view).unwrap(),
+            r#"{"importance":[],"importance_about":null}"#
+        );
+    }
+}

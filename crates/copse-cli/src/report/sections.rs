@@ -4,7 +4,7 @@ use super::measures::{class_block, value_block};
 use super::model::impurity_name;
 use super::{line, Style};
 use crate::numbers::{decimal_bytes, pct, plain, sig, trim_num};
-use copse_forest::{FeatureKind, Forest as Model, Metrics, Sampling, Task};
+use copse_forest::{FeatureKind, FeaturesPerSplit, Forest as Model, Metrics, Sampling, Task};
 use std::fmt::Write;
 
 /// Word for a sampling scheme.
@@ -121,16 +121,21 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
     let kind = if k >= p {
         "every input: bagged trees".to_string()
     } else {
+        // The card keeps the rule as the engine writes it; read it back as the rule.
         let rule = model.card().features_rule.as_str();
-        match rule {
-            "auto" if classify => {
+        match rule.parse::<FeaturesPerSplit>() {
+            Ok(FeaturesPerSplit::Auto) if classify => {
                 "square root of the inputs, the usual choice for classes".to_string()
             }
-            "auto" => "a third of the inputs, the usual choice for numbers".to_string(),
-            "sqrt" => "square root of the inputs".to_string(),
-            "log2" => "log2 of the inputs".to_string(),
-            r if r.contains('.') => format!("fraction {r} of the inputs"),
-            _ => "a fixed count".to_string(),
+            Ok(FeaturesPerSplit::Auto) => {
+                "a third of the inputs, the usual choice for numbers".to_string()
+            }
+            Ok(FeaturesPerSplit::Sqrt) => "square root of the inputs".to_string(),
+            Ok(FeaturesPerSplit::Log2) => "log2 of the inputs".to_string(),
+            Ok(FeaturesPerSplit::Fraction(_)) => format!("fraction {rule} of the inputs"),
+            Ok(FeaturesPerSplit::All | FeaturesPerSplit::Count(_)) | Err(_) => {
+                "a fixed count".to_string()
+            }
         }
     };
     line(out, "inputs per split", &format!("{k} of {p} ({kind})"));
