@@ -4,7 +4,8 @@
 //!
 //! Each takes one byte of settings from the front of the input, so a fuzzer explores
 //! the options too.
-use crate::report::{self, Style};
+use crate::report::inspect::InspectView;
+use crate::report::{self, ranking, sections, Style};
 use copse_data::{CsvInput, Delimiter, Missing, Roles, RowEncoder, TrainingTable};
 use copse_forest::model_file::{FORMAT_VERSION, HEADER_LEN, MAGIC};
 use copse_forest::{Forest as Model, ForestSettings, Task, TrainOptions, TreeRules};
@@ -196,10 +197,12 @@ fn exercise(model: &Model) {
     }
     let st = Style::new(false);
     let mut text = String::new();
-    report::data_section(&mut text, st, model);
-    report::settings_section(&mut text, st, model, None);
-    report::oob_section(&mut text, st, model);
-    report::importance_section(&mut text, st, model);
-    let _ = report::rare_class_advice(model);
-    let _ = serde_json::to_string(&crate::json::model_object("inspect", model));
+    sections::data_section(&mut text, st, model);
+    sections::settings_section(&mut text, st, model, None);
+    sections::oob_section(&mut text, st, model);
+    ranking::importance_section(&mut text, st, model, None);
+    let _ = sections::rare_class_advice(model);
+    let view = InspectView::new(model, std::path::Path::new("fuzz.copse"), 0, Some(0));
+    let _ = view.text(st);
+    let _ = report::json_text(&view);
 }

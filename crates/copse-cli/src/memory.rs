@@ -84,22 +84,6 @@ fn parse_meminfo(text: &str) -> Option<u64> {
     }
 }
 
-/// Bytes in words: "3.2 GiB".
-pub fn words(bytes: f64) -> String {
-    const UNITS: [&str; 6] = ["bytes", "KiB", "MiB", "GiB", "TiB", "PiB"];
-    let mut v = bytes;
-    let mut u = 0;
-    while v >= 1024.0 && u + 1 < UNITS.len() {
-        v /= 1024.0;
-        u += 1;
-    }
-    if u == 0 {
-        format!("{v:.0} {}", UNITS[0])
-    } else {
-        format!("{v:.1} {}", UNITS[u])
-    }
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -145,6 +129,5 @@ mod tests {
         };
         // At most 8 leaves, 15 nodes.
         assert!((model_bytes(&shallow) - 16.0 * 15.0 * 100.0).abs() < 1.0);
-        assert_eq!(words(3.0 * 1024.0 * 1024.0 * 1024.0), "3.0 GiB");
     }
 }

@@ -6,6 +6,7 @@
 //! - stability: three small panels side by side (error per seed, share of answers that
 //!   change between seeds, agreement of importance rankings), one column per kind of
 //!   model.
+use crate::numbers::{p_value, pct_short, plain, sig};
 use copse_forest::{Importance, KindStability, Significance, StabilityReport};
 use plotters::coord::ranged1d::SegmentValue;
 use plotters::prelude::*;
@@ -16,11 +17,6 @@ const GREY: RGBColor = RGBColor(110, 117, 125);
 const GRID: RGBColor = RGBColor(228, 231, 235);
 
 type PlotResult<T> = Result<T, String>;
-
-/// An axis number without float noise or needless zeros (`150000`, `0.095`).
-fn tick(v: f64) -> String {
-    crate::report::plain(v)
-}
 
 fn err<E: std::fmt::Display>(e: E) -> String {
     e.to_string()
@@ -68,7 +64,7 @@ pub fn importance_svg(
     let names: Vec<String> = ranked
         .iter()
         .map(|f| match p.and_then(|s| s.p_values.get(f.feature)) {
-            Some(&v) => format!("{} (p = {})", f.name, crate::report::p_text(v)),
+            Some(&v) => format!("{} (p = {})", f.name, p_value(v)),
             None => f.name.clone(),
         })
         .collect();
@@ -112,7 +108,7 @@ pub fn importance_svg(
                 _ => String::new(),
             })
             .x_desc("rise when the input is shuffled (whiskers: ± one standard error)")
-            .x_label_formatter(&|v| tick(*v))
+            .x_label_formatter(&|v| plain(*v))
             .label_style(("sans-serif", 13).into_font().color(&INK))
             .axis_desc_style(("sans-serif", 13).into_font().color(&GREY))
             .draw()
@@ -215,7 +211,7 @@ pub fn oob_curve_svg(curve: &[Option<f64>], measure: &str, subtitle: &str) -> Pl
             .x_desc("number of trees")
             .y_desc(measure)
             .x_label_formatter(&|v| format!("{v:.0}"))
-            .y_label_formatter(&|v| tick(*v))
+            .y_label_formatter(&|v| plain(*v))
             .label_style(("sans-serif", 13).into_font().color(&INK))
             .axis_desc_style(("sans-serif", 13).into_font().color(&GREY))
             .draw()
@@ -241,7 +237,7 @@ pub fn oob_curve_svg(curve: &[Option<f64>], measure: &str, subtitle: &str) -> Pl
             .draw_series(std::iter::once(
                 EmptyElement::at((last_x, last_y))
                     + Text::new(
-                        format!("{} with {} trees", crate::report::sig(last_y, 3), last_x),
+                        format!("{} with {} trees", sig(last_y, 3), last_x),
                         (-170, 10),
                         ("sans-serif", 13).into_font().color(&INK),
                     ),
@@ -393,14 +389,8 @@ pub fn stability_svg(r: &StabilityReport, subtitle: &str) -> PlotResult<String> 
             subtitle,
         )?;
         let panels = area.split_evenly((1, 3));
-        let pct = |v: f64| {
-            format!(
-                "{}%",
-                crate::report::plain((100.0 * v * 10.0).round() / 10.0)
-            )
-        };
-        let num = |v: f64| crate::report::sig(v, 3);
-        let err_label: &dyn Fn(f64) -> String = if r.classes { &pct } else { &num };
+        let num = |v: f64| sig(v, 3);
+        let err_label: &dyn Fn(f64) -> String = if r.classes { &pct_short } else { &num };
         stability_panel(
             &panels[0],
             &r.kinds,
@@ -419,7 +409,7 @@ pub fn stability_svg(r: &StabilityReport, subtitle: &str) -> PlotResult<String> 
             (0.0, change_top * 1.2),
             &|_| Vec::new(),
             &|k| k.prediction_change,
-            &pct,
+            &pct_short,
         )?;
         stability_panel(
             &panels[2],
@@ -429,7 +419,7 @@ pub fn stability_svg(r: &StabilityReport, subtitle: &str) -> PlotResult<String> 
             (tau_low.min(0.0), 1.1),
             &|_| Vec::new(),
             &|k| k.rank_tau,
-            &|v| crate::report::sig(v, 2),
+            &|v| sig(v, 2),
         )?;
         root.present().map_err(err)?;
     }

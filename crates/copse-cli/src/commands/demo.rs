@@ -8,6 +8,7 @@ use crate::commands::make_demo_data::write_demo_files;
 use crate::commands::{emit, make_folder, score, train};
 use crate::demo_data::{DEFAULT_SEED, ID, TARGET};
 use crate::error::{CliError, CliResult};
+use crate::numbers::pct;
 use crate::output::write_file;
 use crate::ui::Ui;
 use copse_forest::Sampling;
@@ -95,7 +96,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         "\nHIGHEST ESTIMATED CHANCE OF FAILURE IN THE SCORED BATCH"
     );
     for (id, p) in top_segments(&scored_path, 5)? {
-        let _ = writeln!(tail, "  {id:<12} {:>5.1}%", 100.0 * p);
+        let _ = writeln!(tail, "  {id:<12} {:>6}", pct(p));
     }
     let _ = writeln!(
         tail,

@@ -6,17 +6,18 @@ use crate::commands::{
 };
 use crate::error::{forest_error, CliError, CliResult};
 use crate::memory;
+use crate::numbers::{binary_bytes, compact};
 use crate::output::{write_file, Output};
-use crate::report::{self, bytes_words, Style};
+use crate::plots;
+use crate::report::ranking::shown_mirror;
+use crate::report::train::{TrainFacts, TrainView};
+use crate::report::{self, Style};
 use crate::ui::{Bar, Ui};
-use crate::{json, plots};
 use copse_data::TrainingTable as TrainingData;
 use copse_forest::{
     response_permutation_test, FeaturesPerSplit, Forest, ForestSettings, PermutationSignificance,
     Progress, Sampling, Significance, Stage, Task, TrainOptions, Trained,
 };
-use serde_json::{json, Map, Value};
-use std::fmt::Write as _;
 use std::io::Write as _;
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicU8, Ordering};
@@ -26,8 +27,8 @@ use std::time::Instant;
 pub struct TrainRun {
     /// The printed report.
     pub text: String,
-    /// The JSON report.
-    pub json: Map<String, Value>,
+    /// The JSON report, on one line.
+    pub json: String,
     /// Files written: (what, path).
     pub outputs: Vec<(String, PathBuf)>,
 }
@@ -42,7 +43,7 @@ pub fn run(a: &TrainArgs, ui: &Ui) -> CliResult<()> {
         ui.wrote(&format!("{what}: {}", path.display()));
     }
     if a.json {
-        json::print(r.json)
+        emit(&format!("{}\n", r.json))
     } else {
         emit(&r.text)
     }
@@ -146,58 +147,24 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         }
     }
     let total_secs = started.elapsed().as_secs_f64();
-    let threads = rayon::current_num_threads();
 
-    let st = Style::new(ui.stdout_colour());
-    let mut text = String::new();
-    let _ = writeln!(text, "copse training report\n");
-    report::data_section(&mut text, st, &model);
-    report::settings_section(&mut text, st, &model, Some(threads));
-    report::oob_section(&mut text, st, &model);
-    if let Some(advice) = report::rare_class_advice(&model) {
-        let _ = writeln!(text, "{advice}\n");
-    }
-    report::importance_section_with(&mut text, st, &model, shuffle_error);
-    let _ = writeln!(text, "{}", st.head("OUTPUTS"));
-    for (what, path) in &outputs {
-        let size = if what == "model" {
-            format!(" ({}, {} nodes)", bytes_words(model_bytes), model.n_nodes())
-        } else {
-            String::new()
-        };
-        let _ = writeln!(text, "  {what:<24}{}{size}", path.display());
-    }
-    let _ = writeln!(
-        text,
-        "  {:<24}{:.2} s (training, out-of-bag check and importance {:.2} s)\n",
-        "time taken", total_secs, train_secs
+    let view = TrainView::new(
+        &model,
+        &TrainFacts {
+            shuffle: shuffle_error,
+            model_bytes,
+            outputs: &outputs,
+            threads: rayon::current_num_threads(),
+            seconds: total_secs,
+            training_seconds: train_secs,
+            notes: &data.notes,
+        },
     );
-    report::caution(&mut text, st);
-
-    let mut map = json::model_object("train", &model);
-    if let Some(imp) = model.oob_importance() {
-        json::put_p_values(&mut map, "importance", &imp.error, shuffle_error);
-    }
-    map.insert("oob_error_curve".into(), json!(model.oob().error_curve));
-    map.insert(
-        "model_file".into(),
-        json!({ "path": a.out.display().to_string(), "bytes": model_bytes, "nodes": model.n_nodes() }),
-    );
-    map.insert(
-        "outputs".into(),
-        Value::Array(
-            outputs
-                .iter()
-                .map(|(w, p)| json!({ "what": w, "path": p.display().to_string() }))
-                .collect(),
-        ),
-    );
-    map.insert("threads".into(), json!(threads));
-    map.insert("seconds".into(), json!(total_secs));
-    map.insert("notes".into(), json!(data.notes));
+    let text = view.text(Style::new(ui.stdout_colour()));
+    let json = report::json_text(&view)?;
     Ok(TrainRun {
         text,
-        json: map,
+        json,
         outputs,
     })
 }
@@ -227,8 +194,8 @@ fn check_memory(data: &TrainingData, settings: &ForestSettings, a: &TrainArgs) -
             request.rows,
             data.source,
             a.min_leaf,
-            memory::words(need),
-            memory::words(available as f64)
+            binary_bytes(need),
+            binary_bytes(available as f64)
         )));
     }
     Ok(())
@@ -284,33 +251,6 @@ fn grow(
     let result = data.train(settings, &options);
     bar.finish();
     result.map_err(|e| forest_error(&e, &format!("cannot train on {}", data.source)))
-}
-
-/// Formats a probability or value compactly: at most six decimals, no trailing zeros;
-/// values too large or too small for that (beyond 1e15, or below 1e-4 but not zero)
-/// in exponent form with seven significant digits, so none is printed as a long string
-/// of digits or rounded to 0.
-pub fn compact(v: f64) -> String {
-    if v.is_nan() {
-        return String::new();
-    }
-    let a = v.abs();
-    if a >= 1e15 || (a < 1e-4 && a > 0.0) {
-        let s = format!("{v:.6e}");
-        return match s.split_once('e') {
-            Some((m, e)) if m.contains('.') => {
-                format!("{}e{e}", m.trim_end_matches('0').trim_end_matches('.'))
-            }
-            _ => s,
-        };
-    }
-    let s = format!("{v:.6}");
-    let s = s.trim_end_matches('0').trim_end_matches('.');
-    if s == "-0" {
-        "0".to_string()
-    } else {
-        s.to_string()
-    }
 }
 
 /// Writes one line per training row: its file line, actual target, out-of-bag
@@ -382,10 +322,7 @@ pub fn write_plots(
 ) -> CliResult<Vec<(String, PathBuf)>> {
     let mut written = Vec::new();
     let f = model;
-    let measure = match model.task() {
-        Task::Classify => "misclassification rate",
-        Task::Regress => "mean squared error",
-    };
+    let measure = report::error_measure(model.task()).to_string();
     let sub = format!(
         "{} trees, target '{}', data {}",
         f.trees().len(),
@@ -394,7 +331,7 @@ pub fn write_plots(
     );
     let draw_err = |e: String| CliError::failure(format!("could not draw a chart: {e}"));
     if let Some(imp) = f.oob_importance() {
-        let mirror = report::shown_mirror(&imp.error);
+        let mirror = shown_mirror(&imp.error);
         let (p, about) = match (shuffle, &mirror) {
             (Some(s), _) => (
                 Some(s),
@@ -418,7 +355,7 @@ pub fn write_plots(
         written.push(("importance chart".to_string(), path));
     }
     if f.oob().error_curve.iter().any(Option::is_some) {
-        let svg = plots::oob_curve_svg(&f.oob().error_curve, measure, &sub).map_err(draw_err)?;
+        let svg = plots::oob_curve_svg(&f.oob().error_curve, &measure, &sub).map_err(draw_err)?;
         let path = dir.join("oob_error.svg");
         write_file(&path, svg.as_bytes())?;
         written.push(("out-of-bag error chart".to_string(), path));

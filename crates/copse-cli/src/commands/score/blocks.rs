@@ -1,0 +1,255 @@
+//! Input rows in blocks: reading and encoding them into a block, and passing full
+//! blocks in order to the scorer, with the next block read ahead on a second thread
+//! while the current one is scored.
+use crate::error::{CliError, CliResult};
+use copse_data::{CsvInput, Row, RowEncoder};
+
+/// A block of input rows: their records (for the kept columns), their encoded input
+/// values (row-major), which of them cannot be scored, how many it holds, and the
+/// bytes of input read by the time it was filled (for progress).
+pub(super) struct Block {
+    pub(super) records: Vec<csv::StringRecord>,
+    pub(super) x: Vec<f64>,
+    pub(super) blank: Vec<bool>,
+    pub(super) m: usize,
+    pub(super) bytes: u64,
+}
+
+impl Block {
+    pub(super) fn new(rows: usize, p: usize) -> Self {
+        Self {
+            records: (0..rows).map(|_| csv::StringRecord::new()).collect(),
+            x: vec![0.0; rows * p],
+            blank: vec![false; rows],
+            m: 0,
+            bytes: 0,
+        }
+    }
+}
+
+/// Reads and encodes rows into blocks.
+pub(super) struct BlockReader<'a> {
+    pub(super) input: &'a mut CsvInput,
+    pub(super) enc: &'a mut RowEncoder,
+    pub(super) skipped: &'a mut Unscorable,
+    pub(super) blank_unscorable: bool,
+    pub(super) p: usize,
+}
+
+impl BlockReader<'_> {
+    /// Fills `b` with the next rows, as many as it holds unless the input ends first.
+    ///
+    /// # Errors
+    /// A row that cannot be read or encoded, unless `--blank-unscorable` keeps it as a
+    /// blank row.
+    pub(super) fn fill(&mut self, b: &mut Block) -> CliResult<()> {
+        let p = self.p;
+        b.m = 0;
+        while b.m < b.blank.len() {
+            let m = b.m;
+            let record = &mut b.records[m];
+            let x = &mut b.x[m * p..(m + 1) * p];
+            let fault = match self.input.read_row(record)? {
+                Row::End => break,
+                Row::Record => match self.enc.encode(record, x) {
+                    Ok(()) => None,
+                    Err(e) => Some((record.position().map_or(0, |p| p.line()), e)),
+                },
+                Row::Fault(line, e) => {
+                    // The fields of a malformed row may be shifted: keep none of them.
+                    record.clear();
+                    Some((line, e))
+                }
+            };
+            b.blank[m] = fault.is_some();
+            if let Some((line, e)) = fault {
+                if !self.blank_unscorable {
+                    return Err(CliError::input(format!(
+                        "{}; or add --blank-unscorable to write such rows with an empty prediction \
+                         (they are counted on standard error)",
+                        e.message()
+                    )));
+                }
+                x.fill(f64::NAN);
+                self.skipped.add(line, e);
+            }
+            b.m += 1;
+        }
+        b.bytes = self.input.bytes_read();
+        Ok(())
+    }
+}
+
+/// Passes blocks filled by `fill` (each like `first`, whose row count is the block
+/// size), in order, to `emit`, which scores and writes them; a block with fewer rows
+/// than the size is the last. With `ahead`, a second thread fills the next block while
+/// `emit` works on the current one (two blocks circulate), so the serial reading hides
+/// behind the parallel scoring; without it (one thread), blocks are filled in turn. An
+/// error from `fill` reaches the caller after every block before it was emitted, as
+/// when filling in turn; an error from `emit` stops the filling.
+pub(super) fn each_block(
+    fill: &mut (dyn FnMut(&mut Block) -> CliResult<()> + Send),
+    first: Block,
+    ahead: bool,
+    emit: &mut dyn FnMut(&Block) -> CliResult<()>,
+) -> CliResult<()> {
+    let size = first.blank.len();
+    if !ahead {
+        let mut b = first;
+        loop {
+            fill(&mut b)?;
+            if b.m > 0 {
+                emit(&b)?;
+            }
+            if b.m < size {
+                return Ok(());
+            }
+        }
+    }
+    std::thread::scope(|s| {
+        let (full_tx, full_rx) = std::sync::mpsc::sync_channel::<CliResult<Block>>(1);
+        let (empty_tx, empty_rx) = std::sync::mpsc::channel::<Block>();
+        let second = Block::new(size, first.x.len() / size.max(1));
+        s.spawn(move || {
+            let mut spares = vec![second, first];
+            loop {
+                // A block handed back by the scorer, once both spares are in use; the
+                // scorer gone (it met an error) ends the filling.
+                let Some(mut b) = spares.pop().or_else(|| empty_rx.recv().ok()) else {
+                    return;
+                };
+                let filled = fill(&mut b);
+                let last = filled.is_err() || b.m < size;
+                if full_tx.send(filled.map(|()| b)).is_err() || last {
+                    return;
+                }
+            }
+        });
+        // Ends when the filler has sent its last block (or an error) and returned.
+        for filled in full_rx {
+            let b = filled?;
+            if b.m > 0 {
+                emit(&b)?;
+            }
+            // The filler may have finished already; then the block is not needed.
+            let _ = empty_tx.send(b);
+        }
+        Ok(())
+    })
+}
+
+/// Rows written with an empty prediction: how many, the first few lines, and the first
+/// reason in full.
+#[derive(Default)]
+pub(super) struct Unscorable {
+    pub(super) count: u64,
+    lines: Vec<u64>,
+    first: Option<String>,
+}
+
+impl Unscorable {
+    const SHOWN: usize = 10;
+
+    fn add(&mut self, line: u64, e: copse_data::Error) {
+        self.count += 1;
+        if self.lines.len() < Self::SHOWN {
+            self.lines.push(line);
+        }
+        if self.first.is_none() {
+            self.first = Some(e.message().to_string());
+        }
+    }
+
+    pub(super) fn warning(&self, source: &str, rows: u64) -> String {
+        let mut lines: Vec<String> = self.lines.iter().map(u64::to_string).collect();
+        if self.count > self.lines.len() as u64 {
+            lines.push(format!("and {} more", self.count - self.lines.len() as u64));
+        }
+        format!(
+            "{} of {rows} rows of {source} could not be scored and were written with an empty \
+             prediction (lines {}); the first: {}",
+            self.count,
+            lines.join(", "),
+            self.first.as_deref().unwrap_or("")
+        )
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A filler of `rows` rows in blocks, row `r` holding the value `r`; with `fault`,
+    /// filling the block that holds that row fails.
+    fn numbered(
+        rows: usize,
+        fault: Option<usize>,
+    ) -> impl FnMut(&mut Block) -> CliResult<()> + Send {
+        let mut next = 0;
+        move |b: &mut Block| {
+            b.m = 0;
+            while b.m < b.blank.len() && next < rows {
+                if Some(next) == fault {
+                    return Err(CliError::input(format!("row {next} is bad")));
+                }
+                b.x[b.m] = next as f64;
+                b.m += 1;
+                next += 1;
+            }
+            Ok(())
+        }
+    }
+
+    /// The rows `emit` saw, in order, and the result.
+    fn run(
+        rows: usize,
+        size: usize,
+        ahead: bool,
+        fault: Option<usize>,
+        stop: Option<usize>,
+    ) -> (Vec<f64>, CliResult<()>) {
+        let mut seen = Vec::new();
+        let mut fill = numbered(rows, fault);
+        let result = each_block(&mut fill, Block::new(size, 1), ahead, &mut |b: &Block| {
+            if stop.is_some_and(|s| seen.len() >= s) {
+                return Err(CliError::failure("the output is full"));
+            }
+            seen.extend_from_slice(&b.x[..b.m]);
+            Ok(())
+        });
+        (seen, result)
+    }
+
+    #[test]
+    fn reading_ahead_emits_the_blocks_in_turn_order() {
+        for (rows, size) in [(0, 4), (3, 4), (4, 4), (9, 4), (1000, 7)] {
+            let (ahead, r) = run(rows, size, true, None, None);
+            assert!(r.is_ok());
+            let (turn, r) = run(rows, size, false, None, None);
+            assert!(r.is_ok());
+            let want: Vec<f64> = (0..rows).map(|r| r as f64).collect();
+            assert_eq!(ahead, want, "{rows} rows, blocks of {size}");
+            assert_eq!(turn, want, "{rows} rows, blocks of {size}");
+        }
+    }
+
+    #[test]
+    fn a_reading_error_comes_after_the_blocks_before_it() {
+        for ahead in [true, false] {
+            // Row 10 is in the third block of 4: the first two blocks are emitted.
+            let (seen, r) = run(100, 4, ahead, Some(10), None);
+            assert_eq!(seen, (0..8).map(f64::from).collect::<Vec<_>>());
+            let e = r.expect_err("the bad row stops scoring");
+            assert!(e.message().contains("row 10 is bad"), "{}", e.message());
+        }
+    }
+
+    #[test]
+    fn an_emit_error_stops_the_reading_without_waiting_forever() {
+        for ahead in [true, false] {
+            let (seen, r) = run(100_000, 4, ahead, None, Some(8));
+            assert_eq!(seen.len(), 8);
+            assert!(r.is_err());
+        }
+    }
+}

@@ -1,0 +1,273 @@
+//! `copse score`: stream rows through a model in blocks and write one output row per
+//! input row, in input order: the kept columns, `prediction`, and for classes one
+//! `prob_<class>` column per class; with `--uncertainty`, a standard error per output
+//! (`se_prediction`, or `se_<class>` per class probability) by the bias-corrected
+//! infinitesimal jackknife. Memory stays bounded by the block size (two blocks: one read
+//! ahead while the other is scored, when more than one thread runs) whatever the length
+//! of the input.
+mod blocks;
+mod rows;
+
+use crate::args::ScoreArgs;
+use crate::error::{CliError, CliResult};
+use crate::output::{refuse_overwrite, Output};
+use crate::ui::Ui;
+use blocks::{each_block, Block, BlockReader, Unscorable};
+use copse_data::{CsvInput, Missing, RowEncoder};
+use copse_forest::Forest;
+use rows::{csv_text, RowWriter};
+use std::io::Write;
+
+/// What a scoring run did.
+pub struct ScoreRun {
+    /// Rows scored (equal to rows read).
+    pub rows: u64,
+    /// Where the output went.
+    pub output: String,
+    /// Rows written with an empty prediction (`--blank-unscorable`).
+    pub unscorable: u64,
+}
+
+/// Runs `copse score`.
+///
+/// # Errors
+/// Input errors for a bad model, a missing column or a bad cell; failures when writing.
+pub fn run(a: &ScoreArgs, ui: &Ui) -> CliResult<()> {
+    let r = score(a, ui)?;
+    if r.output != "standard output" {
+        ui.wrote(&format!("{} scored rows: {}", r.rows, r.output));
+    }
+    Ok(())
+}
+
+/// Scores and writes; the caller reports.
+///
+/// # Errors
+/// As for [`run`].
+pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
+    let model = open_model(a)?;
+    let mut src = open_input(a, &model)?;
+    let keep = kept_columns(a, &src.input)?;
+    let header = output_header(a, model.classes())?;
+    let mut out = Output::create(a.out.as_deref())?;
+    let output = out.name().to_string();
+    let written = write_blocks(a, ui, &model, &mut src, &keep, &header, &mut out)?;
+    out.finish()?;
+    tell(a, ui, &model, &src, &written);
+    Ok(ScoreRun {
+        rows: written.rows,
+        output,
+        unscorable: written.skipped.count,
+    })
+}
+
+/// Checks the output path against the inputs and reads the model: with
+/// `--uncertainty`, it must hold its row draws.
+///
+/// # Errors
+/// Input errors for an output over an input, a bad model file or a model without draws.
+fn open_model(a: &ScoreArgs) -> CliResult<Forest> {
+    refuse_overwrite(&a.data, a.out.as_deref(), "output file")?;
+    if let Some(out) = &a.out {
+        if out != "-" && std::path::Path::new(out) == a.model.as_path() {
+            return Err(CliError::input(
+                "--out names the model file itself; choose another output path",
+            ));
+        }
+    }
+    let model = crate::commands::load_model(&a.model)?;
+    if a.uncertainty && model.draws().is_none() {
+        return Err(CliError::input(format!(
+            "{} holds no record of which rows each tree drew, which --uncertainty needs; \
+             retrain it with 'copse train ... --keep-draws'",
+            a.model.display()
+        )));
+    }
+    Ok(model)
+}
+
+/// The rows to score and their encoder into the model's inputs.
+struct Source {
+    input: CsvInput,
+    enc: RowEncoder,
+}
+
+/// Opens the rows to score, with missing tokens as given or else the model's.
+///
+/// # Errors
+/// Input errors for a file that cannot be read or lacks the model's columns.
+fn open_input(a: &ScoreArgs, model: &Forest) -> CliResult<Source> {
+    let input = CsvInput::open(&a.data, a.csv.delimiter.into())?;
+    let missing = a
+        .csv
+        .missing
+        .as_deref()
+        .map_or_else(|| Missing::of_model(model), Missing::from_list);
+    let enc = RowEncoder::new(&input, model, missing, false)?;
+    Ok(Source { input, enc })
+}
+
+/// The positions of the `--keep` columns in the input.
+///
+/// # Errors
+/// An input error naming a column the input does not have.
+fn kept_columns(a: &ScoreArgs, input: &CsvInput) -> CliResult<Vec<usize>> {
+    a.keep
+        .iter()
+        .map(|k| {
+            input.column(k).ok_or_else(|| {
+                CliError::input(format!(
+                    "--keep names the column '{k}', but {} has no such column; its columns are: {}",
+                    input.name(),
+                    input.headers().join(", ")
+                ))
+            })
+        })
+        .collect()
+}
+
+/// The output's column names: the kept columns, `prediction`, a `prob_<class>` per
+/// class, and with `--uncertainty` the standard errors.
+///
+/// # Errors
+/// An input error when two columns would have the same name.
+fn output_header(a: &ScoreArgs, classes: &[String]) -> CliResult<Vec<String>> {
+    let mut header: Vec<String> = a.keep.clone();
+    header.push("prediction".to_string());
+    header.extend(classes.iter().map(|c| format!("prob_{c}")));
+    if a.uncertainty {
+        if classes.is_empty() {
+            header.push("se_prediction".to_string());
+        } else {
+            header.extend(classes.iter().map(|c| format!("se_{c}")));
+        }
+    }
+    for (i, h) in header.iter().enumerate() {
+        if header[..i].contains(h) {
+            return Err(CliError::input(format!(
+                "the output would have two columns named '{h}'; drop '{h}' from --keep"
+            )));
+        }
+    }
+    Ok(header)
+}
+
+/// What writing the rows did.
+struct Written {
+    /// Rows written, one per row read.
+    rows: u64,
+    /// Standard errors that could not be estimated.
+    clamped: usize,
+    /// Rows written with an empty prediction.
+    skipped: Unscorable,
+}
+
+/// Reads, scores and writes every row in blocks, the header first.
+///
+/// # Errors
+/// A row that cannot be read or encoded (unless `--blank-unscorable`), or a write
+/// failure.
+fn write_blocks(
+    a: &ScoreArgs,
+    ui: &Ui,
+    forest: &Forest,
+    src: &mut Source,
+    keep: &[usize],
+    header: &[String],
+    out: &mut Output,
+) -> CliResult<Written> {
+    let out_name = out.name().to_string();
+    let delimiter = copse_data::Delimiter::from(a.csv.delimiter).byte();
+    let header_text = csv_text(delimiter, 256, |w| w.write_record(header))?;
+    // The header goes out with the first block, so a fault in the first rows leaves
+    // standard output empty.
+    let mut header_written = false;
+    let block = a
+        .block_rows
+        .map_or_else(|| forest.scoring_block_rows(), |b| b as usize);
+    let p = forest.n_features();
+    let source = src.input.name().to_string();
+    let writer = RowWriter {
+        forest,
+        source: &source,
+        keep,
+        uncertainty: a.uncertainty,
+        delimiter,
+    };
+    let mut written = Written {
+        rows: 0,
+        clamped: 0,
+        skipped: Unscorable::default(),
+    };
+    let bar = ui.bytes_bar(src.input.size(), "scoring");
+    let mut reader = BlockReader {
+        input: &mut src.input,
+        enc: &mut src.enc,
+        skipped: &mut written.skipped,
+        blank_unscorable: a.blank_unscorable,
+        p,
+    };
+    let (mut rows, mut clamped) = (0u64, 0usize);
+    let put = |out: &mut Output, text: &[u8]| {
+        out.write_all(text)
+            .map_err(|e| CliError::write(&out_name, &e))
+    };
+    let mut emit = |b: &Block| -> CliResult<()> {
+        let (texts, c) = writer.block_text(b)?;
+        clamped += c;
+        if !header_written {
+            put(out, &header_text)?;
+            header_written = true;
+        }
+        for text in texts {
+            put(out, &text?)?;
+        }
+        rows += b.m as u64;
+        bar.advance_to(b.bytes as usize);
+        Ok(())
+    };
+    each_block(
+        &mut |b: &mut Block| reader.fill(b),
+        Block::new(block, p),
+        rayon::current_num_threads() > 1,
+        &mut emit,
+    )?;
+    bar.finish();
+    if !header_written {
+        put(out, &header_text)?;
+    }
+    written.rows = rows;
+    written.clamped = clamped;
+    Ok(written)
+}
+
+/// Tells on standard error about unseen categories, unscorable rows and, with
+/// `--uncertainty`, what the standard errors mean and how many are unknown.
+fn tell(a: &ScoreArgs, ui: &Ui, forest: &Forest, src: &Source, written: &Written) {
+    if let Some(warning) = src.enc.unseen_warning() {
+        ui.warn(&warning);
+    }
+    if written.skipped.count > 0 {
+        ui.warn(&written.skipped.warning(src.input.name(), written.rows));
+    }
+    if a.uncertainty {
+        ui.note(
+            "standard errors: how much each prediction would move if the model were trained \
+             on another sample of the same size from the same source (bias-corrected \
+             infinitesimal jackknife, Wager, Hastie & Efron 2014); they do not describe the \
+             spread of the outcome itself",
+        );
+        if written.clamped > 0 {
+            ui.note(&format!(
+                "{} standard error(s) could not be estimated and are left empty: the \
+                 bias correction exceeded the raw estimate, which happens when the trees are \
+                 few compared with the training rows ({} trees for {} rows here); more trees \
+                 leave fewer unknown (in our checks, ten times as many trees as rows left \
+                 almost none)",
+                written.clamped,
+                forest.trees().len(),
+                forest.draws().map_or(0, copse_forest::Draws::population)
+            ));
+        }
+    }
+}

@@ -1,0 +1,124 @@
+//! The output rows of a block: the block's predictions (and standard errors) from the
+//! model, written as CSV text in parallel pieces that go out in order.
+use super::blocks::Block;
+use crate::error::{forest_error, CliError, CliResult};
+use crate::numbers::compact;
+use copse_forest::Forest;
+use ndarray::ArrayView2;
+use rayon::prelude::*;
+
+/// Output rows whose text one task makes (the text of a block is made in parallel).
+const TEXT_ROWS: usize = 2048;
+
+/// What each output row holds, and how it is written.
+pub(super) struct RowWriter<'a> {
+    /// The model.
+    pub(super) forest: &'a Forest,
+    /// The input's name, for messages.
+    pub(super) source: &'a str,
+    /// The input columns kept, by position.
+    pub(super) keep: &'a [usize],
+    /// Whether standard errors are written.
+    pub(super) uncertainty: bool,
+    /// The CSV delimiter.
+    pub(super) delimiter: u8,
+}
+
+impl RowWriter<'_> {
+    /// Scores the rows of `b` and makes their text, in pieces to write in order;
+    /// returns the pieces and the number of standard errors that could not be
+    /// estimated.
+    ///
+    /// # Errors
+    /// A model that cannot score the rows (an internal fault).
+    pub(super) fn block_text(&self, b: &Block) -> CliResult<(Vec<CliResult<Vec<u8>>>, usize)> {
+        let forest = self.forest;
+        let classes = forest.classes();
+        let m = b.m;
+        let p = forest.n_features();
+        let x = ArrayView2::from_shape((m, p), &b.x[..m * p])
+            .map_err(|e| CliError::failure(format!("internal: {e}")))?;
+        let fail =
+            |e: copse_forest::Error| forest_error(&e, &format!("cannot score {}", self.source));
+        let mut clamped = 0;
+        let (preds, se) = if self.uncertainty {
+            let u = forest.prediction_uncertainty(x).map_err(fail)?;
+            clamped = u.clamped;
+            // A standard error the engine could not estimate stays an empty cell.
+            let se = u.std_errors().mapv(|s| s.unwrap_or(f64::NAN));
+            (u.predictions, Some(se))
+        } else {
+            (forest.predict(x).map_err(fail)?, None)
+        };
+        // Prediction columns per row: the prediction, plus one probability per class.
+        let out_fields = if classes.is_empty() {
+            1
+        } else {
+            classes.len() + 1
+        };
+        let texts = (0..m.div_ceil(TEXT_ROWS))
+            .into_par_iter()
+            .map(|c| {
+                let part = c * TEXT_ROWS..((c + 1) * TEXT_ROWS).min(m);
+                csv_text(self.delimiter, part.len() * 64, |w| {
+                    let mut fields = csv::StringRecord::new();
+                    let mut probs: Vec<f64> = Vec::with_capacity(classes.len());
+                    for i in part {
+                        fields.clear();
+                        for &c in self.keep {
+                            fields.push_field(b.records[i].get(c).unwrap_or(""));
+                        }
+                        if b.blank[i] {
+                            // An empty prediction and empty probabilities: the row is
+                            // kept in its place, never dropped.
+                            for _ in 0..out_fields {
+                                fields.push_field("");
+                            }
+                        } else if classes.is_empty() {
+                            fields.push_field(&compact(preds[[i, 0]]));
+                        } else {
+                            probs.clear();
+                            probs.extend(preds.row(i).iter());
+                            fields.push_field(forest.class_label(&probs).unwrap_or(""));
+                            for &v in &probs {
+                                fields.push_field(&compact(v));
+                            }
+                        }
+                        if let Some(se) = &se {
+                            for &v in se.row(i) {
+                                // An unscorable row gets no standard error either.
+                                let cell = if b.blank[i] {
+                                    String::new()
+                                } else {
+                                    compact(v)
+                                };
+                                fields.push_field(&cell);
+                            }
+                        }
+                        w.write_record(&fields)?;
+                    }
+                    Ok(())
+                })
+            })
+            .collect();
+        Ok((texts, clamped))
+    }
+}
+
+/// The CSV text of what `write` puts out, with `delimiter` and quoting as needed.
+///
+/// # Errors
+/// None in practice (the text goes to memory); a failure of the CSV writer is reported
+/// as an internal fault.
+pub(super) fn csv_text(
+    delimiter: u8,
+    capacity: usize,
+    write: impl FnOnce(&mut csv::Writer<Vec<u8>>) -> csv::Result<()>,
+) -> CliResult<Vec<u8>> {
+    let mut w = csv::WriterBuilder::new()
+        .delimiter(delimiter)
+        .from_writer(Vec::with_capacity(capacity));
+    write(&mut w).map_err(|e| CliError::failure(format!("internal: {e}")))?;
+    w.into_inner()
+        .map_err(|e| CliError::failure(format!("internal: {}", e.error())))
+}

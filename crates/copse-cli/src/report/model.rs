@@ -1,0 +1,206 @@
+//! The model summary every report about a model shares: task, target, classes, trees,
+//! inputs, settings, training data and the out-of-bag check. As JSON these are the
+//! common keys of `train`, `evaluate`, `importance` and `inspect`.
+use super::measures::MeasuresView;
+use super::CAUTION;
+use copse_forest::{FeatureKind, Forest, Task};
+use serde::Serialize;
+
+/// The model summary.
+#[derive(Debug, Serialize)]
+pub struct ModelView<'a> {
+    /// The command that made the report.
+    pub command: &'static str,
+    /// The copse that made the report.
+    pub copse_version: &'static str,
+    /// `classify` or `regress`.
+    pub task: &'static str,
+    /// The target column.
+    pub target: &'a str,
+    /// The classes, in the model's order (empty for numbers).
+    pub classes: &'a [String],
+    /// Trees in the model.
+    pub trees: usize,
+    /// Each input: its kind, and its categories or bins.
+    pub inputs: Vec<InputView<'a>>,
+    /// How the model was trained.
+    pub settings: SettingsView,
+    /// The training data.
+    pub data: DataView<'a>,
+    /// The out-of-bag check.
+    pub oob: OobView<'a>,
+    /// The caution under every report.
+    pub caution: &'static str,
+}
+
+impl<'a> ModelView<'a> {
+    /// The summary of `model` in the report of `command`.
+    pub fn new(command: &'static str, model: &'a Forest) -> Self {
+        let card = model.card();
+        ModelView {
+            command,
+            copse_version: env!("CARGO_PKG_VERSION"),
+            task: model.task().name(),
+            target: &card.target,
+            classes: model.classes(),
+            trees: model.trees().len(),
+            inputs: InputView::all(model),
+            settings: SettingsView::new(model),
+            data: DataView::new(model),
+            oob: OobView::new(model),
+            caution: CAUTION,
+        }
+    }
+}
+
+/// One input of the model: `categories` for a categorical input; `bins`, and when it
+/// has any, `min`, `max` and `bin_edges` for a numeric one.
+#[derive(Debug, Serialize)]
+pub struct InputView<'a> {
+    name: &'a str,
+    kind: &'static str,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    categories: Option<&'a [String]>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    bins: Option<usize>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    min: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    max: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    bin_edges: Option<Vec<f64>>,
+}
+
+impl<'a> InputView<'a> {
+    fn all(model: &'a Forest) -> Vec<Self> {
+        model
+            .meta()
+            .iter()
+            .enumerate()
+            .map(|(j, m)| {
+                let blank = InputView {
+                    name: &m.name,
+                    kind: "numeric",
+                    categories: None,
+                    bins: None,
+                    min: None,
+                    max: None,
+                    bin_edges: None,
+                };
+                match (&m.kind, model.bins().get(j)) {
+                    (FeatureKind::Categorical { levels }, _) => InputView {
+                        kind: "categorical",
+                        categories: Some(levels),
+                        ..blank
+                    },
+                    (_, Some(b)) if b.n_bins > 0 => InputView {
+                        bins: Some(b.n_bins),
+                        min: Some(b.lo[0]),
+                        max: Some(b.hi[b.n_bins - 1]),
+                        bin_edges: Some(
+                            (1..b.n_bins)
+                                .map(|k| b.threshold_between(k, k + 1))
+                                .collect(),
+                        ),
+                        ..blank
+                    },
+                    _ => InputView {
+                        bins: Some(0),
+                        ..blank
+                    },
+                }
+            })
+            .collect()
+    }
+}
+
+/// How the model was trained.
+#[derive(Debug, Serialize)]
+pub struct SettingsView {
+    trees: usize,
+    features_per_split: usize,
+    features_per_split_rule: String,
+    sampling: String,
+    balanced: bool,
+    impurity: String,
+    max_depth: Option<usize>,
+    min_leaf: f64,
+    bins: usize,
+    seed: u64,
+    keep_draws: bool,
+}
+
+impl SettingsView {
+    fn new(model: &Forest) -> Self {
+        let s = model.settings();
+        SettingsView {
+            trees: s.trees,
+            features_per_split: model.features_per_split(),
+            features_per_split_rule: model.card().features_rule.clone(),
+            sampling: s.sampling.to_string(),
+            balanced: s.balanced,
+            impurity: impurity_name(model),
+            max_depth: s.tree.max_depth,
+            min_leaf: s.tree.min_leaf,
+            bins: s.bins,
+            seed: s.seed,
+            keep_draws: model.draws().is_some(),
+        }
+    }
+}
+
+/// The split measure's name: the class impurity (`gini`, `entropy`) or `variance`.
+pub fn impurity_name(model: &Forest) -> String {
+    match model.task() {
+        // The tree crate gives its impurities no names of their own; the variant's is
+        // the one the command line takes.
+        Task::Classify => format!("{:?}", model.settings().tree.impurity).to_lowercase(),
+        Task::Regress => "variance".to_string(),
+    }
+}
+
+/// The training data as read.
+#[derive(Debug, Serialize)]
+pub struct DataView<'a> {
+    source: &'a str,
+    rows_read: usize,
+    rows_without_target: usize,
+    ignored: &'a [String],
+    class_counts: &'a [u64],
+    missing_tokens: &'a [String],
+}
+
+impl<'a> DataView<'a> {
+    fn new(model: &'a Forest) -> Self {
+        let t = model.card();
+        DataView {
+            source: &t.source,
+            rows_read: t.rows_read,
+            rows_without_target: t.rows_without_outcome,
+            ignored: &t.ignored,
+            class_counts: &t.class_counts,
+            missing_tokens: &t.missing_tokens,
+        }
+    }
+}
+
+/// The out-of-bag check: its measures (`error` null when no row was out of bag) and
+/// the rows it could not judge.
+#[derive(Debug, Serialize)]
+pub struct OobView<'a> {
+    #[serde(flatten)]
+    measures: MeasuresView<'a>,
+    rows_never_out_of_bag: usize,
+    rows_without_target: usize,
+}
+
+impl<'a> OobView<'a> {
+    fn new(model: &'a Forest) -> Self {
+        let o = model.oob();
+        OobView {
+            measures: MeasuresView::new(o.metrics.as_ref()),
+            rows_never_out_of_bag: o.rows_never_oob,
+            rows_without_target: o.rows_missing_outcome,
+        }
+    }
+}

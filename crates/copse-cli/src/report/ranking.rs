@@ -1,0 +1,353 @@
+//! Importance rankings: as a view (a ranked list of `{feature, mean, std_error, rank}`
+//! with, when tested, each input's p-values, what the list measures and the tests run)
+//! and as the printed table with a bar per input and the notes on its p-values.
+use super::{paragraph, Style};
+use crate::numbers::{column_decimals, p_value, signed};
+use copse_forest::{
+    mirrored_null_test, Forest, Importance, PermutationImportance, Significance, SignificanceTest,
+    MIRROR_MIN_NULL,
+};
+use serde::Serialize;
+use std::fmt::Write;
+
+/// One input in a ranking.
+#[derive(Debug, Serialize)]
+pub struct RankView<'a> {
+    feature: &'a str,
+    mean: f64,
+    std_error: Option<f64>,
+    rank: usize,
+    /// The input's p-values, when the ranking was tested.
+    #[serde(flatten)]
+    p: Option<PValues>,
+}
+
+/// The p-values of one input: `p_mirror` from the mirrored-null test (null when it has
+/// no null sample), and `p_shuffle` from the shuffled-target test when one was run.
+#[derive(Debug, Serialize)]
+struct PValues {
+    p_mirror: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    p_shuffle: Option<Option<f64>>,
+}
+
+/// The ranking of `imp`, most important first, without p-values.
+pub fn ranking(imp: &Importance) -> Vec<RankView<'_>> {
+    imp.ranked()
+        .into_iter()
+        .map(|f| RankView {
+            feature: &f.name,
+            mean: f.mean,
+            std_error: f.std_error,
+            rank: f.rank,
+            p: None,
+        })
+        .collect()
+}
+
+/// The ranking of `imp` with each input's p-values from `mirror` (the mirrored-null
+/// test of `imp`, if it has a null sample) and `shuffle` (if run).
+fn tested_ranking<'a>(
+    imp: &'a Importance,
+    mirror: Option<&Significance>,
+    shuffle: Option<&Significance>,
+) -> Vec<RankView<'a>> {
+    let mut list = ranking(imp);
+    for (view, f) in list.iter_mut().zip(imp.ranked()) {
+        let j = f.feature;
+        view.p = Some(PValues {
+            p_mirror: mirror.and_then(|m| m.p_values.get(j).copied()),
+            p_shuffle: shuffle.map(|s| s.p_values.get(j).copied()),
+        });
+    }
+    list
+}
+
+/// What a ranking measures.
+#[derive(Debug, Serialize)]
+pub struct AboutView {
+    method: String,
+    measure: &'static str,
+    replicates: usize,
+}
+
+/// A test of a ranking: its null size and the smallest p-value it can give (null when
+/// it has no null sample).
+#[derive(Debug, Serialize)]
+pub struct TestView {
+    test: String,
+    measure: &'static str,
+    null_size: usize,
+    smallest_p: Option<f64>,
+}
+
+impl TestView {
+    fn new(s: &Significance) -> Self {
+        TestView {
+            test: s.test.to_string(),
+            measure: s.measure.key(),
+            null_size: s.null_size,
+            smallest_p: Some(1.0 / (1.0 + s.null_size as f64)),
+        }
+    }
+}
+
+/// A permutation importance with its tests: as JSON the keys `importance` (the tested
+/// ranking, empty when there is none), `importance_about` (null when there is none),
+/// `importance_brier` (classes) and `importance_tests`.
+#[derive(Debug, Serialize)]
+pub struct ImportanceView<'a> {
+    /// The ranking by the rise in error, with p-values.
+    pub importance: Vec<RankView<'a>>,
+    /// What the ranking measures.
+    pub importance_about: Option<AboutView>,
+    /// The ranking by the rise in Brier score (classes).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub importance_brier: Option<Vec<RankView<'a>>>,
+    /// The tests behind the p-values: the mirrored-null test, and the shuffled-target
+    /// test when run.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub importance_tests: Option<Vec<TestView>>,
+}
+
+impl<'a> ImportanceView<'a> {
+    /// The view of `imp`, if any, with the p-values of `shuffle` when given.
+    pub fn new(imp: Option<&'a PermutationImportance>, shuffle: Option<&Significance>) -> Self {
+        let Some(p) = imp else {
+            return ImportanceView {
+                importance: Vec::new(),
+                importance_about: None,
+                importance_brier: None,
+                importance_tests: None,
+            };
+        };
+        let mirror = mirrored_null_test(&p.error);
+        let mirror_test = match &mirror {
+            Some(m) => TestView::new(m),
+            None => TestView {
+                test: SignificanceTest::MirroredNull.to_string(),
+                measure: p.error.measure.key(),
+                null_size: 0,
+                smallest_p: None,
+            },
+        };
+        ImportanceView {
+            importance: tested_ranking(&p.error, mirror.as_ref(), shuffle),
+            importance_about: Some(AboutView {
+                method: p.error.method.to_string(),
+                measure: p.error.measure.key(),
+                replicates: p.error.replicates,
+            }),
+            importance_brier: p.brier.as_ref().map(ranking),
+            importance_tests: Some(
+                std::iter::once(mirror_test)
+                    .chain(shuffle.map(TestView::new))
+                    .collect(),
+            ),
+        }
+    }
+}
+
+/// Column heading of a test's p-values.
+pub fn p_head(test: SignificanceTest) -> &'static str {
+    match test {
+        SignificanceTest::MirroredNull => "p mirror",
+        SignificanceTest::ResponsePermutation => "p shuffle",
+    }
+}
+
+/// The importance ranking: one line per input with its mean rise, standard error, a
+/// bar, and with `show_brier` (for classes) the rise in Brier score beside it. Per-tree
+/// out-of-bag importance leaves the Brier column out: a fully grown tree's leaves are
+/// pure, so its Brier rise is exactly twice its error rise and adds nothing. One
+/// p-value column follows per test in `p` (p-values in input order).
+pub fn importance_table(
+    out: &mut String,
+    imp: &PermutationImportance,
+    show_brier: bool,
+    p: &[&Significance],
+) {
+    let brier = if show_brier { imp.brier.as_ref() } else { None };
+    let err = &imp.error;
+    let ranked = err.ranked();
+    let w = ranked
+        .iter()
+        .map(|f| f.name.len())
+        .max()
+        .unwrap_or(5)
+        .max(5);
+    let top = ranked.iter().map(|f| f.mean).fold(0.0f64, f64::max);
+    let brier_of = |j: usize| brier.and_then(|b| b.features.get(j)).map(|b| b.mean);
+    // One number of decimals for the whole column: four significant digits of the top.
+    let d_err = column_decimals(top);
+    let top_brier = imp.brier.as_ref().map_or(0.0, |b| {
+        b.features.iter().map(|f| f.mean).fold(0.0f64, f64::max)
+    });
+    let d_brier = column_decimals(top_brier);
+    let mut head = format!(
+        "  {:>3}  {:<w$}  {:>11}  {:>9}",
+        "#", "input", "rise", "± s.e."
+    );
+    if brier.is_some() {
+        let _ = write!(head, "  {:>11}", "Brier rise");
+    }
+    for sig in p {
+        let _ = write!(head, "  {:>9}", p_head(sig.test));
+    }
+    let _ = writeln!(out, "{head}");
+    for f in ranked {
+        let se = f
+            .std_error
+            .map_or("-".to_string(), |s| format!("{s:.d_err$}"));
+        let mut row = format!(
+            "  {:>3}  {:<w$}  {:>11}  {:>9}",
+            f.rank,
+            f.name,
+            signed(f.mean, d_err),
+            se
+        );
+        if let Some(b) = brier_of(f.feature) {
+            let _ = write!(row, "  {:>11}", signed(b, d_brier));
+        }
+        for sig in p {
+            let v = sig
+                .p_values
+                .get(f.feature)
+                .map_or("-".to_string(), |&v| p_value(v));
+            let _ = write!(row, "  {v:>9}");
+        }
+        let bar = if top > 0.0 && f.mean > 0.0 {
+            "█".repeat(((f.mean / top) * 24.0).round() as usize)
+        } else {
+            String::new()
+        };
+        let _ = writeln!(out, "{row}  {bar}");
+    }
+}
+
+/// Explains what an importance table measures.
+pub fn importance_intro(imp: &Importance, held_out: bool) -> String {
+    let what = imp.measure.to_string();
+    let text = if held_out {
+        format!(
+            "Rise in the model's {what} on these rows when one input's values are shuffled \
+             (mean of {} shuffles ± standard error). Near zero or below: no detectable effect.",
+            imp.replicates
+        )
+    } else {
+        format!(
+            "Rise in out-of-bag {what} when one input's values are shuffled among a tree's \
+             out-of-bag rows (mean over {} trees ± standard error). Near zero or below: no \
+             detectable effect.",
+            imp.replicates
+        )
+    };
+    super::wrap(&text, super::WIDTH)
+        .iter()
+        .map(|l| format!("  {l}"))
+        .collect::<Vec<_>>()
+        .join("\n")
+}
+
+/// The mirrored-null test of an importance, when its null sample is large enough to
+/// show ([`MIRROR_MIN_NULL`]).
+pub fn shown_mirror(imp: &Importance) -> Option<Significance> {
+    mirrored_null_test(imp).filter(Significance::reportable)
+}
+
+/// The importance table with its p-value columns and, under it, what each p-value
+/// means: the mirrored-null test when the importances allow it, and the shuffled-target
+/// test when given. `hint` says how to get p-values when the mirrored test cannot give
+/// them.
+pub fn importance_with_tests(
+    out: &mut String,
+    imp: &PermutationImportance,
+    show_brier: bool,
+    shuffle: Option<&Significance>,
+    hint: &str,
+) {
+    let mirror = mirrored_null_test(&imp.error);
+    let mirror_shown = mirror.as_ref().filter(|s| s.reportable());
+    let cols: Vec<&Significance> = mirror_shown.into_iter().chain(shuffle).collect();
+    importance_table(out, imp, show_brier, &cols);
+    let mut notes = Vec::new();
+    match (&mirror, mirror_shown) {
+        (Some(m), Some(_)) => notes.push(format!(
+            "p mirror: the rises at or below zero and their mirror images stand in for inputs \
+             that do not matter ({} values, so the smallest possible p is {}); p is the share \
+             of them at least as large as the input's rise (mirrored-null test, Janitza, Celik \
+             & Boulesteix 2018). It assumes most inputs do not matter.",
+            m.null_size,
+            p_value(1.0 / (1.0 + m.null_size as f64))
+        )),
+        _ => notes.push(format!(
+            "No mirrored-null p-values: the rises at or below zero (and their mirror images) \
+             give only {} null values, and the test needs at least {MIRROR_MIN_NULL}, that is \
+             many inputs that do not matter{}",
+            mirror.as_ref().map_or(0, |m| m.null_size),
+            if shuffle.is_some() {
+                ".".to_string()
+            } else {
+                format!("; {hint}")
+            }
+        )),
+    }
+    if let Some(s) = shuffle {
+        notes.push(format!(
+            "p shuffle: the target was shuffled {} times and a forest trained on each; p is \
+             the share of those forests, counting the real one, that give the input at least \
+             this rise (Altmann, Tolosi, Sander & Lengauer 2010); smallest possible p {}.",
+            s.null_size,
+            p_value(1.0 / (1.0 + s.null_size as f64))
+        ));
+    }
+    for n in notes {
+        let _ = writeln!(out);
+        paragraph(out, &n);
+    }
+}
+
+/// The out-of-bag importance section of a model, with the p-values of a
+/// shuffled-target test if one was run.
+pub fn importance_section(
+    out: &mut String,
+    st: Style,
+    model: &Forest,
+    shuffle: Option<&Significance>,
+) {
+    let _ = writeln!(out, "{}", st.head("WHICH INPUTS MATTER"));
+    match model.oob_importance() {
+        Some(imp) => {
+            let _ = writeln!(out, "{}", importance_intro(&imp.error, false));
+            let _ = writeln!(out);
+            importance_with_tests(
+                out,
+                imp,
+                false,
+                shuffle,
+                "train with --null-permutations 199 for p-values from a shuffled target.",
+            );
+        }
+        None => {
+            let _ = writeln!(
+                out,
+                "  not available: no tree had out-of-bag rows; run 'copse importance' on held-out data"
+            );
+        }
+    }
+    let _ = writeln!(out);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_model_without_out_of_bag_importance_gives_an_empty_list_and_no_tests() {
+        let view = ImportanceView::new(None, None);
+        assert_eq!(
+            crate::report::json_text(&view).unwrap(),
+            r#"{"importance":[],"importance_about":null}"#
+        );
+    }
+}

@@ -1,0 +1,247 @@
+//! The printed sections about a model that several reports share: the training data,
+//! the settings, the out-of-bag check, and advice when a rare class is mostly missed.
+use super::measures::{class_block, value_block};
+use super::model::impurity_name;
+use super::{line, Style};
+use crate::numbers::{decimal_bytes, pct, plain, sig, trim_num};
+use copse_forest::{FeatureKind, FeaturesPerSplit, Forest as Model, Metrics, Sampling, Task};
+use std::fmt::Write;
+
+/// Word for a sampling scheme.
+pub fn sampling_words(s: &Sampling, balanced: bool) -> String {
+    let base = match s {
+        Sampling::Bootstrap => "bootstrap (n draws with replacement)".to_string(),
+        Sampling::Subsample(f) => format!("subsample of {} without replacement", pct(*f)),
+        Sampling::Whole => "every row in every tree (no out-of-bag rows)".to_string(),
+    };
+    if balanced {
+        format!("{base}, same count from each class")
+    } else {
+        base
+    }
+}
+
+/// The data section.
+pub fn data_section(out: &mut String, st: Style, model: &Model) {
+    let t = model.card();
+    let _ = writeln!(out, "{}", st.head("DATA"));
+    line(out, "source", &t.source);
+    let used = t.rows_read.saturating_sub(t.rows_without_outcome);
+    line(
+        out,
+        "rows",
+        &format!(
+            "{} read, {used} used ({} without a target value)",
+            t.rows_read, t.rows_without_outcome
+        ),
+    );
+    match model.task() {
+        Task::Classify => {
+            line(
+                out,
+                "target",
+                &format!(
+                    "{} (classification, {} classes)",
+                    t.target,
+                    model.classes().len()
+                ),
+            );
+            let total: u64 = t.class_counts.iter().sum::<u64>().max(1);
+            let w = model.classes().iter().map(|c| c.len()).max().unwrap_or(0);
+            for (c, n) in model.classes().iter().zip(&t.class_counts) {
+                line(
+                    out,
+                    "",
+                    &format!("  {c:<w$}  {n:>8}  {:>6}", pct(*n as f64 / total as f64)),
+                );
+            }
+        }
+        Task::Regress => {
+            let range = t
+                .value_range
+                .map(|[lo, mean, hi]| {
+                    format!(
+                        ", from {} to {}, mean {}",
+                        sig(lo, 4),
+                        sig(hi, 4),
+                        sig(mean, 4)
+                    )
+                })
+                .unwrap_or_default();
+            line(out, "target", &format!("{} (regression{range})", t.target));
+        }
+    }
+    let n_cat = model.meta().iter().filter(|f| f.is_categorical()).count();
+    line(
+        out,
+        "inputs",
+        &format!(
+            "{}: {} numeric, {n_cat} categorical",
+            model.meta().len(),
+            model.meta().len() - n_cat
+        ),
+    );
+    for (j, f) in model.meta().iter().enumerate().take(40) {
+        let kind = match (&f.kind, model.bins().get(j)) {
+            (FeatureKind::Categorical { levels }, _) => {
+                format!("categorical, {} categories", levels.len())
+            }
+            (_, Some(b)) if b.n_bins > 0 => format!(
+                "numeric, {} to {} in {} bins",
+                plain(b.lo[0]),
+                plain(b.hi[b.n_bins - 1]),
+                b.n_bins
+            ),
+            _ => "numeric, no values".to_string(),
+        };
+        line(out, "", &format!("  {:<24}{kind}", f.name));
+    }
+    if model.meta().len() > 40 {
+        line(
+            out,
+            "",
+            &format!("  ... and {} more", model.meta().len() - 40),
+        );
+    }
+    if !t.ignored.is_empty() {
+        line(out, "left out", &t.ignored.join(", "));
+    }
+    let _ = writeln!(out);
+}
+
+/// The settings section.
+pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Option<usize>) {
+    let f = model;
+    let s = f.settings();
+    let _ = writeln!(out, "{}", st.head("SETTINGS"));
+    line(out, "trees", &s.trees.to_string());
+    let p = f.n_features();
+    let k = f.features_per_split();
+    let classify = model.task() == Task::Classify;
+    let kind = if k >= p {
+        "every input: bagged trees".to_string()
+    } else {
+        // The card keeps the rule as the engine writes it; read it back as the rule.
+        let rule = model.card().features_rule.as_str();
+        match rule.parse::<FeaturesPerSplit>() {
+            Ok(FeaturesPerSplit::Auto) if classify => {
+                "square root of the inputs, the usual choice for classes".to_string()
+            }
+            Ok(FeaturesPerSplit::Auto) => {
+                "a third of the inputs, the usual choice for numbers".to_string()
+            }
+            Ok(FeaturesPerSplit::Sqrt) => "square root of the inputs".to_string(),
+            Ok(FeaturesPerSplit::Log2) => "log2 of the inputs".to_string(),
+            Ok(FeaturesPerSplit::Fraction(_)) => format!("fraction {rule} of the inputs"),
+            Ok(FeaturesPerSplit::All | FeaturesPerSplit::Count(_)) | Err(_) => {
+                "a fixed count".to_string()
+            }
+        }
+    };
+    line(out, "inputs per split", &format!("{k} of {p} ({kind})"));
+    line(
+        out,
+        "rows per tree",
+        &sampling_words(&s.sampling, s.balanced),
+    );
+    let measure = match model.task() {
+        Task::Classify => impurity_name(model),
+        Task::Regress => format!("{} (squared error)", impurity_name(model)),
+    };
+    line(out, "split measure", &measure);
+    line(
+        out,
+        "depth limit",
+        &s.tree
+            .max_depth
+            .map_or("none".to_string(), |d| d.to_string()),
+    );
+    let rows = if s.tree.min_leaf == 1.0 {
+        "row"
+    } else {
+        "rows"
+    };
+    line(
+        out,
+        "smallest leaf",
+        &format!("{} {rows}", trim_num(s.tree.min_leaf, 3)),
+    );
+    line(
+        out,
+        "numeric bins",
+        &format!("at most {} per input", s.bins),
+    );
+    line(out, "seed", &s.seed.to_string());
+    if let Some(draws) = f.draws() {
+        line(
+            out,
+            "row draws kept",
+            &format!(
+                "yes, {} (for 'copse score --uncertainty')",
+                decimal_bytes(draws.heap_bytes() as u64)
+            ),
+        );
+    }
+    if let Some(t) = threads {
+        line(out, "threads", &t.to_string());
+    }
+    let _ = writeln!(out);
+}
+
+/// The out-of-bag section.
+pub fn oob_section(out: &mut String, st: Style, model: &Model) {
+    let f = model;
+    let oob = f.oob();
+    let _ = writeln!(
+        out,
+        "{}",
+        st.head("OUT-OF-BAG CHECK (each row judged only by the trees that never saw it)")
+    );
+    match &oob.metrics {
+        None => {
+            let _ = writeln!(
+                out,
+                "  no row was left out of any tree, so there is no out-of-bag estimate;\n  \
+                 use --sampling bootstrap or subsample:F, or check the model with 'copse evaluate'"
+            );
+        }
+        Some(Metrics::Classes(m)) => {
+            class_block(out, m, f.classes(), "rows judged");
+            if oob.rows_never_oob > 0 {
+                let _ = writeln!(
+                    out,
+                    "  ({} rows were drawn by every tree and have no out-of-bag prediction)",
+                    oob.rows_never_oob
+                );
+            }
+        }
+        Some(Metrics::Values(m)) => {
+            value_block(out, m, "rows judged");
+        }
+    }
+    let _ = writeln!(out);
+}
+
+/// Advice when a rare class is mostly missed at the plain majority vote.
+pub fn rare_class_advice(model: &Model) -> Option<String> {
+    let Some(Metrics::Classes(m)) = &model.oob().metrics else {
+        return None;
+    };
+    let total: u64 = model.card().class_counts.iter().sum();
+    if total == 0 {
+        return None;
+    }
+    for (c, label) in model.classes().iter().enumerate() {
+        let share = model.card().class_counts.get(c).copied().unwrap_or(0) as f64 / total as f64;
+        let err = m.class_error.get(c).copied().flatten().unwrap_or(0.0);
+        if share < 0.25 && err > 0.5 {
+            return Some(format!(
+                "  '{label}' is rare ({} of rows) and most of its rows are predicted as another class\n  \
+                 when each row simply gets its most probable class. To find such rows, rank them by\n  \
+                 prob_{label} from 'copse score' and inspect from the top, or retrain with --balanced.",
+                pct(share)
+            ));
+        }
+    }
+    None
+}
