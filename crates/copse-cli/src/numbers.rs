@@ -127,9 +127,21 @@ pub fn compact(v: f64) -> String {
     }
 }
 
+/// `n` followed by the singular or plural words: "1 input has", "3 inputs have".
+pub fn count(n: usize, one: &str, many: &str) -> String {
+    format!("{n} {}", if n == 1 { one } else { many })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn counts_take_the_right_number() {
+        assert_eq!(count(1, "row", "rows"), "1 row");
+        assert_eq!(count(0, "row", "rows"), "0 rows");
+        assert_eq!(count(2, "row", "rows"), "2 rows");
+    }
 
     #[test]
     fn significant_digits() {

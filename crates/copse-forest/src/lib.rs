@@ -91,7 +91,7 @@ pub use progress::{Progress, Stage};
 pub use settings::{FeaturesPerSplit, ForestSettings, Sampling, TreeRules};
 pub use significance::{
     holdout_importance, mirrored_null_test, response_permutation_test, PermutationSignificance,
-    Significance, SignificanceTest, MIRROR_MIN_NULL,
+    Significance, SignificanceTest, MIRROR_FEW_NULL, MIRROR_MIN_NULL,
 };
 pub use stability::{
     stability_report, KindStability, ModelKind, StabilityReport, StabilitySettings,

@@ -2,10 +2,10 @@
 //! with, when tested, each input's p-values, what the list measures and the tests run)
 //! and as the printed table with a bar per input and the notes on its p-values.
 use super::{paragraph, Style};
-use crate::numbers::{column_decimals, p_value, signed};
+use crate::numbers::{self, column_decimals, p_value, signed};
 use copse_forest::{
     mirrored_null_test, Forest, Importance, PermutationImportance, Significance, SignificanceTest,
-    MIRROR_MIN_NULL,
+    MIRROR_FEW_NULL, MIRROR_MIN_NULL,
 };
 use serde::Serialize;
 use std::fmt::Write;
@@ -22,8 +22,9 @@ pub struct RankView<'a> {
     p: Option<PValues>,
 }
 
-/// The p-values of one input: `p_mirror` from the mirrored-null test (null when it has
-/// no null sample), and `p_shuffle` from the shuffled-target test when one was run.
+/// The p-values of one input: `p_mirror` from the mirrored-null test (null when the
+/// test cannot give p-values worth reporting; `importance_tests` says why), and
+/// `p_shuffle` from the shuffled-target test when one was run.
 #[derive(Debug, Serialize)]
 struct PValues {
     p_mirror: Option<f64>,
@@ -71,14 +72,19 @@ pub struct AboutView {
     replicates: usize,
 }
 
-/// A test of a ranking: its null size and the smallest p-value it can give (null when
-/// it has no null sample).
+/// A test of a ranking: its null size, the independent draws behind it, the smallest
+/// p-value it can give (null when it has no null sample), and whether its p-values are
+/// reported (with the reason when they are not).
 #[derive(Debug, Serialize)]
 pub struct TestView {
     test: String,
     measure: &'static str,
     null_size: usize,
+    null_draws: usize,
     smallest_p: Option<f64>,
+    reported: bool,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    not_reported_because: Option<String>,
 }
 
 impl TestView {
@@ -87,9 +93,25 @@ impl TestView {
             test: s.test.to_string(),
             measure: s.measure.key(),
             null_size: s.null_size,
-            smallest_p: Some(1.0 / (1.0 + s.null_size as f64)),
+            null_draws: s.null_draws,
+            smallest_p: Some(s.smallest_p()),
+            reported: s.reportable(),
+            not_reported_because: (!s.reportable()).then(|| too_few_draws(s.null_draws)),
         }
     }
+}
+
+/// Inputs whose rise is at or below zero: the mirrored-null test's independent draws.
+fn draws(imp: &Importance) -> usize {
+    imp.features.iter().filter(|f| f.mean <= 0.0).count()
+}
+
+/// Why the mirrored-null test gives no p-values with `draws` inputs at or below zero.
+fn too_few_draws(draws: usize) -> String {
+    format!(
+        "{} at or below zero, and the mirrored-null test needs at least {MIRROR_MIN_NULL}",
+        numbers::count(draws, "input has a rise", "inputs have a rise")
+    )
 }
 
 /// A permutation importance with its tests: as JSON the keys `importance` (the tested
@@ -128,11 +150,17 @@ impl<'a> ImportanceView<'a> {
                 test: SignificanceTest::MirroredNull.to_string(),
                 measure: p.error.measure.key(),
                 null_size: 0,
+                null_draws: draws(&p.error),
                 smallest_p: None,
+                reported: false,
+                not_reported_because: Some(
+                    "no input has a rise below zero, so there is no null sample".to_string(),
+                ),
             },
         };
+        let shown = mirror.as_ref().filter(|m| m.reportable());
         ImportanceView {
-            importance: tested_ranking(&p.error, mirror.as_ref(), shuffle),
+            importance: tested_ranking(&p.error, shown, shuffle),
             importance_about: Some(AboutView {
                 method: p.error.method.to_string(),
                 measure: p.error.measure.key(),
@@ -271,20 +299,34 @@ pub fn importance_with_tests(
     let cols: Vec<&Significance> = mirror_shown.into_iter().chain(shuffle).collect();
     importance_table(out, imp, show_brier, &cols);
     let mut notes = Vec::new();
-    match (&mirror, mirror_shown) {
-        (Some(m), Some(_)) => notes.push(format!(
-            "p mirror: the rises at or below zero and their mirror images stand in for inputs \
-             that do not matter ({} values, so the smallest possible p is {}); p is the share \
-             of them at least as large as the input's rise (mirrored-null test, Janitza, Celik \
-             & Boulesteix 2018). It assumes most inputs do not matter.",
-            m.null_size,
-            p_value(1.0 / (1.0 + m.null_size as f64))
-        )),
-        _ => notes.push(format!(
-            "No mirrored-null p-values: the rises at or below zero (and their mirror images) \
-             give only {} null values, and the test needs at least {MIRROR_MIN_NULL}, that is \
-             many inputs that do not matter{}",
-            mirror.as_ref().map_or(0, |m| m.null_size),
+    match mirror_shown {
+        Some(m) => {
+            let mut note = format!(
+                "p mirror: the {} inputs whose rise is at or below zero, each rise below zero \
+                 also mirrored, stand in for inputs that do not matter ({} values, so the \
+                 smallest possible p is {}); p is the share of those values, counting the \
+                 input's own rise as one more, that are at least as large (mirrored-null \
+                 test, Janitza, Celik & Boulesteix 2018). It assumes most inputs do not \
+                 matter, and on out-of-bag importance it is an approximation that runs \
+                 slightly liberal.",
+                m.null_draws,
+                m.null_size,
+                p_value(m.smallest_p())
+            );
+            if m.null_draws < MIRROR_FEW_NULL {
+                note.push_str(&format!(
+                    " With fewer than {MIRROR_FEW_NULL} such inputs these p-values are coarse \
+                     (the method's authors advise about 100 null values)."
+                ));
+            }
+            notes.push(note);
+        }
+        None => notes.push(format!(
+            "No mirrored-null p-values: {}{}",
+            match &mirror {
+                Some(m) => too_few_draws(m.null_draws),
+                None => "no input has a rise below zero".to_string(),
+            },
             if shuffle.is_some() {
                 ".".to_string()
             } else {
@@ -298,7 +340,7 @@ pub fn importance_with_tests(
              the share of those forests, counting the real one, that give the input at least \
              this rise (Altmann, Tolosi, Sander & Lengauer 2010); smallest possible p {}.",
             s.null_size,
-            p_value(1.0 / (1.0 + s.null_size as f64))
+            p_value(s.smallest_p())
         ));
     }
     for n in notes {
