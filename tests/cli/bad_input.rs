@@ -1260,7 +1260,10 @@ fn m44_tiny_regression_values_are_not_rounded_away() {
         d.push_str(&format!("{i},{}\n", if i < 30 { 2e-7 } else { 9e-7 }));
     }
     put(dir.path(), "d.csv", &d);
-    expect_code(&copse_in(dir.path(), &train_args("d.csv", "y"), None), 0);
+    // Two distinct values would be read as two classes without --task regress.
+    let mut args = train_args("d.csv", "y");
+    args.extend(["--task", "regress"]);
+    expect_code(&copse_in(dir.path(), &args, None), 0);
     let (so, _) = expect_code(
         &copse_in(
             dir.path(),

@@ -164,6 +164,62 @@ pub(crate) fn task(
     })
 }
 
+/// The distinct finite numbers of column `col`, in increasing order, stopping once
+/// there are more than `cap`.
+pub(crate) fn distinct_numbers(
+    records: &[csv::StringRecord],
+    col: usize,
+    missing: &Missing,
+    cap: usize,
+) -> Vec<f64> {
+    let mut seen: Vec<f64> = Vec::new();
+    for r in records {
+        let cell = r[col].trim();
+        if missing.is_missing(cell) {
+            continue;
+        }
+        if let Some(v) = parse_number(cell) {
+            if let Err(at) = seen.binary_search_by(|s| s.total_cmp(&v)) {
+                seen.insert(at, v);
+                if seen.len() > cap {
+                    break;
+                }
+            }
+        }
+    }
+    seen
+}
+
+/// Most distinct whole numbers a numeric outcome may hold before copse stops warning
+/// that they may be class codes.
+pub const FEW_CODES: usize = 20;
+
+/// Reads a numeric outcome the user gave no task for: exactly two distinct values are
+/// two classes (a 0/1 or 1/2 code; a regression on them would report a misleading
+/// "variance explained"); a few distinct whole numbers stay numbers, with a note that
+/// they may be class codes. Returns the task and the note, if any.
+pub(crate) fn numeric_outcome(target: &str, distinct: &[f64]) -> (Task, Option<String>) {
+    let whole = distinct.iter().all(|v| v.fract() == 0.0);
+    match distinct {
+        [a, b] => (
+            Task::Classify,
+            Some(format!(
+                "the target '{target}' holds only two distinct values ({a} and {b}), so copse reads \
+                 it as two classes; add --task regress to model it as a number"
+            )),
+        ),
+        _ if whole && distinct.len() <= FEW_CODES => (
+            Task::Regress,
+            Some(format!(
+                "the target '{target}' is read as numbers ({} distinct whole numbers); if these are \
+                 class codes, retrain with --task classify",
+                distinct.len()
+            )),
+        ),
+        _ => (Task::Regress, None),
+    }
+}
+
 /// Refuses a regression outcome too large for squared errors to stay finite.
 pub(crate) fn check_target_size(
     records: &[csv::StringRecord],

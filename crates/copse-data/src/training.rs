@@ -86,7 +86,13 @@ impl TrainingTable {
         let mut notes = Vec::new();
         let mut categorical = infer::kinds(&name, &headers, &layout, &tallies, roles, &mut notes)?;
         let tc = layout.target;
-        let task = infer::task(&name, roles, &tallies[tc], categorical[tc], n_read)?;
+        let mut task = infer::task(&name, roles, &tallies[tc], categorical[tc], n_read)?;
+        if roles.task.is_none() && task == Task::Regress {
+            let distinct = infer::distinct_numbers(&records, tc, &missing, infer::FEW_CODES);
+            let (read_as, note) = infer::numeric_outcome(&roles.target, &distinct);
+            task = read_as;
+            notes.extend(note);
+        }
         categorical[tc] = task == Task::Classify;
         if task == Task::Regress {
             infer::check_target_size(&records, tc, &missing, &name, &roles.target)?;
@@ -126,7 +132,7 @@ impl TrainingTable {
             ignored: roles.ignore.clone(),
             notes,
         };
-        table.remark(&tallies, &layout, roles.task.is_none());
+        table.remark(&tallies, &layout);
         if rows.kept < 2 {
             return Err(Error::new(
                 ErrorKind::NoRows,
@@ -149,7 +155,7 @@ impl TrainingTable {
 
     /// The model card of `forest` (trained on this table) with this table's source
     /// recorded: file name, outcome column, missing tokens, rows read and left out,
-    /// ignored columns.
+    /// ignored columns, and the remarks about the data.
     pub fn card_for(&self, forest: &Forest) -> ModelCard {
         ModelCard {
             target: self.target.clone(),
@@ -158,6 +164,7 @@ impl TrainingTable {
             rows_read: self.rows_read,
             rows_without_outcome: self.rows_without_outcome,
             ignored: self.ignored.clone(),
+            notes: self.notes.clone(),
             ..forest.card().clone()
         }
     }
@@ -203,9 +210,8 @@ impl TrainingTable {
     }
 
     /// Adds the remarks a careful analyst would want to see: useless or
-    /// identifier-like inputs, a single class, numbers that may be class codes, rows
-    /// left out for a missing outcome.
-    fn remark(&mut self, tallies: &[ColumnTally], layout: &Layout, task_inferred: bool) {
+    /// identifier-like inputs, a single class, rows left out for a missing outcome.
+    fn remark(&mut self, tallies: &[ColumnTally], layout: &Layout) {
         let n_read = self.rows_read;
         let mut useless = 0;
         for (k, f) in self.features.iter().enumerate() {
@@ -257,18 +263,6 @@ impl TrainingTable {
             self.notes.push(format!(
                 "the target '{target}' has a single class '{only}': the model is trivial and predicts it for every row"
             ));
-        }
-        if let (Outcome::Values(values), true) = (&self.outcome, task_inferred) {
-            let mut distinct: Vec<f64> = values.iter().copied().filter(|v| !v.is_nan()).collect();
-            distinct.sort_by(f64::total_cmp);
-            distinct.dedup();
-            if distinct.len() <= 5 {
-                self.notes.push(format!(
-                    "the target '{target}' holds numbers, so copse fits a regression; it has only {} distinct \
-                     values: if they are classes, add --task classify",
-                    distinct.len()
-                ));
-            }
         }
         let dropped = self.rows_without_outcome;
         if dropped > 0 {

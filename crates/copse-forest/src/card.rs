@@ -34,6 +34,9 @@ pub struct ModelCard {
     pub value_range: Option<[f64; 3]>,
     /// The rule for inputs per split as given (its display form).
     pub features_rule: String,
+    /// Remarks about the training data that the reports repeat (how the outcome was
+    /// read, inputs that cannot help, rows left out).
+    pub notes: Vec<String>,
 }
 
 impl ModelCard {
@@ -77,6 +80,7 @@ impl ModelCard {
             class_counts,
             value_range,
             features_rule,
+            notes: Vec::new(),
         }
     }
 

@@ -3,12 +3,14 @@
 use crate::card::ModelCard;
 use crate::draws::Draws;
 use crate::error::{Error, ErrorKind, Result};
+use crate::fingerprint::RowFingerprint;
 use crate::importance::{Importance, PermutationImportance};
 use crate::oob_summary::{OobReport, OobSummary};
 use crate::outcome::{Outcome, MISSING};
 use crate::settings::ForestSettings;
 use crate::task::Task;
 use copse_tree::{FeatureBins, FeatureMeta, Tree};
+use ndarray::ArrayView2;
 use serde::{Deserialize, Serialize};
 
 /// Bytes one tree node takes in memory (its output and case weight included; a leaf
@@ -37,6 +39,11 @@ pub struct Forest {
     pub(crate) bins: Vec<FeatureBins>,
     /// How the model was made.
     pub(crate) card: ModelCard,
+    /// With class-balanced sampling, the training class shares the probabilities are
+    /// shifted back to ([`crate::priors`]); `None` otherwise.
+    pub(crate) prior_shift: Option<Vec<f64>>,
+    /// A fingerprint of the training rows' inputs, to recognise them later.
+    pub(crate) fingerprint: RowFingerprint,
 }
 
 /// What [`Forest::train`] returns: the model, and the per-row out-of-bag results that
@@ -81,6 +88,29 @@ impl Forest {
     /// Each input's bin layout as training used it.
     pub fn bins(&self) -> &[FeatureBins] {
         &self.bins
+    }
+
+    /// With class-balanced sampling, the training class shares its probabilities are
+    /// shifted back to (Saerens, Latinne & Decaestecker 2002), so they estimate the
+    /// chances under the training data's class shares rather than equal ones; `None`
+    /// for other models.
+    pub fn prior_shift(&self) -> Option<&[f64]> {
+        self.prior_shift.as_deref()
+    }
+
+    /// A fingerprint of the training rows' inputs (one byte a row).
+    pub fn fingerprint(&self) -> &RowFingerprint {
+        &self.fingerprint
+    }
+
+    /// How many rows of `x` may be training rows of this model: every training row
+    /// counts, and about [`RowFingerprint::false_match_rate`] of other rows match by
+    /// chance. Judged on rows it was trained on, a forest looks far better than it is.
+    pub fn training_row_matches(&self, x: ArrayView2<'_, f64>) -> usize {
+        x.rows()
+            .into_iter()
+            .filter(|r| self.fingerprint.contains(r.iter().copied()))
+            .count()
     }
 
     /// How the model was made: outcome column, missing tokens, source, row counts.
@@ -205,6 +235,17 @@ impl Forest {
         }
         if let Err(e) = self.card.check(self.classes.len(), &self.oob) {
             return whole(e.message().to_string());
+        }
+        if !self.fingerprint.is_sound() {
+            return whole("its training-row fingerprint does not fit its row count".into());
+        }
+        if let Some(shift) = &self.prior_shift {
+            let sound = shift.len() == self.classes.len()
+                && shift.iter().all(|w| w.is_finite() && *w >= 0.0)
+                && shift.iter().sum::<f64>() > 0.0;
+            if !sound {
+                return whole("its class-share shift does not fit its classes".into());
+            }
         }
         for (t, tree) in self.trees.iter().enumerate() {
             if tree.n_features() != p {

@@ -11,6 +11,8 @@
 //! - [`predict`]: batch prediction and evaluation on labelled data;
 //! - [`metrics`]: error, confusion matrix, log loss, Brier score, ROC AUC, MSE;
 //! - [`importance`]: permutation and impurity-decrease importance;
+//! - [`decision`]: from two-class scores to decisions: catch by rank, cut-offs,
+//!   calibration, intervals, no-skill baselines;
 //! - [`card`]: what a model file records about how the model was made ([`ModelCard`]);
 //! - [`model_file`]: the model file: save, load, bytes, checks on reading;
 //! - [`task`]: classes or numbers ([`Task`]);
@@ -47,8 +49,10 @@
 pub use ndarray;
 
 pub mod card;
+pub mod decision;
 pub mod draws;
 pub mod error;
+pub mod fingerprint;
 pub mod forest;
 pub mod held_out;
 pub mod importance;
@@ -61,6 +65,7 @@ pub mod oob_importance;
 pub mod oob_summary;
 pub mod outcome;
 pub mod predict;
+mod priors;
 pub mod progress;
 mod rng;
 mod row_block;
@@ -78,6 +83,7 @@ pub use card::{ModelCard, STANDARD_MISSING_TOKENS};
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
 pub use error::{io_reason, Error, ErrorKind, Result};
+pub use fingerprint::RowFingerprint;
 pub use forest::{Forest, Trained, NODE_BYTES};
 pub use importance::{
     FeatureImportance, Importance, ImportanceMeasure, ImportanceMethod, PermutationImportance,

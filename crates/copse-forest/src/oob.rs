@@ -5,6 +5,7 @@ use crate::metrics::{class_metrics, predicted_class, value_metrics, Metrics};
 use crate::oob_summary::{OobReport, OobSummary};
 use crate::outcome::Outcome;
 use crate::predict::Scorer;
+use crate::priors::{shift_row, shifted_class};
 use crate::progress::{Progress, Stage};
 use copse_tree::Tree;
 use ndarray::{Array2, ArrayView2};
@@ -60,11 +61,16 @@ pub(crate) fn block_rows(n: usize) -> usize {
 const GROUP_ROWS: usize = 16384;
 
 /// Computes out-of-bag predictions, the error curve and the summary measures.
+///
+/// With `shift` (class-balanced models, [`crate::priors`]) every row's class
+/// probabilities, and the class it is counted as predicting along the error curve, are
+/// shifted back to the training class shares.
 pub(crate) fn out_of_bag(
     trees: &[Tree],
     masks: &[OobMask],
     x: ArrayView2<'_, f64>,
     outcome: &Outcome,
+    shift: Option<&[f64]>,
     progress: &(dyn Fn(Progress) + Sync),
 ) -> (OobReport, OobSummary) {
     let n = x.nrows();
@@ -77,6 +83,7 @@ pub(crate) fn out_of_bag(
         outcome,
         k: outcome_width(outcome),
         bs: block_rows(n),
+        shift,
     };
     let n_blocks = n.div_ceil(pass.bs);
     let group = group_blocks(n, per_tree, pass.bs);
@@ -134,6 +141,8 @@ struct Pass<'a, 'x> {
     k: usize,
     /// Rows per block.
     bs: usize,
+    /// Class-share shift of a balanced model.
+    shift: Option<&'a [f64]>,
 }
 
 /// Where a group's rows stand in the running error measures: whether each row's
@@ -191,7 +200,7 @@ impl Pass<'_, '_> {
             }
         }
         for out in &mut blocks {
-            mean_of_sums(out, k);
+            mean_of_sums(out, k, self.shift);
         }
         blocks
     }
@@ -241,7 +250,11 @@ impl Pass<'_, '_> {
         }
         match self.outcome {
             Outcome::Classes { codes, .. } => {
-                let wrong = predicted_class(sums) != codes[i] as usize;
+                let class = match self.shift {
+                    Some(w) => shifted_class(w, sums),
+                    None => predicted_class(sums),
+                };
+                let wrong = class != codes[i] as usize;
                 out.d_wrong[t] += i64::from(wrong) - i64::from(running.was_wrong[r]);
                 running.was_wrong[r] = wrong;
             }
@@ -255,14 +268,18 @@ impl Pass<'_, '_> {
 }
 
 /// Turns a block's sums of leaf outputs into means over the trees that left each row
-/// out (NaN for a row no tree left out).
-fn mean_of_sums(out: &mut Block, k: usize) {
+/// out (NaN for a row no tree left out), shifted to the training class shares when
+/// `shift` is given.
+fn mean_of_sums(out: &mut Block, k: usize, shift: Option<&[f64]>) {
     for (r, o) in out.preds.chunks_mut(k).enumerate() {
         let count = out.trees_out[r];
         if count == 0 {
             o.iter_mut().for_each(|v| *v = f64::NAN);
         } else {
             o.iter_mut().for_each(|v| *v /= f64::from(count));
+            if let Some(w) = shift {
+                shift_row(w, o);
+            }
         }
     }
 }

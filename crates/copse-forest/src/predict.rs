@@ -229,6 +229,10 @@ impl Forest {
         }
         let m = self.trees.len().max(1) as f64;
         out.iter_mut().for_each(|o| *o /= m);
+        if let Some(shift) = &self.prior_shift {
+            out.chunks_mut(k)
+                .for_each(|row| crate::priors::shift_row(shift, row));
+        }
     }
 
     /// How the trees descend when `rows` rows are to be scored: laid out for scoring

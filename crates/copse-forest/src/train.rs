@@ -4,6 +4,7 @@
 use crate::card::ModelCard;
 use crate::draws::Draws;
 use crate::error::{bad_setting, Error, ErrorKind, Result};
+use crate::fingerprint::RowFingerprint;
 use crate::forest::{Forest, Trained};
 use crate::importance::impurity_importance;
 use crate::oob::{out_of_bag, OobMask};
@@ -186,7 +187,27 @@ impl Forest {
             .keep_draws
             .then(|| Draws::from_tree_columns(&draw_columns, n, outcome.n_labelled(), saturated));
         drop(draw_columns);
-        let (report, summary) = out_of_bag(&trees, &masks, x, outcome, progress);
+        let fingerprint = RowFingerprint::of_rows(
+            outcome.n_labelled(),
+            x.rows()
+                .into_iter()
+                .enumerate()
+                .filter(|(i, _)| !outcome.is_missing(*i))
+                .map(|(_, r)| r.into_iter().copied()),
+        );
+        // A balanced model's probabilities are shifted back to the training class
+        // shares, with factors fitted on its raw out-of-bag probabilities (see
+        // crate::priors); that takes one more out-of-bag pass.
+        let prior_shift = match outcome {
+            Outcome::Classes { codes, labels } if settings.balanced => {
+                let shares = crate::priors::training_shares(codes, labels.len());
+                let (raw, _) = out_of_bag(&trees, &masks, x, outcome, None, &|_| {});
+                Some(crate::priors::fitted_shift(raw.predictions.view(), &shares))
+            }
+            _ => None,
+        };
+        let (report, summary) =
+            out_of_bag(&trees, &masks, x, outcome, prior_shift.as_deref(), progress);
         let oob_importance = if options.oob_importance {
             oob_permutation(&trees, &masks, x, outcome, meta, settings.seed, progress)
         } else {
@@ -213,6 +234,8 @@ impl Forest {
             draws,
             bins,
             card,
+            prior_shift,
+            fingerprint,
         };
         Ok(Trained {
             forest,
