@@ -12,6 +12,7 @@ use std::process::{Command, Output, Stdio};
 mod bad_input;
 mod extras;
 mod library;
+mod reliability;
 
 /// A file of the repository.
 fn repo(rel: &str) -> PathBuf {

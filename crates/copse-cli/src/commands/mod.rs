@@ -131,6 +131,9 @@ pub fn load_labelled(
     if let Some(w) = labelled.encoder.unseen_warning() {
         ui.warn(&w);
     }
+    for n in &labelled.notes {
+        ui.note(n);
+    }
     Ok((model, source, labelled))
 }
 

@@ -225,6 +225,9 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     if skipped.count > 0 {
         ui.warn(&skipped.warning(input.name(), rows));
     }
+    if let Some(note) = input.blank_lines_note() {
+        ui.note(&note);
+    }
     if a.uncertainty {
         ui.note(
             "standard errors: how much each prediction would move if the model were trained \
