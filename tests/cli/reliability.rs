@@ -211,3 +211,244 @@ fn r04_blank_lines_are_counted_and_line_numbers_are_file_lines() {
     assert_eq!(lines, want);
     assert!(!files(dir.path()).iter().any(|f| f.ends_with(".partial")));
 }
+
+/// Standard error pointing at a full device.
+fn full_stderr() -> std::process::Stdio {
+    std::fs::OpenOptions::new()
+        .write(true)
+        .open("/dev/full")
+        .expect("/dev/full opens")
+        .into()
+}
+
+/// The outputs of one command are replaced together: when the second (`--oob-out`)
+/// cannot be written, the first (the model) is not replaced either.
+#[test]
+fn r05_a_failed_second_output_leaves_the_first_untouched() {
+    if !Path::new("/dev/full").exists() {
+        return;
+    }
+    let dir = tmp();
+    put(dir.path(), "m.copse", "old model");
+    let i = super::bad_input::iris();
+    let args = [
+        "train",
+        "--data",
+        &i,
+        "--target",
+        "species",
+        "--out",
+        "m.copse",
+        "--trees",
+        "5",
+        "--oob-out",
+        "/dev/full",
+    ];
+    let (_, se) = expect_code(&copse_in(dir.path(), &args, None), 1);
+    assert!(se.contains("could not write /dev/full"), "{se}");
+    assert_eq!(
+        std::fs::read(dir.path().join("m.copse")).expect("model"),
+        b"old model"
+    );
+    assert_eq!(files(dir.path()), ["m.copse"]);
+}
+
+/// Ctrl-C at any moment of a run with two outputs: either both are replaced or
+/// neither, and the message says which (it once said "nothing was written" with the
+/// model replaced and the out-of-bag file old).
+#[test]
+fn r06_an_interruption_never_leaves_a_mixed_pair() {
+    let dir = tmp();
+    let i = super::bad_input::iris();
+    let mut seen = [0; 3];
+    for delay in (0..12).map(|k| k * 15) {
+        put(dir.path(), "m.copse", "old");
+        put(dir.path(), "o.csv", "old");
+        let child = std::process::Command::new(env!("CARGO_BIN_EXE_copse"))
+            .args([
+                "train",
+                "--data",
+                &i,
+                "--target",
+                "species",
+                "--out",
+                "m.copse",
+                "--trees",
+                "60",
+                "--oob-out",
+                "o.csv",
+                "-q",
+                "--threads",
+                "1",
+            ])
+            .current_dir(dir.path())
+            .stdout(std::process::Stdio::null())
+            .stderr(std::process::Stdio::piped())
+            .spawn()
+            .expect("copse starts");
+        std::thread::sleep(std::time::Duration::from_millis(delay));
+        let _ = std::process::Command::new("kill")
+            .args(["-INT", &child.id().to_string()])
+            .status();
+        let out = child.wait_with_output().expect("copse ends");
+        let se = super::text(&out.stderr);
+        let m_new = std::fs::read(dir.path().join("m.copse")).expect("m") != b"old";
+        let o_new = std::fs::read(dir.path().join("o.csv")).expect("o") != b"old";
+        assert_eq!(m_new, o_new, "after {delay} ms: {se}");
+        match out.status.code() {
+            Some(130) if m_new => {
+                seen[1] += 1;
+                assert!(
+                    se.contains("m.copse, o.csv had already been written in full"),
+                    "{se}"
+                );
+            }
+            Some(130) => {
+                seen[0] += 1;
+                assert!(se.contains("nothing was written"), "{se}");
+            }
+            Some(0) => {
+                seen[2] += 1;
+                assert!(m_new, "{se}");
+            }
+            // The signal came before the handler was installed.
+            None => assert!(!m_new),
+            Some(c) => panic!("exit {c}: {se}"),
+        }
+        let left = files(dir.path());
+        assert_eq!(left, ["m.copse", "o.csv"], "after {delay} ms");
+    }
+    assert!(
+        seen[0] > 0,
+        "no run was interrupted while training: {seen:?}"
+    );
+}
+
+/// A temporary file left by a run killed with no chance to clean up (kill -9) is
+/// removed by the next run writing into that folder; one whose process is alive stays.
+#[test]
+fn r07_stale_temporary_files_are_removed_by_the_next_run() {
+    if !Path::new("/proc/self").exists() {
+        return;
+    }
+    let dir = tmp();
+    iris_model(dir.path());
+    let gone = (4_000_000u32..).find(|p| !Path::new(&format!("/proc/{p}")).exists());
+    let gone = gone.expect("a free process id");
+    let stale = format!(".copse-{gone}-0123456789abcdef.partial");
+    let live = format!(".copse-{}-0123456789abcdef.partial", std::process::id());
+    put(dir.path(), &stale, vec![0u8; 4096]);
+    put(dir.path(), &live, "in progress");
+    put(
+        dir.path(),
+        "new.csv",
+        format!("{IRIS_HEADER}r1,5.1,3.5,1.4,0.2\n"),
+    );
+    expect_code(&score_in(dir.path(), &["--out", "s.csv"]), 0);
+    let left = files(dir.path());
+    assert!(!left.contains(&stale), "{left:?}");
+    assert!(left.contains(&live), "{left:?}");
+}
+
+/// A standard error that cannot be written (a full device, a closed pipe) never makes
+/// copse panic: the run ends with the exit code it earns (0 with its outputs written,
+/// 2 for bad input), not an abort.
+#[test]
+fn r08_a_full_standard_error_is_no_fault() {
+    if !Path::new("/dev/full").exists() {
+        return;
+    }
+    let dir = tmp();
+    let i = super::bad_input::iris();
+    let run = |args: &[&str]| {
+        std::process::Command::new(env!("CARGO_BIN_EXE_copse"))
+            .args(args)
+            .current_dir(dir.path())
+            .stdout(std::process::Stdio::null())
+            .stderr(full_stderr())
+            .status()
+            .expect("copse runs")
+            .code()
+    };
+    let train = [
+        "train", "--data", &i, "--target", "species", "--out", "m.copse", "--trees", "5",
+    ];
+    assert_eq!(run(&train), Some(0));
+    assert!(dir.path().join("m.copse").exists());
+    assert_eq!(
+        run(&[
+            "train",
+            "--data",
+            "absent.csv",
+            "--target",
+            "y",
+            "--out",
+            "x"
+        ]),
+        Some(2)
+    );
+    assert_eq!(run(&["train", "--frobnicate"]), Some(2));
+}
+
+/// Ctrl-C while scoring to standard output says how many rows went out, instead of
+/// "nothing was written".
+#[test]
+fn r09_an_interrupted_stream_says_how_many_rows_went_out() {
+    use std::io::{BufRead, Write};
+    let dir = tmp();
+    iris_model(dir.path());
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_copse"))
+        .args([
+            "score",
+            "--model",
+            "iris.copse",
+            "--data",
+            "-",
+            "--block-rows",
+            "2",
+            "--threads",
+            "1",
+        ])
+        .current_dir(dir.path())
+        .stdin(std::process::Stdio::piped())
+        .stdout(std::process::Stdio::piped())
+        .stderr(std::process::Stdio::piped())
+        .spawn()
+        .expect("copse starts");
+    let mut pipe = child.stdin.take().expect("stdin");
+    pipe.write_all(IRIS_HEADER.as_bytes()).expect("feed");
+    for k in 0..5 {
+        writeln!(pipe, "r{k},5.1,3.5,1.4,0.2").expect("feed");
+    }
+    pipe.flush().expect("flush");
+    // Two blocks of two rows go out; the fifth row waits for its block to fill.
+    let mut lines = std::io::BufReader::new(child.stdout.take().expect("stdout"));
+    let mut line = String::new();
+    for _ in 0..5 {
+        line.clear();
+        lines.read_line(&mut line).expect("a scored row");
+    }
+    let out = super::bad_input::interrupt(child);
+    drop(pipe);
+    let se = super::text(&out.stderr);
+    assert_eq!(out.status.code(), Some(130), "{se}");
+    assert!(
+        se.contains("copse: interrupted; 4 rows had been written to standard output"),
+        "{se}"
+    );
+}
+
+/// A usage error from the argument parser is one `copse: error:` line with the hint,
+/// like every other error.
+#[test]
+fn r10_usage_errors_are_one_line() {
+    let dir = tmp();
+    let out = copse_in(dir.path(), &["train", "--frobnicate"], None);
+    let (_, se) = expect_code(&out, 2);
+    assert_eq!(se.lines().count(), 1, "{se}");
+    assert!(
+        se.starts_with("copse: error: unexpected argument '--frobnicate' found")
+            && se.trim_end().ends_with("see 'copse train --help'"),
+        "{se}"
+    );
+}

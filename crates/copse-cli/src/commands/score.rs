@@ -33,6 +33,7 @@ pub struct ScoreRun {
 /// Input errors for a bad model, a missing column or a bad cell; failures when writing.
 pub fn run(a: &ScoreArgs, ui: &Ui) -> CliResult<()> {
     let r = score(a, ui)?;
+    crate::output::commit_all()?;
     if r.output != "standard output" {
         ui.wrote(&format!("{} scored rows: {}", r.rows, r.output));
     }
@@ -103,6 +104,7 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
 
     let mut out = Output::create(a.out.as_deref())?;
     let out_name = out.name().to_string();
+    let to_stdout = matches!(out, Output::Stdout(_));
     let delimiter = copse_data::Delimiter::from(a.csv.delimiter).byte();
     let header_text = csv_text(delimiter, 256, |w| w.write_record(&header))?;
     // The header goes out with the first block, so a fault in the first rows leaves
@@ -204,6 +206,11 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
             put(&mut out, &text?)?;
         }
         rows += m as u64;
+        if to_stdout {
+            // So that an interruption can say how many rows went out.
+            out.flush().map_err(|e| CliError::write(&out_name, &e))?;
+            crate::interrupt::rows_to_stdout(rows);
+        }
         bar.advance_to(b.bytes as usize);
         Ok(())
     };

@@ -38,6 +38,7 @@ pub struct TrainRun {
 /// Input errors for bad data or settings, failures when writing.
 pub fn run(a: &TrainArgs, ui: &Ui) -> CliResult<()> {
     let r = train(a, ui)?;
+    crate::output::commit_all()?;
     for (what, path) in &r.outputs {
         ui.wrote(&format!("{what}: {}", path.display()));
     }
