@@ -452,3 +452,113 @@ fn r10_usage_errors_are_one_line() {
         "{se}"
     );
 }
+
+/// Runs copse with `args` in `dir` and returns its peak resident memory in bytes
+/// (`VmHWM`, read from `/proc` while it runs; the peak comes while the model is saved,
+/// well before the process ends).
+fn peak_of(dir: &Path, args: &[&str]) -> f64 {
+    let mut child = std::process::Command::new(env!("CARGO_BIN_EXE_copse"))
+        .args(args)
+        .current_dir(dir)
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .expect("copse starts");
+    let status = format!("/proc/{}/status", child.id());
+    let mut peak_kib = 0u64;
+    loop {
+        if let Ok(text) = std::fs::read_to_string(&status) {
+            let hwm = text
+                .lines()
+                .find_map(|l| l.strip_prefix("VmHWM:"))
+                .and_then(|v| v.trim().trim_end_matches("kB").trim().parse().ok());
+            if let Some(v) = hwm {
+                peak_kib = peak_kib.max(v);
+            }
+        }
+        if child.try_wait().expect("wait").is_some() {
+            break;
+        }
+        std::thread::sleep(std::time::Duration::from_millis(2));
+    }
+    assert!(child.wait().expect("copse ends").success());
+    peak_kib as f64 * 1024.0
+}
+
+/// The memory check's estimate of a run's peak against the peak measured, for 2, 3, 100
+/// and 1,000 classes: within a factor 1.5 either way (it once missed many classes by
+/// three times: the model's file is built beside the model, and the per-row tables of
+/// the out-of-bag pass hold a value per class). Labels are drawn at random, so trees grow
+/// until their leaves are pure, as on data with many rare classes. The large case is
+/// 6,000 rows and 3 trees rather than thousands of classes on more rows, to stay fast.
+#[test]
+fn r11_the_memory_estimate_follows_the_measured_peak() {
+    if !Path::new("/proc/self/status").exists() {
+        return;
+    }
+    use copse_cli::memory::{peak_bytes, Request};
+    let dir = tmp();
+    // (classes, rows, trees)
+    for (k, rows, trees) in [
+        (2u64, 10_000u64, 60u32),
+        (3, 10_000, 60),
+        (100, 6_000, 10),
+        (1_000, 6_000, 3),
+    ] {
+        let mut state = 0x2545_f491_4f6c_dd1du64 ^ k;
+        let mut next = move || {
+            // xorshift64 (Marsaglia 2003): a fixed stream of test data.
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            state
+        };
+        let mut d = String::from("a,b,y\n");
+        for _ in 0..rows {
+            let a = next() % 100_000;
+            let b = next() % 1_000;
+            d.push_str(&format!("{a},{b},c{}\n", next() % k));
+        }
+        put(dir.path(), "d.csv", &d);
+        let trees_s = trees.to_string();
+        let args = [
+            "train",
+            "--data",
+            "d.csv",
+            "--target",
+            "y",
+            "--out",
+            "m.copse",
+            "--trees",
+            &trees_s,
+            "--threads",
+            "2",
+            "-q",
+        ];
+        let measured = peak_of(dir.path(), &args);
+        // The same request the command makes.
+        let table = copse_data::TrainingTable::from_csv(
+            copse_data::CsvInput::open(
+                &dir.path().join("d.csv").to_string_lossy(),
+                copse_data::Delimiter::Comma,
+            )
+            .expect("open"),
+            &copse_data::Roles::target("y"),
+            copse_data::Missing::standard(),
+        )
+        .expect("read");
+        let settings = copse_forest::ForestSettings {
+            trees: trees as usize,
+            ..Default::default()
+        };
+        let estimate = peak_bytes(&Request::new(&table, &settings, false));
+        let ratio = estimate / measured;
+        eprintln!(
+            "{k} classes: estimate {estimate:.0}, measured peak {measured:.0}, ratio {ratio:.2}"
+        );
+        assert!(
+            (1.0 / 1.5..=1.5).contains(&ratio),
+            "{k} classes: estimate {estimate}, peak {measured}"
+        );
+    }
+}
