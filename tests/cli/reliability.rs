@@ -562,3 +562,33 @@ fn r11_the_memory_estimate_follows_the_measured_peak() {
         );
     }
 }
+
+/// Outputs checked before any work: `--oob-out -` (which would mix a CSV and the report
+/// on standard output) and a file path ending in `/` are refused at once; a thread
+/// count far above the cores is cut with a note instead of crawling.
+#[test]
+fn r12_output_paths_and_threads_are_checked_before_any_work() {
+    let dir = tmp();
+    let i = super::bad_input::iris();
+    let mut args = vec![
+        "train", "--data", &i, "--target", "species", "--out", "m.copse", "--trees", "5",
+    ];
+    let mut dash = args.clone();
+    dash.extend(["--oob-out", "-"]);
+    refused(
+        dir.path(),
+        &dash,
+        None,
+        2,
+        &["--oob-out -", "give a file name"],
+    );
+    let mut slash = args.clone();
+    slash[6] = "x.copse/";
+    refused(dir.path(), &slash, None, 2, &["x.copse/", "names a folder"]);
+    args.extend(["--threads", "65535"]);
+    let (_, se) = expect_code(&copse_in(dir.path(), &args, None), 0);
+    assert!(
+        se.contains("--threads 65535 is more than 8 per core"),
+        "{se}"
+    );
+}

@@ -124,6 +124,7 @@ impl Staged {
     /// An input error when the folder does not exist; a failure when the temporary file
     /// cannot be created.
     pub fn create(dest: &Path) -> CliResult<Self> {
+        check_file_name(dest)?;
         let name = dest.display().to_string();
         let dir = match dest.parent() {
             Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
@@ -262,6 +263,22 @@ impl Write for Staged {
     fn flush(&mut self) -> io::Result<()> {
         self.writer()?.flush()
     }
+}
+
+/// Refuses a file path that can only name a folder (it ends with `/`), before any
+/// work is done.
+///
+/// # Errors
+/// An input error saying so.
+pub fn check_file_name(path: &Path) -> CliResult<()> {
+    let text = path.as_os_str().to_string_lossy();
+    if text.ends_with('/') || text.ends_with(std::path::MAIN_SEPARATOR) {
+        return Err(CliError::input(format!(
+            "cannot write {text}: a path ending in '/' names a folder; give a file name, such as {}model.copse",
+            text
+        )));
+    }
+    Ok(())
 }
 
 /// True when `path` exists and is something other than a regular file or folder

@@ -47,6 +47,26 @@ pub fn one_line(text: &str) -> std::borrow::Cow<'_, str> {
     out.into()
 }
 
+/// Most threads per core `--threads` may ask for: more only add switching between
+/// threads, never speed (each thread grows whole trees or scores whole blocks).
+pub const THREADS_PER_CORE: usize = 8;
+
+/// The threads to run for `--threads asked`: at most [`THREADS_PER_CORE`] per core,
+/// with a note when the request is cut.
+pub fn thread_count(asked: usize, ui: &Ui) -> usize {
+    let cores = std::thread::available_parallelism().map_or(1, usize::from);
+    let most = cores * THREADS_PER_CORE;
+    if asked > most {
+        ui.note(&format!(
+            "--threads {asked} is more than {THREADS_PER_CORE} per core on this machine's {cores} \
+             core(s); using {most} (results do not depend on the thread count)"
+        ));
+        most
+    } else {
+        asked
+    }
+}
+
 fn no_color() -> bool {
     std::env::var_os("NO_COLOR").is_some_and(|v| !v.is_empty())
 }

@@ -57,6 +57,12 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     let started = Instant::now();
     check_output(&a.data, &a.out, "model file")?;
     if let Some(o) = &a.oob_out {
+        if o.as_os_str() == "-" {
+            return Err(CliError::input(
+                "--oob-out - would mix the out-of-bag CSV with the report on standard output; \
+                 give a file name",
+            ));
+        }
         check_output(&a.data, o, "out-of-bag file")?;
         if o == &a.out {
             return Err(CliError::input(
