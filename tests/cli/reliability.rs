@@ -592,3 +592,21 @@ fn r12_output_paths_and_threads_are_checked_before_any_work() {
         "{se}"
     );
 }
+
+/// A kept column is copied exactly (a quoted CR LF keeps its CR), and a message quoting
+/// a name or cell holding control characters stays on one line with them escaped.
+#[test]
+fn r13_kept_cells_are_exact_and_messages_are_escaped() {
+    let dir = tmp();
+    iris_model(dir.path());
+    put(
+        dir.path(),
+        "new.csv",
+        format!("{IRIS_HEADER}\"\r\n4\",5.1,3.5,1.4,0.2\r\n"),
+    );
+    let (so, _) = expect_code(&score_in(dir.path(), &["--keep", "id"]), 0);
+    assert!(so.contains("\"\r\n4\",setosa,"), "{so:?}");
+    put(dir.path(), "d.csv", "a\0b,y\n1,p\n2,q\n");
+    let se = refused(dir.path(), &train_args("d.csv", "zz"), None, 2, &["a\\0b"]);
+    assert!(!se.contains('\0') && se.lines().count() == 1, "{se:?}");
+}
