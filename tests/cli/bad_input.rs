@@ -21,7 +21,7 @@ use std::path::Path;
 use std::process::{Command, Output, Stdio};
 
 /// Every entry of `dir`, hidden ones (temporary files) included, sorted.
-fn files(dir: &Path) -> Vec<String> {
+pub(super) fn files(dir: &Path) -> Vec<String> {
     let mut names: Vec<String> = std::fs::read_dir(dir)
         .expect("list the folder")
         .map(|e| e.expect("entry").file_name().to_string_lossy().into_owned())
@@ -30,11 +30,11 @@ fn files(dir: &Path) -> Vec<String> {
     names
 }
 
-fn put(dir: &Path, name: &str, bytes: impl AsRef<[u8]>) {
+pub(super) fn put(dir: &Path, name: &str, bytes: impl AsRef<[u8]>) {
     std::fs::write(dir.join(name), bytes).expect("write a test file");
 }
 
-fn iris() -> String {
+pub(super) fn iris() -> String {
     repo("tests/data/iris.csv")
         .to_str()
         .expect("utf-8 path")
@@ -42,7 +42,7 @@ fn iris() -> String {
 }
 
 /// A small iris model, `iris.copse`, in `dir`.
-fn iris_model(dir: &Path) {
+pub(super) fn iris_model(dir: &Path) {
     let i = iris();
     let args = [
         "train",
@@ -60,7 +60,7 @@ fn iris_model(dir: &Path) {
 }
 
 /// Asserts the message is one `copse:` error line without a panic report.
-fn one_clean_error(se: &str) {
+pub(super) fn one_clean_error(se: &str) {
     assert!(se.starts_with("copse: error: "), "{se}");
     assert!(
         !se.contains("panicked") && !se.contains("internal error"),
@@ -71,7 +71,13 @@ fn one_clean_error(se: &str) {
 /// Runs copse in `dir` and checks a refusal: exit `code`, a clean `copse: error:`
 /// message containing every one of `needles`, and the folder exactly as it was (no
 /// output file, no temporary file). Returns standard error.
-fn refused(dir: &Path, args: &[&str], stdin: Option<&[u8]>, code: i32, needles: &[&str]) -> String {
+pub(super) fn refused(
+    dir: &Path,
+    args: &[&str],
+    stdin: Option<&[u8]>,
+    code: i32,
+    needles: &[&str],
+) -> String {
     let before = files(dir);
     let out = copse_in(dir, args, stdin);
     let (so, se) = expect_code(&out, code);
@@ -87,7 +93,7 @@ fn refused(dir: &Path, args: &[&str], stdin: Option<&[u8]>, code: i32, needles: 
     se
 }
 
-fn train_args<'a>(data: &'a str, target: &'a str) -> Vec<&'a str> {
+pub(super) fn train_args<'a>(data: &'a str, target: &'a str) -> Vec<&'a str> {
     vec![
         "train", "--data", data, "--target", target, "--out", "m.copse", "--trees", "10",
     ]
@@ -958,7 +964,7 @@ fn m37_model_to_a_full_device() {
 /// Waits (up to 20 s) until the child runs more than one thread: the Ctrl-C handler
 /// is installed first thing and runs on a thread of its own, so from then on SIGINT
 /// reaches it. Where `/proc` is missing, waits a second instead.
-fn wait_for_handler(child: &std::process::Child) {
+pub(super) fn wait_for_handler(child: &std::process::Child) {
     let status = format!("/proc/{}/status", child.id());
     if !Path::new(&status).exists() {
         std::thread::sleep(std::time::Duration::from_secs(1));
@@ -981,7 +987,7 @@ fn wait_for_handler(child: &std::process::Child) {
 }
 
 /// Sends SIGINT to a running child and waits for it.
-fn interrupt(child: std::process::Child) -> Output {
+pub(super) fn interrupt(child: std::process::Child) -> Output {
     wait_for_handler(&child);
     let status = Command::new("kill")
         .args(["-INT", &child.id().to_string()])

@@ -13,6 +13,7 @@ mod bad_input;
 mod decisions;
 mod extras;
 mod library;
+mod reliability;
 
 /// A file of the repository.
 fn repo(rel: &str) -> PathBuf {

@@ -1,80 +1,103 @@
-//! Ctrl-C (SIGINT, and SIGTERM where the platform has it): end the run at once and
-//! leave no partial output behind.
+//! Ctrl-C (SIGINT, and SIGTERM where the platform has it): end the run at once, leave
+//! no partial output behind, and say exactly what was written.
 //!
 //! Outputs are written to temporary files beside their destinations (see
-//! [`crate::output`]), which are deleted when dropped; but a signal ends the process
-//! without running destructors. So every temporary file in progress is listed here,
-//! and the handler deletes them before exiting with code 130 (128 + the signal number
-//! of SIGINT, the shells' convention). The same lock guards the final rename, so a
-//! signal either comes before it (the temporary file goes, the destination is
-//! untouched) or after it (the output is complete); never in between.
+//! [`crate::output`]) and renamed into place all together at the end of a command. A
+//! signal ends the process without running destructors, so every temporary file is
+//! listed here before it is created, and the handler deletes those still listed before
+//! exiting with code 130 (128 + the signal number of SIGINT, the shells' convention).
+//! The same lock guards the final renames, so a signal comes either before them (every
+//! destination untouched) or after them (every output complete), never in between; and
+//! the handler names the files already replaced, or the rows already sent to standard
+//! output.
+use std::io::Write;
 use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::{Mutex, MutexGuard, OnceLock};
 
 /// Exit code after an interruption.
 pub const INTERRUPTED: i32 = 130;
 
-fn pending() -> &'static Mutex<Vec<PathBuf>> {
-    static PENDING: OnceLock<Mutex<Vec<PathBuf>>> = OnceLock::new();
-    PENDING.get_or_init(|| Mutex::new(Vec::new()))
+/// What the handler must know.
+#[derive(Default)]
+pub(crate) struct State {
+    /// Temporary files that exist (or are about to be created).
+    pub(crate) partial: Vec<PathBuf>,
+    /// Destinations already replaced by this run, as named to the user.
+    pub(crate) written: Vec<String>,
 }
 
-/// The list of temporary files, even if a thread panicked while holding it (the list
-/// itself is always in a usable state).
-fn lock() -> MutexGuard<'static, Vec<PathBuf>> {
-    pending()
+fn state() -> &'static Mutex<State> {
+    static STATE: OnceLock<Mutex<State>> = OnceLock::new();
+    STATE.get_or_init(|| Mutex::new(State::default()))
+}
+
+/// Rows written (and flushed) to standard output so far; `u64::MAX` when no rows go
+/// there.
+static STDOUT_ROWS: AtomicU64 = AtomicU64::new(u64::MAX);
+
+/// The state, even if a thread panicked while holding it (it is always usable).
+pub(crate) fn lock() -> MutexGuard<'static, State> {
+    state()
         .lock()
         .unwrap_or_else(std::sync::PoisonError::into_inner)
 }
 
+/// What the handler says, from what it knows.
+fn message(removed: usize, written: &[String], stdout_rows: u64) -> String {
+    let what = if !written.is_empty() {
+        format!("{} had already been written in full", written.join(", "))
+    } else if stdout_rows != u64::MAX {
+        format!("{stdout_rows} rows had been written to standard output, which is incomplete")
+    } else {
+        "nothing was written".to_string()
+    };
+    let removed = match removed {
+        0 => String::new(),
+        1 => " (1 unfinished output file removed)".to_string(),
+        n => format!(" ({n} unfinished output files removed)"),
+    };
+    format!("copse: interrupted; {what}{removed}")
+}
+
 /// Installs the handler. Called once by the binary; a failure (another handler already
 /// installed, as in a test harness) leaves the default behaviour, which still never
-/// leaves a file at the destination, only possibly a stray temporary file.
+/// leaves a file at the destination, only possibly a stray temporary file (removed by a
+/// later run in that folder, see [`crate::output`]).
 pub fn install() {
     let _ = ctrlc::set_handler(|| {
         // Holding the lock until exit stops any rename from starting.
-        let files = lock();
-        for f in files.iter() {
+        let st = lock();
+        for f in &st.partial {
             let _ = std::fs::remove_file(f);
         }
-        eprintln!(
-            "copse: interrupted; nothing was written{}",
-            if files.is_empty() {
-                String::new()
-            } else {
-                format!(
-                    " ({} unfinished output file{} removed)",
-                    files.len(),
-                    if files.len() == 1 { "" } else { "s" }
-                )
-            }
+        let text = message(
+            st.partial.len(),
+            &st.written,
+            STDOUT_ROWS.load(Ordering::Relaxed),
         );
+        // A closed or full standard error must not stop the exit.
+        let _ = writeln!(std::io::stderr(), "{text}");
         std::process::exit(INTERRUPTED);
     });
 }
 
-/// Lists a temporary file to delete on interruption.
+/// Lists a temporary file to delete on interruption (before it is created).
 pub fn register(path: &Path) {
-    lock().push(path.to_path_buf());
+    lock().partial.push(path.to_path_buf());
 }
 
 /// Takes a temporary file off the list (it was renamed or deleted).
 pub fn unregister(path: &Path) {
-    let mut files = lock();
-    if let Some(i) = files.iter().position(|f| f == path) {
-        files.swap_remove(i);
+    let mut st = lock();
+    if let Some(i) = st.partial.iter().position(|f| f == path) {
+        st.partial.swap_remove(i);
     }
 }
 
-/// Runs `f` (the rename of a finished temporary file) so that no interruption falls
-/// inside it, then takes `path` off the list.
-pub fn while_holding<T>(path: &Path, f: impl FnOnce() -> T) -> T {
-    let mut files = lock();
-    let out = f();
-    if let Some(i) = files.iter().position(|p| p == path) {
-        files.swap_remove(i);
-    }
-    out
+/// Records that `rows` scored rows have been written and flushed to standard output.
+pub fn rows_to_stdout(rows: u64) {
+    STDOUT_ROWS.store(rows, Ordering::Relaxed);
 }
 
 #[cfg(test)]
@@ -88,9 +111,24 @@ mod tests {
         register(a);
         register(b);
         unregister(a);
-        assert!(!lock().iter().any(|p| p == a));
-        let v = while_holding(b, || 7);
-        assert_eq!(v, 7);
-        assert!(!lock().iter().any(|p| p == b));
+        assert!(!lock().partial.iter().any(|p| p == a));
+        unregister(b);
+        assert!(!lock().partial.iter().any(|p| p == b));
+    }
+
+    #[test]
+    fn the_message_says_what_was_written() {
+        assert_eq!(
+            message(1, &[], u64::MAX),
+            "copse: interrupted; nothing was written (1 unfinished output file removed)"
+        );
+        let both = ["m.copse".to_string(), "o.csv".to_string()];
+        assert_eq!(
+            message(0, &both, u64::MAX),
+            "copse: interrupted; m.copse, o.csv had already been written in full"
+        );
+        assert!(
+            message(0, &[], 610_305).contains("610305 rows had been written to standard output")
+        );
     }
 }

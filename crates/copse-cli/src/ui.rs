@@ -1,8 +1,13 @@
 //! Talking to the person at the terminal: notes and warnings on standard error with the
 //! `copse:` prefix, progress bars only when standard error is a terminal, colour only
 //! when the stream is a terminal and `NO_COLOR` is unset (<https://no-color.org>).
+//!
+//! Every message is one line: control characters in its text (a line break or a NUL
+//! from a cell or a column name) are escaped. A message that cannot be written (standard
+//! error closed or full) is dropped without a fault: the run's outcome and exit code do
+//! not depend on it.
 use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
-use std::io::IsTerminal;
+use std::io::{IsTerminal, Write};
 use std::sync::atomic::{AtomicUsize, Ordering};
 use std::time::Duration;
 
@@ -13,6 +18,53 @@ pub struct Ui {
     stderr_tty: bool,
     stdout_colour: bool,
     stderr_colour: bool,
+}
+
+/// Writes one line to standard error, ignoring a failure (there is nowhere else to
+/// report it).
+pub fn say(prefix: &str, text: &str) {
+    let mut err = std::io::stderr().lock();
+    let _ = writeln!(err, "{prefix}{}", one_line(text));
+}
+
+/// `text` with control characters escaped (`\n`, `\r`, `\t`, `\0`, others as
+/// `\u{..}`), so it prints as one line and sends nothing raw to the terminal.
+pub fn one_line(text: &str) -> std::borrow::Cow<'_, str> {
+    if !text.chars().any(char::is_control) {
+        return text.into();
+    }
+    let mut out = String::with_capacity(text.len() + 8);
+    for c in text.chars() {
+        match c {
+            '\n' => out.push_str("\\n"),
+            '\r' => out.push_str("\\r"),
+            '\t' => out.push_str("\\t"),
+            '\0' => out.push_str("\\0"),
+            c if c.is_control() => out.push_str(&format!("\\u{{{:x}}}", u32::from(c))),
+            c => out.push(c),
+        }
+    }
+    out.into()
+}
+
+/// Most threads per core `--threads` may ask for: more only add switching between
+/// threads, never speed (each thread grows whole trees or scores whole blocks).
+pub const THREADS_PER_CORE: usize = 8;
+
+/// The threads to run for `--threads asked`: at most [`THREADS_PER_CORE`] per core,
+/// with a note when the request is cut.
+pub fn thread_count(asked: usize, ui: &Ui) -> usize {
+    let cores = std::thread::available_parallelism().map_or(1, usize::from);
+    let most = cores * THREADS_PER_CORE;
+    if asked > most {
+        ui.note(&format!(
+            "--threads {asked} is more than {THREADS_PER_CORE} per core on this machine's {cores} \
+             core(s); using {most} (results do not depend on the thread count)"
+        ));
+        most
+    } else {
+        asked
+    }
 }
 
 fn no_color() -> bool {
@@ -40,32 +92,32 @@ impl Ui {
     /// A remark (suppressed by `--quiet`).
     pub fn note(&self, text: &str) {
         if !self.quiet {
-            eprintln!("copse: note: {text}");
+            say("copse: note: ", text);
         }
     }
 
     /// Where an output went (suppressed by `--quiet`).
     pub fn wrote(&self, text: &str) {
         if !self.quiet {
-            eprintln!("copse: wrote {text}");
+            say("copse: wrote ", text);
         }
     }
 
     /// A warning (always shown).
     pub fn warn(&self, text: &str) {
         if self.stderr_colour {
-            eprintln!("copse: \x1b[33mwarning\x1b[0m: {text}");
+            say("copse: \x1b[33mwarning\x1b[0m: ", text);
         } else {
-            eprintln!("copse: warning: {text}");
+            say("copse: warning: ", text);
         }
     }
 
     /// An error (always shown).
     pub fn error(&self, text: &str) {
         if self.stderr_colour {
-            eprintln!("copse: \x1b[31merror\x1b[0m: {text}");
+            say("copse: \x1b[31merror\x1b[0m: ", text);
         } else {
-            eprintln!("copse: error: {text}");
+            say("copse: error: ", text);
         }
     }
 
@@ -160,5 +212,16 @@ impl Bar {
 impl Drop for Bar {
     fn drop(&mut self) {
         self.finish();
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn messages_are_one_line() {
+        assert_eq!(one_line("plain"), "plain");
+        assert_eq!(one_line("a\nb\0c\u{1b}"), "a\\nb\\0c\\u{1b}");
     }
 }

@@ -71,14 +71,31 @@ pub fn parse_number(cell: &str) -> Option<f64> {
     cell.parse::<f64>().ok().filter(|v| v.is_finite())
 }
 
-/// Shortens a cell for a message.
+/// A cell as quoted in a message: control characters escaped (`\n`, `\r`, `\t`,
+/// `\0`, others as `\u{..}`), so every message stays on one line and nothing reaches
+/// the terminal raw, and shortened to 40 characters.
+///
+/// # Example
+/// ```
+/// assert_eq!(copse_data::clip("two\nlines\0"), "two\\nlines\\0");
+/// ```
 pub fn clip(t: &str) -> String {
-    if t.chars().count() > 40 {
-        let head: String = t.chars().take(37).collect();
-        format!("{head}...")
-    } else {
-        t.to_string()
+    let mut out = String::new();
+    for (shown, c) in t.chars().enumerate() {
+        if shown == 37 && t.chars().count() > 40 {
+            out.push_str("...");
+            break;
+        }
+        match c {
+            '\n' => out.push_str("\\n"),
+            '\r' => out.push_str("\\r"),
+            '\t' => out.push_str("\\t"),
+            '\0' => out.push_str("\\0"),
+            c if c.is_control() => out.push_str(&format!("\\u{{{:x}}}", u32::from(c))),
+            c => out.push(c),
+        }
     }
+    out
 }
 
 #[cfg(test)]

@@ -1,7 +1,9 @@
 //! Reading CSV input: a file or standard input (`-`), a header row, one of three
 //! delimiters, with or without a UTF-8 byte-order mark, CRLF or LF line ends, quoted
 //! fields. Every fault is reported with the file name, line and column and a hint.
+use crate::cells::clip;
 use crate::error::{Error, ErrorKind, Result};
+use crate::records::{Framed, Records, MAX_RECORD_BYTES};
 use copse_forest::io_reason;
 use std::fs::File;
 use std::io::{self, Read};
@@ -54,92 +56,28 @@ pub enum Row {
 /// An open CSV input with its header read and checked.
 pub struct CsvInput {
     name: String,
-    reader: csv::Reader<Box<dyn Read + Send>>,
+    records: Records,
     headers: Vec<String>,
     size: Option<u64>,
     delimiter: Delimiter,
     consumed: Arc<AtomicU64>,
+    blank: BlankLines,
 }
 
-/// Turns each CR LF pair into LF as bytes stream through, and counts the bytes read
-/// from the source. The CSV parser then ends every record on the LF, so the line
-/// numbers it reports are right for files with CRLF line ends too (ending a record on
-/// the CR would count each line break one record late). A lone CR is kept.
-pub struct CrlfToLf<R> {
-    inner: R,
-    buf: Box<[u8]>,
-    start: usize,
-    end: usize,
-    held_cr: bool,
-    consumed: Arc<AtomicU64>,
+/// Blank lines passed over in a file of several columns: how many, and the first few.
+#[derive(Debug, Default)]
+struct BlankLines {
+    count: u64,
+    first: Vec<u64>,
 }
 
-impl<R: Read> CrlfToLf<R> {
-    /// Wraps `inner`; `consumed` counts the bytes taken from it.
-    pub fn new(inner: R, consumed: Arc<AtomicU64>) -> Self {
-        CrlfToLf {
-            inner,
-            buf: vec![0u8; 1 << 16].into_boxed_slice(),
-            start: 0,
-            end: 0,
-            held_cr: false,
-            consumed,
-        }
-    }
-}
+impl BlankLines {
+    const SHOWN: usize = 5;
 
-impl<R: Read> Read for CrlfToLf<R> {
-    fn read(&mut self, out: &mut [u8]) -> io::Result<usize> {
-        if out.is_empty() {
-            return Ok(0);
-        }
-        loop {
-            if self.start == self.end {
-                let n = loop {
-                    match self.inner.read(&mut self.buf) {
-                        Ok(n) => break n,
-                        Err(e) if e.kind() == io::ErrorKind::Interrupted => continue,
-                        Err(e) => return Err(e),
-                    }
-                };
-                self.consumed.fetch_add(n as u64, Ordering::Relaxed);
-                self.start = 0;
-                self.end = n;
-                if self.held_cr {
-                    self.held_cr = false;
-                    if n == 0 || self.buf[0] != b'\n' {
-                        // The held CR was not part of a CR LF pair: pass it on.
-                        out[0] = b'\r';
-                        return Ok(1);
-                    }
-                }
-                if n == 0 {
-                    return Ok(0);
-                }
-            }
-            let mut w = 0;
-            while self.start < self.end && w < out.len() {
-                let b = self.buf[self.start];
-                if b == b'\r' {
-                    if self.start + 1 == self.end {
-                        // Whether this CR starts a CR LF pair is known only after
-                        // the next read.
-                        self.held_cr = true;
-                        self.start += 1;
-                        break;
-                    }
-                    if self.buf[self.start + 1] == b'\n' {
-                        self.start += 1;
-                        continue;
-                    }
-                }
-                out[w] = b;
-                w += 1;
-                self.start += 1;
-            }
-            if w > 0 {
-                return Ok(w);
-            }
+    fn add(&mut self, line: u64) {
+        self.count += 1;
+        if self.first.len() < Self::SHOWN {
+            self.first.push(line);
         }
     }
 }
@@ -198,29 +136,34 @@ impl CsvInput {
         delimiter: Delimiter,
     ) -> Result<Self> {
         let consumed = Arc::new(AtomicU64::new(0));
-        let source: Box<dyn Read + Send> = Box::new(CrlfToLf::new(source, consumed.clone()));
-        let reader = csv::ReaderBuilder::new()
-            .delimiter(delimiter.byte())
-            .has_headers(true)
-            .flexible(false)
-            .from_reader(source);
+        let records = Records::new(source, delimiter.byte(), consumed.clone());
         let mut input = CsvInput {
             name,
-            reader,
+            records,
             headers: Vec::new(),
             size,
             delimiter,
             consumed,
+            blank: BlankLines::default(),
         };
         input.read_headers()?;
         Ok(input)
     }
 
     fn read_headers(&mut self) -> Result<()> {
-        let record = match self.reader.headers() {
-            Ok(r) => r.clone(),
-            Err(e) => return Err(self.csv_error(&e)),
+        // Blank lines before the header are passed over.
+        let found = loop {
+            match self.records.next().map_err(|e| self.read_failure(&e))? {
+                Framed::Blank => continue,
+                other => break other,
+            }
         };
+        let mut record = csv::StringRecord::new();
+        match found {
+            Framed::End => {}
+            Framed::Fields => self.fill(&mut record)?,
+            _ => return Err(self.framing_error(found)),
+        }
         if record.is_empty() || (record.len() == 1 && record[0].trim().is_empty()) {
             return Err(Error::new(
                 ErrorKind::Malformed,
@@ -279,35 +222,114 @@ impl CsvInput {
     }
 
     /// Reads the next data row into `record`; `false` at the end of the input. The
-    /// record's position gives its line.
+    /// record's position gives its file line.
     ///
     /// # Errors
     /// An input error naming the line for a row of the wrong length, text that is not
-    /// UTF-8, or a read failure.
+    /// UTF-8, an unclosed quote, a row over [`MAX_RECORD_BYTES`], or a read failure.
     pub fn read(&mut self, record: &mut csv::StringRecord) -> Result<bool> {
-        self.reader
-            .read_record(record)
-            .map_err(|e| self.csv_error(&e))
+        match self.read_row(record)? {
+            Row::Record => Ok(true),
+            Row::End => Ok(false),
+            Row::Fault(_, e) => Err(e),
+        }
     }
 
     /// Reads the next data row like [`CsvInput::read`], but tells a fault of the row
-    /// itself (wrong number of fields, text that is not UTF-8), after which reading can
-    /// go on with the next row, from a fault of the input as a whole.
+    /// itself (wrong number of fields, text that is not UTF-8, a quote that never
+    /// closes), after which reading goes on with the next line, from a fault of the
+    /// input as a whole. A quoted field that runs over several lines and leaves its row
+    /// malformed is taken for a missing quote: the row's first line is the faulty one,
+    /// and reading starts again on the line after it, so every later line is still
+    /// read as a row.
+    ///
+    /// A blank line is a row with one missing value when the header has one column;
+    /// with several columns it is passed over and counted ([`CsvInput::blank_lines`]).
     ///
     /// # Errors
-    /// An input error when the input cannot be read further.
+    /// An input error when the input cannot be read further: a read failure, or a row
+    /// on one line longer than [`MAX_RECORD_BYTES`] (input without line ends).
     pub fn read_row(&mut self, record: &mut csv::StringRecord) -> Result<Row> {
-        match self.reader.read_record(record) {
-            Ok(true) => Ok(Row::Record),
-            Ok(false) => Ok(Row::End),
-            Err(e) => match e.kind() {
-                csv::ErrorKind::Utf8 { pos, .. } | csv::ErrorKind::UnequalLengths { pos, .. } => {
-                    let line = pos.as_ref().map_or(0, |p| p.line());
-                    Ok(Row::Fault(line, self.csv_error(&e)))
+        loop {
+            let found = self.records.next().map_err(|e| self.read_failure(&e))?;
+            let line = self.records.first_line();
+            match found {
+                Framed::End => return Ok(Row::End),
+                Framed::Blank if self.headers.len() == 1 => {
+                    record.clear();
+                    record.push_field("");
+                    record.set_position(Some(position(line)));
+                    return Ok(Row::Record);
                 }
-                _ => Err(self.csv_error(&e)),
-            },
+                Framed::Blank => self.blank.add(line),
+                Framed::Fields if self.records.len() == self.headers.len() => {
+                    return Ok(match self.fill(record) {
+                        Ok(()) => Row::Record,
+                        Err(e) => Row::Fault(line, e),
+                    });
+                }
+                Framed::TooLong if !self.records.spans_lines() => {
+                    return Err(self.framing_error(found));
+                }
+                _ => {
+                    let e = self.framing_error(found);
+                    self.records.restart_at_next_line();
+                    return Ok(Row::Fault(line, e));
+                }
+            }
         }
+    }
+
+    /// Blank lines passed over so far (in a file of several columns): how many, and the
+    /// first few line numbers.
+    pub fn blank_lines(&self) -> (u64, &[u64]) {
+        (self.blank.count, &self.blank.first)
+    }
+
+    /// A note about the blank lines passed over, if there were any.
+    pub fn blank_lines_note(&self) -> Option<String> {
+        let n = self.blank.count;
+        if n == 0 {
+            return None;
+        }
+        let mut lines: Vec<String> = self.blank.first.iter().map(u64::to_string).collect();
+        if n > lines.len() as u64 {
+            lines.push(format!("and {} more", n - lines.len() as u64));
+        }
+        Some(format!(
+            "{n} blank line{} of {} {} passed over, as they hold no row (line{} {})",
+            if n == 1 { "" } else { "s" },
+            self.name,
+            if n == 1 { "was" } else { "were" },
+            if n == 1 { "" } else { "s" },
+            lines.join(", ")
+        ))
+    }
+
+    /// Copies the fields of the record just framed into `record`, checking they are
+    /// UTF-8, with its file line as position.
+    fn fill(&self, record: &mut csv::StringRecord) -> Result<()> {
+        record.clear();
+        let line = self.records.first_line();
+        for i in 0..self.records.len() {
+            match std::str::from_utf8(self.records.field(i)) {
+                Ok(text) => record.push_field(text),
+                Err(_) => {
+                    let column = self
+                        .headers
+                        .get(i)
+                        .map_or(format!("column {}", i + 1), |h| {
+                            format!("column {} ('{}')", i + 1, clip(h))
+                        });
+                    return Err(Error::new(ErrorKind::Malformed, format!(
+                        "{} line {line}, {column}: the text is not valid UTF-8; save the file with UTF-8 encoding and try again",
+                        self.name
+                    )));
+                }
+            }
+        }
+        record.set_position(Some(position(line)));
+        Ok(())
     }
 
     /// Index of column `name`, if present.
@@ -315,51 +337,55 @@ impl CsvInput {
         self.headers.iter().position(|h| h == name)
     }
 
-    /// Turns a CSV error into a message naming the file, line and column.
-    fn csv_error(&self, e: &csv::Error) -> Error {
+    fn read_failure(&self, e: &io::Error) -> Error {
+        Error::new(
+            ErrorKind::Unreadable,
+            format!(
+                "could not read {}: {}; check the file is readable",
+                self.name,
+                io_reason(e)
+            ),
+        )
+    }
+
+    /// The message for a record that is not a row of the header's width.
+    fn framing_error(&self, found: Framed) -> Error {
         let name = &self.name;
-        match e.kind() {
-            csv::ErrorKind::Io(io) => Error::new(
-                ErrorKind::Unreadable,
-                format!(
-                    "could not read {name}: {}; check the file is readable",
-                    io_reason(io)
-                ),
+        let line = self.records.first_line();
+        let quote = "check that no quote is missing";
+        let text = match found {
+            Framed::Unclosed => format!(
+                "{name} line {line}: a quoted field that starts on this line is never closed \
+                 (the file ends inside it); {quote}"
             ),
-            csv::ErrorKind::Utf8 { pos, err } => {
-                let line = pos.as_ref().map_or(0, |p| p.line());
-                let col = err.field();
-                let column = self
-                    .headers
-                    .get(col)
-                    .map_or(format!("column {}", col + 1), |h| {
-                        format!("column {} ('{h}')", col + 1)
-                    });
-                Error::new(ErrorKind::Malformed, format!(
-                    "{name} line {line}, {column}: the text is not valid UTF-8; save the file with UTF-8 encoding and try again"
-                ))
-            }
-            csv::ErrorKind::UnequalLengths {
-                pos,
-                expected_len,
-                len,
-            } => {
-                let line = pos.as_ref().map_or(0, |p| p.line());
-                Error::new(
-                    ErrorKind::Malformed,
+            Framed::TooLong if self.records.spans_lines() => format!(
+                "{name} line {line}: a quoted field that starts on this line runs on past {} \
+                 without closing; {quote}",
+                RECORD_LIMIT_WORDS
+            ),
+            Framed::TooLong => format!(
+                "{name} line {line}: the row is longer than {RECORD_LIMIT_WORDS}, the most copse \
+                 reads as one row; check that {name} is a CSV text file with line ends"
+            ),
+            _ => {
+                let (len, want) = (self.records.len(), self.headers.len());
+                if self.records.spans_lines() {
                     format!(
-                    "{name} line {line}: found {len} fields but the header has {expected_len}; \
-                     check that fields holding a {} are quoted and that no quote is missing \
-                     (to read another delimiter, use --delimiter comma|tab|semicolon)",
-                    self.delimiter.name()
-                ),
-                )
+                        "{name} line {line}: found {len} fields but the header has {want}, with a quoted \
+                         field that starts on this line and runs on to line {}; {quote}",
+                        self.records.last_line()
+                    )
+                } else {
+                    format!(
+                        "{name} line {line}: found {len} fields but the header has {want}; \
+                         check that fields holding a {} are quoted and that no quote is missing \
+                         (to read another delimiter, use --delimiter comma|tab|semicolon)",
+                        self.delimiter.name()
+                    )
+                }
             }
-            _ => Error::new(
-                ErrorKind::Malformed,
-                format!("could not read {name} as CSV: {e}"),
-            ),
-        }
+        };
+        Error::new(ErrorKind::Malformed, text)
     }
 
     /// A hint when a one-column header looks like it uses another delimiter.
@@ -382,72 +408,124 @@ impl CsvInput {
     }
 }
 
+/// The record size limit in words, for messages.
+const RECORD_LIMIT_WORDS: &str = "1 MiB";
+const _: () = assert!(
+    MAX_RECORD_BYTES == 1 << 20,
+    "RECORD_LIMIT_WORDS names the limit"
+);
+
+/// A position holding only a file line.
+fn position(line: u64) -> csv::Position {
+    let mut p = csv::Position::new();
+    p.set_line(line);
+    p
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
 
-    /// Hands out at most `step` bytes per read, to cross every buffer boundary.
-    struct Trickle<'a> {
-        data: &'a [u8],
-        step: usize,
+    fn input(text: &[u8]) -> Result<CsvInput> {
+        CsvInput::from_reader(
+            "t.csv".to_string(),
+            Box::new(std::io::Cursor::new(text.to_vec())),
+            None,
+            Delimiter::Comma,
+        )
     }
 
-    impl Read for Trickle<'_> {
-        fn read(&mut self, out: &mut [u8]) -> io::Result<usize> {
-            let n = self.step.min(out.len()).min(self.data.len());
-            out[..n].copy_from_slice(&self.data[..n]);
-            self.data = &self.data[n..];
-            Ok(n)
-        }
-    }
-
-    fn convert(data: &[u8], step: usize, out_step: usize) -> Vec<u8> {
-        let counter = Arc::new(AtomicU64::new(0));
-        let mut r = CrlfToLf::new(Trickle { data, step }, counter.clone());
-        let mut got = Vec::new();
-        let mut chunk = vec![0u8; out_step];
-        loop {
-            let n = r.read(&mut chunk).unwrap();
-            if n == 0 {
-                break;
-            }
-            got.extend_from_slice(&chunk[..n]);
-        }
-        assert_eq!(counter.load(Ordering::Relaxed), data.len() as u64);
-        got
-    }
-
-    #[test]
-    fn crlf_pairs_become_lf_at_every_chunk_boundary() {
-        let data = b"a,b\r\n1,2\r\n\r\r\n\"x\r\ny\",3\r\rz\r";
-        let want = b"a,b\n1,2\n\r\n\"x\ny\",3\r\rz\r";
-        for step in 1..8 {
-            for out_step in 1..5 {
-                assert_eq!(convert(data, step, out_step), want, "{step} {out_step}");
-            }
-        }
-    }
-
-    #[test]
-    fn line_numbers_are_right_with_crlf() {
-        let data = b"a,b\r\n1,2\r\n3,4\r\n5\r\n";
-        let counter = Arc::new(AtomicU64::new(0));
-        let mut rdr = csv::ReaderBuilder::new().from_reader(CrlfToLf::new(&data[..], counter));
+    /// Every row read, as (line, first field) or the fault's line and message.
+    fn rows(text: &[u8]) -> Vec<std::result::Result<(u64, String), (u64, String)>> {
+        let mut inp = input(text).unwrap();
         let mut rec = csv::StringRecord::new();
-        let mut lines = Vec::new();
+        let mut got = Vec::new();
         loop {
-            match rdr.read_record(&mut rec) {
-                Ok(true) => lines.push(rec.position().map(|p| p.line())),
-                Ok(false) => break,
-                Err(e) => match e.kind() {
-                    csv::ErrorKind::UnequalLengths { pos, .. } => {
-                        lines.push(pos.as_ref().map(|p| p.line()));
-                        break;
-                    }
-                    _ => panic!("{e}"),
-                },
+            match inp.read_row(&mut rec).unwrap() {
+                Row::End => return got,
+                Row::Record => got.push(Ok((rec.position().unwrap().line(), rec[0].to_string()))),
+                Row::Fault(line, e) => got.push(Err((line, e.message().to_string()))),
             }
         }
-        assert_eq!(lines, vec![Some(2), Some(3), Some(4)]);
+    }
+
+    #[test]
+    fn blank_lines_are_missing_values_in_one_column_and_passed_over_in_several() {
+        let got = rows(b"a\n0.1\n\n0.9\n");
+        let want = [(2, "0.1"), (3, ""), (4, "0.9")];
+        assert_eq!(got, want.map(|(l, t)| Ok((l, t.to_string()))));
+        let text = b"a,b\n1,2\n\n\r\n3,4\n5\n";
+        let got = rows(text);
+        assert_eq!(got[0], Ok((2, "1".to_string())));
+        assert_eq!(got[1], Ok((5, "3".to_string())));
+        let Err((6, msg)) = &got[2] else {
+            panic!("{got:?}")
+        };
+        assert!(msg.starts_with("t.csv line 6: found 1 fields"), "{msg}");
+        let mut inp = input(text).unwrap();
+        let mut rec = csv::StringRecord::new();
+        while !matches!(inp.read_row(&mut rec).unwrap(), Row::End) {}
+        assert_eq!(inp.blank_lines(), (2, &[3u64, 4][..]));
+        let note = inp.blank_lines_note().unwrap();
+        assert!(
+            note.contains("2 blank lines of t.csv were passed over") && note.contains("lines 3, 4"),
+            "{note}"
+        );
+    }
+
+    /// A stray quote at the start of line 3: the fault names line 3, and every later
+    /// line is still read as a row.
+    #[test]
+    fn an_unclosed_quote_is_named_and_reading_goes_on_at_the_next_line() {
+        let got = rows(b"a,b\n1,2\n\"3,4\n5,6\n7,8\n");
+        assert_eq!(got[0], Ok((2, "1".to_string())));
+        let Err((3, msg)) = &got[1] else {
+            panic!("{got:?}")
+        };
+        assert!(
+            msg.contains("t.csv line 3: a quoted field that starts on this line is never closed"),
+            "{msg}"
+        );
+        assert_eq!(
+            got[2..],
+            [Ok((4, "5".to_string())), Ok((5, "7".to_string()))]
+        );
+        let mut inp = input(b"a,b\n1,2\n\"3,4\n5,6\n").unwrap();
+        let mut rec = csv::StringRecord::new();
+        assert!(inp.read(&mut rec).unwrap());
+        let e = inp.read(&mut rec).unwrap_err();
+        assert!(
+            e.message().starts_with("t.csv line 3: a quoted field"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn input_without_line_ends_is_refused_at_the_size_cap() {
+        let mut text = b"a,b\n".to_vec();
+        text.resize(text.len() + MAX_RECORD_BYTES + 1, b'y');
+        let mut inp = input(&text).unwrap();
+        let mut rec = csv::StringRecord::new();
+        let e = inp.read_row(&mut rec).unwrap_err();
+        assert!(
+            e.message()
+                .starts_with("t.csv line 2: the row is longer than 1 MiB"),
+            "{e}"
+        );
+        let e = input(&text[4..]).err().unwrap();
+        assert!(
+            e.message()
+                .starts_with("t.csv line 1: the row is longer than 1 MiB"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn quoted_line_breaks_are_kept_exactly() {
+        let mut inp = input(b"k,v\r\n\"\r\n4\",5\r\n").unwrap();
+        let mut rec = csv::StringRecord::new();
+        assert!(inp.read(&mut rec).unwrap());
+        assert_eq!(&rec[0], "\r\n4");
+        assert!(!inp.read(&mut rec).unwrap());
     }
 }

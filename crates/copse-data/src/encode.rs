@@ -246,6 +246,8 @@ pub struct Labelled {
     pub rows: usize,
     /// The encoder, for its unseen-category counts.
     pub encoder: RowEncoder,
+    /// Remarks about the file for the user (blank lines passed over).
+    pub notes: Vec<String>,
 }
 
 /// Reads every row of `input` for `model`, including the outcome column.
@@ -293,5 +295,6 @@ pub fn read_labelled(mut input: CsvInput, model: &Forest, missing: Missing) -> R
         outcome,
         rows,
         encoder: enc,
+        notes: input.blank_lines_note().into_iter().collect(),
     })
 }

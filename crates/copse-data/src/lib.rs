@@ -6,6 +6,8 @@
 //!
 //! The pieces, one concept per file:
 //! - [`csv_input`]: the CSV reader ([`CsvInput`]);
+//! - [`records`]: records and fields line by line, under the reader (size cap, blank
+//!   lines, restarting after a quote that never closes);
 //! - [`cells`]: missing tokens and numbers ([`Missing`]);
 //! - [`roles`]: which column is the outcome, which are left out ([`Roles`]);
 //! - `infer` (private): column kinds, the task, category labels;
@@ -42,6 +44,7 @@ pub mod csv_input;
 pub mod encode;
 pub mod error;
 mod infer;
+pub mod records;
 pub mod roles;
 pub mod training;
 
@@ -50,6 +53,7 @@ pub use csv_input::{CsvInput, Delimiter, Row};
 pub use encode::{read_labelled, Labelled, RowEncoder};
 pub use error::{Error, ErrorKind, Result};
 pub use infer::MAX_TARGET_SIZE;
+pub use records::MAX_RECORD_BYTES;
 pub use roles::Roles;
 pub use training::{TrainingTable, MAX_CATEGORIES};
 

@@ -83,7 +83,7 @@ impl TrainingTable {
         let headers = input.headers().to_vec();
         let (records, tallies) = infer::tally(&mut input, &layout, &missing)?;
         let n_read = records.len();
-        let mut notes = Vec::new();
+        let mut notes: Vec<String> = input.blank_lines_note().into_iter().collect();
         let mut categorical = infer::kinds(&name, &headers, &layout, &tallies, roles, &mut notes)?;
         let tc = layout.target;
         let mut task = infer::task(&name, roles, &tallies[tc], categorical[tc], n_read)?;

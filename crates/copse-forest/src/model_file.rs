@@ -50,21 +50,46 @@ fn config() -> bincode::config::Configuration {
 /// # Errors
 /// `InvalidModel` when the value cannot be encoded.
 pub fn encode<T: Serialize>(value: &T) -> Result<Vec<u8>> {
-    let payload = bincode::serde::encode_to_vec(value, config()).map_err(|e| {
+    // The payload is measured first (encoded into a counter), then encoded straight
+    // after the header into a buffer of exactly the file's size: a model of several
+    // gigabytes is held once more as bytes, not two or three times (a growing payload
+    // buffer, then a framed copy of it).
+    let mut counter = Counter(0);
+    bincode::serde::encode_into_std_write(value, &mut counter, config()).map_err(|e| {
         Error::new(
             ErrorKind::InvalidModel,
             format!("could not encode the model: {e}"),
         )
     })?;
-    let mut bytes = Vec::with_capacity(HEADER_LEN + payload.len() + TRAILER_LEN);
+    let mut bytes = Vec::with_capacity(HEADER_LEN + counter.0 + TRAILER_LEN);
     bytes.extend_from_slice(&MAGIC);
     bytes.extend_from_slice(&FORMAT_VERSION.to_le_bytes());
     bytes.extend_from_slice(&0u16.to_le_bytes());
-    bytes.extend_from_slice(&(payload.len() as u64).to_le_bytes());
-    bytes.extend_from_slice(&payload);
+    bytes.extend_from_slice(&0u64.to_le_bytes());
+    debug_assert_eq!(bytes.len(), HEADER_LEN);
+    let len = bincode::serde::encode_into_std_write(value, &mut bytes, config()).map_err(|e| {
+        Error::new(
+            ErrorKind::InvalidModel,
+            format!("could not encode the model: {e}"),
+        )
+    })?;
+    bytes[HEADER_LEN - 8..HEADER_LEN].copy_from_slice(&(len as u64).to_le_bytes());
     let crc = crc32fast::hash(&bytes);
     bytes.extend_from_slice(&crc.to_le_bytes());
     Ok(bytes)
+}
+
+/// A writer that only counts the bytes it is given.
+struct Counter(usize);
+
+impl Write for Counter {
+    fn write(&mut self, buf: &[u8]) -> io::Result<usize> {
+        self.0 += buf.len();
+        Ok(buf.len())
+    }
+    fn flush(&mut self) -> io::Result<()> {
+        Ok(())
+    }
 }
 
 /// Checks the header of a model file and returns the payload length it claims.

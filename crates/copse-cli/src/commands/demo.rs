@@ -29,6 +29,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
     let shown = |p: &Path| p.display().to_string();
     let (train_csv, score_csv) =
         write_demo_files(&dir.join("data"), TRAIN_ROWS, SCORE_ROWS, DEFAULT_SEED)?;
+    crate::output::commit_all()?;
     let model_path = dir.join("water_mains.copse");
     let oob_path = dir.join("oob_predictions.csv");
     let plots_dir = dir.join("plots");
@@ -76,6 +77,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
     emit(&text)?;
     let run = train::train(&targs, ui)?;
     write_file(&report_path, run.text.as_bytes())?;
+    crate::output::commit_all()?;
     emit(&run.text)?;
 
     let sargs = ScoreArgs {
@@ -89,6 +91,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         block_rows: None,
     };
     let scored = score::score(&sargs, ui)?;
+    crate::output::commit_all()?;
 
     let mut tail = String::new();
     let _ = writeln!(

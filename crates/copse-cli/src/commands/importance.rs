@@ -42,6 +42,7 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
         )
         .map_err(|e| CliError::failure(format!("could not draw the chart: {e}")))?;
         write_file(path, svg.as_bytes())?;
+        crate::output::commit_all()?;
         ui.wrote(&format!("importance chart: {}", path.display()));
     }
 

@@ -18,6 +18,7 @@ use std::path::{Path, PathBuf};
 /// Failures when the folder or files cannot be written.
 pub fn run(a: &MakeDemoDataArgs, ui: &Ui) -> CliResult<()> {
     let (train, score) = write_demo_files(&a.out, a.rows, a.score_rows, a.seed)?;
+    crate::output::commit_all()?;
     ui.wrote(&format!(
         "invented register of {} segments: {}",
         a.rows,

@@ -22,7 +22,7 @@ pub fn run(cli: Cli) -> CliResult<()> {
     let ui = Ui::detect(cli.quiet);
     let mut builder = rayon::ThreadPoolBuilder::new();
     if let Some(n) = cli.threads {
-        builder = builder.num_threads(usize::from(n));
+        builder = builder.num_threads(crate::ui::thread_count(usize::from(n), &ui));
     }
     let pool = builder
         .build()
@@ -79,6 +79,7 @@ pub fn make_folder(dir: &std::path::Path) -> CliResult<()> {
 /// # Errors
 /// An input error saying what is wrong.
 pub fn check_destination(path: &std::path::Path) -> CliResult<()> {
+    crate::output::check_file_name(path)?;
     let dir = match path.parent() {
         Some(d) if !d.as_os_str().is_empty() => d,
         _ => std::path::Path::new("."),
@@ -130,6 +131,9 @@ pub fn load_labelled(
     let labelled = copse_data::read_labelled(input, &model, missing)?;
     if let Some(w) = labelled.encoder.unseen_warning() {
         ui.warn(&w);
+    }
+    for n in &labelled.notes {
+        ui.note(n);
     }
     Ok((model, source, labelled))
 }

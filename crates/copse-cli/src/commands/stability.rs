@@ -66,6 +66,7 @@ pub fn run(a: &StabilityArgs, ui: &Ui) -> CliResult<()> {
         let svg = plots::stability_svg(&r, &sub)
             .map_err(|e| CliError::failure(format!("could not draw the chart: {e}")))?;
         write_file(path, svg.as_bytes())?;
+        crate::output::commit_all()?;
         ui.wrote(&format!("stability chart: {}", path.display()));
     }
     let view = StabilityView::new(&r, &data.source, target, &names);

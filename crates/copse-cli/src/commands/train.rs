@@ -39,6 +39,7 @@ pub struct TrainRun {
 /// Input errors for bad data or settings, failures when writing.
 pub fn run(a: &TrainArgs, ui: &Ui) -> CliResult<()> {
     let r = train(a, ui)?;
+    crate::output::commit_all()?;
     for (what, path) in &r.outputs {
         ui.wrote(&format!("{what}: {}", path.display()));
     }
@@ -57,6 +58,12 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     let started = Instant::now();
     check_output(&a.data, &a.out, "model file")?;
     if let Some(o) = &a.oob_out {
+        if o.as_os_str() == "-" {
+            return Err(CliError::input(
+                "--oob-out - would mix the out-of-bag CSV with the report on standard output; \
+                 give a file name",
+            ));
+        }
         check_output(&a.data, o, "out-of-bag file")?;
         if o == &a.out {
             return Err(CliError::input(
@@ -175,20 +182,12 @@ fn check_memory(data: &TrainingData, settings: &ForestSettings, a: &TrainArgs) -
     let Some(available) = memory::available_bytes() else {
         return Ok(());
     };
-    let request = memory::Request {
-        rows: data.x.nrows() as u64,
-        trees: u64::from(a.trees),
-        min_leaf: u64::from(a.min_leaf),
-        max_depth: a.max_depth,
-        outputs: data.classes().len().max(1) as u64,
-        sampling: settings.sampling,
-        keep_draws: a.keep_draws,
-    };
-    let need = memory::model_bytes(&request);
+    let request = memory::Request::new(data, settings, a.keep_draws);
+    let need = memory::peak_bytes(&request);
     if need > available as f64 {
         return Err(CliError::input(format!(
-            "training {} trees on the {} rows of {} with --min-leaf {} could need about {} for the model, \
-             but only {} of memory is available; use fewer --trees, a larger --min-leaf or a --max-depth \
+            "training {} trees on the {} rows of {} with --min-leaf {} could need about {} of memory at its peak (the model twice over while \
+             it is saved, and working tables), but only {} of memory is available; use fewer --trees, a larger --min-leaf or a --max-depth \
              (or add --allow-large to try anyway)",
             a.trees,
             request.rows,

@@ -34,6 +34,7 @@ pub struct ScoreRun {
 /// Input errors for a bad model, a missing column or a bad cell; failures when writing.
 pub fn run(a: &ScoreArgs, ui: &Ui) -> CliResult<()> {
     let r = score(a, ui)?;
+    crate::output::commit_all()?;
     if r.output != "standard output" {
         ui.wrote(&format!("{} scored rows: {}", r.rows, r.output));
     }
@@ -177,6 +178,7 @@ fn write_blocks(
     out: &mut Output,
 ) -> CliResult<Written> {
     let out_name = out.name().to_string();
+    let to_stdout = matches!(out, Output::Stdout(_));
     let delimiter = copse_data::Delimiter::from(a.csv.delimiter).byte();
     let header_text = csv_text(delimiter, 256, |w| w.write_record(header))?;
     // The header goes out with the first block, so a fault in the first rows leaves
@@ -223,6 +225,11 @@ fn write_blocks(
             put(out, &text?)?;
         }
         rows += b.m as u64;
+        if to_stdout {
+            // So that an interruption can say how many rows went out.
+            out.flush().map_err(|e| CliError::write(&out_name, &e))?;
+            crate::interrupt::rows_to_stdout(rows);
+        }
         bar.advance_to(b.bytes as usize);
         Ok(())
     };
@@ -249,6 +256,9 @@ fn tell(a: &ScoreArgs, ui: &Ui, forest: &Forest, src: &Source, written: &Written
     }
     if written.skipped.count > 0 {
         ui.warn(&written.skipped.warning(src.input.name(), written.rows));
+    }
+    if let Some(note) = src.input.blank_lines_note() {
+        ui.note(&note);
     }
     if a.uncertainty {
         ui.note(
