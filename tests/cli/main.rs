@@ -12,6 +12,9 @@ use std::process::{Command, Output, Stdio};
 mod bad_input;
 mod extras;
 mod library;
+mod shapes;
+#[path = "../support/mod.rs"]
+mod support;
 
 /// A file of the repository.
 fn repo(rel: &str) -> PathBuf {
