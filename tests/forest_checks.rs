@@ -10,16 +10,18 @@ use copse_forest::{
 use ndarray::{Array2, Axis, ShapeBuilder};
 
 mod support;
+use support::seed;
 
 // ---------------------------------------------------------------------------------
 // Helpers
 // ---------------------------------------------------------------------------------
 
-fn settings(trees: usize, k: FeaturesPerSplit, seed: u64) -> ForestSettings {
+/// Forest settings; `base` is moved by the test seed offset (`support::seed`).
+fn settings(trees: usize, k: FeaturesPerSplit, base: u64) -> ForestSettings {
     ForestSettings {
         trees,
         features_per_split: k,
-        seed,
+        seed: seed(base),
         ..Default::default()
     }
 }
@@ -107,8 +109,8 @@ const SEEDS: u64 = 5;
 fn table2(gen: &dyn Fn(usize, u64) -> Synthetic) -> (f64, f64) {
     let (mut forest, mut tree) = (0.0, 0.0);
     for s in 0..SEEDS {
-        let train_set = gen(300, 1000 + s);
-        let test_set = gen(3000, 2000 + s);
+        let train_set = gen(300, seed(1000 + s));
+        let test_set = gen(3000, seed(2000 + s));
         let m = train_set.x.ncols() as f64;
         let f_log = (m.log2() + 1.0).floor() as usize;
         let a = train(
@@ -135,8 +137,9 @@ fn bayes_floor(bayes: f64) -> f64 {
 
 /// Asserts the Table 2 checks for one problem. `published` is the forest figure of
 /// Table 2 (memory, so 2.5 points of slack as the issue asks); the single tree must
-/// err at least 1.4 times as often as the forest (its published figures are 3 to 6
-/// times the forest's).
+/// err at least 1.4 times as often as the forest (the published one-tree figures of
+/// the same table are about twice the forest's on waveform and threenorm, the closest
+/// pairs; memory).
 fn check_table2(name: &str, gen: &dyn Fn(usize, u64) -> Synthetic, bayes: f64, published: f64) {
     let (forest, tree) = table2(gen);
     println!(
@@ -210,8 +213,8 @@ fn bagging_beats_one_tree_on_waveform() {
     // 19.3% (memory).
     let (mut bag, mut one) = (0.0, 0.0);
     for s in 0..SEEDS {
-        let tr = synth::waveform21(300, 1000 + s);
-        let te = synth::waveform21(3000, 2000 + s);
+        let tr = synth::waveform21(300, seed(1000 + s));
+        let te = synth::waveform21(3000, seed(2000 + s));
         let f = train(&tr, &settings(50, FeaturesPerSplit::All, 50 + s));
         bag += test_error(&f.forest, &te);
         one += test_error(&single_tree(&tr), &te);
@@ -233,8 +236,8 @@ fn oob_error_is_honest_on_twonorm() {
     // 0.035, the OOB estimate's sd is about sqrt(0.035 * 0.965 / 2000) = 0.004 and the
     // 5000-case test error's 0.0026, so their difference has sd about 0.005: 2 points
     // is 4 sd.
-    let tr = synth::twonorm(2000, 11);
-    let te = synth::twonorm(5000, 12);
+    let tr = synth::twonorm(2000, seed(11));
+    let te = synth::twonorm(5000, seed(12));
     let t = train(&tr, &settings(200, FeaturesPerSplit::Auto, 13));
     let (oob, test) = (oob_error(&t), test_error(&t.forest, &te));
     println!("twonorm n=2000: OOB error {oob:.4}, fresh-case error {test:.4}");
@@ -252,7 +255,7 @@ fn one_tree_reports_rows_never_out_of_bag() {
     // 0.368 (Breiman 1996, "Out-of-bag estimation"); with one tree the other 63.2% are
     // never out of bag. The share is a mean of 500 weakly dependent indicators with sd
     // about sqrt(0.368 * 0.632 / 500) = 0.022, so 4 sd = 0.09.
-    let d = synth::twonorm(500, 21);
+    let d = synth::twonorm(500, seed(21));
     let t = train(&d, &settings(1, FeaturesPerSplit::Auto, 22));
     let s = t.forest.oob();
     let never = s.rows_never_oob as f64 / 500.0;
@@ -290,7 +293,7 @@ fn friedman1_importance_finds_the_five_real_inputs() {
     // Friedman (1991): y depends on x1..x5 only. Breiman 1996 "Bagging predictors" uses
     // 200 training cases; 300 here. Every real input must rank above every noise input
     // in out-of-bag permutation importance (MSE increase).
-    let d = synth::friedman1(300, 31);
+    let d = synth::friedman1(300, seed(31));
     let s = importance_settings(200, 32);
     let t = train_importance(&d, &s);
     let imp = &t
@@ -348,7 +351,7 @@ fn replicated_importance(gen: &dyn Fn(u64) -> Synthetic, reps: u64, trees: usize
     let mut impurity: Vec<f64> = Vec::new();
     let mut oob = 0.0;
     for r in 0..reps {
-        let d = gen(5000 + r);
+        let d = gen(seed(5000 + r));
         let s = importance_settings(trees, 6000 + r);
         let t = train_importance(&d, &s);
         let imp = &t.forest.oob_importance().expect("requested").error;
@@ -382,7 +385,7 @@ fn waveform40_importance_ignores_the_noise_inputs() {
     // permutation importance singles out the waveform inputs. Inputs 1 and 21 are
     // zero in all three base waves (CART p. 49), so they are noise too; the top ten
     // must all be among the first 21.
-    let d = synth::waveform40(600, 41);
+    let d = synth::waveform40(600, seed(41));
     let s = importance_settings(200, 42);
     let t = train_importance(&d, &s);
     let imp = &t.forest.oob_importance().expect("requested").error;
@@ -507,8 +510,8 @@ fn check_stability(name: &str, gen: &dyn Fn(usize, u64) -> Synthetic) {
     // bootstrap sample and input draws), so the seed changes it as it changes a forest.
     // 3000 test cases make each disagreement share accurate to about 0.01, far below
     // the margin a factor of two leaves when trees disagree on 20-30% of cases.
-    let tr = gen(300, 61);
-    let te = gen(3000, 62);
+    let tr = gen(300, seed(61));
+    let te = gen(3000, seed(62));
     let forest_a = train(&tr, &settings(100, FeaturesPerSplit::Auto, 1)).forest;
     let forest_b = train(&tr, &settings(100, FeaturesPerSplit::Auto, 2)).forest;
     let tree_a = train(&tr, &settings(1, FeaturesPerSplit::Auto, 1)).forest;
@@ -593,7 +596,7 @@ fn same_model_for_any_thread_count() {
     // index) and results are combined in tree order (issue 3), so serialized bytes,
     // out-of-bag predictions and held-out importance must match exactly.
     let classes = read_csv("penguins.csv", "species");
-    let values = synth::friedman1(400, 91);
+    let values = synth::friedman1(400, seed(91));
     for d in [&classes, &values] {
         let s = importance_settings(60, 92);
         let runs: Vec<(Vec<u8>, Vec<u64>, Vec<u64>)> = [1, 2, 4]
@@ -603,7 +606,7 @@ fn same_model_for_any_thread_count() {
                     let t = train_importance(d, &s);
                     let imp = t
                         .forest
-                        .permutation_importance(d.x.view(), &d.outcome, 3, 5)
+                        .permutation_importance(d.x.view(), &d.outcome, 3, seed(5))
                         .expect("importance");
                     let imp_bits = imp
                         .error
@@ -623,7 +626,7 @@ fn same_model_for_any_thread_count() {
         let other = train(
             d,
             &ForestSettings {
-                seed: 93,
+                seed: seed(93),
                 ..s.clone()
             },
         );
@@ -633,7 +636,7 @@ fn same_model_for_any_thread_count() {
 
 #[test]
 fn predictions_follow_input_order_and_round_trip() {
-    let d = synth::waveform21(700, 101);
+    let d = synth::waveform21(700, seed(101));
     let t = train(&d, &settings(30, FeaturesPerSplit::Auto, 102));
     let p = t.forest.predict(d.x.view()).expect("predicts");
     // Reversed input gives reversed output (rows are independent).
@@ -662,7 +665,7 @@ fn predictions_follow_input_order_and_round_trip() {
 
 #[test]
 fn evaluation_matches_classes_by_label_and_refuses_strangers() {
-    let d = synth::twonorm(400, 111);
+    let d = synth::twonorm(400, seed(111));
     let t = train(&d, &settings(40, FeaturesPerSplit::Auto, 112));
     let direct = t
         .forest
@@ -737,8 +740,8 @@ fn balanced_sampling_lowers_the_minority_class_error() {
             },
         }
     };
-    let tr = keep(synth::twonorm(600, 121), 122);
-    let te = keep(synth::twonorm(6000, 123), 124);
+    let tr = keep(synth::twonorm(600, seed(121)), seed(122));
+    let te = keep(synth::twonorm(6000, seed(123)), seed(124));
     let plain = train(&tr, &settings(200, FeaturesPerSplit::Auto, 125)).forest;
     let balanced = train(
         &tr,
@@ -797,7 +800,7 @@ fn balanced_sampling_lowers_the_minority_class_error() {
 #[test]
 fn bad_input_gives_typed_errors() {
     use copse_forest::ErrorKind;
-    let d = synth::twonorm(50, 131);
+    let d = synth::twonorm(50, seed(131));
     let s = settings(5, FeaturesPerSplit::Auto, 1);
     let kind = |x: &Array2<f64>, meta: &[FeatureMeta], o: &Outcome, s: &ForestSettings| {
         Forest::train(x.view(), meta, o, s, &TrainOptions::default())
@@ -834,7 +837,7 @@ fn bad_input_gives_typed_errors() {
         kind(&d.x, &d.meta, &d.outcome, &zero),
         ErrorKind::InvalidSetting
     );
-    let f = synth::friedman1(50, 1);
+    let f = synth::friedman1(50, seed(1));
     let bal = ForestSettings {
         balanced: true,
         ..s.clone()
@@ -861,7 +864,7 @@ fn bad_input_gives_typed_errors() {
 fn rows_with_missing_outcome_are_left_out_and_counted() {
     // Rows with no outcome are never drawn, so every tree leaves them out: they get an
     // out-of-bag prediction from all trees but count in no measure.
-    let d = synth::friedman1(200, 141);
+    let d = synth::friedman1(200, seed(141));
     let Outcome::Values(mut y) = d.outcome.clone() else {
         panic!("values")
     };
@@ -888,10 +891,10 @@ fn rows_with_missing_outcome_are_left_out_and_counted() {
     assert_eq!(o.metrics.as_ref().expect("measured").rows(), 180);
     assert!(t.forest.oob_importance().is_some());
     // Held-out importance and evaluation on fresh data work for regression too.
-    let fresh = synth::friedman1(300, 143);
+    let fresh = synth::friedman1(300, seed(143));
     let imp = t
         .forest
-        .permutation_importance(fresh.x.view(), &fresh.outcome, 4, 9)
+        .permutation_importance(fresh.x.view(), &fresh.outcome, 4, seed(9))
         .expect("importance");
     assert!(imp.brier.is_none());
     assert_eq!(imp.error.replicates, 4);

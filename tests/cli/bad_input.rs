@@ -1410,7 +1410,7 @@ mod properties {
         }
 
         #[test]
-        fn random_csv_shapes_through_csv_ingestion(data in csv_shape()) {
+        fn random_csv_shapes_cause_no_panic_in_csv_ingestion(data in csv_shape()) {
             let _ = ingest_csv(&data);
         }
 
@@ -1452,7 +1452,7 @@ mod properties {
         /// Random payloads inside a well-formed container (correct marker, length and
         /// checksum) reach the decoder itself, and must not panic it.
         #[test]
-        fn random_payloads_through_model_decoding(payload in prop::collection::vec(any::<u8>(), 0..600)) {
+        fn random_payloads_cause_no_panic_in_model_decoding(payload in prop::collection::vec(any::<u8>(), 0..600)) {
             let mut data = vec![0u8];
             data.extend_from_slice(&wrap_payload(&payload));
             let _ = decode_model(&data);

@@ -6,6 +6,8 @@
 //!
 //! Data: `tests/data/iris.csv` (Fisher 1936; provenance in `tests/data/README.md`).
 use super::{copse_in, expect_code, json_of, read_csv, repo, tmp, train_iris};
+use copse_data::{Roles, TrainingTable};
+use copse_forest::{response_permutation_test, Forest, ForestSettings, TrainOptions};
 
 fn iris() -> String {
     repo("tests/data/iris.csv")
@@ -38,32 +40,69 @@ fn train_petal_width(dir: &std::path::Path, extra: &[&str]) -> std::process::Out
     copse_in(dir, &args, None)
 }
 
-/// `score --uncertainty` adds one standard-error column per output. Two classes:
-/// p(no) = 1 - p(yes) in every tree, so both columns are equal (computed from the
-/// formula); three classes: one column per class; regression: `se_prediction`.
-/// Standard errors are non-negative numbers or empty (unknown), and with 300 trees for
-/// 150 rows most are known.
+/// Scores iris (or `data`) with `model` and `--uncertainty`; returns the CSV rows.
+fn score_with_errors(dir: &std::path::Path, model: &str, data: &str) -> Vec<Vec<String>> {
+    let (so, se) = expect_code(
+        &copse_in(
+            dir,
+            &["score", "--model", model, "--data", data, "--uncertainty"],
+            None,
+        ),
+        0,
+    );
+    assert!(se.contains("infinitesimal jackknife"), "{se}");
+    read_csv(so.as_bytes())
+}
+
+/// The standard-error columns the command printed (from column `first` on, one per
+/// output) against the library's own computation on the same model file and rows
+/// (copse-data reads the rows the way the command does, copse-forest computes): an
+/// empty cell exactly where the library has no estimate, else the library's value to
+/// the 6 decimals the command prints. Returns the number of known standard errors.
+fn assert_errors_match_the_library(
+    dir: &std::path::Path,
+    model: &str,
+    table: &TrainingTable,
+    rows: &[Vec<String>],
+    first: usize,
+) -> usize {
+    let forest = Forest::load(dir.join(model)).expect("the model loads");
+    let u = forest
+        .prediction_uncertainty(table.x.view())
+        .expect("standard errors");
+    let lib = u.std_errors();
+    assert_eq!(
+        rows.len(),
+        lib.nrows() + 1,
+        "a row per input row and a header"
+    );
+    let mut known = 0;
+    for (i, row) in rows[1..].iter().enumerate() {
+        for (c, want) in lib.row(i).iter().enumerate() {
+            let cell = &row[first + c];
+            match want {
+                None => assert!(cell.is_empty(), "row {i} output {c}: {cell} for unknown"),
+                Some(w) => {
+                    let got: f64 = cell.parse().expect("a standard error");
+                    assert!((got - w).abs() <= 5e-7, "row {i} output {c}: {got} vs {w}");
+                    known += 1;
+                }
+            }
+        }
+    }
+    known
+}
+
+/// `score --uncertainty` adds one standard-error column per output: one per class
+/// (three for iris), `se_prediction` for regression. What it prints is what the
+/// library computes (see `assert_errors_match_the_library`); with 300 trees for 150
+/// rows most regression errors are known.
 #[test]
 fn scoring_with_standard_errors() {
     let dir = tmp();
     let data = iris();
     expect_code(&train_iris(dir.path(), &["--keep-draws"]), 0);
-    let (so, se) = expect_code(
-        &copse_in(
-            dir.path(),
-            &[
-                "score",
-                "--model",
-                "iris.copse",
-                "--data",
-                &data,
-                "--uncertainty",
-            ],
-            None,
-        ),
-        0,
-    );
-    let rows = read_csv(so.as_bytes());
+    let rows = score_with_errors(dir.path(), "iris.copse", &data);
     assert_eq!(
         rows[0],
         [
@@ -76,39 +115,73 @@ fn scoring_with_standard_errors() {
             "se_virginica"
         ]
     );
-    assert_eq!(rows.len(), 151);
-    assert!(se.contains("infinitesimal jackknife"), "{se}");
+    let table = TrainingTable::read_csv(&data, &Roles::target("species")).expect("iris reads");
+    assert_errors_match_the_library(dir.path(), "iris.copse", &table, &rows, 4);
 
     let (report, notes) = expect_code(&train_petal_width(dir.path(), &["--keep-draws"]), 0);
     assert!(report.contains("row draws kept"), "{report}");
     assert!(notes.is_empty() || !notes.contains("many trees"), "{notes}");
-    let (so, _) = expect_code(
-        &copse_in(
-            dir.path(),
-            &[
-                "score",
-                "--model",
-                "width.copse",
-                "--data",
-                &data,
-                "--uncertainty",
-            ],
-            None,
-        ),
-        0,
-    );
-    let rows = read_csv(so.as_bytes());
+    let rows = score_with_errors(dir.path(), "width.copse", &data);
     assert_eq!(rows[0], ["prediction", "se_prediction"]);
-    let ses: Vec<Option<f64>> = rows[1..]
-        .iter()
-        .map(|r| (!r[1].is_empty()).then(|| r[1].parse::<f64>().expect("a number")))
-        .collect();
-    assert!(ses.iter().flatten().all(|&v| v >= 0.0));
-    let known = ses.iter().flatten().count();
+    let roles = Roles {
+        ignore: vec!["species".to_string()],
+        ..Roles::target("petal_width")
+    };
+    let table = TrainingTable::read_csv(&data, &roles).expect("iris reads");
+    let known = assert_errors_match_the_library(dir.path(), "width.copse", &table, &rows, 1);
     assert!(known > 100, "{known} of 150 known");
-    // Petal width spans 0.1 to 2.5 cm (Fisher 1936): a standard error of a forest's
-    // prediction from 150 rows is a small fraction of that range.
-    assert!(ses.iter().flatten().all(|&v| v < 0.5), "{ses:?}");
+}
+
+/// Two classes: p(second) = 1 - p(first) in every tree, so both probabilities have the
+/// same deviations up to sign and the same standard error (computed from the formula,
+/// Wager, Hastie & Efron 2014): the two columns are equal, cell for cell. Iris
+/// restricted to versicolor and virginica (Fisher 1936), the two species that overlap,
+/// so the standard errors are not all zero.
+#[test]
+fn two_classes_get_equal_standard_errors() {
+    let dir = tmp();
+    let iris = std::fs::read_to_string(iris()).expect("iris");
+    let two: String = iris
+        .lines()
+        .filter(|l| !l.ends_with("setosa"))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    std::fs::write(dir.path().join("two.csv"), two).expect("write");
+    let args = [
+        "train",
+        "--data",
+        "two.csv",
+        "--target",
+        "species",
+        "--out",
+        "two.copse",
+        "--trees",
+        "300",
+        "--seed",
+        "4",
+        "--keep-draws",
+    ];
+    expect_code(&copse_in(dir.path(), &args, None), 0);
+    let rows = score_with_errors(dir.path(), "two.copse", "two.csv");
+    assert_eq!(
+        rows[0],
+        [
+            "prediction",
+            "prob_versicolor",
+            "prob_virginica",
+            "se_versicolor",
+            "se_virginica"
+        ]
+    );
+    assert_eq!(rows.len(), 101);
+    for (i, r) in rows[1..].iter().enumerate() {
+        assert_eq!(r[3], r[4], "row {i}");
+    }
+    let positive = rows[1..]
+        .iter()
+        .filter(|r| r[3].parse::<f64>().is_ok_and(|v| v > 0.0))
+        .count();
+    assert!(positive > 10, "{positive} positive standard errors of 100");
 }
 
 #[test]
@@ -162,7 +235,9 @@ fn standard_errors_need_the_draws_and_plain_bootstrap() {
 /// `--null-permutations`: a p-value per input from forests on a shuffled target, in
 /// the report, the JSON and the chart. Iris (Fisher 1936): the petal measurements
 /// separate the species almost perfectly (fact of the trade), so with 19 permutations
-/// they get the smallest possible p-value, 1/20.
+/// they get the smallest possible p-value, 1/20. Every p-value is the library's
+/// (`response_permutation_test` on the same rows, settings and seed; Altmann et al.
+/// 2010), which with 19 permutations is (1 + k) / 20 for a count k of 0 to 19.
 #[test]
 fn importance_p_values_from_a_shuffled_target() {
     let dir = tmp();
@@ -175,9 +250,44 @@ fn importance_p_values_from_a_shuffled_target() {
     assert!(tests
         .iter()
         .any(|t| t["test"] == "shuffled_target" && t["null_size"] == 19));
-    for e in j["importance"].as_array().expect("list") {
+    // The library's p-values for the same file, settings (150 trees, seed 3, as
+    // `train_iris`) and permutation seed (the training seed).
+    let table = TrainingTable::read_csv(iris(), &Roles::target("species")).expect("iris reads");
+    let settings = ForestSettings {
+        trees: 150,
+        seed: 3,
+        ..ForestSettings::default()
+    };
+    let trained = table
+        .train(&settings, &TrainOptions::default())
+        .expect("trains");
+    let lib = response_permutation_test(
+        table.x.view(),
+        &table.features,
+        &table.outcome,
+        &settings,
+        trained.forest.oob_importance().expect("importance"),
+        19,
+        3,
+        &|_, _| {},
+    )
+    .expect("test runs");
+    let entries = j["importance"].as_array().expect("list");
+    assert_eq!(entries.len(), 4);
+    for e in entries {
         let p = e["p_shuffle"].as_f64().expect("a p-value");
-        assert!((0.05 - 1e-12..=1.0).contains(&p), "{e}");
+        let name = e["feature"].as_str().expect("a name");
+        let k = table
+            .features
+            .iter()
+            .position(|f| f.name == name)
+            .expect("an input of the file");
+        assert_eq!(p, lib.error.p_values[k], "{e}");
+        let count = p * 20.0 - 1.0;
+        assert!(
+            (count - count.round()).abs() < 1e-9 && (0.0..=19.0).contains(&count),
+            "{e}"
+        );
         if e["feature"] == "petal_length" || e["feature"] == "petal_width" {
             assert!((p - 0.05).abs() < 1e-12, "{e}");
         }

@@ -14,6 +14,9 @@ mod decisions;
 mod extras;
 mod library;
 mod reliability;
+mod shapes;
+#[path = "../support/mod.rs"]
+mod support;
 
 /// A file of the repository.
 fn repo(rel: &str) -> PathBuf {
@@ -193,9 +196,19 @@ fn iris_round_trip() {
     let ev = json_of(&ev);
     assert_eq!(ev["command"], "evaluate");
     assert_eq!(ev["evaluation"]["rows"], 150);
-    // On its own training rows the forest is far better than out of bag.
+    // On its own training rows the forest is far better than out of bag: each row sits
+    // in the bootstrap sample of about 63% of the trees (1 - 1/e; Breiman 1996,
+    // "Out-of-bag estimation"), and a tree grown to pure leaves gives its own rows their
+    // class (common practice; iris has no identical measurements with different
+    // species), so the in-bag trees alone outvote the rest and the training-row error
+    // is near 0. Margin: at most 2 of the 150 rows wrong (0.0134) and at most half the
+    // out-of-bag error (about 5% on iris, see above).
     let e = ev["evaluation"]["error"].as_f64().expect("an error");
-    assert!(e <= err, "training-row error {e} above out-of-bag {err}");
+    println!("iris: training-row error {e}, out-of-bag {err}");
+    assert!(
+        e <= 2.0 / 150.0 + 1e-12 && e <= 0.5 * err,
+        "training-row error {e} against out-of-bag {err}"
+    );
     assert!(
         ev["evaluation"]["roc_auc"].is_null(),
         "AUC only for two classes"

@@ -1,8 +1,41 @@
 //! Test support shared by the tree and forest checks: an open data set under
 //! `tests/data/` (sources in `tests/data/README.md`) read into an input matrix, the
-//! inputs' descriptions and the target column.
+//! inputs' descriptions and the target column; and the seed offset that reruns every
+//! statistical check on other random draws.
+// Each test binary uses a part of this module.
+#![allow(dead_code)]
 use copse_tree::FeatureMeta;
 use ndarray::Array2;
+use std::sync::OnceLock;
+
+/// Environment variable holding the offset added to every seed of the statistical
+/// tests (a whole number, default 0). With 0 the tests run on their committed seeds;
+/// any other value reruns them on independent draws, which shows whether a check's
+/// tolerance covers its sampling error or only the committed seed
+/// (`COPSE_TEST_SEED_OFFSET=1 cargo test --release`, see DEVELOPERS.md).
+pub const SEED_OFFSET_VAR: &str = "COPSE_TEST_SEED_OFFSET";
+
+/// The offset read from [`SEED_OFFSET_VAR`], once per test binary.
+///
+/// # Panics
+/// When the variable is set to something other than a whole number.
+pub fn seed_offset() -> u64 {
+    static OFFSET: OnceLock<u64> = OnceLock::new();
+    *OFFSET.get_or_init(|| match std::env::var(SEED_OFFSET_VAR) {
+        Ok(v) => v.trim().parse().unwrap_or_else(|_| {
+            panic!("{SEED_OFFSET_VAR} must be a whole number such as 1, not '{v}'")
+        }),
+        Err(_) => 0,
+    })
+}
+
+/// The seed a statistical test uses in place of `base`: `base` itself at offset 0,
+/// else `base` moved by the offset times a large odd constant (the 64-bit golden
+/// ratio), so that distinct seeds of one test stay distinct under any offset and an
+/// offset's draws do not overlap another offset's.
+pub fn seed(base: u64) -> u64 {
+    base.wrapping_add(seed_offset().wrapping_mul(0x9e37_79b9_7f4a_7c15))
+}
 
 /// A data file encoded for training: every column but the target as an input.
 pub struct DataSet {

@@ -4,14 +4,16 @@
 //! definition. The data files and their provenance are in `tests/data/README.md`.
 //!
 //! One test binary; its modules: checks against published examples and open data
-//! (`published`), facts of the trade on small data sets of our own (`practice`), typed
-//! errors and robustness (`errors`), property tests (`properties`), and the slow
-//! reference they compare the grower with (`reference`).
+//! (`published`), facts of the trade on small data sets of our own (`practice`), the
+//! grower's documented rules (`rules`), typed errors and robustness (`errors`),
+//! property tests (`properties`), and the slow reference they compare the grower with
+//! (`reference`).
 mod errors;
 mod practice;
 mod properties;
 mod published;
 mod reference;
+mod rules;
 #[path = "../support/mod.rs"]
 mod support;
 

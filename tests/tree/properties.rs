@@ -13,15 +13,16 @@ use rand::SeedableRng;
 use rand_xoshiro::Xoshiro256PlusPlus;
 
 // ---------------------------------------------------------------------------------------
-// Property tests. Fixed seed and no failure files, so every run tries the same cases;
-// case counts are kept small so the whole file runs in a few seconds in release mode.
+// Property tests. Fixed seed and no failure files, so every run tries the same cases
+// (other cases under `COPSE_TEST_SEED_OFFSET`, see `support::seed`); case counts are kept
+// small so the whole file runs in a few seconds in release mode.
 // ---------------------------------------------------------------------------------------
 
 pub(crate) fn config(cases: u32) -> ProptestConfig {
     ProptestConfig {
         cases,
         failure_persistence: None,
-        rng_seed: RngSeed::Fixed(0x00c0_95e7),
+        rng_seed: RngSeed::Fixed(crate::support::seed(0x00c0_95e7)),
         ..ProptestConfig::default()
     }
 }

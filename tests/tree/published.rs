@@ -43,7 +43,7 @@ fn playtennis_whole_set_impurity() {
     let counts = d.class_counts();
     assert_eq!(counts[d.class("P") as usize], 9.0);
     assert_eq!(counts[d.class("N") as usize], 5.0);
-    // Quinlan (1986), section 4: the whole set carries 0.940 bits. Published to three
+    // Quinlan (1986): the whole set carries 0.940 bits. Published to three
     // decimals; the exact value is 0.9403, so a tolerance of 0.001.
     assert!(
         (entropy(&counts) - 0.940).abs() < 0.001,
@@ -58,9 +58,9 @@ fn playtennis_whole_set_impurity() {
 #[test]
 fn playtennis_information_gains_match_the_published_ones() {
     let d = playtennis();
-    // Quinlan (1986), section 4 (also T. Mitchell (1997), Machine Learning, section
-    // 3.4.1.2): gains of the multiway attribute splits. The published figures are
-    // truncated to three decimals (exact 0.2467, 0.1518, 0.0481, 0.0292), hence 0.001.
+    // Quinlan (1986) (also T. Mitchell (1997), Machine Learning, chapter 3): gains of
+    // the multiway attribute splits. The published figures are truncated to three
+    // decimals (exact 0.2467, 0.1518, 0.0481, 0.0292), hence 0.001.
     let published = [0.246, 0.029, 0.151, 0.048];
     for (a, p) in PLAYTENNIS_ATTRIBUTES.iter().zip(published) {
         let g = multiway_gain(&d, a, entropy);
@@ -80,7 +80,7 @@ fn playtennis_information_gains_match_the_published_ones() {
 fn playtennis_grower_scores_each_attribute_like_the_definition() {
     // The grower makes two-way splits. For the two-valued attributes (humidity, windy)
     // a two-way split is the multiway split, so a one-level tree on that attribute
-    // alone must reproduce the published gains (Quinlan 1986, section 4). For the
+    // alone must reproduce the published gains (Quinlan 1986). For the
     // three-valued ones (outlook, temperature) the grower's best grouping of the
     // categories into two must equal the best of the three groupings worked out here
     // by hand from the per-category counts, and can be no larger than the multiway gain
@@ -136,8 +136,8 @@ fn playtennis_grower_scores_each_attribute_like_the_definition() {
 
 #[test]
 fn playtennis_entropy_tree_matches_the_published_tree() {
-    // Quinlan (1986), Figure 2 / section 4: outlook at the root; overcast is a pure P
-    // leaf; sunny is split on humidity (high N, normal P); rain on windy (true N,
+    // Quinlan (1986), the tree grown from Table 1: outlook at the root; overcast is a
+    // pure P leaf; sunny is split on humidity (high N, normal P); rain on windy (true N,
     // false P); temperature is not used.
     //
     // The published tree splits outlook three ways; copse splits two ways, so the same
