@@ -27,25 +27,7 @@ pub fn say(prefix: &str, text: &str) {
     let _ = writeln!(err, "{prefix}{}", one_line(text));
 }
 
-/// `text` with control characters escaped (`\n`, `\r`, `\t`, `\0`, others as
-/// `\u{..}`), so it prints as one line and sends nothing raw to the terminal.
-pub fn one_line(text: &str) -> std::borrow::Cow<'_, str> {
-    if !text.chars().any(char::is_control) {
-        return text.into();
-    }
-    let mut out = String::with_capacity(text.len() + 8);
-    for c in text.chars() {
-        match c {
-            '\n' => out.push_str("\\n"),
-            '\r' => out.push_str("\\r"),
-            '\t' => out.push_str("\\t"),
-            '\0' => out.push_str("\\0"),
-            c if c.is_control() => out.push_str(&format!("\\u{{{:x}}}", u32::from(c))),
-            c => out.push(c),
-        }
-    }
-    out.into()
-}
+pub use copse_data::one_line;
 
 /// Most threads per core `--threads` may ask for: more only add switching between
 /// threads, never speed (each thread grows whole trees or scores whole blocks).

@@ -86,16 +86,37 @@ pub fn clip(t: &str) -> String {
             out.push_str("...");
             break;
         }
-        match c {
-            '\n' => out.push_str("\\n"),
-            '\r' => out.push_str("\\r"),
-            '\t' => out.push_str("\\t"),
-            '\0' => out.push_str("\\0"),
-            c if c.is_control() => out.push_str(&format!("\\u{{{:x}}}", u32::from(c))),
-            c => out.push(c),
-        }
+        push_escaped(&mut out, c);
     }
     out
+}
+
+/// `text` with control characters escaped (`\n`, `\r`, `\t`, `\0`, others as
+/// `\u{..}`), so it prints as one line and sends nothing raw to a terminal.
+///
+/// # Example
+/// ```
+/// assert_eq!(copse_data::one_line("a\nb\u{1b}"), "a\\nb\\u{1b}");
+/// ```
+pub fn one_line(text: &str) -> std::borrow::Cow<'_, str> {
+    if !text.chars().any(char::is_control) {
+        return text.into();
+    }
+    let mut out = String::with_capacity(text.len() + 8);
+    text.chars().for_each(|c| push_escaped(&mut out, c));
+    out.into()
+}
+
+/// Appends `c`, escaped when it is a control character.
+fn push_escaped(out: &mut String, c: char) {
+    match c {
+        '\n' => out.push_str("\\n"),
+        '\r' => out.push_str("\\r"),
+        '\t' => out.push_str("\\t"),
+        '\0' => out.push_str("\\0"),
+        c if c.is_control() => out.push_str(&format!("\\u{{{:x}}}", u32::from(c))),
+        c => out.push(c),
+    }
 }
 
 #[cfg(test)]

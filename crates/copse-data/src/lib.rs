@@ -48,7 +48,7 @@ pub mod records;
 pub mod roles;
 pub mod training;
 
-pub use cells::{clip, parse_number, Missing};
+pub use cells::{clip, one_line, parse_number, Missing};
 pub use csv_input::{CsvInput, Delimiter, Row};
 pub use encode::{read_labelled, Labelled, RowEncoder};
 pub use error::{Error, ErrorKind, Result};
