@@ -273,6 +273,22 @@ impl Forest {
         Ok(())
     }
 
+    /// [`Forest::align`] for an outcome given beside the rows `x`, which it must match
+    /// in length.
+    pub(crate) fn align_rows(&self, x: ArrayView2<'_, f64>, outcome: &Outcome) -> Result<Outcome> {
+        if outcome.len() != x.nrows() {
+            return Err(Error::new(
+                ErrorKind::LengthMismatch,
+                format!(
+                    "{} data rows but {} outcomes; they must match",
+                    x.nrows(),
+                    outcome.len()
+                ),
+            ));
+        }
+        self.align(outcome)
+    }
+
     /// Translates an outcome into the model's class codes (by label), or checks a
     /// value outcome fits a regression model.
     pub(crate) fn align(&self, outcome: &Outcome) -> Result<Outcome> {

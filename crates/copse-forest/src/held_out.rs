@@ -68,17 +68,7 @@ impl Forest {
             ));
         }
         self.check_columns(x)?;
-        if outcome.len() != x.nrows() {
-            return Err(Error::new(
-                ErrorKind::LengthMismatch,
-                format!(
-                    "{} data rows but {} outcomes; they must match",
-                    x.nrows(),
-                    outcome.len()
-                ),
-            ));
-        }
-        let outcome = self.align(outcome)?;
+        let outcome = self.align_rows(x, outcome)?;
         let rows: Vec<usize> = (0..x.nrows()).filter(|&i| !outcome.is_missing(i)).collect();
         if rows.len() < 2 {
             return Err(Error::new(

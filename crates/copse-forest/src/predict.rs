@@ -156,17 +156,7 @@ impl Forest {
     /// # Ok::<(), copse_forest::Error>(())
     /// ```
     pub fn evaluate(&self, x: ArrayView2<'_, f64>, outcome: &Outcome) -> Result<Evaluation> {
-        if outcome.len() != x.nrows() {
-            return Err(Error::new(
-                ErrorKind::LengthMismatch,
-                format!(
-                    "{} data rows but {} outcomes; they must match",
-                    x.nrows(),
-                    outcome.len()
-                ),
-            ));
-        }
-        let outcome = self.align(outcome)?;
+        let outcome = self.align_rows(x, outcome)?;
         let preds = self.predict(x)?;
         let metrics = match &outcome {
             Outcome::Classes { codes, .. } => {
