@@ -321,7 +321,7 @@ fn friedman1_importance_finds_the_five_real_inputs() {
     );
     assert!(imp.features[..5].iter().all(|f| f.rank <= 5));
     let ve = match t.forest.oob().metrics.as_ref().expect("measured") {
-        Metrics::Values(v) => v.variance_explained.expect("y varies"),
+        Metrics::Values(v) => v.r_squared.expect("y varies"),
         Metrics::Classes(_) => panic!("regression"),
     };
     println!("friedman1: OOB variance explained {ve:.3}");
@@ -754,7 +754,7 @@ fn balanced_sampling_lowers_the_minority_class_error() {
             .expect("evaluates")
             .metrics
         {
-            Metrics::Classes(m) => m.class_error[1].expect("class 2 present"),
+            Metrics::Classes(m) => m.wrong_share_by_class[1].expect("class 2 present"),
             Metrics::Values(_) => panic!("classes"),
         }
     };
@@ -880,5 +880,5 @@ fn rows_with_missing_outcome_are_left_out_and_counted() {
         "friedman1 half-samples: fresh-case MSE {:.3}, MAE {:.3}",
         m.mse, m.mae
     );
-    assert!(m.variance_explained.expect("y varies") > 0.5);
+    assert!(m.r_squared.expect("y varies") > 0.5);
 }

@@ -333,10 +333,14 @@ fn regression_json_shape() {
     let j = json_of(&so);
     assert_eq!(j["task"], "regress");
     assert_eq!(j["classes"], serde_json::json!([]));
-    let ve = j["oob"]["variance_explained"]
-        .as_f64()
-        .expect("variance explained");
-    assert!(ve > 0.6, "variance explained {ve}");
+    let r2 = j["oob"]["r_squared"].as_f64().expect("R squared");
+    assert!(r2 > 0.6, "R squared {r2}");
+    let rmse = j["oob"]["rmse"].as_f64().expect("rmse");
+    let mse = j["oob"]["mse"].as_f64().expect("mse");
+    assert!(
+        (rmse * rmse - mse).abs() <= 1e-9 * mse,
+        "rmse {rmse}, mse {mse}"
+    );
     assert_eq!(j["oob"]["error"], j["oob"]["mse"]);
     assert!(j["oob"]["mse"].as_f64().expect("mse") > 0.0);
     // Two penguins have no body mass: they are left out and the user is told.
@@ -349,10 +353,59 @@ fn regression_json_shape() {
     );
     let (so, _) = expect_code(&out, 0);
     let ev = json_of(&so)["evaluation"].clone();
-    for key in ["mse", "mae", "variance_explained", "rows"] {
+    for key in ["rmse", "mae", "r_squared", "mse", "rows"] {
         assert!(!ev[key].is_null(), "evaluation.{key}");
     }
     assert_eq!(ev["rows"], 342);
+
+    // The printed headline leads with the typical error in target units, then R².
+    let (text, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["evaluate", "--model", "mass.copse", "--data", &p],
+            None,
+        ),
+        0,
+    );
+    let at = |label: &str| {
+        text.find(label)
+            .unwrap_or_else(|| panic!("the report shows '{label}':\n{text}"))
+    };
+    assert!(
+        at("typical error (RMSE)") < at("mean absolute error"),
+        "{text}"
+    );
+    assert!(at("mean absolute error") < at("R²"), "{text}");
+    assert!(!text.contains("mean squared error  "), "{text}");
+}
+
+/// The class block of a report: the headline figures, then the confusion table (no
+/// column of shares inside it), then the share of each actual class predicted wrong
+/// as a small table of its own.
+#[test]
+fn class_report_puts_the_shares_wrong_under_the_confusion_table() {
+    let dir = tmp();
+    let (text, _) = expect_code(&train_iris(dir.path(), &[]), 0);
+    let at = |label: &str| {
+        text.find(label)
+            .unwrap_or_else(|| panic!("the report shows '{label}':\n{text}"))
+    };
+    assert!(at("misclassified") < at("Brier score"), "{text}");
+    assert!(at("Brier score") < at("confusion table"), "{text}");
+    assert!(
+        at("confusion table") < at("predicted wrong, by actual class"),
+        "{text}"
+    );
+    assert!(!text.contains("| wrong"), "{text}");
+    // Setosa is separable by petal length alone: none of its 50 rows is wrong.
+    let setosa = text[at("predicted wrong, by actual class")..]
+        .lines()
+        .find(|l| l.trim_start().starts_with("setosa"))
+        .expect("a setosa line");
+    assert!(
+        setosa.contains("0.0%") && setosa.contains(" 0 of 50"),
+        "{setosa}"
+    );
 }
 
 /// Every `--json` command prints one object with at least task, trees, oob, importance
@@ -390,7 +443,7 @@ fn json_shapes_of_every_command() {
         assert_eq!(j["task"], "classify");
         assert_eq!(j["trees"], 150);
         assert_eq!(j["classes"].as_array().map(Vec::len), Some(3));
-        for key in ["error", "confusion", "class_error"] {
+        for key in ["error", "confusion", "wrong_share_by_class"] {
             assert!(!j["oob"][key].is_null(), "{}: oob.{key}", args[0]);
         }
         let imp = j["importance"].as_array().expect("importance list");

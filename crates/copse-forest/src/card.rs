@@ -115,7 +115,7 @@ impl ModelCard {
                 let square = m.confusion.len() == k && m.confusion.iter().all(|r| r.len() == k);
                 if !square
                     || total(m.confusion.iter().flatten().copied(), read).is_none()
-                    || m.class_error.len() != k
+                    || m.wrong_share_by_class.len() != k
                     || !within(m.rows)
                 {
                     return bad("its out-of-bag confusion table does not fit its classes and rows");

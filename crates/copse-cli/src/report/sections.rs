@@ -233,7 +233,12 @@ pub fn rare_class_advice(model: &Model) -> Option<String> {
     }
     for (c, label) in model.classes().iter().enumerate() {
         let share = model.card().class_counts.get(c).copied().unwrap_or(0) as f64 / total as f64;
-        let err = m.class_error.get(c).copied().flatten().unwrap_or(0.0);
+        let err = m
+            .wrong_share_by_class
+            .get(c)
+            .copied()
+            .flatten()
+            .unwrap_or(0.0);
         if share < 0.25 && err > 0.5 {
             return Some(format!(
                 "  '{label}' is rare ({} of rows) and most of its rows are predicted as another class\n  \
