@@ -7,7 +7,7 @@
 //! Cases covered by tests in `main.rs` are not repeated here: tampered model files
 //! (empty, truncated, one byte flipped, wrong marker, newer version, a length field
 //! claiming terabytes), a missing column at scoring, unseen categories when scoring,
-//! `--trees 0` / `--min-leaf 0` / `--features-per-split 0` / a fraction above 1, BOM
+//! `--trees 0` / `--min-leaf 0` / `--features-per-split 0` / a share above 100%, BOM
 //! with CRLF and quoted fields in training data, a stray word in a numeric column,
 //! `/dev/full` when scoring, CRLF line numbers, and no partial output when scoring
 //! fails part-way. This file adds the rest of the matrix (more than 30 cases of its

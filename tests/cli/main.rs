@@ -835,6 +835,7 @@ fn bad_flag_values_are_usage_errors() {
         ["--min-leaf", "0"],
         ["--features-per-split", "0"],
         ["--features-per-split", "1.5"],
+        ["--features-per-split", "150%"],
         ["--sampling", "subsample:1.2"],
         ["--bins", "1"],
     ] {
@@ -843,6 +844,41 @@ fn bad_flag_values_are_usage_errors() {
         assert!(se.contains(extra[0]), "{extra:?}: {se}");
     }
     assert!(!dir.path().join("iris.copse").exists());
+}
+
+/// `--features-per-split` takes a count, a share such as `33%`, or the words `root`,
+/// `log` and `every`; other spellings are refused with the one to write instead, and
+/// the report and JSON give the rule as it was written.
+#[test]
+fn features_per_split_speaks_our_grammar() {
+    let dir = tmp();
+    for (theirs, ours) in [
+        ("sqrt", "'root'"),
+        ("log2", "'log'"),
+        ("all", "'every'"),
+        ("auto", "'default'"),
+        ("0.33", "'33%'"),
+    ] {
+        let (_, se) = expect_code(
+            &train_iris(dir.path(), &["--features-per-split", theirs]),
+            2,
+        );
+        assert!(se.contains(ours), "{theirs}: {se}");
+    }
+    let (so, _) = expect_code(&train_iris(dir.path(), &["--json"]), 0);
+    assert_eq!(
+        json_of(&so)["settings"]["features_per_split_rule"],
+        "default"
+    );
+    let (so, _) = expect_code(
+        &train_iris(dir.path(), &["--features-per-split", "50%", "--json"]),
+        0,
+    );
+    let j = json_of(&so);
+    assert_eq!(j["settings"]["features_per_split_rule"], "50%");
+    assert_eq!(j["settings"]["features_per_split"], 2);
+    let (text, _) = expect_code(&train_iris(dir.path(), &["--features-per-split", "50%"]), 0);
+    assert!(text.contains("2 of 4 (50% of the inputs)"), "{text}");
 }
 
 /// A UTF-8 byte-order mark, CRLF line ends, and quoted fields holding the delimiter and

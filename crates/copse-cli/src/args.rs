@@ -185,12 +185,13 @@ pub struct TrainArgs {
     #[arg(long, default_value_t = 500, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
     pub trees: u32,
 
-    /// Inputs tried at each split: sqrt, log2, all, a count N, or a fraction such as 0.33
-    /// [default: sqrt of the number of inputs for classes, a third of them for numbers].
+    /// Inputs tried at each split: a count such as 4, a share such as 33%, or root (square
+    /// root of the inputs), log (log2 of the inputs) or every [default: root for classes,
+    /// a third of the inputs for numbers].
     #[arg(long, value_name = "RULE", value_parser = parse_features_per_split, conflicts_with = "bagging")]
     pub features_per_split: Option<FeaturesPerSplit>,
 
-    /// Bagged trees: every input is tried at every split (same as --features-per-split all).
+    /// Bagged trees: every input is tried at every split (same as --features-per-split every).
     #[arg(long)]
     pub bagging: bool,
 
@@ -364,8 +365,8 @@ pub struct StabilityArgs {
     #[arg(long, default_value_t = 500, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
     pub trees: u32,
 
-    /// Inputs tried at each split by the random forest: sqrt, log2, a count N, or a
-    /// fraction such as 0.33 [default: as for 'copse train'].
+    /// Inputs tried at each split by the random forest: a count such as 4, a share such
+    /// as 33%, root or log [default: as for 'copse train'].
     #[arg(long, value_name = "RULE", value_parser = parse_features_per_split)]
     pub features_per_split: Option<FeaturesPerSplit>,
 
@@ -509,6 +510,8 @@ mod tests {
             ["--min-leaf", "0"],
             ["--features-per-split", "0"],
             ["--features-per-split", "1.5"],
+            ["--features-per-split", "0.5"],
+            ["--features-per-split", "sqrt"],
             ["--sampling", "subsample:2"],
         ] {
             let args: Vec<&str> = base.iter().copied().chain(extra).collect();
@@ -517,12 +520,12 @@ mod tests {
         let ok: Vec<&str> = base
             .iter()
             .copied()
-            .chain(["--features-per-split", "0.5", "--ignore", "a,b"])
+            .chain(["--features-per-split", "50%", "--ignore", "a,b"])
             .collect();
         let cli = Cli::try_parse_from(&ok).unwrap();
         match cli.command {
             Command::Train(t) => {
-                assert_eq!(t.features_per_split, Some(FeaturesPerSplit::Fraction(0.5)));
+                assert_eq!(t.features_per_split, Some(FeaturesPerSplit::Share(0.5)));
                 assert_eq!(t.roles.ignore, vec!["a".to_string(), "b".to_string()]);
             }
             _ => panic!("parsed as another command"),

@@ -89,7 +89,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     }
 
     let fps = if a.bagging {
-        FeaturesPerSplit::All
+        FeaturesPerSplit::Every
     } else {
         a.features_per_split.unwrap_or_default()
     };

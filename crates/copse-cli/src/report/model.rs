@@ -136,7 +136,7 @@ impl SettingsView {
         SettingsView {
             trees: s.trees,
             features_per_split: model.features_per_split(),
-            features_per_split_rule: model.card().features_rule.clone(),
+            features_per_split_rule: s.features_per_split.to_string(),
             sampling: s.sampling.to_string(),
             balanced: s.balanced,
             impurity: impurity_name(model),

@@ -121,21 +121,17 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
     let kind = if k >= p {
         "every input: bagged trees".to_string()
     } else {
-        // The card keeps the rule as the engine writes it; read it back as the rule.
-        let rule = model.card().features_rule.as_str();
-        match rule.parse::<FeaturesPerSplit>() {
-            Ok(FeaturesPerSplit::Auto) if classify => {
+        match s.features_per_split {
+            FeaturesPerSplit::Default if classify => {
                 "square root of the inputs, the usual choice for classes".to_string()
             }
-            Ok(FeaturesPerSplit::Auto) => {
+            FeaturesPerSplit::Default => {
                 "a third of the inputs, the usual choice for numbers".to_string()
             }
-            Ok(FeaturesPerSplit::Sqrt) => "square root of the inputs".to_string(),
-            Ok(FeaturesPerSplit::Log2) => "log2 of the inputs".to_string(),
-            Ok(FeaturesPerSplit::Fraction(_)) => format!("fraction {rule} of the inputs"),
-            Ok(FeaturesPerSplit::All | FeaturesPerSplit::Count(_)) | Err(_) => {
-                "a fixed count".to_string()
-            }
+            FeaturesPerSplit::Root => "square root of the inputs".to_string(),
+            FeaturesPerSplit::Log => "log2 of the inputs".to_string(),
+            rule @ FeaturesPerSplit::Share(_) => format!("{rule} of the inputs"),
+            FeaturesPerSplit::Every | FeaturesPerSplit::Count(_) => "a fixed count".to_string(),
         }
     };
     line(out, "inputs per split", &format!("{k} of {p} ({kind})"));
