@@ -881,6 +881,45 @@ fn features_per_split_speaks_our_grammar() {
     assert!(text.contains("2 of 4 (50% of the inputs)"), "{text}");
 }
 
+/// Options and defaults in copse's own words: `--shuffled-target-runs` (its former
+/// spelling refused with the new one), the out-of-bag file's `trees_judging_row`
+/// column, and missing tokens `NA` and `NaN` by default, `?` only when asked for.
+#[test]
+fn renamed_options_columns_and_default_missing_tokens() {
+    let dir = tmp();
+    for extra in [
+        &["--null-permutations", "5"][..],
+        &["--null-permutations"][..],
+    ] {
+        let (_, se) = expect_code(&train_iris(dir.path(), extra), 2);
+        assert!(se.contains("--shuffled-target-runs"), "{se}");
+    }
+    expect_code(&train_iris(dir.path(), &["--oob-out", "oob.csv"]), 0);
+    let oob = read_csv(&std::fs::read(dir.path().join("oob.csv")).expect("oob file"));
+    assert_eq!(oob[0].last().map(String::as_str), Some("trees_judging_row"));
+
+    let csv = "x,y\n1,a\n?,b\n3,a\nNA,b\n5,a\nNaN,b\n";
+    std::fs::write(dir.path().join("q.csv"), csv).expect("write");
+    let train_q = |extra: &[&str]| {
+        let mut args = vec![
+            "train", "--data", "q.csv", "--target", "y", "--out", "q.copse", "--trees", "5",
+            "--json",
+        ];
+        args.extend_from_slice(extra);
+        let (so, se) = expect_code(&copse_in(dir.path(), &args, None), 0);
+        (json_of(&so), se)
+    };
+    let (j, se) = train_q(&[]);
+    assert_eq!(
+        j["data"]["missing_tokens"],
+        serde_json::json!(["NA", "NaN"])
+    );
+    assert_eq!(j["inputs"][0]["kind"], "categorical", "{se}");
+    assert!(se.contains("line 3 '?'"), "{se}");
+    let (j, _) = train_q(&["--missing", "NA,NaN,?"]);
+    assert_eq!(j["inputs"][0]["kind"], "numeric");
+}
+
 /// A UTF-8 byte-order mark, CRLF line ends, and quoted fields holding the delimiter and
 /// a line break are all read as a spreadsheet would.
 #[test]

@@ -240,7 +240,12 @@ pub struct TrainArgs {
     /// Test each input's importance against N forests trained on a shuffled target and
     /// report p-values (costs N more forests; 199 gives p-values down to 0.005).
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=100_000))]
-    pub null_permutations: Option<u32>,
+    pub shuffled_target_runs: Option<u32>,
+
+    /// The option's former spelling, refused with the new one.
+    #[arg(long = "null-permutations", hide = true, value_name = "N", num_args = 0..=1,
+          default_missing_value = "", value_parser = renamed_shuffled_target_runs)]
+    pub renamed_shuffled_target_runs: Option<u32>,
 
     /// Print the report as one JSON object instead of text.
     #[arg(long)]
@@ -446,6 +451,10 @@ pub struct MakeDemoDataArgs {
 fn parse_features_per_split(s: &str) -> Result<FeaturesPerSplit, String> {
     s.parse::<FeaturesPerSplit>()
         .map_err(|e| e.message().to_string())
+}
+
+fn renamed_shuffled_target_runs(_: &str) -> Result<u32, String> {
+    Err("this option is now written --shuffled-target-runs N".to_string())
 }
 
 fn parse_sampling(s: &str) -> Result<Sampling, String> {

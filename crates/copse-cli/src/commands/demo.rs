@@ -63,7 +63,8 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         oob_out: Some(oob_path.clone()),
         plots: Some(plots_dir.clone()),
         keep_draws: false,
-        null_permutations: None,
+        shuffled_target_runs: None,
+        renamed_shuffled_target_runs: None,
         json: false,
         allow_large: false,
     };

@@ -75,9 +75,9 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
              --sampling bootstrap without --balanced, or drop --keep-draws",
         ));
     }
-    if a.null_permutations.is_some() && a.sampling == Sampling::Whole {
+    if a.shuffled_target_runs.is_some() && a.sampling == Sampling::Whole {
         return Err(CliError::input(
-            "--null-permutations compares out-of-bag importances, and --sampling none leaves no \
+            "--shuffled-target-runs compares out-of-bag importances, and --sampling none leaves no \
              row out of bag; use bootstrap or subsample:F",
         ));
     }
@@ -122,7 +122,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         ));
     }
     let trained = grow(&data, &settings, options, ui)?;
-    let shuffle = match (a.null_permutations, trained.forest.oob_importance()) {
+    let shuffle = match (a.shuffled_target_runs, trained.forest.oob_importance()) {
         (Some(n), Some(imp)) => Some(shuffled_target_test(&data, &settings, imp, n, ui)?),
         _ => None,
     };
@@ -276,7 +276,7 @@ fn write_oob(
         "prediction".to_string(),
     ];
     header.extend(classes.iter().map(|c| format!("prob_{c}")));
-    header.push("oob_trees".to_string());
+    header.push("trees_judging_row".to_string());
     w.write_record(&header).map_err(werr)?;
     let mut rec: Vec<String> = Vec::with_capacity(header.len());
     for i in 0..data.lines.len() {

@@ -72,7 +72,7 @@ impl<'a> ImportanceReport<'a> {
             self.imp,
             true,
             None,
-            "for p-values with few inputs, train with 'copse train ... --null-permutations 199'.",
+            "for p-values with few inputs, train with 'copse train ... --shuffled-target-runs 199'.",
         );
         let _ = writeln!(text);
         caution(&mut text, st);

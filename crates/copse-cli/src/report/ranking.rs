@@ -367,7 +367,7 @@ pub fn importance_section(
                 imp,
                 false,
                 shuffle,
-                "train with --null-permutations 199 for p-values from a shuffled target.",
+                "train with --shuffled-target-runs 199 for p-values from a shuffled target.",
             );
         }
         None => {
