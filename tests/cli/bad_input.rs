@@ -213,7 +213,7 @@ fn m08_target_column_absent() {
 #[test]
 fn m09_target_all_missing() {
     train_refused(
-        "a,b,y\n1,2,NA\n3,4,\n5,6,?\n",
+        "a,b,y\n1,2,NA\n3,4,\n5,6,NaN\n",
         "y",
         &[
             "d.csv",
@@ -228,7 +228,7 @@ fn m10_single_row() {
     train_refused(
         "a,b,y\n1,2,p\n",
         "y",
-        &["d.csv has only 1 row", "at least two are needed"],
+        &["d.csv has only one row", "at least two are needed"],
     );
 }
 
@@ -250,7 +250,10 @@ fn m11_single_class_is_allowed_and_called_trivial() {
         ),
         0,
     );
-    assert_eq!(so, "prediction,prob_p\np,1\np,1\np,1\n");
+    assert_eq!(
+        so,
+        "prediction,prob_p\np,1.000000\np,1.000000\np,1.000000\n"
+    );
 }
 
 /// Every input constant: allowed, with a note that the model cannot split and only

@@ -377,6 +377,23 @@ fn regression_json_shape() {
     );
     assert!(at("mean absolute error") < at("R²"), "{text}");
     assert!(!text.contains("mean squared error  "), "{text}");
+
+    // One precision per output column: six significant digits of the largest body
+    // mass (6300 g), so two decimals in every cell.
+    let (scored, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["score", "--model", "mass.copse", "--data", &p],
+            None,
+        ),
+        0,
+    );
+    let decimals: std::collections::BTreeSet<usize> = read_csv(scored.as_bytes())
+        .iter()
+        .skip(1)
+        .map(|r| r[0].split_once('.').map_or(0, |(_, d)| d.len()))
+        .collect();
+    assert_eq!(decimals, [2].into_iter().collect(), "{scored}");
 }
 
 /// The class block of a report: the headline figures, then the confusion table (no
@@ -866,10 +883,10 @@ fn features_per_split_speaks_our_grammar() {
         assert!(se.contains(ours), "{theirs}: {se}");
     }
     let (so, _) = expect_code(&train_iris(dir.path(), &["--json"]), 0);
-    assert_eq!(
-        json_of(&so)["settings"]["features_per_split_rule"],
-        "default"
-    );
+    let j = json_of(&so);
+    assert_eq!(j["settings"]["features_per_split_rule"], "default");
+    // A count is an integer in the JSON.
+    assert!(j["settings"]["min_leaf"].is_u64(), "{}", j["settings"]);
     let (so, _) = expect_code(
         &train_iris(dir.path(), &["--features-per-split", "50%", "--json"]),
         0,

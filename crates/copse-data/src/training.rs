@@ -131,8 +131,13 @@ impl TrainingTable {
             return Err(Error::new(
                 ErrorKind::NoRows,
                 format!(
-                    "{} has only {} row with a target value; at least two are needed to grow a model",
-                    table.source, rows.kept
+                    "{} has {} with a target value; at least two are needed to grow a model",
+                    table.source,
+                    if rows.kept == 0 {
+                        "no row"
+                    } else {
+                        "only one row"
+                    }
                 ),
             ));
         }
@@ -263,17 +268,25 @@ impl TrainingTable {
             distinct.sort_by(f64::total_cmp);
             distinct.dedup();
             if distinct.len() <= 5 {
+                let n = distinct.len();
                 self.notes.push(format!(
-                    "the target '{target}' holds numbers, so copse fits a regression; it has only {} distinct \
-                     values: if they are classes, add --task classify",
-                    distinct.len()
+                    "the target '{target}' holds numbers, so copse fits a regression; it has only {n} \
+                     distinct {}: if they are classes, add --task classify",
+                    if n == 1 { "value" } else { "values" }
                 ));
             }
         }
         let dropped = self.rows_without_outcome;
         if dropped > 0 {
+            let rows = if n_read == 1 { "row" } else { "rows" };
+            let (have, are) = if dropped == 1 {
+                ("has", "is")
+            } else {
+                ("have", "are")
+            };
             self.notes.push(format!(
-                "{dropped} of {n_read} rows have no value for the target '{target}' and are left out of training"
+                "{dropped} of {n_read} {rows} {have} no value for the target '{target}' and {are} left \
+                 out of training"
             ));
         }
     }

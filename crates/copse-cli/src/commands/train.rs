@@ -6,7 +6,7 @@ use crate::commands::{
 };
 use crate::error::{forest_error, CliError, CliResult};
 use crate::memory;
-use crate::numbers::{binary_bytes, compact};
+use crate::numbers::{binary_bytes, fixed, value_decimals, PROBABILITY_DECIMALS};
 use crate::output::{write_file, Output};
 use crate::plots;
 use crate::report::ranking::shown_mirror;
@@ -270,6 +270,8 @@ fn write_oob(
         other => CliError::failure(format!("could not write {name}: {other:?}")),
     };
     let classes = model.classes();
+    // One precision per column: six significant digits of the largest training value.
+    let d = value_decimals(crate::commands::score::target_size(model));
     let mut header = vec![
         "line".to_string(),
         "actual".to_string(),
@@ -293,11 +295,11 @@ fn write_oob(
                 } else {
                     String::new()
                 });
-                rec.extend(probs.iter().map(|&v| compact(v)));
+                rec.extend(probs.iter().map(|&v| fixed(v, PROBABILITY_DECIMALS)));
             }
             copse_forest::Outcome::Values(v) => {
-                rec.push(compact(v[i]));
-                rec.push(compact(pred[0]));
+                rec.push(fixed(v[i], d));
+                rec.push(fixed(pred[0], d));
             }
         }
         rec.push(oob.trees_out[i].to_string());

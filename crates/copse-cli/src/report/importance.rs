@@ -4,6 +4,7 @@
 use super::model::ModelView;
 use super::ranking::{importance_intro, importance_with_tests, ImportanceView, RankView, TestView};
 use super::{caution, Style, LABEL};
+use crate::numbers::count;
 use copse_forest::{Forest, PermutationImportance};
 use serde::Serialize;
 use std::fmt::Write;
@@ -62,8 +63,10 @@ impl<'a> ImportanceReport<'a> {
         let _ = writeln!(text, "  {:<LABEL$}{}", "model", self.model_path.display());
         let _ = writeln!(
             text,
-            "  {:<LABEL$}{} ({} rows)\n",
-            "data", self.source, self.rows_read
+            "  {:<LABEL$}{} ({})\n",
+            "data",
+            self.source,
+            count(self.rows_read, "row", "rows")
         );
         let _ = writeln!(text, "{}", st.head("WHICH INPUTS MATTER ON THESE ROWS"));
         let _ = writeln!(text, "{}\n", importance_intro(&self.imp.error, true));

@@ -259,15 +259,15 @@ pub fn importance_intro(imp: &Importance, held_out: bool) -> String {
     let text = if held_out {
         format!(
             "Rise in the model's {what} on these rows when one input's values are shuffled \
-             (mean of {} shuffles ± standard error). Near zero or below: no detectable effect.",
-            imp.replicates
+             (mean of {} ± standard error). Near zero or below: no detectable effect.",
+            numbers::count(imp.replicates, "shuffle", "shuffles")
         )
     } else {
         format!(
             "Rise in out-of-bag {what} when one input's values are shuffled among a tree's \
-             out-of-bag rows (mean over {} trees ± standard error). Near zero or below: no \
+             out-of-bag rows (mean over {} ± standard error). Near zero or below: no \
              detectable effect.",
-            imp.replicates
+            numbers::count(imp.replicates, "tree", "trees")
         )
     };
     super::wrap(&text, super::WIDTH)

@@ -3,7 +3,7 @@
 use super::measures::{class_block, value_block};
 use super::model::impurity_name;
 use super::{line, Style};
-use crate::numbers::{decimal_bytes, pct, plain, sig, trim_num};
+use crate::numbers::{count, decimal_bytes, pct, plain, sig, trim_num};
 use copse_forest::{FeatureKind, FeaturesPerSplit, Forest as Model, Metrics, Sampling, Task};
 use std::fmt::Write;
 
@@ -206,8 +206,13 @@ pub fn oob_section(out: &mut String, st: Style, model: &Model) {
             if oob.rows_never_oob > 0 {
                 let _ = writeln!(
                     out,
-                    "  ({} rows were drawn by every tree and have no out-of-bag prediction)",
-                    oob.rows_never_oob
+                    "  ({} drawn by every tree and {} no out-of-bag prediction)",
+                    count(oob.rows_never_oob, "row was", "rows were"),
+                    if oob.rows_never_oob == 1 {
+                        "has"
+                    } else {
+                        "have"
+                    }
                 );
             }
         }
