@@ -492,6 +492,44 @@ fn json_shapes_of_every_command() {
         .expect("rules")
         .contains("=> setosa"));
     assert!(j["sizes"]["nodes"].as_u64().expect("nodes") > 150);
+    // The tree's nodes one by one: the root first, with no test, then every node once,
+    // each split with two children listed after it.
+    let nodes = j["tree"]["node_list"].as_array().expect("node list");
+    assert_eq!(Some(nodes.len() as u64), j["tree"]["nodes"].as_u64());
+    assert_eq!(nodes[0]["id"], 0);
+    assert_eq!(nodes[0]["depth"], 0);
+    assert!(nodes[0]["test"].is_null());
+    // A bootstrap resample of 150 rows holds 150 draws.
+    assert_eq!(nodes[0]["cases"].as_f64(), Some(150.0));
+    let mut place = std::collections::HashMap::new();
+    for (k, n) in nodes.iter().enumerate() {
+        place.insert(n["id"].as_u64().expect("id"), k);
+    }
+    assert_eq!(place.len(), nodes.len());
+    for (k, n) in nodes.iter().enumerate() {
+        let children = n["children"].as_array().expect("children");
+        assert!(children.is_empty() || children.len() == 2);
+        assert_eq!(children.is_empty(), n["prediction"].is_string());
+        for c in children {
+            let child = &nodes[place[&c.as_u64().expect("id")]];
+            assert!(place[&c.as_u64().expect("id")] > k);
+            assert_eq!(child["depth"].as_u64(), n["depth"].as_u64().map(|d| d + 1));
+            assert!(child["test"].is_string());
+        }
+    }
+    let (text, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["inspect", "--model", "iris.copse", "--tree", "0"],
+            None,
+        ),
+        0,
+    );
+    assert!(
+        text.contains("this tree's bootstrap resample (150 cases"),
+        "{text}"
+    );
+    assert!(!text.contains("all data"), "{text}");
 }
 
 /// Damaged or foreign model files end with exit 2 and a message naming the file and
