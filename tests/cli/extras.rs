@@ -218,7 +218,7 @@ fn held_out_importance_lists_its_test() {
         "3",
     ];
     let (so, _) = expect_code(&copse_in(dir.path(), &args, None), 0);
-    assert!(so.contains("mirrored-null"), "{so}");
+    assert!(so.contains("No p mirror ("), "{so}");
     let mut json_args = args.to_vec();
     json_args.push("--json");
     let (so, _) = expect_code(&copse_in(dir.path(), &json_args, None), 0);

@@ -396,6 +396,48 @@ fn regression_json_shape() {
     assert_eq!(decimals, [2].into_iter().collect(), "{scored}");
 }
 
+/// Regression importance is printed as a share of the forest's out-of-bag mean squared
+/// error, while the JSON keeps the rises in squared target units beside that baseline;
+/// the mirrored-null test, withheld with so few inputs, takes one short line.
+#[test]
+fn regression_importance_reads_as_a_share_of_the_baseline_error() {
+    let dir = tmp();
+    let p = penguins();
+    let args = [
+        "train",
+        "--data",
+        &p,
+        "--target",
+        "body_mass_g",
+        "--out",
+        "mass.copse",
+        "--trees",
+        "60",
+    ];
+    let (text, _) = expect_code(&copse_in(dir.path(), &args, None), 0);
+    let (so, _) = expect_code(
+        &copse_in(dir.path(), &[&args[..], &["--json"]].concat(), None),
+        0,
+    );
+    let j = json_of(&so);
+    let base = j["importance_about"]["baseline_mse"]
+        .as_f64()
+        .expect("baseline");
+    assert_eq!(Some(base), j["oob"]["mse"].as_f64());
+    let top = &j["importance"][0];
+    let share = 100.0 * top["mean"].as_f64().expect("mean") / base;
+    let name = top["feature"].as_str().expect("name");
+    let line = text
+        .lines()
+        .find(|l| l.trim_start().starts_with(&format!("1  {name} ")))
+        .expect("the top input's line");
+    assert!(line.contains(&format!("+{share:.1}%")), "{line}\n{text}");
+    assert!(text.contains("rise, % of base"), "{text}");
+    let note: Vec<&str> = text.lines().filter(|l| l.contains("p mirror")).collect();
+    assert_eq!(note.len(), 1, "{text}");
+    assert!(note[0].len() <= 90, "{}", note[0]);
+}
+
 /// The class block of a report: the headline figures, then the confusion table (no
 /// column of shares inside it), then the share of each actual class predicted wrong
 /// as a small table of its own.

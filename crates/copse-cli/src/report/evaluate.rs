@@ -2,7 +2,7 @@
 //! labelled rows it has not seen, beside its out-of-bag estimate.
 use super::measures::{measures_block, MeasuresView};
 use super::model::ModelView;
-use super::ranking::ImportanceView;
+use super::ranking::{oob_baseline, ImportanceView};
 use super::{caution, Style, LABEL};
 use crate::numbers::{column_decimals, count, pct};
 use copse_forest::{Evaluation, Forest, Metrics};
@@ -50,7 +50,7 @@ impl<'a> EvaluateView<'a> {
     ) -> Self {
         EvaluateView {
             model: ModelView::new("evaluate", forest),
-            importance: ImportanceView::new(forest.oob_importance(), None),
+            importance: ImportanceView::new(forest.oob_importance(), None, oob_baseline(forest)),
             evaluation: EvaluationView {
                 measures: MeasuresView::new(Some(&eval.metrics)),
                 source,

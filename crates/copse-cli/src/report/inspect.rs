@@ -1,7 +1,7 @@
 //! The report of `copse inspect`: the model summary, the model's sizes, its impurity
 //! importance and, when asked for, one tree's rules.
 use super::model::ModelView;
-use super::ranking::{importance_section, ranking, ImportanceView, RankView};
+use super::ranking::{importance_section, oob_baseline, ranking, ImportanceView, RankView};
 use super::sections::{data_section, oob_section, settings_section};
 use super::{caution, Style, LABEL};
 use crate::numbers::decimal_bytes;
@@ -100,7 +100,7 @@ impl<'a> InspectView<'a> {
             });
         InspectView {
             model: ModelView::new("inspect", forest),
-            importance: ImportanceView::new(forest.oob_importance(), None),
+            importance: ImportanceView::new(forest.oob_importance(), None, oob_baseline(forest)),
             model_file: model_path.display().to_string(),
             sizes: Sizes::new(forest, file_bytes),
             impurity_importance: ranking(forest.impurity_importance()),

@@ -1,7 +1,7 @@
 //! The report of `copse train`: the model summary, the out-of-bag importance with its
 //! tests, the out-of-bag error curve, the files written, and the time taken.
 use super::model::ModelView;
-use super::ranking::{importance_section, ImportanceView};
+use super::ranking::{importance_section, oob_baseline, ImportanceView};
 use super::sections::{data_section, oob_section, rare_class_advice, settings_section};
 use super::{caution, Style};
 use crate::numbers::decimal_bytes;
@@ -75,7 +75,11 @@ impl<'a> TrainView<'a> {
             .unwrap_or_default();
         TrainView {
             model: ModelView::new("train", forest),
-            importance: ImportanceView::new(forest.oob_importance(), facts.shuffle),
+            importance: ImportanceView::new(
+                forest.oob_importance(),
+                facts.shuffle,
+                oob_baseline(forest),
+            ),
             oob_error_curve: &forest.oob().error_curve,
             model_file: ModelFile {
                 path: model_path,
