@@ -396,6 +396,40 @@ fn regression_json_shape() {
     assert_eq!(decimals, [2].into_iter().collect(), "{scored}");
 }
 
+/// The DATA block counts each input's missing cells among the rows used. Penguins
+/// (Horst, Hill & Gorman 2020): 11 rows have no sex, 2 have no measurements.
+#[test]
+fn data_block_counts_missing_cells_per_input() {
+    let dir = tmp();
+    let p = penguins();
+    let args = [
+        "train", "--data", &p, "--target", "species", "--out", "s.copse", "--trees", "20",
+    ];
+    let (text, _) = expect_code(&copse_in(dir.path(), &args, None), 0);
+    let row = |name: &str| {
+        text.lines()
+            .find(|l| l.trim_start().starts_with(&format!("{name} ")))
+            .unwrap_or_else(|| panic!("a line for {name}:\n{text}"))
+            .to_string()
+    };
+    assert!(row("sex").ends_with("11 missing"), "{text}");
+    assert!(row("bill_length_mm").ends_with(" 2 missing"), "{text}");
+    assert!(row("island").ends_with(" 0 missing"), "{text}");
+    let (so, _) = expect_code(
+        &copse_in(dir.path(), &[&args[..], &["--json"]].concat(), None),
+        0,
+    );
+    let j = json_of(&so);
+    let names: Vec<&str> = j["inputs"]
+        .as_array()
+        .expect("inputs")
+        .iter()
+        .map(|i| i["name"].as_str().expect("name"))
+        .collect();
+    let sex = names.iter().position(|&n| n == "sex").expect("sex");
+    assert_eq!(j["missing_cells"][sex], 11);
+}
+
 /// Regression importance is printed as a share of the forest's out-of-bag mean squared
 /// error, while the JSON keeps the rises in squared target units beside that baseline;
 /// the mirrored-null test, withheld with so few inputs, takes one short line.

@@ -148,6 +148,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     }
     let total_secs = started.elapsed().as_secs_f64();
 
+    let missing_cells = data.missing_cells();
     let view = TrainView::new(
         &model,
         &TrainFacts {
@@ -158,6 +159,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
             seconds: total_secs,
             training_seconds: train_secs,
             notes: &data.notes,
+            missing_cells: &missing_cells,
         },
     );
     let text = view.text(Style::new(ui.stdout_colour()));

@@ -120,7 +120,7 @@ impl<'a> InspectView<'a> {
             self.model_file,
             model.card().copse_version
         );
-        data_section(&mut text, st, model);
+        data_section(&mut text, st, model, None);
         settings_section(&mut text, st, model, None);
         let _ = writeln!(text, "{}", st.head("SIZE"));
         let _ = writeln!(text, "  {:<LABEL$}{}", "trees", s.trees);

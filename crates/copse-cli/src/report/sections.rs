@@ -21,8 +21,9 @@ pub fn sampling_words(s: &Sampling, balanced: bool) -> String {
     }
 }
 
-/// The data section.
-pub fn data_section(out: &mut String, st: Style, model: &Model) {
+/// The data section; `missing` gives each input's missing cells among the rows used,
+/// when the training table is at hand (the model file does not keep them).
+pub fn data_section(out: &mut String, st: Style, model: &Model, missing: Option<&[usize]>) {
     let t = model.card();
     let _ = writeln!(out, "{}", st.head("DATA"));
     line(out, "source", &t.source);
@@ -72,15 +73,22 @@ pub fn data_section(out: &mut String, st: Style, model: &Model) {
         }
     }
     let n_cat = model.meta().iter().filter(|f| f.is_categorical()).count();
+    let used = t.rows_read.saturating_sub(t.rows_without_outcome);
     line(
         out,
         "inputs",
         &format!(
-            "{}: {} numeric, {n_cat} categorical",
+            "{}: {} numeric, {n_cat} categorical{}",
             model.meta().len(),
-            model.meta().len() - n_cat
+            model.meta().len() - n_cat,
+            if missing.is_some() {
+                format!("; last column: missing cells of the {used} rows used")
+            } else {
+                String::new()
+            }
         ),
     );
+    let mut kinds = Vec::new();
     for (j, f) in model.meta().iter().enumerate().take(40) {
         let kind = match (&f.kind, model.bins().get(j)) {
             (FeatureKind::Categorical { levels }, _) => {
@@ -94,7 +102,29 @@ pub fn data_section(out: &mut String, st: Style, model: &Model) {
             ),
             _ => "numeric, no values".to_string(),
         };
-        line(out, "", &format!("  {:<24}{kind}", f.name));
+        kinds.push((
+            f.name.as_str(),
+            kind,
+            missing.and_then(|m| m.get(j).copied()),
+        ));
+    }
+    let kw = kinds
+        .iter()
+        .map(|(_, k, _)| k.chars().count())
+        .max()
+        .unwrap_or(0);
+    let nw = missing.map_or(1, |m| {
+        m.iter().map(|n| n.to_string().len()).max().unwrap_or(1)
+    });
+    for (name, kind, gone) in kinds {
+        match gone {
+            Some(n) => line(
+                out,
+                "",
+                &format!("  {name:<24}{kind:<kw$}  {n:>nw$} missing"),
+            ),
+            None => line(out, "", &format!("  {name:<24}{kind}")),
+        }
     }
     if model.meta().len() > 40 {
         line(
