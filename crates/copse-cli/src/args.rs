@@ -1,6 +1,10 @@
 //! Command-line arguments, parsed with no I/O: the raw values each subcommand accepts.
 //! Checks that need no files (ranges, words) happen here, so a bad flag is a usage
 //! error (exit 2) before any work starts.
+use crate::help::{
+    DEMO_EXAMPLES, EVALUATE_EXAMPLES, IMPORTANCE_EXAMPLES, INSPECT_EXAMPLES,
+    MAKE_DEMO_DATA_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES,
+};
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use copse_data::Delimiter;
 use copse_data::Roles;
@@ -18,11 +22,12 @@ use std::path::PathBuf;
 #[command(name = "copse", version, max_term_width = 100)]
 pub struct Cli {
     /// Threads to use (default: one per core). Results do not depend on it.
-    #[arg(long, global = true, value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+    // Listed last in every command's help, after the command's own options.
+    #[arg(long, global = true, value_name = "N", value_parser = clap::value_parser!(u16).range(1..), display_order = LAST)]
     pub threads: Option<u16>,
 
     /// No progress bars and no notes on standard error (errors and warnings still show).
-    #[arg(long, short, global = true)]
+    #[arg(long, short, global = true, display_order = LAST + 1)]
     pub quiet: bool,
 
     /// What to do.
@@ -30,25 +35,37 @@ pub struct Cli {
     pub command: Command,
 }
 
-/// The subcommands.
+/// Help place of the options every command shares (`--threads`, `-q`): after the
+/// command's own.
+const LAST: usize = 1000;
+
+/// The subcommands; each help ends with worked examples on the demo register.
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Train a model on a CSV file and print a report.
+    #[command(after_help = TRAIN_EXAMPLES)]
     Train(TrainArgs),
     /// Predict for every row of a CSV file, streaming, in input order.
+    #[command(after_help = SCORE_EXAMPLES)]
     Score(ScoreArgs),
     /// Measure a model's accuracy on a labelled CSV file it has not seen.
+    #[command(after_help = EVALUATE_EXAMPLES)]
     Evaluate(EvaluateArgs),
     /// Rank inputs by permutation importance on a labelled CSV file.
+    #[command(after_help = IMPORTANCE_EXAMPLES)]
     Importance(ImportanceArgs),
     /// Compare one tree, bagged trees and a random forest over several seeds: how much
     /// their error, answers and importance ranking move.
+    #[command(after_help = STABILITY_EXAMPLES)]
     Stability(StabilityArgs),
     /// Describe a model file: inputs, settings, sizes, out-of-bag accuracy, tree rules.
+    #[command(after_help = INSPECT_EXAMPLES)]
     Inspect(InspectArgs),
     /// Run the whole job on the bundled, invented water-main register.
+    #[command(after_help = DEMO_EXAMPLES)]
     Demo(DemoArgs),
     /// Write the invented water-main register at any size (seeded, reproducible).
+    #[command(after_help = MAKE_DEMO_DATA_EXAMPLES)]
     MakeDemoData(MakeDemoDataArgs),
 }
 
@@ -60,10 +77,14 @@ pub struct CsvArgs {
     pub delimiter: DelimiterArg,
 
     /// Cell texts that mean "missing", comma-separated; an empty cell is always missing
-    /// [default: NA,NaN,?; when scoring, the model's list].
+    /// [default: NA,NaN].
     #[arg(long, value_name = "TOKEN,...", allow_hyphen_values = true)]
     pub missing: Option<String>,
 }
+
+/// `--missing` of the commands that read rows for a model.
+const MODEL_MISSING: &str = "Cell texts that mean \"missing\", comma-separated; an empty cell is \
+always missing [default: the tokens the model was trained with]";
 
 /// The roles of a training file's columns, as `copse train` and `copse stability`
 /// take them: the target, the columns left out, forced kinds, and the task.
@@ -258,6 +279,7 @@ pub struct TrainArgs {
 
 /// `copse score`.
 #[derive(Debug, Args)]
+#[command(mut_arg("missing", |a| a.help(MODEL_MISSING)))]
 pub struct ScoreArgs {
     /// The model file.
     #[arg(long, value_name = "MODEL")]
@@ -297,6 +319,7 @@ pub struct ScoreArgs {
 
 /// `copse evaluate`.
 #[derive(Debug, Args)]
+#[command(mut_arg("missing", |a| a.help(MODEL_MISSING)))]
 pub struct EvaluateArgs {
     /// The model file.
     #[arg(long, value_name = "MODEL")]
@@ -316,6 +339,7 @@ pub struct EvaluateArgs {
 
 /// `copse importance`.
 #[derive(Debug, Args)]
+#[command(mut_arg("missing", |a| a.help(MODEL_MISSING)))]
 pub struct ImportanceArgs {
     /// The model file.
     #[arg(long, value_name = "MODEL")]
