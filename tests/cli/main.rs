@@ -1051,6 +1051,28 @@ fn renamed_options_columns_and_default_missing_tokens() {
     assert_eq!(j["inputs"][0]["kind"], "numeric");
 }
 
+/// A target named with the wrong letter case or a small typo is refused with the near
+/// match named.
+#[test]
+fn a_mistyped_target_gets_the_near_match() {
+    let dir = tmp();
+    let iris = repo("tests/data/iris.csv");
+    let iris = iris.to_str().expect("path");
+    for (given, meant) in [("Species", "species"), ("petal_lenght", "petal_length")] {
+        let (_, se) = expect_code(
+            &copse_in(
+                dir.path(),
+                &[
+                    "train", "--data", iris, "--target", given, "--out", "m.copse",
+                ],
+                None,
+            ),
+            2,
+        );
+        assert!(se.contains(&format!("did you mean '{meant}'?")), "{se}");
+    }
+}
+
 /// A UTF-8 byte-order mark, CRLF line ends, and quoted fields holding the delimiter and
 /// a line break are all read as a spreadsheet would.
 #[test]
