@@ -324,7 +324,7 @@ fn friedman1_importance_finds_the_five_real_inputs() {
         Metrics::Values(v) => v.r_squared.expect("y varies"),
         Metrics::Classes(_) => panic!("regression"),
     };
-    println!("friedman1: OOB variance explained {ve:.3}");
+    println!("friedman1: OOB R² {ve:.3}");
 }
 
 /// Over `reps` data sets drawn by `gen(seed)`, each input's OOB permutation importance
@@ -715,7 +715,7 @@ fn evaluation_matches_classes_by_label_and_refuses_strangers() {
 }
 
 #[test]
-fn balanced_sampling_lowers_the_minority_class_error() {
+fn balanced_sampling_lowers_the_minority_class_wrong_share() {
     // Chen, Liaw & Breiman (2004), "Using random forest to learn imbalanced data":
     // drawing the same number of cases from each class trades majority-class error
     // for a lower minority-class error. Twonorm with about 1 case in 10 from class 2;

@@ -249,8 +249,9 @@ pub fn importance_table(
     } else {
         "rise"
     };
+    let rw = rise_head.len().max(11);
     let mut head = format!(
-        "  {:>3}  {:<w$}  {:>15}  {:>9}",
+        "  {:>3}  {:<w$}  {:>rw$}  {:>9}",
         "#", "input", rise_head, "± s.e."
     );
     if brier.is_some() {
@@ -263,7 +264,7 @@ pub fn importance_table(
     for f in ranked {
         let se = f.std_error.map_or("-".to_string(), shown_se);
         let mut row = format!(
-            "  {:>3}  {:<w$}  {:>15}  {:>9}",
+            "  {:>3}  {:<w$}  {:>rw$}  {:>9}",
             f.rank,
             f.name,
             shown(f.mean),
