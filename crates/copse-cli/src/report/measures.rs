@@ -4,7 +4,7 @@
 //! numbers; `rows` for both) and as printed lines: the headline figures, then for
 //! classes the confusion table and, under it, the share of each class predicted wrong.
 use super::line;
-use crate::numbers::{column_decimals, count, pct};
+use crate::numbers::{column_decimals, count, fixed, pct};
 use copse_forest::{ClassMetrics, Metrics, ValueMetrics};
 use serde::Serialize;
 use std::fmt::Write;
@@ -196,7 +196,10 @@ pub fn value_block(out: &mut String, m: &ValueMetrics, rows_label: &str) {
         out,
         "R²",
         &m.r_squared.map_or("- (target constant)".to_string(), |r| {
-            format!("{r:.3} (1 - mean squared error / variance of the target)")
+            format!(
+                "{} (1 - mean squared error / variance of the target)",
+                fixed(r, 3)
+            )
         }),
     );
 }
