@@ -28,7 +28,7 @@ fn settings(trees: usize, k: FeaturesPerSplit, base: u64) -> ForestSettings {
 
 /// `settings` with the default inputs per split (for [`train_importance`]).
 fn importance_settings(trees: usize, seed: u64) -> ForestSettings {
-    settings(trees, FeaturesPerSplit::Auto, seed)
+    settings(trees, FeaturesPerSplit::Default, seed)
 }
 
 /// Trains without out-of-bag importance.
@@ -87,7 +87,7 @@ fn oob_error(t: &Trained) -> f64 {
 fn single_tree(d: &Synthetic) -> Forest {
     let s = ForestSettings {
         trees: 1,
-        features_per_split: FeaturesPerSplit::All,
+        features_per_split: FeaturesPerSplit::Every,
         sampling: Sampling::Whole,
         ..Default::default()
     };
@@ -215,7 +215,7 @@ fn bagging_beats_one_tree_on_waveform() {
     for s in 0..SEEDS {
         let tr = synth::waveform21(300, seed(1000 + s));
         let te = synth::waveform21(3000, seed(2000 + s));
-        let f = train(&tr, &settings(50, FeaturesPerSplit::All, 50 + s));
+        let f = train(&tr, &settings(50, FeaturesPerSplit::Every, 50 + s));
         bag += test_error(&f.forest, &te);
         one += test_error(&single_tree(&tr), &te);
     }
@@ -238,7 +238,7 @@ fn oob_error_is_honest_on_twonorm() {
     // is 4 sd.
     let tr = synth::twonorm(2000, seed(11));
     let te = synth::twonorm(5000, seed(12));
-    let t = train(&tr, &settings(200, FeaturesPerSplit::Auto, 13));
+    let t = train(&tr, &settings(200, FeaturesPerSplit::Default, 13));
     let (oob, test) = (oob_error(&t), test_error(&t.forest, &te));
     println!("twonorm n=2000: OOB error {oob:.4}, fresh-case error {test:.4}");
     assert!((oob - test).abs() <= 0.02, "OOB {oob} vs test {test}");
@@ -256,7 +256,7 @@ fn one_tree_reports_rows_never_out_of_bag() {
     // never out of bag. The share is a mean of 500 weakly dependent indicators with sd
     // about sqrt(0.368 * 0.632 / 500) = 0.022, so 4 sd = 0.09.
     let d = synth::twonorm(500, seed(21));
-    let t = train(&d, &settings(1, FeaturesPerSplit::Auto, 22));
+    let t = train(&d, &settings(1, FeaturesPerSplit::Default, 22));
     let s = t.forest.oob();
     let never = s.rows_never_oob as f64 / 500.0;
     println!(
@@ -276,7 +276,7 @@ fn one_tree_reports_rows_never_out_of_bag() {
     // With no resampling, no row is ever out of bag: reported, not a crash.
     let s = ForestSettings {
         sampling: Sampling::Whole,
-        ..settings(3, FeaturesPerSplit::Auto, 1)
+        ..settings(3, FeaturesPerSplit::Default, 1)
     };
     let t = train(&d, &s);
     assert!(t.forest.oob().metrics.is_none());
@@ -324,10 +324,10 @@ fn friedman1_importance_finds_the_five_real_inputs() {
     );
     assert!(imp.features[..5].iter().all(|f| f.rank <= 5));
     let ve = match t.forest.oob().metrics.as_ref().expect("measured") {
-        Metrics::Values(v) => v.variance_explained.expect("y varies"),
+        Metrics::Values(v) => v.r_squared.expect("y varies"),
         Metrics::Classes(_) => panic!("regression"),
     };
-    println!("friedman1: OOB variance explained {ve:.3}");
+    println!("friedman1: OOB R² {ve:.3}");
 }
 
 /// Over `reps` data sets drawn by `gen(seed)`, each input's OOB permutation importance
@@ -512,10 +512,10 @@ fn check_stability(name: &str, gen: &dyn Fn(usize, u64) -> Synthetic) {
     // the margin a factor of two leaves when trees disagree on 20-30% of cases.
     let tr = gen(300, seed(61));
     let te = gen(3000, seed(62));
-    let forest_a = train(&tr, &settings(100, FeaturesPerSplit::Auto, 1)).forest;
-    let forest_b = train(&tr, &settings(100, FeaturesPerSplit::Auto, 2)).forest;
-    let tree_a = train(&tr, &settings(1, FeaturesPerSplit::Auto, 1)).forest;
-    let tree_b = train(&tr, &settings(1, FeaturesPerSplit::Auto, 2)).forest;
+    let forest_a = train(&tr, &settings(100, FeaturesPerSplit::Default, 1)).forest;
+    let forest_b = train(&tr, &settings(100, FeaturesPerSplit::Default, 2)).forest;
+    let tree_a = train(&tr, &settings(1, FeaturesPerSplit::Default, 1)).forest;
+    let tree_b = train(&tr, &settings(1, FeaturesPerSplit::Default, 2)).forest;
     let (f, t) = (
         disagreement(&forest_a, &forest_b, &te.x),
         disagreement(&tree_a, &tree_b, &te.x),
@@ -552,7 +552,7 @@ fn iris_oob_error() {
     // 4-6% (common practice, memory); the range [2%, 8%] allows for that memory and
     // for the sampling sd of an error rate on 150 cases (about 0.017).
     let d = read_csv("iris.csv", "species");
-    let t = train(&d, &settings(500, FeaturesPerSplit::Auto, 71));
+    let t = train(&d, &settings(500, FeaturesPerSplit::Default, 71));
     let e = oob_error(&t);
     println!("iris: OOB error {e:.4}");
     assert!((0.02..=0.08).contains(&e), "{e}");
@@ -567,7 +567,7 @@ fn penguins_oob_error_with_missing_values_kept() {
     let d = read_csv("penguins.csv", "species");
     assert_eq!(d.x.nrows(), 344);
     assert!(d.x.iter().any(|v| v.is_nan()));
-    let t = train(&d, &settings(500, FeaturesPerSplit::Auto, 81));
+    let t = train(&d, &settings(500, FeaturesPerSplit::Default, 81));
     let e = oob_error(&t);
     println!("penguins: OOB error {e:.4}");
     assert!(e <= 0.04, "{e}");
@@ -637,7 +637,7 @@ fn same_model_for_any_thread_count() {
 #[test]
 fn predictions_follow_input_order_and_round_trip() {
     let d = synth::waveform21(700, seed(101));
-    let t = train(&d, &settings(30, FeaturesPerSplit::Auto, 102));
+    let t = train(&d, &settings(30, FeaturesPerSplit::Default, 102));
     let p = t.forest.predict(d.x.view()).expect("predicts");
     // Reversed input gives reversed output (rows are independent).
     let mut rev = d.x.clone();
@@ -666,7 +666,7 @@ fn predictions_follow_input_order_and_round_trip() {
 #[test]
 fn evaluation_matches_classes_by_label_and_refuses_strangers() {
     let d = synth::twonorm(400, seed(111));
-    let t = train(&d, &settings(40, FeaturesPerSplit::Auto, 112));
+    let t = train(&d, &settings(40, FeaturesPerSplit::Default, 112));
     let direct = t
         .forest
         .evaluate(d.x.view(), &d.outcome)
@@ -718,7 +718,7 @@ fn evaluation_matches_classes_by_label_and_refuses_strangers() {
 }
 
 #[test]
-fn balanced_sampling_lowers_the_minority_class_error() {
+fn balanced_sampling_lowers_the_minority_class_wrong_share() {
     // Chen, Liaw & Breiman (2004), "Using random forest to learn imbalanced data":
     // drawing the same number of cases from each class trades majority-class error
     // for a lower minority-class error. Twonorm with about 1 case in 10 from class 2;
@@ -742,12 +742,12 @@ fn balanced_sampling_lowers_the_minority_class_error() {
     };
     let tr = keep(synth::twonorm(600, seed(121)), seed(122));
     let te = keep(synth::twonorm(6000, seed(123)), seed(124));
-    let plain = train(&tr, &settings(200, FeaturesPerSplit::Auto, 125)).forest;
+    let plain = train(&tr, &settings(200, FeaturesPerSplit::Default, 125)).forest;
     let balanced = train(
         &tr,
         &ForestSettings {
             balanced: true,
-            ..settings(200, FeaturesPerSplit::Auto, 125)
+            ..settings(200, FeaturesPerSplit::Default, 125)
         },
     )
     .forest;
@@ -786,7 +786,7 @@ fn balanced_sampling_lowers_the_minority_class_error() {
         .expect("evaluates")
         .metrics
     {
-        Metrics::Classes(m) => m.class_error[1].expect("class 2 present"),
+        Metrics::Classes(m) => m.wrong_share_by_class[1].expect("class 2 present"),
         Metrics::Values(_) => panic!("classes"),
     };
     println!("imbalanced twonorm: class-2 error plain {p:.4}, balanced at its share {b:.4}");
@@ -801,7 +801,7 @@ fn balanced_sampling_lowers_the_minority_class_error() {
 fn bad_input_gives_typed_errors() {
     use copse_forest::ErrorKind;
     let d = synth::twonorm(50, seed(131));
-    let s = settings(5, FeaturesPerSplit::Auto, 1);
+    let s = settings(5, FeaturesPerSplit::Default, 1);
     let kind = |x: &Array2<f64>, meta: &[FeatureMeta], o: &Outcome, s: &ForestSettings| {
         Forest::train(x.view(), meta, o, s, &TrainOptions::default())
             .map(|_| ())
@@ -832,7 +832,7 @@ fn bad_input_gives_typed_errors() {
         kind(&d.x, &d.meta, &d.outcome, &too_many),
         ErrorKind::InvalidSetting
     );
-    let zero = settings(0, FeaturesPerSplit::Auto, 1);
+    let zero = settings(0, FeaturesPerSplit::Default, 1);
     assert_eq!(
         kind(&d.x, &d.meta, &d.outcome, &zero),
         ErrorKind::InvalidSetting
@@ -910,5 +910,5 @@ fn rows_with_missing_outcome_are_left_out_and_counted() {
         "friedman1 half-samples: fresh-case MSE {:.3}, MAE {:.3}",
         m.mse, m.mae
     );
-    assert!(m.variance_explained.expect("y varies") > 0.5);
+    assert!(m.r_squared.expect("y varies") > 0.5);
 }

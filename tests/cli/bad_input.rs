@@ -7,7 +7,7 @@
 //! Cases covered by tests in `main.rs` are not repeated here: tampered model files
 //! (empty, truncated, one byte flipped, wrong marker, newer version, a length field
 //! claiming terabytes), a missing column at scoring, unseen categories when scoring,
-//! `--trees 0` / `--min-leaf 0` / `--features-per-split 0` / a fraction above 1, BOM
+//! `--trees 0` / `--min-leaf 0` / `--features-per-split 0` / a share above 100%, BOM
 //! with CRLF and quoted fields in training data, a stray word in a numeric column,
 //! `/dev/full` when scoring, CRLF line numbers, and no partial output when scoring
 //! fails part-way. This file adds the rest of the matrix (more than 30 cases of its
@@ -219,7 +219,7 @@ fn m08_target_column_absent() {
 #[test]
 fn m09_target_all_missing() {
     train_refused(
-        "a,b,y\n1,2,NA\n3,4,\n5,6,?\n",
+        "a,b,y\n1,2,NA\n3,4,\n5,6,NaN\n",
         "y",
         &[
             "d.csv",
@@ -234,7 +234,7 @@ fn m10_single_row() {
     train_refused(
         "a,b,y\n1,2,p\n",
         "y",
-        &["d.csv has only 1 row", "at least two are needed"],
+        &["d.csv has only one row", "at least two are needed"],
     );
 }
 
@@ -256,7 +256,10 @@ fn m11_single_class_is_allowed_and_called_trivial() {
         ),
         0,
     );
-    assert_eq!(so, "prediction,prob_p\np,1\np,1\np,1\n");
+    assert_eq!(
+        so,
+        "prediction,prob_p\np,1.000000\np,1.000000\np,1.000000\n"
+    );
 }
 
 /// Every input constant: allowed, with a note that the model cannot split and only

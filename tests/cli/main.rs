@@ -348,10 +348,14 @@ fn regression_json_shape() {
     let j = json_of(&so);
     assert_eq!(j["task"], "regress");
     assert_eq!(j["classes"], serde_json::json!([]));
-    let ve = j["oob"]["variance_explained"]
-        .as_f64()
-        .expect("variance explained");
-    assert!(ve > 0.6, "variance explained {ve}");
+    let r2 = j["oob"]["r_squared"].as_f64().expect("R squared");
+    assert!(r2 > 0.6, "R squared {r2}");
+    let rmse = j["oob"]["rmse"].as_f64().expect("rmse");
+    let mse = j["oob"]["mse"].as_f64().expect("mse");
+    assert!(
+        (rmse * rmse - mse).abs() <= 1e-9 * mse,
+        "rmse {rmse}, mse {mse}"
+    );
     assert_eq!(j["oob"]["error"], j["oob"]["mse"]);
     assert!(j["oob"]["mse"].as_f64().expect("mse") > 0.0);
     // Two penguins have no body mass: they are left out and the user is told.
@@ -364,10 +368,152 @@ fn regression_json_shape() {
     );
     let (so, _) = expect_code(&out, 0);
     let ev = json_of(&so)["evaluation"].clone();
-    for key in ["mse", "mae", "variance_explained", "rows"] {
+    for key in ["rmse", "mae", "r_squared", "mse", "rows"] {
         assert!(!ev[key].is_null(), "evaluation.{key}");
     }
     assert_eq!(ev["rows"], 342);
+
+    // The printed headline leads with the typical error in target units, then R².
+    let (text, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["evaluate", "--model", "mass.copse", "--data", &p],
+            None,
+        ),
+        0,
+    );
+    let at = |label: &str| {
+        text.find(label)
+            .unwrap_or_else(|| panic!("the report shows '{label}':\n{text}"))
+    };
+    assert!(
+        at("typical error (RMSE)") < at("mean absolute error"),
+        "{text}"
+    );
+    assert!(at("mean absolute error") < at("R²"), "{text}");
+    assert!(!text.contains("mean squared error  "), "{text}");
+
+    // One precision per output column: six significant digits of the largest body
+    // mass (6300 g), so two decimals in every cell.
+    let (scored, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["score", "--model", "mass.copse", "--data", &p],
+            None,
+        ),
+        0,
+    );
+    let decimals: std::collections::BTreeSet<usize> = read_csv(scored.as_bytes())
+        .iter()
+        .skip(1)
+        .map(|r| r[0].split_once('.').map_or(0, |(_, d)| d.len()))
+        .collect();
+    assert_eq!(decimals, [2].into_iter().collect(), "{scored}");
+}
+
+/// The DATA block counts each input's missing cells among the rows used. Penguins
+/// (Horst, Hill & Gorman 2020): 11 rows have no sex, 2 have no measurements.
+#[test]
+fn data_block_counts_missing_cells_per_input() {
+    let dir = tmp();
+    let p = penguins();
+    let args = [
+        "train", "--data", &p, "--target", "species", "--out", "s.copse", "--trees", "20",
+    ];
+    let (text, _) = expect_code(&copse_in(dir.path(), &args, None), 0);
+    let row = |name: &str| {
+        text.lines()
+            .find(|l| l.trim_start().starts_with(&format!("{name} ")))
+            .unwrap_or_else(|| panic!("a line for {name}:\n{text}"))
+            .to_string()
+    };
+    assert!(row("sex").ends_with("11 missing"), "{text}");
+    assert!(row("bill_length_mm").ends_with(" 2 missing"), "{text}");
+    assert!(row("island").ends_with(" 0 missing"), "{text}");
+    let (so, _) = expect_code(
+        &copse_in(dir.path(), &[&args[..], &["--json"]].concat(), None),
+        0,
+    );
+    let j = json_of(&so);
+    let names: Vec<&str> = j["inputs"]
+        .as_array()
+        .expect("inputs")
+        .iter()
+        .map(|i| i["name"].as_str().expect("name"))
+        .collect();
+    let sex = names.iter().position(|&n| n == "sex").expect("sex");
+    assert_eq!(j["missing_cells"][sex], 11);
+}
+
+/// Regression importance is printed as a share of the forest's out-of-bag mean squared
+/// error, while the JSON keeps the rises in squared target units beside that baseline;
+/// the mirrored-null test, withheld with so few inputs, takes one short line.
+#[test]
+fn regression_importance_reads_as_a_share_of_the_baseline_error() {
+    let dir = tmp();
+    let p = penguins();
+    let args = [
+        "train",
+        "--data",
+        &p,
+        "--target",
+        "body_mass_g",
+        "--out",
+        "mass.copse",
+        "--trees",
+        "60",
+    ];
+    let (text, _) = expect_code(&copse_in(dir.path(), &args, None), 0);
+    let (so, _) = expect_code(
+        &copse_in(dir.path(), &[&args[..], &["--json"]].concat(), None),
+        0,
+    );
+    let j = json_of(&so);
+    let base = j["importance_about"]["baseline_mse"]
+        .as_f64()
+        .expect("baseline");
+    assert_eq!(Some(base), j["oob"]["mse"].as_f64());
+    let top = &j["importance"][0];
+    let share = 100.0 * top["mean"].as_f64().expect("mean") / base;
+    let name = top["feature"].as_str().expect("name");
+    let line = text
+        .lines()
+        .find(|l| l.trim_start().starts_with(&format!("1  {name} ")))
+        .expect("the top input's line");
+    assert!(line.contains(&format!("+{share:.1}%")), "{line}\n{text}");
+    assert!(text.contains("rise, % of base"), "{text}");
+    let note: Vec<&str> = text.lines().filter(|l| l.contains("p mirror")).collect();
+    assert_eq!(note.len(), 1, "{text}");
+    assert!(note[0].len() <= 90, "{}", note[0]);
+}
+
+/// The class block of a report: the headline figures, then the confusion table (no
+/// column of shares inside it), then the share of each actual class predicted wrong
+/// as a small table of its own.
+#[test]
+fn class_report_puts_the_shares_wrong_under_the_confusion_table() {
+    let dir = tmp();
+    let (text, _) = expect_code(&train_iris(dir.path(), &[]), 0);
+    let at = |label: &str| {
+        text.find(label)
+            .unwrap_or_else(|| panic!("the report shows '{label}':\n{text}"))
+    };
+    assert!(at("misclassified") < at("Brier score"), "{text}");
+    assert!(at("Brier score") < at("confusion table"), "{text}");
+    assert!(
+        at("confusion table") < at("predicted wrong, by actual class"),
+        "{text}"
+    );
+    assert!(!text.contains("| wrong"), "{text}");
+    // Setosa is separable by petal length alone: none of its 50 rows is wrong.
+    let setosa = text[at("predicted wrong, by actual class")..]
+        .lines()
+        .find(|l| l.trim_start().starts_with("setosa"))
+        .expect("a setosa line");
+    assert!(
+        setosa.contains("0.0%") && setosa.contains(" 0 of 50"),
+        "{setosa}"
+    );
 }
 
 /// Every `--json` command prints one object with at least task, trees, oob, importance
@@ -405,7 +551,7 @@ fn json_shapes_of_every_command() {
         assert_eq!(j["task"], "classify");
         assert_eq!(j["trees"], 150);
         assert_eq!(j["classes"].as_array().map(Vec::len), Some(3));
-        for key in ["error", "confusion", "class_error"] {
+        for key in ["error", "confusion", "wrong_share_by_class"] {
             assert!(!j["oob"][key].is_null(), "{}: oob.{key}", args[0]);
         }
         let imp = j["importance"].as_array().expect("importance list");
@@ -437,6 +583,44 @@ fn json_shapes_of_every_command() {
         .expect("rules")
         .contains("=> setosa"));
     assert!(j["sizes"]["nodes"].as_u64().expect("nodes") > 150);
+    // The tree's nodes one by one: the root first, with no test, then every node once,
+    // each split with two children listed after it.
+    let nodes = j["tree"]["node_list"].as_array().expect("node list");
+    assert_eq!(Some(nodes.len() as u64), j["tree"]["nodes"].as_u64());
+    assert_eq!(nodes[0]["id"], 0);
+    assert_eq!(nodes[0]["depth"], 0);
+    assert!(nodes[0]["test"].is_null());
+    // A bootstrap resample of 150 rows holds 150 draws.
+    assert_eq!(nodes[0]["cases"].as_f64(), Some(150.0));
+    let mut place = std::collections::HashMap::new();
+    for (k, n) in nodes.iter().enumerate() {
+        place.insert(n["id"].as_u64().expect("id"), k);
+    }
+    assert_eq!(place.len(), nodes.len());
+    for (k, n) in nodes.iter().enumerate() {
+        let children = n["children"].as_array().expect("children");
+        assert!(children.is_empty() || children.len() == 2);
+        assert_eq!(children.is_empty(), n["prediction"].is_string());
+        for c in children {
+            let child = &nodes[place[&c.as_u64().expect("id")]];
+            assert!(place[&c.as_u64().expect("id")] > k);
+            assert_eq!(child["depth"].as_u64(), n["depth"].as_u64().map(|d| d + 1));
+            assert!(child["test"].is_string());
+        }
+    }
+    let (text, _) = expect_code(
+        &copse_in(
+            dir.path(),
+            &["inspect", "--model", "iris.copse", "--tree", "0"],
+            None,
+        ),
+        0,
+    );
+    assert!(
+        text.contains("this tree's bootstrap resample (150 cases"),
+        "{text}"
+    );
+    assert!(!text.contains("all data"), "{text}");
 }
 
 /// Damaged or foreign model files end with exit 2 and a message naming the file and
@@ -797,6 +981,7 @@ fn bad_flag_values_are_usage_errors() {
         ["--min-leaf", "0"],
         ["--features-per-split", "0"],
         ["--features-per-split", "1.5"],
+        ["--features-per-split", "150%"],
         ["--sampling", "subsample:1.2"],
         ["--bins", "1"],
     ] {
@@ -805,6 +990,102 @@ fn bad_flag_values_are_usage_errors() {
         assert!(se.contains(extra[0]), "{extra:?}: {se}");
     }
     assert!(!dir.path().join("iris.copse").exists());
+}
+
+/// `--features-per-split` takes a count, a share such as `33%`, or the words `root`,
+/// `log` and `every`; other spellings are refused with the one to write instead, and
+/// the report and JSON give the rule as it was written.
+#[test]
+fn features_per_split_speaks_our_grammar() {
+    let dir = tmp();
+    for (theirs, ours) in [
+        ("sqrt", "'root'"),
+        ("log2", "'log'"),
+        ("all", "'every'"),
+        ("auto", "'default'"),
+        ("0.33", "'33%'"),
+    ] {
+        let (_, se) = expect_code(
+            &train_iris(dir.path(), &["--features-per-split", theirs]),
+            2,
+        );
+        assert!(se.contains(ours), "{theirs}: {se}");
+    }
+    let (so, _) = expect_code(&train_iris(dir.path(), &["--json"]), 0);
+    let j = json_of(&so);
+    assert_eq!(j["settings"]["features_per_split_rule"], "default");
+    // A count is an integer in the JSON.
+    assert!(j["settings"]["min_leaf"].is_u64(), "{}", j["settings"]);
+    let (so, _) = expect_code(
+        &train_iris(dir.path(), &["--features-per-split", "50%", "--json"]),
+        0,
+    );
+    let j = json_of(&so);
+    assert_eq!(j["settings"]["features_per_split_rule"], "50%");
+    assert_eq!(j["settings"]["features_per_split"], 2);
+    let (text, _) = expect_code(&train_iris(dir.path(), &["--features-per-split", "50%"]), 0);
+    assert!(text.contains("2 of 4 (50% of the inputs)"), "{text}");
+}
+
+/// Options and defaults in copse's own words: `--shuffled-target-runs` (its former
+/// spelling refused with the new one), the out-of-bag file's `trees_judging_row`
+/// column, and missing tokens `NA` and `NaN` by default, `?` only when asked for.
+#[test]
+fn renamed_options_columns_and_default_missing_tokens() {
+    let dir = tmp();
+    for extra in [
+        &["--null-permutations", "5"][..],
+        &["--null-permutations"][..],
+    ] {
+        let (_, se) = expect_code(&train_iris(dir.path(), extra), 2);
+        assert!(se.contains("--shuffled-target-runs"), "{se}");
+    }
+    expect_code(&train_iris(dir.path(), &["--oob-out", "oob.csv"]), 0);
+    let oob = read_csv(&std::fs::read(dir.path().join("oob.csv")).expect("oob file"));
+    assert_eq!(oob[0].last().map(String::as_str), Some("trees_judging_row"));
+
+    let csv = "x,y\n1,a\n?,b\n3,a\nNA,b\n5,a\nNaN,b\n";
+    std::fs::write(dir.path().join("q.csv"), csv).expect("write");
+    let train_q = |extra: &[&str]| {
+        let mut args = vec![
+            "train", "--data", "q.csv", "--target", "y", "--out", "q.copse", "--trees", "5",
+            "--json",
+        ];
+        args.extend_from_slice(extra);
+        let (so, se) = expect_code(&copse_in(dir.path(), &args, None), 0);
+        (json_of(&so), se)
+    };
+    let (j, se) = train_q(&[]);
+    assert_eq!(
+        j["data"]["missing_tokens"],
+        serde_json::json!(["NA", "NaN"])
+    );
+    assert_eq!(j["inputs"][0]["kind"], "categorical", "{se}");
+    assert!(se.contains("line 3 '?'"), "{se}");
+    let (j, _) = train_q(&["--missing", "NA,NaN,?"]);
+    assert_eq!(j["inputs"][0]["kind"], "numeric");
+}
+
+/// A target named with the wrong letter case or a small typo is refused with the near
+/// match named.
+#[test]
+fn a_mistyped_target_gets_the_near_match() {
+    let dir = tmp();
+    let iris = repo("tests/data/iris.csv");
+    let iris = iris.to_str().expect("path");
+    for (given, meant) in [("Species", "species"), ("petal_lenght", "petal_length")] {
+        let (_, se) = expect_code(
+            &copse_in(
+                dir.path(),
+                &[
+                    "train", "--data", iris, "--target", given, "--out", "m.copse",
+                ],
+                None,
+            ),
+            2,
+        );
+        assert!(se.contains(&format!("did you mean '{meant}'?")), "{se}");
+    }
 }
 
 /// A UTF-8 byte-order mark, CRLF line ends, and quoted fields holding the delimiter and

@@ -64,7 +64,7 @@ fn r01_a_stray_quote_costs_one_row_not_the_rest_of_the_file() {
         assert!(r.starts_with(&format!("r{i},setosa,")), "{so}");
     }
     assert!(
-        se.contains("1 of 6 rows of new.csv could not be scored") && se.contains("(lines 3)"),
+        se.contains("1 of 6 rows of new.csv could not be scored") && se.contains("(line 3)"),
         "{se}"
     );
 }
@@ -170,7 +170,7 @@ fn r04_blank_lines_are_counted_and_line_numbers_are_file_lines() {
         0,
     );
     assert_eq!(so.lines().count(), 4, "{so}");
-    assert!(se.contains("(lines 6)"), "{se}");
+    assert!(se.contains("(line 6)"), "{se}");
     assert!(
         se.contains("copse: note: 2 blank lines of new.csv were passed over")
             && se.contains("lines 3, 4"),
@@ -261,10 +261,11 @@ fn r06_an_interruption_never_leaves_a_mixed_pair() {
     let dir = tmp();
     let i = super::bad_input::iris();
     let mut seen = [0; 3];
-    for delay in (0..12).map(|k| k * 15) {
-        put(dir.path(), "m.copse", "old");
-        put(dir.path(), "o.csv", "old");
-        let child = std::process::Command::new(env!("CARGO_BIN_EXE_copse"))
+    // The delays are shares of one uninterrupted run's time, so that some signals land
+    // during training and some after it on a fast or a slow machine alike.
+    let started = std::time::Instant::now();
+    let run = |dir: &Path| {
+        std::process::Command::new(env!("CARGO_BIN_EXE_copse"))
             .args([
                 "train",
                 "--data",
@@ -274,19 +275,27 @@ fn r06_an_interruption_never_leaves_a_mixed_pair() {
                 "--out",
                 "m.copse",
                 "--trees",
-                "60",
+                "300",
                 "--oob-out",
                 "o.csv",
                 "-q",
                 "--threads",
                 "1",
             ])
-            .current_dir(dir.path())
+            .current_dir(dir)
             .stdout(std::process::Stdio::null())
             .stderr(std::process::Stdio::piped())
             .spawn()
-            .expect("copse starts");
-        std::thread::sleep(std::time::Duration::from_millis(delay));
+            .expect("copse starts")
+    };
+    let whole = run(dir.path()).wait_with_output().expect("copse ends");
+    assert_eq!(whole.status.code(), Some(0));
+    let full = started.elapsed().as_micros() as u64;
+    for delay in (0..12).map(|k| full * k / 10) {
+        put(dir.path(), "m.copse", "old");
+        put(dir.path(), "o.csv", "old");
+        let child = run(dir.path());
+        std::thread::sleep(std::time::Duration::from_micros(delay));
         let _ = std::process::Command::new("kill")
             .args(["-INT", &child.id().to_string()])
             .status();
@@ -294,7 +303,7 @@ fn r06_an_interruption_never_leaves_a_mixed_pair() {
         let se = super::text(&out.stderr);
         let m_new = std::fs::read(dir.path().join("m.copse")).expect("m") != b"old";
         let o_new = std::fs::read(dir.path().join("o.csv")).expect("o") != b"old";
-        assert_eq!(m_new, o_new, "after {delay} ms: {se}");
+        assert_eq!(m_new, o_new, "after {delay} µs: {se}");
         match out.status.code() {
             Some(130) if m_new => {
                 seen[1] += 1;
@@ -316,7 +325,7 @@ fn r06_an_interruption_never_leaves_a_mixed_pair() {
             Some(c) => panic!("exit {c}: {se}"),
         }
         let left = files(dir.path());
-        assert_eq!(left, ["m.copse", "o.csv"], "after {delay} ms");
+        assert_eq!(left, ["m.copse", "o.csv"], "after {delay} µs");
     }
     assert!(
         seen[0] > 0,

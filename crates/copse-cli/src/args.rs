@@ -1,6 +1,10 @@
 //! Command-line arguments, parsed with no I/O: the raw values each subcommand accepts.
 //! Checks that need no files (ranges, words) happen here, so a bad flag is a usage
 //! error (exit 2) before any work starts.
+use crate::help::{
+    DEMO_EXAMPLES, EVALUATE_EXAMPLES, IMPORTANCE_EXAMPLES, INSPECT_EXAMPLES,
+    MAKE_DEMO_DATA_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES,
+};
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use copse_data::Delimiter;
 use copse_data::Roles;
@@ -18,11 +22,12 @@ use std::path::PathBuf;
 #[command(name = "copse", version, max_term_width = 100)]
 pub struct Cli {
     /// Threads to use (default: one per core). Results do not depend on it.
-    #[arg(long, global = true, value_name = "N", value_parser = clap::value_parser!(u16).range(1..))]
+    // Listed last in every command's help, after the command's own options.
+    #[arg(long, global = true, value_name = "N", value_parser = clap::value_parser!(u16).range(1..), display_order = LAST)]
     pub threads: Option<u16>,
 
     /// No progress bars and no notes on standard error (errors and warnings still show).
-    #[arg(long, short, global = true)]
+    #[arg(long, short, global = true, display_order = LAST + 1)]
     pub quiet: bool,
 
     /// What to do.
@@ -30,25 +35,37 @@ pub struct Cli {
     pub command: Command,
 }
 
-/// The subcommands.
+/// Help place of the options every command shares (`--threads`, `-q`): after the
+/// command's own.
+const LAST: usize = 1000;
+
+/// The subcommands; each help ends with worked examples on the demo register.
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Train a model on a CSV file and print a report.
+    #[command(after_help = TRAIN_EXAMPLES)]
     Train(TrainArgs),
     /// Predict for every row of a CSV file, streaming, in input order.
+    #[command(after_help = SCORE_EXAMPLES)]
     Score(ScoreArgs),
     /// Measure a model's accuracy on a labelled CSV file it has not seen.
+    #[command(after_help = EVALUATE_EXAMPLES)]
     Evaluate(EvaluateArgs),
     /// Rank inputs by permutation importance on a labelled CSV file.
+    #[command(after_help = IMPORTANCE_EXAMPLES)]
     Importance(ImportanceArgs),
     /// Compare one tree, bagged trees and a random forest over several seeds: how much
     /// their error, answers and importance ranking move.
+    #[command(after_help = STABILITY_EXAMPLES)]
     Stability(StabilityArgs),
     /// Describe a model file: inputs, settings, sizes, out-of-bag accuracy, tree rules.
+    #[command(after_help = INSPECT_EXAMPLES)]
     Inspect(InspectArgs),
     /// Run the whole job on the bundled, invented water-main register.
+    #[command(after_help = DEMO_EXAMPLES)]
     Demo(DemoArgs),
     /// Write the invented water-main register at any size (seeded, reproducible).
+    #[command(after_help = MAKE_DEMO_DATA_EXAMPLES)]
     MakeDemoData(MakeDemoDataArgs),
 }
 
@@ -60,10 +77,14 @@ pub struct CsvArgs {
     pub delimiter: DelimiterArg,
 
     /// Cell texts that mean "missing", comma-separated; an empty cell is always missing
-    /// [default: NA,NaN,?; when scoring, the model's list].
+    /// [default: NA,NaN].
     #[arg(long, value_name = "TOKEN,...", allow_hyphen_values = true)]
     pub missing: Option<String>,
 }
+
+/// `--missing` of the commands that read rows for a model.
+const MODEL_MISSING: &str = "Cell texts that mean \"missing\", comma-separated; an empty cell is \
+always missing [default: the tokens the model was trained with]";
 
 /// The roles of a training file's columns, as `copse train` and `copse stability`
 /// take them: the target, the columns left out, forced kinds, and the task.
@@ -185,12 +206,13 @@ pub struct TrainArgs {
     #[arg(long, default_value_t = 500, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
     pub trees: u32,
 
-    /// Inputs tried at each split: sqrt, log2, all, a count N, or a fraction such as 0.33
-    /// [default: sqrt of the number of inputs for classes, a third of them for numbers].
+    /// Inputs tried at each split: a count such as 4, a share such as 33%, or root (square
+    /// root of the inputs), log (log2 of the inputs) or every [default: root for classes,
+    /// a third of the inputs for numbers].
     #[arg(long, value_name = "RULE", value_parser = parse_features_per_split, conflicts_with = "bagging")]
     pub features_per_split: Option<FeaturesPerSplit>,
 
-    /// Bagged trees: every input is tried at every split (same as --features-per-split all).
+    /// Bagged trees: every input is tried at every split (same as --features-per-split every).
     #[arg(long)]
     pub bagging: bool,
 
@@ -239,7 +261,12 @@ pub struct TrainArgs {
     /// Test each input's importance against N forests trained on a shuffled target and
     /// report p-values (costs N more forests; 199 gives p-values down to 0.005).
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=100_000))]
-    pub null_permutations: Option<u32>,
+    pub shuffled_target_runs: Option<u32>,
+
+    /// The option's former spelling, refused with the new one.
+    #[arg(long = "null-permutations", hide = true, value_name = "N", num_args = 0..=1,
+          default_missing_value = "", value_parser = renamed_shuffled_target_runs)]
+    pub renamed_shuffled_target_runs: Option<u32>,
 
     /// Print the report as one JSON object instead of text.
     #[arg(long)]
@@ -252,6 +279,7 @@ pub struct TrainArgs {
 
 /// `copse score`.
 #[derive(Debug, Args)]
+#[command(mut_arg("missing", |a| a.help(MODEL_MISSING)))]
 pub struct ScoreArgs {
     /// The model file.
     #[arg(long, value_name = "MODEL")]
@@ -291,6 +319,7 @@ pub struct ScoreArgs {
 
 /// `copse evaluate`.
 #[derive(Debug, Args)]
+#[command(mut_arg("missing", |a| a.help(MODEL_MISSING)))]
 pub struct EvaluateArgs {
     /// The model file.
     #[arg(long, value_name = "MODEL")]
@@ -310,6 +339,7 @@ pub struct EvaluateArgs {
 
 /// `copse importance`.
 #[derive(Debug, Args)]
+#[command(mut_arg("missing", |a| a.help(MODEL_MISSING)))]
 pub struct ImportanceArgs {
     /// The model file.
     #[arg(long, value_name = "MODEL")]
@@ -364,8 +394,8 @@ pub struct StabilityArgs {
     #[arg(long, default_value_t = 500, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=1_000_000))]
     pub trees: u32,
 
-    /// Inputs tried at each split by the random forest: sqrt, log2, a count N, or a
-    /// fraction such as 0.33 [default: as for 'copse train'].
+    /// Inputs tried at each split by the random forest: a count such as 4, a share such
+    /// as 33%, root or log [default: as for 'copse train'].
     #[arg(long, value_name = "RULE", value_parser = parse_features_per_split)]
     pub features_per_split: Option<FeaturesPerSplit>,
 
@@ -447,6 +477,10 @@ fn parse_features_per_split(s: &str) -> Result<FeaturesPerSplit, String> {
         .map_err(|e| e.message().to_string())
 }
 
+fn renamed_shuffled_target_runs(_: &str) -> Result<u32, String> {
+    Err("this option is now written --shuffled-target-runs N".to_string())
+}
+
 fn parse_sampling(s: &str) -> Result<Sampling, String> {
     s.parse::<Sampling>().map_err(|e| e.message().to_string())
 }
@@ -509,6 +543,8 @@ mod tests {
             ["--min-leaf", "0"],
             ["--features-per-split", "0"],
             ["--features-per-split", "1.5"],
+            ["--features-per-split", "0.5"],
+            ["--features-per-split", "sqrt"],
             ["--sampling", "subsample:2"],
         ] {
             let args: Vec<&str> = base.iter().copied().chain(extra).collect();
@@ -517,12 +553,12 @@ mod tests {
         let ok: Vec<&str> = base
             .iter()
             .copied()
-            .chain(["--features-per-split", "0.5", "--ignore", "a,b"])
+            .chain(["--features-per-split", "50%", "--ignore", "a,b"])
             .collect();
         let cli = Cli::try_parse_from(&ok).unwrap();
         match cli.command {
             Command::Train(t) => {
-                assert_eq!(t.features_per_split, Some(FeaturesPerSplit::Fraction(0.5)));
+                assert_eq!(t.features_per_split, Some(FeaturesPerSplit::Share(0.5)));
                 assert_eq!(t.roles.ignore, vec!["a".to_string(), "b".to_string()]);
             }
             _ => panic!("parsed as another command"),

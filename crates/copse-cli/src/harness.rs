@@ -197,7 +197,7 @@ fn exercise(model: &Model) {
     }
     let st = Style::new(false);
     let mut text = String::new();
-    sections::data_section(&mut text, st, model);
+    sections::data_section(&mut text, st, model, None);
     sections::settings_section(&mut text, st, model, None);
     sections::oob_section(&mut text, st, model);
     ranking::importance_section(&mut text, st, model, None);

@@ -14,6 +14,7 @@ pub mod commands;
 pub mod demo_data;
 pub mod error;
 pub mod harness;
+pub mod help;
 pub mod interrupt;
 pub mod memory;
 pub mod numbers;

@@ -45,12 +45,14 @@ pub fn trim_num(v: f64, decimals: usize) -> String {
     }
 }
 
-/// A number with `decimals` decimals and a `+` in front when it is above zero.
+/// A number with `decimals` decimals and a `+` in front when it is above zero; one that
+/// rounds to zero is written without a sign (`0.0000`, never `-0.0000`).
 pub fn signed(v: f64, decimals: usize) -> String {
-    if v > 0.0 {
-        format!("+{v:.decimals$}")
+    let s = fixed(v, decimals);
+    if v > 0.0 && s.bytes().any(|b| (b'1'..=b'9').contains(&b)) {
+        format!("+{s}")
     } else {
-        format!("{v:.decimals$}")
+        s
     }
 }
 
@@ -100,30 +102,30 @@ pub fn binary_bytes(bytes: f64) -> String {
     }
 }
 
-/// A probability or value in an output file, compactly: at most six decimals, no
-/// trailing zeros; values too large or too small for that (beyond 1e15, or below 1e-4
-/// but not zero) in exponent form with seven significant digits, so none is printed as
-/// a long string of digits or rounded to 0. NaN (no value) is an empty cell.
-pub fn compact(v: f64) -> String {
+/// Decimals of an output-file column of values whose largest size is `top`: six
+/// significant digits of the top, so every cell of the column has the same precision.
+pub fn value_decimals(top: f64) -> usize {
+    if top > 0.0 && top.is_finite() {
+        (5 - top.log10().floor() as i64).clamp(0, 10) as usize
+    } else {
+        6
+    }
+}
+
+/// Decimals of an output-file column of probabilities (and their standard errors).
+pub const PROBABILITY_DECIMALS: usize = 6;
+
+/// A value in an output-file column with a fixed number of decimals (see
+/// [`value_decimals`]): NaN (no value) is an empty cell, and a value that rounds to
+/// zero is written `0` followed by its decimals, never with a minus sign.
+pub fn fixed(v: f64, decimals: usize) -> String {
     if v.is_nan() {
         return String::new();
     }
-    let a = v.abs();
-    if a >= 1e15 || (a < 1e-4 && a > 0.0) {
-        let s = format!("{v:.6e}");
-        return match s.split_once('e') {
-            Some((m, e)) if m.contains('.') => {
-                format!("{}e{e}", m.trim_end_matches('0').trim_end_matches('.'))
-            }
-            _ => s,
-        };
-    }
-    let s = format!("{v:.6}");
-    let s = s.trim_end_matches('0').trim_end_matches('.');
-    if s == "-0" {
-        "0".to_string()
-    } else {
-        s.to_string()
+    let s = format!("{v:.decimals$}");
+    match s.strip_prefix('-') {
+        Some(rest) if rest.bytes().all(|b| b == b'0' || b == b'.') => rest.to_string(),
+        _ => s,
     }
 }
 
@@ -177,6 +179,20 @@ mod tests {
         assert_eq!(signed(0.25, 2), "+0.25");
         assert_eq!(signed(-0.25, 2), "-0.25");
         assert_eq!(signed(0.0, 1), "0.0");
+        assert_eq!(signed(-0.00001, 4), "0.0000");
+        assert_eq!(signed(0.00001, 4), "0.0000");
+    }
+
+    #[test]
+    fn output_columns_keep_one_precision() {
+        assert_eq!(value_decimals(6300.0), 2);
+        assert_eq!(value_decimals(0.9), 6);
+        assert_eq!(value_decimals(0.0), 6);
+        assert_eq!(fixed(3753.2, 2), "3753.20");
+        assert_eq!(fixed(3661.133333, 2), "3661.13");
+        assert_eq!(fixed(-0.0000001, 6), "0.000000");
+        assert_eq!(fixed(-0.5, 1), "-0.5");
+        assert_eq!(fixed(f64::NAN, 3), "");
     }
 
     #[test]
@@ -202,16 +218,5 @@ mod tests {
         assert_eq!(decimal_bytes(25_000_000), "25.0 MB");
         assert_eq!(binary_bytes(512.0), "512 bytes");
         assert_eq!(binary_bytes(3.0 * 1024.0 * 1024.0 * 1024.0), "3.0 GiB");
-    }
-
-    #[test]
-    fn compact_values() {
-        assert_eq!(compact(0.5), "0.5");
-        assert_eq!(compact(1.0), "1");
-        assert_eq!(compact(-0.0000001), "-1e-7");
-        assert_eq!(compact(-1e-9 * 0.0), "0");
-        assert_eq!(compact(2.5e16), "2.5e16");
-        assert_eq!(compact(1.0 / 3.0), "0.333333");
-        assert_eq!(compact(f64::NAN), "");
     }
 }

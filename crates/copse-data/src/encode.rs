@@ -222,10 +222,14 @@ impl RowEncoder {
                 format!("{n} in '{}' (such as {})", self.names[k], ex.join(", "))
             })
             .collect();
+        let (cells, were) = if total == 1 {
+            ("cell of {} holds a category", "it was")
+        } else {
+            ("cells of {} hold categories", "they were")
+        };
         Some(format!(
-            "{total} cells of {} hold categories the model never saw in training; they were treated as \
-             missing: {}",
-            self.source,
+            "{total} {} the model never saw in training; {were} treated as missing: {}",
+            cells.replace("{}", &self.source),
             parts.join("; ")
         ))
     }

@@ -43,10 +43,14 @@ pub(crate) struct Layout {
 fn check_names(input: &CsvInput, names: &[String], flag: &str) -> Result<()> {
     for n in names {
         if input.column(n).is_none() {
+            let guess = near_match(n, input.headers())
+                .map(|h| format!("did you mean '{h}'? "))
+                .unwrap_or_default();
             return Err(Error::new(
                 ErrorKind::Columns,
                 format!(
-                    "{flag} names the column '{n}', but {} has no such column; its columns are: {}",
+                    "{flag} names the column '{n}', but {} has no such column; {guess}its columns \
+                     are: {}",
                     input.name(),
                     input.headers().join(", ")
                 ),
@@ -54,6 +58,43 @@ fn check_names(input: &CsvInput, names: &[String], flag: &str) -> Result<()> {
         }
     }
     Ok(())
+}
+
+/// The column a mistyped name most likely meant: one that differs only in letter case,
+/// else the nearest within a small edit distance (at most 2, and at most a third of the
+/// name's length, so short names do not match anything).
+fn near_match<'a>(name: &str, headers: &'a [String]) -> Option<&'a str> {
+    let lower = name.to_lowercase();
+    if let Some(h) = headers.iter().find(|h| h.to_lowercase() == lower) {
+        return Some(h);
+    }
+    let limit = (name.chars().count() / 3).min(2);
+    headers
+        .iter()
+        .map(|h| (edit_distance(&lower, &h.to_lowercase()), h))
+        .filter(|&(d, _)| d <= limit)
+        .min_by_key(|&(d, _)| d)
+        .map(|(_, h)| h.as_str())
+}
+
+/// Levenshtein distance: the fewest single-character insertions, deletions and
+/// substitutions that turn `a` into `b` (Levenshtein 1966), by the usual row-by-row
+/// dynamic programme.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut row: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut diagonal = row[0];
+        row[0] = i + 1;
+        for (j, &cb) in b.iter().enumerate() {
+            let above = row[j + 1];
+            row[j + 1] = (above + 1)
+                .min(row[j] + 1)
+                .min(diagonal + usize::from(ca != cb));
+            diagonal = above;
+        }
+    }
+    row[b.len()]
 }
 
 /// Checks `roles` against `input`'s header and lays the columns out.
@@ -106,4 +147,35 @@ pub(crate) fn lay_out(input: &CsvInput, roles: &Roles) -> Result<Layout> {
         used,
         inputs,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn edit_distances() {
+        assert_eq!(edit_distance("kitten", "sitting"), 3);
+        assert_eq!(edit_distance("", "abc"), 3);
+        assert_eq!(edit_distance("species", "species"), 0);
+        assert_eq!(edit_distance("specis", "species"), 1);
+    }
+
+    #[test]
+    fn near_matches_follow_case_then_small_typos() {
+        let headers: Vec<String> = ["species", "island", "bill_length_mm", "sex"]
+            .iter()
+            .map(|s| s.to_string())
+            .collect();
+        assert_eq!(near_match("Species", &headers), Some("species"));
+        assert_eq!(near_match("specis", &headers), Some("species"));
+        assert_eq!(
+            near_match("bill_lenght_mm", &headers),
+            Some("bill_length_mm")
+        );
+        // Short names match only by letter case.
+        assert_eq!(near_match("SEX", &headers), Some("sex"));
+        assert_eq!(near_match("age", &headers), None);
+        assert_eq!(near_match("colour", &headers), None);
+    }
 }

@@ -46,6 +46,27 @@ pub struct TrainingTable {
 }
 
 impl TrainingTable {
+    /// Missing cells of each input among the rows used for training (the rows with a
+    /// target value), in model order.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_data::{CsvInput, Delimiter, Missing, Roles, TrainingTable};
+    /// let csv = "a,b,y\n1,NA,p\n,2,q\n3,4,p\nNaN,5,NA\n";
+    /// let input = CsvInput::from_reader("d.csv".into(), Box::new(csv.as_bytes()), None, Delimiter::Comma)?;
+    /// let t = TrainingTable::from_csv(input, &Roles::target("y"), Missing::standard())?;
+    /// // The last row has no target, so its cells are not counted.
+    /// assert_eq!(t.missing_cells(), vec![1, 1]);
+    /// # Ok::<(), copse_data::Error>(())
+    /// ```
+    pub fn missing_cells(&self) -> Vec<usize> {
+        self.x
+            .columns()
+            .into_iter()
+            .map(|c| c.iter().filter(|v| v.is_nan()).count())
+            .collect()
+    }
+
     /// Reads the comma-separated file at `path` with the standard missing tokens.
     ///
     /// # Errors
@@ -137,8 +158,13 @@ impl TrainingTable {
             return Err(Error::new(
                 ErrorKind::NoRows,
                 format!(
-                    "{} has only {} row with a target value; at least two are needed to grow a model",
-                    table.source, rows.kept
+                    "{} has {} with a target value; at least two are needed to grow a model",
+                    table.source,
+                    if rows.kept == 0 {
+                        "no row"
+                    } else {
+                        "only one row"
+                    }
                 ),
             ));
         }
@@ -266,8 +292,15 @@ impl TrainingTable {
         }
         let dropped = self.rows_without_outcome;
         if dropped > 0 {
+            let rows = if n_read == 1 { "row" } else { "rows" };
+            let (have, are) = if dropped == 1 {
+                ("has", "is")
+            } else {
+                ("have", "are")
+            };
             self.notes.push(format!(
-                "{dropped} of {n_read} rows have no value for the target '{target}' and are left out of training"
+                "{dropped} of {n_read} {rows} {have} no value for the target '{target}' and {are} left \
+                 out of training"
             ));
         }
     }

@@ -8,8 +8,9 @@ use crate::oob_summary::OobSummary;
 use crate::outcome::Outcome;
 use serde::{Deserialize, Serialize};
 
-/// Cell texts that mean "missing" when none are given (an empty cell always does).
-pub const STANDARD_MISSING_TOKENS: [&str; 3] = ["NA", "NaN", "?"];
+/// Cell texts that mean "missing" when none are given (an empty cell always does):
+/// the general conventions `NA` and `NaN`. Any other token can be given instead.
+pub const STANDARD_MISSING_TOKENS: [&str; 2] = ["NA", "NaN"];
 
 /// A record of how a model was made, stored in its file.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -119,7 +120,7 @@ impl ModelCard {
                 let square = m.confusion.len() == k && m.confusion.iter().all(|r| r.len() == k);
                 if !square
                     || total(m.confusion.iter().flatten().copied(), read).is_none()
-                    || m.class_error.len() != k
+                    || m.wrong_share_by_class.len() != k
                     || !within(m.rows)
                 {
                     return bad("its out-of-bag confusion table does not fit its classes and rows");

@@ -35,7 +35,7 @@ pub struct ClassMetrics {
     pub confusion: Vec<Vec<u64>>,
     /// Per true class, the share of its rows predicted as another class; `None` for a
     /// class with no rows.
-    pub class_error: Vec<Option<f64>>,
+    pub wrong_share_by_class: Vec<Option<f64>>,
     /// Mean of `-ln p(true class)`, probabilities clipped at [`LOG_LOSS_EPSILON`].
     pub log_loss: f64,
     /// Brier score in its original multi-class form (Brier 1950): mean over rows of
@@ -58,7 +58,7 @@ pub struct ValueMetrics {
     pub mae: f64,
     /// `1 - MSE / Var(y)`, with `Var(y)` the mean squared deviation of the true values
     /// on the same rows (n denominator); `None` when the true values are all equal.
-    pub variance_explained: Option<f64>,
+    pub r_squared: Option<f64>,
 }
 
 /// Measures for either kind of model.
@@ -120,7 +120,7 @@ pub fn class_metrics(codes: &[u32], probs: ArrayView2<'_, f64>) -> Option<ClassM
         return None;
     }
     let n = rows as f64;
-    let class_error = confusion
+    let wrong_share_by_class = confusion
         .iter()
         .enumerate()
         .map(|(c, r)| {
@@ -132,7 +132,7 @@ pub fn class_metrics(codes: &[u32], probs: ArrayView2<'_, f64>) -> Option<ClassM
         rows,
         error: wrong as f64 / n,
         confusion,
-        class_error,
+        wrong_share_by_class,
         log_loss: log_loss / n,
         brier: brier / n,
         roc_auc: if k == 2 {
@@ -180,7 +180,7 @@ pub fn value_metrics(truth: &[f64], pred: &[f64]) -> Option<ValueMetrics> {
         rows: pairs.len(),
         mse,
         mae,
-        variance_explained: (var > 0.0).then(|| 1.0 - mse / var),
+        r_squared: (var > 0.0).then(|| 1.0 - mse / var),
     })
 }
 
@@ -239,7 +239,7 @@ mod tests {
         assert_eq!(m.rows, 3);
         assert!((m.error - 1.0 / 3.0).abs() < 1e-12);
         assert_eq!(m.confusion, vec![vec![1, 0], vec![1, 1]]);
-        assert_eq!(m.class_error, vec![Some(0.0), Some(0.5)]);
+        assert_eq!(m.wrong_share_by_class, vec![Some(0.0), Some(0.5)]);
         // Brier: (0.04+0.04) + (0.09+0.09) + (0.36+0.36) = 0.98, over 3 rows.
         assert!((m.brier - 0.98 / 3.0).abs() < 1e-12);
         let ll = -(0.8f64.ln() + 0.7f64.ln() + 0.4f64.ln()) / 3.0;
@@ -254,6 +254,6 @@ mod tests {
         assert!((m.mse - 4.0 / 3.0).abs() < 1e-12);
         assert!((m.mae - 2.0 / 3.0).abs() < 1e-12);
         // Var(y) = 2/3, so 1 - (4/3)/(2/3) = -1.
-        assert!((m.variance_explained.expect("a value") + 1.0).abs() < 1e-12);
+        assert!((m.r_squared.expect("a value") + 1.0).abs() < 1e-12);
     }
 }

@@ -30,8 +30,12 @@ impl Sampler {
             return Err(Error::new(
                 ErrorKind::NoTargets,
                 format!(
-                    "only {} row(s) have a known outcome; a forest needs at least two",
-                    labelled.len()
+                    "{} a known outcome; a forest needs at least two",
+                    if labelled.is_empty() {
+                        "no row has"
+                    } else {
+                        "only one row has"
+                    }
                 ),
             ));
         }

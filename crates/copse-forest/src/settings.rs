@@ -7,37 +7,41 @@ use std::fmt;
 use std::str::FromStr;
 
 /// How many inputs each split may choose from (a fresh random subset at every node).
+///
+/// Written and read as a count (`4`), a share of the inputs (`33%`), or one of the
+/// words `default`, `root`, `log` and `every` (see [`FeaturesPerSplit::from_str`]).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, Default)]
 pub enum FeaturesPerSplit {
-    /// `max(1, floor(sqrt(p)))` for classes, `max(1, floor(p / 3))` for regression:
-    /// the usual random-forest defaults (Breiman 2001; common practice).
+    /// `default`: the square root of the inputs for classes, a third of them for
+    /// numbers (Breiman 2001; common practice).
     #[default]
-    Auto,
-    /// `max(1, floor(sqrt(p)))`.
-    Sqrt,
-    /// `max(1, floor(log2(p)))`.
-    Log2,
-    /// Every input at every split: bagged trees rather than a random forest.
-    All,
+    Default,
+    /// `root`: `max(1, floor(sqrt(p)))`.
+    Root,
+    /// `log`: `max(1, floor(log2(p)))`.
+    Log,
+    /// `every`: every input at every split, which gives bagged trees rather than a
+    /// random forest.
+    Every,
     /// Exactly this many inputs (1 to p).
     Count(usize),
-    /// `max(1, floor(fraction * p))`, fraction in (0, 1].
-    Fraction(f64),
+    /// `max(1, floor(share * p))`, share in (0, 1], written as a percentage (`33%`).
+    Share(f64),
 }
 
 impl FeaturesPerSplit {
     /// The number of inputs per split for `p` inputs.
     ///
     /// # Errors
-    /// `InvalidSetting` for a count of 0 or above `p`, or a fraction outside (0, 1].
+    /// `InvalidSetting` for a count of 0 or above `p`, or a share outside (0, 1].
     pub fn resolve(self, p: usize, classification: bool) -> Result<usize> {
         let p_f = p as f64;
         let k = match self {
-            FeaturesPerSplit::Auto if classification => p_f.sqrt().floor() as usize,
-            FeaturesPerSplit::Auto => p / 3,
-            FeaturesPerSplit::Sqrt => p_f.sqrt().floor() as usize,
-            FeaturesPerSplit::Log2 => p_f.log2().floor() as usize,
-            FeaturesPerSplit::All => p,
+            FeaturesPerSplit::Default if classification => p_f.sqrt().floor() as usize,
+            FeaturesPerSplit::Default => p / 3,
+            FeaturesPerSplit::Root => p_f.sqrt().floor() as usize,
+            FeaturesPerSplit::Log => p_f.log2().floor() as usize,
+            FeaturesPerSplit::Every => p,
             FeaturesPerSplit::Count(k) => {
                 if k == 0 || k > p {
                     return bad_setting(format!(
@@ -46,10 +50,11 @@ impl FeaturesPerSplit {
                 }
                 k
             }
-            FeaturesPerSplit::Fraction(f) => {
+            FeaturesPerSplit::Share(f) => {
                 if !(f > 0.0 && f <= 1.0) {
                     return bad_setting(format!(
-                        "inputs per split as a fraction must lie in (0, 1]; got {f}"
+                        "inputs per split as a share must lie above 0% and at most 100%; got {}",
+                        FeaturesPerSplit::Share(f)
                     ));
                 }
                 (f * p_f).floor() as usize
@@ -59,58 +64,80 @@ impl FeaturesPerSplit {
     }
 }
 
+/// Spellings the rule is not written in, each with the spelling that says the same.
+const NOT_OUR_SPELLING: [(&str, &str); 4] = [
+    ("sqrt", "root"),
+    ("log2", "log"),
+    ("all", "every"),
+    ("auto", "default"),
+];
+
 impl FromStr for FeaturesPerSplit {
     type Err = Error;
 
-    /// Accepts `auto`, `sqrt`, `log2`, `all`, a whole number (a count) or a number with
-    /// a decimal point (a fraction).
+    /// Reads a count (`4`), a share of the inputs (`33%`, above 0% and at most 100%),
+    /// or one of the words `default`, `root`, `log` and `every`. Other spellings, such
+    /// as a share written as a decimal (`0.33`), are refused with the spelling to use.
     fn from_str(s: &str) -> Result<Self> {
         let t = s.trim().to_ascii_lowercase();
         let v = match t.as_str() {
-            "auto" => FeaturesPerSplit::Auto,
-            "sqrt" => FeaturesPerSplit::Sqrt,
-            "log2" => FeaturesPerSplit::Log2,
-            "all" => FeaturesPerSplit::All,
-            _ if t.contains('.') => match t.parse::<f64>() {
-                Ok(f) => FeaturesPerSplit::Fraction(f),
-                Err(_) => return bad_value(s),
-            },
-            _ => match t.parse::<usize>() {
-                Ok(k) => FeaturesPerSplit::Count(k),
-                Err(_) => return bad_value(s),
-            },
-        };
-        if let FeaturesPerSplit::Fraction(f) = v {
-            if !(f > 0.0 && f <= 1.0) {
-                return bad_value(s);
+            "default" => FeaturesPerSplit::Default,
+            "root" => FeaturesPerSplit::Root,
+            "log" => FeaturesPerSplit::Log,
+            "every" => FeaturesPerSplit::Every,
+            _ => {
+                if let Some((_, ours)) = NOT_OUR_SPELLING.iter().find(|(w, _)| *w == t) {
+                    return bad_setting(format!(
+                        "'{s}' is not how copse writes inputs per split; write '{ours}'"
+                    ));
+                }
+                if let Some(number) = t.strip_suffix('%') {
+                    match number.trim().parse::<f64>() {
+                        Ok(x) if x > 0.0 && x <= 100.0 => FeaturesPerSplit::Share(x / 100.0),
+                        _ => return bad_value(s),
+                    }
+                } else if t.contains('.') {
+                    // A decimal share: say it as a percentage.
+                    return match t.parse::<f64>() {
+                        Ok(x) if x > 0.0 && x <= 1.0 => bad_setting(format!(
+                            "'{s}' is not how copse writes a share of the inputs; write it as \
+                             a percentage, '{}'",
+                            FeaturesPerSplit::Share(x)
+                        )),
+                        _ => bad_value(s),
+                    };
+                } else {
+                    match t.parse::<usize>() {
+                        Ok(k) if k > 0 => FeaturesPerSplit::Count(k),
+                        _ => return bad_value(s),
+                    }
+                }
             }
-        }
-        if v == FeaturesPerSplit::Count(0) {
-            return bad_value(s);
-        }
+        };
         Ok(v)
     }
 }
 
 impl fmt::Display for FeaturesPerSplit {
-    /// The rule as [`FeaturesPerSplit::from_str`] reads it: `auto`, `sqrt`, `log2`,
-    /// `all`, the count, or the fraction.
+    /// The rule as [`FeaturesPerSplit::from_str`] reads it: `default`, `root`, `log`,
+    /// `every`, the count, or the share as a percentage.
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         match self {
-            FeaturesPerSplit::Auto => f.write_str("auto"),
-            FeaturesPerSplit::Sqrt => f.write_str("sqrt"),
-            FeaturesPerSplit::Log2 => f.write_str("log2"),
-            FeaturesPerSplit::All => f.write_str("all"),
+            FeaturesPerSplit::Default => f.write_str("default"),
+            FeaturesPerSplit::Root => f.write_str("root"),
+            FeaturesPerSplit::Log => f.write_str("log"),
+            FeaturesPerSplit::Every => f.write_str("every"),
             FeaturesPerSplit::Count(k) => write!(f, "{k}"),
-            FeaturesPerSplit::Fraction(x) => write!(f, "{x}"),
+            // Rounded to a millionth of a percent, so 0.33 reads back as 33%.
+            FeaturesPerSplit::Share(x) => write!(f, "{}%", (x * 1e8).round() / 1e6),
         }
     }
 }
 
 fn bad_value<T>(s: &str) -> Result<T> {
     bad_setting(format!(
-        "'{s}' is not a number of inputs per split; use sqrt, log2, all, a count such as 3, \
-         or a fraction such as 0.33"
+        "'{s}' is not a number of inputs per split; use a count such as 4, a share such as \
+         33%, or one of default, root, log, every"
     ))
 }
 
@@ -210,7 +237,7 @@ impl fmt::Display for Sampling {
 pub struct ForestSettings {
     /// Number of trees (at least 1; default 500).
     pub trees: usize,
-    /// Inputs tried at each split; [`FeaturesPerSplit::All`] gives bagged trees.
+    /// Inputs tried at each split; [`FeaturesPerSplit::Every`] gives bagged trees.
     pub features_per_split: FeaturesPerSplit,
     /// How each tree's cases are drawn.
     pub sampling: Sampling,
@@ -232,7 +259,7 @@ impl Default for ForestSettings {
     fn default() -> Self {
         ForestSettings {
             trees: 500,
-            features_per_split: FeaturesPerSplit::Auto,
+            features_per_split: FeaturesPerSplit::Default,
             sampling: Sampling::Bootstrap,
             balanced: false,
             tree: TreeRules::default(),
@@ -261,9 +288,10 @@ impl ForestSettings {
             FeaturesPerSplit::Count(0) => {
                 return bad_setting("inputs per split must be at least 1");
             }
-            FeaturesPerSplit::Fraction(f) if !(f > 0.0 && f <= 1.0) => {
+            FeaturesPerSplit::Share(f) if !(f > 0.0 && f <= 1.0) => {
                 return bad_setting(format!(
-                    "inputs per split as a fraction must lie in (0, 1]; got {f}"
+                    "inputs per split as a share must lie above 0% and at most 100%; got {}",
+                    FeaturesPerSplit::Share(f)
                 ));
             }
             _ => {}
@@ -301,49 +329,61 @@ mod tests {
     #[test]
     fn defaults_follow_the_usual_rules() {
         // Common practice (Breiman 2001): sqrt(p) for classes, p/3 for regression.
-        assert_eq!(
-            FeaturesPerSplit::Auto.resolve(20, true).expect("a value"),
-            4
-        );
-        assert_eq!(
-            FeaturesPerSplit::Auto.resolve(10, false).expect("a value"),
-            3
-        );
-        assert_eq!(
-            FeaturesPerSplit::Auto.resolve(2, false).expect("a value"),
-            1
-        );
-        assert_eq!(
-            FeaturesPerSplit::Log2.resolve(40, true).expect("a value"),
-            5
-        );
-        assert_eq!(
-            FeaturesPerSplit::Fraction(0.5)
-                .resolve(9, true)
-                .expect("a value"),
-            4
-        );
-        assert_eq!(FeaturesPerSplit::All.resolve(9, true).expect("a value"), 9);
+        let k = |rule: FeaturesPerSplit, p: usize, classes: bool| {
+            rule.resolve(p, classes).expect("a value")
+        };
+        assert_eq!(k(FeaturesPerSplit::Default, 20, true), 4);
+        assert_eq!(k(FeaturesPerSplit::Default, 10, false), 3);
+        assert_eq!(k(FeaturesPerSplit::Default, 2, false), 1);
+        assert_eq!(k(FeaturesPerSplit::Root, 20, false), 4);
+        assert_eq!(k(FeaturesPerSplit::Log, 40, true), 5);
+        assert_eq!(k(FeaturesPerSplit::Share(0.5), 9, true), 4);
+        assert_eq!(k(FeaturesPerSplit::Every, 9, true), 9);
         assert!(FeaturesPerSplit::Count(10).resolve(9, true).is_err());
     }
 
     #[test]
-    fn words_parse() {
-        assert_eq!(
-            "sqrt".parse::<FeaturesPerSplit>().expect("a value"),
-            FeaturesPerSplit::Sqrt
-        );
-        assert_eq!(
-            "7".parse::<FeaturesPerSplit>().expect("a value"),
-            FeaturesPerSplit::Count(7)
-        );
-        assert_eq!(
-            "0.25".parse::<FeaturesPerSplit>().expect("a value"),
-            FeaturesPerSplit::Fraction(0.25)
-        );
-        assert!("0".parse::<FeaturesPerSplit>().is_err());
-        assert!("1.5".parse::<FeaturesPerSplit>().is_err());
-        assert!("many".parse::<FeaturesPerSplit>().is_err());
+    fn rules_read_back_what_they_write() {
+        let read = |s: &str| s.parse::<FeaturesPerSplit>().expect("a rule");
+        assert_eq!(read("7"), FeaturesPerSplit::Count(7));
+        assert_eq!(read("33%"), FeaturesPerSplit::Share(0.33));
+        assert_eq!(read("100%"), FeaturesPerSplit::Share(1.0));
+        assert_eq!(read("Root"), FeaturesPerSplit::Root);
+        for rule in [
+            FeaturesPerSplit::Default,
+            FeaturesPerSplit::Root,
+            FeaturesPerSplit::Log,
+            FeaturesPerSplit::Every,
+            FeaturesPerSplit::Count(3),
+            FeaturesPerSplit::Share(0.33),
+            FeaturesPerSplit::Share(0.125),
+        ] {
+            assert_eq!(read(&rule.to_string()), rule, "{rule}");
+        }
+        assert_eq!(FeaturesPerSplit::Share(0.33).to_string(), "33%");
+        for bad in ["0", "0%", "101%", "-5%", "many", "1.5", ""] {
+            assert!(bad.parse::<FeaturesPerSplit>().is_err(), "{bad}");
+        }
+    }
+
+    #[test]
+    fn other_spellings_are_refused_with_ours() {
+        for (theirs, ours) in [
+            ("sqrt", "'root'"),
+            ("log2", "'log'"),
+            ("all", "'every'"),
+            ("auto", "'default'"),
+            ("0.33", "'33%'"),
+            ("0.5", "'50%'"),
+        ] {
+            let e = theirs.parse::<FeaturesPerSplit>().expect_err("refused");
+            assert_eq!(e.kind(), ErrorKind::InvalidSetting);
+            assert!(e.message().contains(ours), "{theirs}: {}", e.message());
+        }
+    }
+
+    #[test]
+    fn sampling_words_parse() {
         assert_eq!(
             "subsample:0.5".parse::<Sampling>().expect("a value"),
             Sampling::Subsample(0.5)

@@ -49,8 +49,8 @@ pub struct StabilitySettings {
     /// Folds of the single tree's cross-validation (2 to the number of rows; default 5).
     pub folds: usize,
     /// Settings of the ensembles: number of trees, tree settings, bins, master seed.
-    /// The random forest uses its inputs per split ([`FeaturesPerSplit::Auto`] if
-    /// they say [`FeaturesPerSplit::All`]); bagged trees and the single tree use every
+    /// The random forest uses its inputs per split ([`FeaturesPerSplit::Default`] if
+    /// they say [`FeaturesPerSplit::Every`]); bagged trees and the single tree use every
     /// input. Sampling is forced to bootstrap for the ensembles (out-of-bag error needs
     /// it) and to none for the single tree; `balanced` is kept for the ensembles.
     pub forest: ForestSettings,
@@ -189,11 +189,11 @@ pub fn stability_report(
     let classes = outcome.is_classes();
     let p = x.ncols();
     let mut bagged = settings.forest.clone();
-    bagged.features_per_split = FeaturesPerSplit::All;
+    bagged.features_per_split = FeaturesPerSplit::Every;
     bagged.sampling = Sampling::Bootstrap;
     let mut forest = bagged.clone();
     forest.features_per_split = match settings.forest.features_per_split {
-        FeaturesPerSplit::All => FeaturesPerSplit::Auto,
+        FeaturesPerSplit::Every => FeaturesPerSplit::Default,
         k => k,
     };
     let k_forest = forest.features_per_split.resolve(p, classes)?;
@@ -266,7 +266,7 @@ fn cross_validated_tree(
 ) -> Result<Run> {
     let tree_settings = ForestSettings {
         trees: 1,
-        features_per_split: FeaturesPerSplit::All,
+        features_per_split: FeaturesPerSplit::Every,
         sampling: Sampling::Whole,
         balanced: false,
         ..base.clone()

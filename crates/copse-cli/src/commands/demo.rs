@@ -8,7 +8,7 @@ use crate::commands::make_demo_data::write_demo_files;
 use crate::commands::{emit, make_folder, score, train};
 use crate::demo_data::{DEFAULT_SEED, ID, TARGET};
 use crate::error::{CliError, CliResult};
-use crate::numbers::pct;
+use crate::numbers::{count, pct};
 use crate::output::write_file;
 use crate::ui::Ui;
 use copse_forest::Sampling;
@@ -64,7 +64,8 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         oob_out: Some(oob_path.clone()),
         plots: Some(plots_dir.clone()),
         keep_draws: false,
-        null_permutations: None,
+        shuffled_target_runs: None,
+        renamed_shuffled_target_runs: None,
         json: false,
         allow_large: false,
     };
@@ -136,7 +137,11 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         model_path.display(),
         model_path.display(),
     );
-    let _ = writeln!(tail, "\n{} rows scored.", scored.rows);
+    let _ = writeln!(
+        tail,
+        "\n{} scored.",
+        count(scored.rows as usize, "row", "rows")
+    );
     emit(&tail)
 }
 

@@ -46,7 +46,18 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
         ui.wrote(&format!("importance chart: {}", path.display()));
     }
 
-    let view = ImportanceReport::new(&model, &a.model, &imp, &source, data.rows, a.repeats);
+    // For numbers, the rises are printed as shares of the forest's error on these rows.
+    let baseline = match model.task() {
+        copse_forest::Task::Regress => model
+            .evaluate(data.x.view(), &data.outcome)
+            .ok()
+            .map(|e| e.metrics.error())
+            .filter(|&b| b > 0.0),
+        copse_forest::Task::Classify => None,
+    };
+    let view = ImportanceReport::new(
+        &model, &a.model, &imp, &source, data.rows, a.repeats, baseline,
+    );
     if a.json {
         return report::print_json(&view);
     }

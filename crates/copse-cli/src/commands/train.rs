@@ -6,7 +6,7 @@ use crate::commands::{
 };
 use crate::error::{forest_error, CliError, CliResult};
 use crate::memory;
-use crate::numbers::{binary_bytes, compact};
+use crate::numbers::{binary_bytes, fixed, value_decimals, PROBABILITY_DECIMALS};
 use crate::output::{write_file, Output};
 use crate::plots;
 use crate::report::ranking::shown_mirror;
@@ -82,9 +82,9 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
              --sampling bootstrap without --balanced, or drop --keep-draws",
         ));
     }
-    if a.null_permutations.is_some() && a.sampling == Sampling::Whole {
+    if a.shuffled_target_runs.is_some() && a.sampling == Sampling::Whole {
         return Err(CliError::input(
-            "--null-permutations compares out-of-bag importances, and --sampling none leaves no \
+            "--shuffled-target-runs compares out-of-bag importances, and --sampling none leaves no \
              row out of bag; use bootstrap or subsample:F",
         ));
     }
@@ -96,7 +96,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     }
 
     let fps = if a.bagging {
-        FeaturesPerSplit::All
+        FeaturesPerSplit::Every
     } else {
         a.features_per_split.unwrap_or_default()
     };
@@ -129,7 +129,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         ));
     }
     let trained = grow(&data, &settings, options, ui)?;
-    let shuffle = match (a.null_permutations, trained.forest.oob_importance()) {
+    let shuffle = match (a.shuffled_target_runs, trained.forest.oob_importance()) {
         (Some(n), Some(imp)) => Some(shuffled_target_test(&data, &settings, imp, n, ui)?),
         _ => None,
     };
@@ -155,6 +155,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     }
     let total_secs = started.elapsed().as_secs_f64();
 
+    let missing_cells = data.missing_cells();
     let view = TrainView::new(
         &model,
         &TrainFacts {
@@ -165,6 +166,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
             seconds: total_secs,
             training_seconds: train_secs,
             notes: &data.notes,
+            missing_cells: &missing_cells,
         },
     );
     let text = view.text(Style::new(ui.stdout_colour()));
@@ -269,13 +271,15 @@ fn write_oob(
         other => CliError::failure(format!("could not write {name}: {other:?}")),
     };
     let classes = model.classes();
+    // One precision per column: six significant digits of the largest training value.
+    let d = value_decimals(crate::commands::score::target_size(model));
     let mut header = vec![
         "line".to_string(),
         "actual".to_string(),
         "prediction".to_string(),
     ];
     header.extend(classes.iter().map(|c| format!("prob_{c}")));
-    header.push("oob_trees".to_string());
+    header.push("trees_judging_row".to_string());
     w.write_record(&header).map_err(werr)?;
     let mut rec: Vec<String> = Vec::with_capacity(header.len());
     for i in 0..data.lines.len() {
@@ -292,11 +296,11 @@ fn write_oob(
                 } else {
                     String::new()
                 });
-                rec.extend(probs.iter().map(|&v| compact(v)));
+                rec.extend(probs.iter().map(|&v| fixed(v, PROBABILITY_DECIMALS)));
             }
             copse_forest::Outcome::Values(v) => {
-                rec.push(compact(v[i]));
-                rec.push(compact(pred[0]));
+                rec.push(fixed(v[i], d));
+                rec.push(fixed(pred[0], d));
             }
         }
         rec.push(oob.trees_out[i].to_string());

@@ -2,9 +2,9 @@
 //! labelled rows it has not seen, beside its out-of-bag estimate.
 use super::measures::{measures_block, MeasuresView};
 use super::model::ModelView;
-use super::ranking::ImportanceView;
+use super::ranking::{oob_baseline, ImportanceView};
 use super::{caution, Style, LABEL};
-use crate::numbers::{pct, sig};
+use crate::numbers::{column_decimals, count, pct};
 use copse_forest::{Evaluation, Forest, Metrics};
 use serde::Serialize;
 use std::fmt::Write;
@@ -50,7 +50,7 @@ impl<'a> EvaluateView<'a> {
     ) -> Self {
         EvaluateView {
             model: ModelView::new("evaluate", forest),
-            importance: ImportanceView::new(forest.oob_importance(), None),
+            importance: ImportanceView::new(forest.oob_importance(), None, oob_baseline(forest)),
             evaluation: EvaluationView {
                 measures: MeasuresView::new(Some(&eval.metrics)),
                 source,
@@ -73,14 +73,22 @@ impl<'a> EvaluateView<'a> {
         let _ = writeln!(text, "  {:<LABEL$}{}", "model", self.model_path.display());
         let _ = writeln!(
             text,
-            "  {:<LABEL$}{} ({} rows read, {} without a target value)",
-            "data", e.source, e.rows_read, e.rows_without_target
+            "  {:<LABEL$}{} ({} read, {} without a target value)",
+            "data",
+            e.source,
+            count(e.rows_read, "row", "rows"),
+            e.rows_without_target
         );
         if e.unseen_category_cells > 0 {
             let _ = writeln!(
                 text,
-                "  {:<LABEL$}{} cells held categories unseen in training (treated as missing)",
-                "unseen categories", e.unseen_category_cells
+                "  {:<LABEL$}{} unseen in training (treated as missing)",
+                "unseen categories",
+                count(
+                    e.unseen_category_cells as usize,
+                    "cell held a category",
+                    "cells held categories"
+                )
             );
         }
         let _ = writeln!(text);
@@ -95,7 +103,12 @@ impl<'a> EvaluateView<'a> {
         if let Some(oob) = &self.forest.oob().metrics {
             let (now, then) = match (self.metrics, oob) {
                 (Metrics::Classes(e), Metrics::Classes(o)) => (pct(e.error), pct(o.error)),
-                _ => (sig(self.metrics.error(), 4), sig(oob.error(), 4)),
+                // Numbers: the typical error in target units (root mean squared error).
+                _ => {
+                    let (e, o) = (self.metrics.error().sqrt(), oob.error().sqrt());
+                    let d = column_decimals(e.max(o));
+                    (format!("{e:.d$} (RMSE)"), format!("{o:.d$}"))
+                }
             };
             let _ = writeln!(
                 text,

@@ -2,8 +2,11 @@
 //! has not seen, with its tests, beside the model summary (whose out-of-bag importance
 //! is listed as `oob_importance` in JSON).
 use super::model::ModelView;
-use super::ranking::{importance_intro, importance_with_tests, ImportanceView, RankView, TestView};
+use super::ranking::{
+    importance_intro, importance_with_tests, oob_baseline, ImportanceView, RankView, TestView,
+};
 use super::{caution, Style, LABEL};
+use crate::numbers::count;
 use copse_forest::{Forest, PermutationImportance};
 use serde::Serialize;
 use std::fmt::Write;
@@ -27,12 +30,15 @@ pub struct ImportanceReport<'a> {
     #[serde(skip)]
     imp: &'a PermutationImportance,
     #[serde(skip)]
+    baseline: Option<f64>,
+    #[serde(skip)]
     model_path: &'a Path,
 }
 
 impl<'a> ImportanceReport<'a> {
     /// The report of `imp`, measured with `repeats` shuffles per input on the
-    /// `rows_read` rows of `source` with `forest` (read from `model_path`).
+    /// `rows_read` rows of `source` with `forest` (read from `model_path`); for numbers
+    /// `baseline` is the forest's mean squared error on those rows.
     pub fn new(
         forest: &'a Forest,
         model_path: &'a Path,
@@ -40,17 +46,19 @@ impl<'a> ImportanceReport<'a> {
         source: &'a str,
         rows_read: usize,
         repeats: u32,
+        baseline: Option<f64>,
     ) -> Self {
-        let oob = ImportanceView::new(forest.oob_importance(), None);
+        let oob = ImportanceView::new(forest.oob_importance(), None, oob_baseline(forest));
         ImportanceReport {
             model: ModelView::new("importance", forest),
             oob_importance: oob.importance,
             oob_importance_tests: oob.importance_tests,
-            held_out: ImportanceView::new(Some(imp), None),
+            held_out: ImportanceView::new(Some(imp), None, baseline),
             source,
             rows_read,
             repeats,
             imp,
+            baseline,
             model_path,
         }
     }
@@ -62,17 +70,24 @@ impl<'a> ImportanceReport<'a> {
         let _ = writeln!(text, "  {:<LABEL$}{}", "model", self.model_path.display());
         let _ = writeln!(
             text,
-            "  {:<LABEL$}{} ({} rows)\n",
-            "data", self.source, self.rows_read
+            "  {:<LABEL$}{} ({})\n",
+            "data",
+            self.source,
+            count(self.rows_read, "row", "rows")
         );
         let _ = writeln!(text, "{}", st.head("WHICH INPUTS MATTER ON THESE ROWS"));
-        let _ = writeln!(text, "{}\n", importance_intro(&self.imp.error, true));
+        let _ = writeln!(
+            text,
+            "{}\n",
+            importance_intro(&self.imp.error, true, self.baseline)
+        );
         importance_with_tests(
             &mut text,
             self.imp,
             true,
             None,
-            "for p-values with few inputs, train with 'copse train ... --null-permutations 199'.",
+            self.baseline,
+            "see 'copse train --shuffled-target-runs'.",
         );
         let _ = writeln!(text);
         caution(&mut text, st);

@@ -1,11 +1,12 @@
 //! The report of `copse inspect`: the model summary, the model's sizes, its impurity
 //! importance and, when asked for, one tree's rules.
 use super::model::ModelView;
-use super::ranking::{importance_section, ranking, ImportanceView, RankView};
+use super::ranking::{importance_section, oob_baseline, ranking, ImportanceView, RankView};
 use super::sections::{data_section, oob_section, settings_section};
 use super::{caution, Style, LABEL};
 use crate::numbers::decimal_bytes;
-use copse_forest::Forest;
+use copse_forest::{Forest, Sampling};
+use copse_tree::render::{outline, render_with_root, NodeOutline};
 use serde::Serialize;
 use std::fmt::Write;
 use std::path::Path;
@@ -54,7 +55,8 @@ impl Sizes {
     }
 }
 
-/// One tree and its rules as text.
+/// One tree: its sizes, its rules as text, and its nodes one by one (`node_list`:
+/// id, depth, test, cases, class shares or mean, children, prediction).
 #[derive(Serialize)]
 struct TreeView {
     index: usize,
@@ -62,6 +64,18 @@ struct TreeView {
     leaves: usize,
     depth: usize,
     rules: String,
+    node_list: Vec<NodeOutline>,
+}
+
+/// What the root of a tree of `model` holds: the rows the tree was grown on.
+fn root_label(model: &Forest) -> &'static str {
+    let s = model.settings();
+    match (s.sampling, s.balanced) {
+        (Sampling::Whole, _) => "every training row",
+        (_, true) => "this tree's class-balanced resample",
+        (Sampling::Bootstrap, false) => "this tree's bootstrap resample",
+        (Sampling::Subsample(_), false) => "this tree's subsample",
+    }
 }
 
 impl<'a> InspectView<'a> {
@@ -81,11 +95,12 @@ impl<'a> InspectView<'a> {
                 nodes: t.nodes().len(),
                 leaves: t.n_leaves(),
                 depth: t.depth(),
-                rules: copse_tree::render::render(t, forest.meta(), classes),
+                rules: render_with_root(t, forest.meta(), classes, root_label(forest)),
+                node_list: outline(t, forest.meta(), classes),
             });
         InspectView {
             model: ModelView::new("inspect", forest),
-            importance: ImportanceView::new(forest.oob_importance(), None),
+            importance: ImportanceView::new(forest.oob_importance(), None, oob_baseline(forest)),
             model_file: model_path.display().to_string(),
             sizes: Sizes::new(forest, file_bytes),
             impurity_importance: ranking(forest.impurity_importance()),
@@ -105,7 +120,7 @@ impl<'a> InspectView<'a> {
             self.model_file,
             model.card().copse_version
         );
-        data_section(&mut text, st, model);
+        data_section(&mut text, st, model, None);
         settings_section(&mut text, st, model, None);
         let _ = writeln!(text, "{}", st.head("SIZE"));
         let _ = writeln!(text, "  {:<LABEL$}{}", "trees", s.trees);

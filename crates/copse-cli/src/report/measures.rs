@@ -1,9 +1,10 @@
 //! How well a model predicts a set of rows: the measures as a view (JSON keys
-//! `error`, `confusion`, `class_error`, `log_loss`, `brier`, `roc_auc` for classes;
-//! `error` (the mean squared error), `mse`, `mae`, `variance_explained` for numbers;
-//! `rows` for both) and as printed lines with the confusion table.
+//! `error`, `confusion`, `wrong_share_by_class`, `log_loss`, `brier`, `roc_auc` for
+//! classes; `error` (the mean squared error), `rmse`, `mae`, `r_squared`, `mse` for
+//! numbers; `rows` for both) and as printed lines: the headline figures, then for
+//! classes the confusion table and, under it, the share of each class predicted wrong.
 use super::line;
-use crate::numbers::{pct, sig};
+use crate::numbers::{column_decimals, count, fixed, pct};
 use copse_forest::{ClassMetrics, Metrics, ValueMetrics};
 use serde::Serialize;
 use std::fmt::Write;
@@ -26,7 +27,7 @@ pub struct ClassMeasures<'a> {
     rows: usize,
     error: f64,
     confusion: &'a [Vec<u64>],
-    class_error: &'a [Option<f64>],
+    wrong_share_by_class: &'a [Option<f64>],
     log_loss: f64,
     brier: f64,
     roc_auc: Option<f64>,
@@ -37,9 +38,10 @@ pub struct ClassMeasures<'a> {
 pub struct ValueMeasures {
     rows: usize,
     error: f64,
-    mse: f64,
+    rmse: f64,
     mae: f64,
-    variance_explained: Option<f64>,
+    r_squared: Option<f64>,
+    mse: f64,
 }
 
 /// No measures: no row was judged.
@@ -57,7 +59,7 @@ impl<'a> MeasuresView<'a> {
                 rows: c.rows,
                 error: c.error,
                 confusion: &c.confusion,
-                class_error: &c.class_error,
+                wrong_share_by_class: &c.wrong_share_by_class,
                 log_loss: c.log_loss,
                 brier: c.brier,
                 roc_auc: c.roc_auc,
@@ -65,9 +67,10 @@ impl<'a> MeasuresView<'a> {
             Some(Metrics::Values(v)) => MeasuresView::Values(ValueMeasures {
                 rows: v.rows,
                 error: v.mse,
-                mse: v.mse,
+                rmse: v.mse.sqrt(),
                 mae: v.mae,
-                variance_explained: v.variance_explained,
+                r_squared: v.r_squared,
+                mse: v.mse,
             }),
             None => MeasuresView::Nothing(NoMeasures {
                 rows: 0,
@@ -77,7 +80,8 @@ impl<'a> MeasuresView<'a> {
     }
 }
 
-/// The printed measures of `m`: headline lines, and for classes the confusion table.
+/// The printed measures of `m`: headline lines, and for classes the confusion table
+/// with the share of each actual class predicted wrong under it.
 pub fn measures_block(out: &mut String, m: &Metrics, classes: &[String], rows_label: &str) {
     match m {
         Metrics::Classes(c) => class_block(out, c, classes, rows_label),
@@ -85,33 +89,38 @@ pub fn measures_block(out: &mut String, m: &Metrics, classes: &[String], rows_la
     }
 }
 
-/// Class measures: headline lines and the confusion table.
+/// Class measures: the headline lines, then the confusion table, then the share of
+/// each actual class predicted wrong as a small table of its own.
 pub fn class_block(out: &mut String, m: &ClassMetrics, classes: &[String], rows_label: &str) {
     line(out, rows_label, &m.rows.to_string());
-    let wrong: u64 = m
-        .confusion
-        .iter()
-        .enumerate()
-        .map(|(c, r)| r.iter().sum::<u64>() - r.get(c).copied().unwrap_or(0))
-        .sum();
+    let totals: Vec<u64> = m.confusion.iter().map(|r| r.iter().sum()).collect();
+    let wrong_in = |c: usize| {
+        let r = m.confusion.get(c).map_or(&[][..], |r| r.as_slice());
+        r.iter().sum::<u64>() - r.get(c).copied().unwrap_or(0)
+    };
+    let wrong: u64 = (0..m.confusion.len()).map(wrong_in).sum();
     line(
         out,
         "misclassified",
-        &format!("{} ({wrong} rows)", pct(m.error)),
+        &format!(
+            "{} ({})",
+            pct(m.error),
+            count(wrong as usize, "row", "rows")
+        ),
     );
-    line(out, "log loss", &sig(m.log_loss, 4));
+    // One precision for the probability scores: four decimals.
+    line(out, "log loss", &format!("{:.4}", m.log_loss));
     line(
         out,
         "Brier score",
-        &format!("{} (0 best, 2 worst)", sig(m.brier, 4)),
+        &format!("{:.4} (0 best, 2 worst)", m.brier),
     );
     if let Some(auc) = m.roc_auc {
         line(
             out,
             "ROC AUC",
             &format!(
-                "{} ('{}' as the positive class)",
-                sig(auc, 4),
+                "{auc:.4} ('{}' as the positive class)",
                 classes.get(1).map_or("", |s| s)
             ),
         );
@@ -119,7 +128,7 @@ pub fn class_block(out: &mut String, m: &ClassMetrics, classes: &[String], rows_
     let _ = writeln!(out);
     let _ = writeln!(
         out,
-        "  rows: actual class; columns: predicted class; last column: share of the row predicted wrong"
+        "  confusion table (rows: actual class; columns: predicted class)"
     );
     let lw = classes.iter().map(|c| c.len()).max().unwrap_or(0).max(8);
     let cw = classes
@@ -133,34 +142,64 @@ pub fn class_block(out: &mut String, m: &ClassMetrics, classes: &[String], rows_
     for c in classes {
         let _ = write!(head, "  {c:>cw$}");
     }
-    let _ = write!(head, "  | wrong");
     let _ = writeln!(out, "{head}");
     for (i, c) in classes.iter().enumerate() {
         let mut row = format!("  {c:<lw$}");
         for n in m.confusion.get(i).map(|r| r.as_slice()).unwrap_or(&[]) {
             let _ = write!(row, "  {n:>cw$}");
         }
-        let e = m
-            .class_error
+        let _ = writeln!(out, "{row}");
+    }
+    let _ = writeln!(out);
+    let _ = writeln!(out, "  predicted wrong, by actual class");
+    let nw = totals
+        .iter()
+        .map(|n| n.to_string().len())
+        .max()
+        .unwrap_or(1);
+    for (i, c) in classes.iter().enumerate() {
+        let share = m
+            .wrong_share_by_class
             .get(i)
             .copied()
             .flatten()
             .map_or("-".to_string(), pct);
-        let _ = write!(row, "  | {e:>6}");
-        let _ = writeln!(out, "{row}");
+        let total = totals.get(i).copied().unwrap_or(0);
+        let _ = writeln!(
+            out,
+            "  {c:<lw$}  {share:>6}   {:>nw$} of {total:>nw$}",
+            wrong_in(i)
+        );
     }
 }
 
-/// Regression measures.
+/// Regression measures: the typical error in target units first (root mean squared
+/// error, then mean absolute error), then R².
 pub fn value_block(out: &mut String, m: &ValueMetrics, rows_label: &str) {
     line(out, rows_label, &m.rows.to_string());
-    line(out, "mean squared error", &sig(m.mse, 4));
-    line(out, "root mean sq. error", &sig(m.mse.sqrt(), 4));
-    line(out, "mean absolute error", &sig(m.mae, 4));
+    // Both errors in target units, to the same number of decimals.
+    let d = column_decimals(m.mse.sqrt().max(m.mae));
     line(
         out,
-        "variance explained",
-        &m.variance_explained
-            .map_or("- (target constant)".to_string(), pct),
+        "typical error (RMSE)",
+        &format!(
+            "{:.d$} (root mean squared error, target units)",
+            m.mse.sqrt()
+        ),
+    );
+    line(
+        out,
+        "mean absolute error",
+        &format!("{:.d$} (target units)", m.mae),
+    );
+    line(
+        out,
+        "R²",
+        &m.r_squared.map_or("- (target constant)".to_string(), |r| {
+            format!(
+                "{} (1 - mean squared error / variance of the target)",
+                fixed(r, 3)
+            )
+        }),
     );
 }

@@ -2,8 +2,8 @@
 //! (a `#[derive(Serialize)]` struct made from the engine's results), and the printed
 //! text, the JSON object (`--json`) and the charts are all read from it. The printed
 //! layout is copse's own: short capitalised section heads, aligned label/value lines,
-//! a confusion table with the share wrong at the end of each row, and an importance
-//! ranking with a bar per input. Every report ends with the caution that a model
+//! the headline figures before the confusion table and the share of each class
+//! predicted wrong under it, and an importance ranking with a bar per input. Every report ends with the caution that a model
 //! supports, and does not replace, professional judgement.
 //!
 //! The JSON objects list their keys in alphabetical order at every level, as they

@@ -124,7 +124,7 @@ pub struct SettingsView {
     balanced: bool,
     impurity: String,
     max_depth: Option<usize>,
-    min_leaf: f64,
+    min_leaf: CaseWeight,
     bins: usize,
     seed: u64,
     keep_draws: bool,
@@ -136,15 +136,34 @@ impl SettingsView {
         SettingsView {
             trees: s.trees,
             features_per_split: model.features_per_split(),
-            features_per_split_rule: model.card().features_rule.clone(),
+            features_per_split_rule: s.features_per_split.to_string(),
             sampling: s.sampling.to_string(),
             balanced: s.balanced,
             impurity: impurity_name(model),
             max_depth: s.tree.max_depth,
-            min_leaf: s.tree.min_leaf,
+            min_leaf: CaseWeight::new(s.tree.min_leaf),
             bins: s.bins,
             seed: s.seed,
             keep_draws: model.draws().is_some(),
+        }
+    }
+}
+
+/// A case weight in JSON: an integer when whole (the command line only gives whole
+/// ones), else the number as it is.
+#[derive(Debug, Serialize)]
+#[serde(untagged)]
+enum CaseWeight {
+    Whole(u64),
+    Part(f64),
+}
+
+impl CaseWeight {
+    fn new(w: f64) -> Self {
+        if w.fract() == 0.0 && (0.0..9.0e15).contains(&w) {
+            CaseWeight::Whole(w as u64)
+        } else {
+            CaseWeight::Part(w)
         }
     }
 }

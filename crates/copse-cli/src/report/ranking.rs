@@ -2,10 +2,10 @@
 //! with, when tested, each input's p-values, what the list measures and the tests run)
 //! and as the printed table with a bar per input and the notes on its p-values.
 use super::{paragraph, Style};
-use crate::numbers::{self, column_decimals, p_value, signed};
+use crate::numbers::{self, column_decimals, fixed, p_value, signed};
 use copse_forest::{
-    mirrored_null_test, Forest, Importance, PermutationImportance, Significance, SignificanceTest,
-    MIRROR_FEW_NULL, MIRROR_MIN_NULL,
+    mirrored_null_test, Forest, Importance, Metrics, PermutationImportance, Significance,
+    SignificanceTest, MIRROR_FEW_NULL, MIRROR_MIN_NULL,
 };
 use serde::Serialize;
 use std::fmt::Write;
@@ -64,12 +64,26 @@ fn tested_ranking<'a>(
     list
 }
 
-/// What a ranking measures.
+/// What a ranking measures; for numbers, `baseline_mse` is the error the rises are
+/// printed against (the forest's out-of-bag mean squared error, or its mean squared
+/// error on the held-out rows), while the ranking's `mean` and `std_error` stay in
+/// squared target units.
 #[derive(Debug, Serialize)]
 pub struct AboutView {
     method: String,
     measure: &'static str,
     replicates: usize,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    baseline_mse: Option<f64>,
+}
+
+/// The out-of-bag mean squared error of a model of numbers, against which its
+/// out-of-bag importance is printed (`None` for classes or without out-of-bag rows).
+pub fn oob_baseline(model: &Forest) -> Option<f64> {
+    match &model.oob().metrics {
+        Some(Metrics::Values(v)) if v.mse > 0.0 => Some(v.mse),
+        _ => None,
+    }
 }
 
 /// A test of a ranking: its null size, the independent draws behind it, the smallest
@@ -133,8 +147,13 @@ pub struct ImportanceView<'a> {
 }
 
 impl<'a> ImportanceView<'a> {
-    /// The view of `imp`, if any, with the p-values of `shuffle` when given.
-    pub fn new(imp: Option<&'a PermutationImportance>, shuffle: Option<&Significance>) -> Self {
+    /// The view of `imp`, if any, with the p-values of `shuffle` when given; for
+    /// numbers, `baseline` is the mean squared error the rises are printed against.
+    pub fn new(
+        imp: Option<&'a PermutationImportance>,
+        shuffle: Option<&Significance>,
+        baseline: Option<f64>,
+    ) -> Self {
         let Some(p) = imp else {
             return ImportanceView {
                 importance: Vec::new(),
@@ -165,6 +184,7 @@ impl<'a> ImportanceView<'a> {
                 method: p.error.method.to_string(),
                 measure: p.error.measure.key(),
                 replicates: p.error.replicates,
+                baseline_mse: baseline,
             }),
             importance_brier: p.brier.as_ref().map(ranking),
             importance_tests: Some(
@@ -188,12 +208,15 @@ pub fn p_head(test: SignificanceTest) -> &'static str {
 /// bar, and with `show_brier` (for classes) the rise in Brier score beside it. Per-tree
 /// out-of-bag importance leaves the Brier column out: a fully grown tree's leaves are
 /// pure, so its Brier rise is exactly twice its error rise and adds nothing. One
-/// p-value column follows per test in `p` (p-values in input order).
+/// p-value column follows per test in `p` (p-values in input order). With a
+/// `baseline` error (numbers), each rise and its standard error are printed as a share
+/// of it, since a rise in squared target units is hard to read.
 pub fn importance_table(
     out: &mut String,
     imp: &PermutationImportance,
     show_brier: bool,
     p: &[&Significance],
+    baseline: Option<f64>,
 ) {
     let brier = if show_brier { imp.brier.as_ref() } else { None };
     let err = &imp.error;
@@ -212,9 +235,24 @@ pub fn importance_table(
         b.features.iter().map(|f| f.mean).fold(0.0f64, f64::max)
     });
     let d_brier = column_decimals(top_brier);
+    // A rise as printed: a share of the baseline with one decimal, or the rise itself.
+    let shown = |v: f64| match baseline {
+        Some(b) => format!("{}%", signed(100.0 * v / b, 1)),
+        None => signed(v, d_err),
+    };
+    let shown_se = |s: f64| match baseline {
+        Some(b) => format!("{}%", fixed(100.0 * s / b, 1)),
+        None => fixed(s, d_err),
+    };
+    let rise_head = if baseline.is_some() {
+        "rise, % of base"
+    } else {
+        "rise"
+    };
+    let rw = rise_head.len().max(11);
     let mut head = format!(
-        "  {:>3}  {:<w$}  {:>11}  {:>9}",
-        "#", "input", "rise", "± s.e."
+        "  {:>3}  {:<w$}  {:>rw$}  {:>9}",
+        "#", "input", rise_head, "± s.e."
     );
     if brier.is_some() {
         let _ = write!(head, "  {:>11}", "Brier rise");
@@ -224,14 +262,12 @@ pub fn importance_table(
     }
     let _ = writeln!(out, "{head}");
     for f in ranked {
-        let se = f
-            .std_error
-            .map_or("-".to_string(), |s| format!("{s:.d_err$}"));
+        let se = f.std_error.map_or("-".to_string(), shown_se);
         let mut row = format!(
-            "  {:>3}  {:<w$}  {:>11}  {:>9}",
+            "  {:>3}  {:<w$}  {:>rw$}  {:>9}",
             f.rank,
             f.name,
-            signed(f.mean, d_err),
+            shown(f.mean),
             se
         );
         if let Some(b) = brier_of(f.feature) {
@@ -254,21 +290,30 @@ pub fn importance_table(
 }
 
 /// Explains what an importance table measures.
-pub fn importance_intro(imp: &Importance, held_out: bool) -> String {
+pub fn importance_intro(imp: &Importance, held_out: bool, baseline: Option<f64>) -> String {
     let what = imp.measure.to_string();
     let text = if held_out {
         format!(
             "Rise in the model's {what} on these rows when one input's values are shuffled \
-             (mean of {} shuffles ± standard error). Near zero or below: no detectable effect.",
-            imp.replicates
+             (mean of {} ± standard error). Near zero or below: no detectable effect.",
+            numbers::count(imp.replicates, "shuffle", "shuffles")
         )
     } else {
         format!(
             "Rise in out-of-bag {what} when one input's values are shuffled among a tree's \
-             out-of-bag rows (mean over {} trees ± standard error). Near zero or below: no \
+             out-of-bag rows (mean over {} ± standard error). Near zero or below: no \
              detectable effect.",
-            imp.replicates
+            numbers::count(imp.replicates, "tree", "trees")
         )
+    };
+    let text = match baseline {
+        Some(b) => format!(
+            "{text} Each rise is shown as a share of the forest's {}{what} ({}, in squared \
+             target units; the JSON gives the rises in those units).",
+            if held_out { "" } else { "out-of-bag " },
+            numbers::sig(b, 4)
+        ),
+        None => text,
     };
     super::wrap(&text, super::WIDTH)
         .iter()
@@ -292,12 +337,13 @@ pub fn importance_with_tests(
     imp: &PermutationImportance,
     show_brier: bool,
     shuffle: Option<&Significance>,
+    baseline: Option<f64>,
     hint: &str,
 ) {
     let mirror = mirrored_null_test(&imp.error);
     let mirror_shown = mirror.as_ref().filter(|s| s.reportable());
     let cols: Vec<&Significance> = mirror_shown.into_iter().chain(shuffle).collect();
-    importance_table(out, imp, show_brier, &cols);
+    importance_table(out, imp, show_brier, &cols, baseline);
     let mut notes = Vec::new();
     match mirror_shown {
         Some(m) => {
@@ -321,16 +367,18 @@ pub fn importance_with_tests(
             }
             notes.push(note);
         }
+        // Withheld: with shuffled-target p-values beside it there is nothing to say;
+        // without, one short line says why and where p-values come from (the JSON's
+        // `importance_tests` gives the full reason).
+        None if shuffle.is_some() => {}
         None => notes.push(format!(
-            "No mirrored-null p-values: {}{}",
+            "No p mirror ({}); {hint}",
             match &mirror {
-                Some(m) => too_few_draws(m.null_draws),
-                None => "no input has a rise below zero".to_string(),
-            },
-            if shuffle.is_some() {
-                ".".to_string()
-            } else {
-                format!("; {hint}")
+                Some(m) => format!(
+                    "{} at or below zero, {MIRROR_MIN_NULL} needed",
+                    numbers::count(m.null_draws, "rise", "rises")
+                ),
+                None => "no rise below zero".to_string(),
             }
         )),
     }
@@ -360,14 +408,16 @@ pub fn importance_section(
     let _ = writeln!(out, "{}", st.head("WHICH INPUTS MATTER"));
     match model.oob_importance() {
         Some(imp) => {
-            let _ = writeln!(out, "{}", importance_intro(&imp.error, false));
+            let baseline = oob_baseline(model);
+            let _ = writeln!(out, "{}", importance_intro(&imp.error, false, baseline));
             let _ = writeln!(out);
             importance_with_tests(
                 out,
                 imp,
                 false,
                 shuffle,
-                "train with --null-permutations 199 for p-values from a shuffled target.",
+                baseline,
+                "see --shuffled-target-runs N.",
             );
         }
         None => {
@@ -386,7 +436,7 @@ mod tests {
 
     #[test]
     fn a_model_without_out_of_bag_importance_gives_an_empty_list_and_no_tests() {
-        let view = ImportanceView::new(None, None);
+        let view = ImportanceView::new(None, None, None);
         assert_eq!(
             crate::report::json_text(&view).unwrap(),
             r#"{"importance":[],"importance_about":null}"#

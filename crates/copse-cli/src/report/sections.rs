@@ -3,7 +3,7 @@
 use super::measures::{class_block, value_block};
 use super::model::impurity_name;
 use super::{line, Style};
-use crate::numbers::{decimal_bytes, pct, plain, sig, trim_num};
+use crate::numbers::{count, decimal_bytes, pct, plain, sig, trim_num};
 use copse_forest::{FeatureKind, FeaturesPerSplit, Forest as Model, Metrics, Sampling, Task};
 use std::fmt::Write;
 
@@ -21,8 +21,9 @@ pub fn sampling_words(s: &Sampling, balanced: bool) -> String {
     }
 }
 
-/// The data section.
-pub fn data_section(out: &mut String, st: Style, model: &Model) {
+/// The data section; `missing` gives each input's missing cells among the rows used,
+/// when the training table is at hand (the model file does not keep them).
+pub fn data_section(out: &mut String, st: Style, model: &Model, missing: Option<&[usize]>) {
     let t = model.card();
     let _ = writeln!(out, "{}", st.head("DATA"));
     line(out, "source", &t.source);
@@ -72,15 +73,22 @@ pub fn data_section(out: &mut String, st: Style, model: &Model) {
         }
     }
     let n_cat = model.meta().iter().filter(|f| f.is_categorical()).count();
+    let used = t.rows_read.saturating_sub(t.rows_without_outcome);
     line(
         out,
         "inputs",
         &format!(
-            "{}: {} numeric, {n_cat} categorical",
+            "{}: {} numeric, {n_cat} categorical{}",
             model.meta().len(),
-            model.meta().len() - n_cat
+            model.meta().len() - n_cat,
+            if missing.is_some() {
+                format!("; last column: missing cells of the {used} rows used")
+            } else {
+                String::new()
+            }
         ),
     );
+    let mut kinds = Vec::new();
     for (j, f) in model.meta().iter().enumerate().take(40) {
         let kind = match (&f.kind, model.bins().get(j)) {
             (FeatureKind::Categorical { levels }, _) => {
@@ -94,7 +102,29 @@ pub fn data_section(out: &mut String, st: Style, model: &Model) {
             ),
             _ => "numeric, no values".to_string(),
         };
-        line(out, "", &format!("  {:<24}{kind}", f.name));
+        kinds.push((
+            f.name.as_str(),
+            kind,
+            missing.and_then(|m| m.get(j).copied()),
+        ));
+    }
+    let kw = kinds
+        .iter()
+        .map(|(_, k, _)| k.chars().count())
+        .max()
+        .unwrap_or(0);
+    let nw = missing.map_or(1, |m| {
+        m.iter().map(|n| n.to_string().len()).max().unwrap_or(1)
+    });
+    for (name, kind, gone) in kinds {
+        match gone {
+            Some(n) => line(
+                out,
+                "",
+                &format!("  {name:<24}{kind:<kw$}  {n:>nw$} missing"),
+            ),
+            None => line(out, "", &format!("  {name:<24}{kind}")),
+        }
     }
     if model.meta().len() > 40 {
         line(
@@ -121,21 +151,17 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
     let kind = if k >= p {
         "every input: bagged trees".to_string()
     } else {
-        // The card keeps the rule as the engine writes it; read it back as the rule.
-        let rule = model.card().features_rule.as_str();
-        match rule.parse::<FeaturesPerSplit>() {
-            Ok(FeaturesPerSplit::Auto) if classify => {
+        match s.features_per_split {
+            FeaturesPerSplit::Default if classify => {
                 "square root of the inputs, the usual choice for classes".to_string()
             }
-            Ok(FeaturesPerSplit::Auto) => {
+            FeaturesPerSplit::Default => {
                 "a third of the inputs, the usual choice for numbers".to_string()
             }
-            Ok(FeaturesPerSplit::Sqrt) => "square root of the inputs".to_string(),
-            Ok(FeaturesPerSplit::Log2) => "log2 of the inputs".to_string(),
-            Ok(FeaturesPerSplit::Fraction(_)) => format!("fraction {rule} of the inputs"),
-            Ok(FeaturesPerSplit::All | FeaturesPerSplit::Count(_)) | Err(_) => {
-                "a fixed count".to_string()
-            }
+            FeaturesPerSplit::Root => "square root of the inputs".to_string(),
+            FeaturesPerSplit::Log => "log2 of the inputs".to_string(),
+            rule @ FeaturesPerSplit::Share(_) => format!("{rule} of the inputs"),
+            FeaturesPerSplit::Every | FeaturesPerSplit::Count(_) => "a fixed count".to_string(),
         }
     };
     line(out, "inputs per split", &format!("{k} of {p} ({kind})"));
@@ -210,8 +236,13 @@ pub fn oob_section(out: &mut String, st: Style, model: &Model) {
             if oob.rows_never_oob > 0 {
                 let _ = writeln!(
                     out,
-                    "  ({} rows were drawn by every tree and have no out-of-bag prediction)",
-                    oob.rows_never_oob
+                    "  ({} drawn by every tree and {} no out-of-bag prediction)",
+                    count(oob.rows_never_oob, "row was", "rows were"),
+                    if oob.rows_never_oob == 1 {
+                        "has"
+                    } else {
+                        "have"
+                    }
                 );
             }
         }
@@ -233,7 +264,12 @@ pub fn rare_class_advice(model: &Model) -> Option<String> {
     }
     for (c, label) in model.classes().iter().enumerate() {
         let share = model.card().class_counts.get(c).copied().unwrap_or(0) as f64 / total as f64;
-        let err = m.class_error.get(c).copied().flatten().unwrap_or(0.0);
+        let err = m
+            .wrong_share_by_class
+            .get(c)
+            .copied()
+            .flatten()
+            .unwrap_or(0.0);
         if share < 0.25 && err > 0.5 {
             return Some(format!(
                 "  '{label}' is rare ({} of rows) and most of its rows are predicted as another class\n  \

@@ -2,7 +2,7 @@
 //! with several seeds on the same data, and how much each one's error, held-out
 //! answers and importance ranking move from seed to seed.
 use super::{caution, error_measure, paragraph, wrap, Style, CAUTION, LABEL, WIDTH};
-use crate::numbers::{pct, sig};
+use crate::numbers::{fixed, pct, sig};
 use copse_forest::{KindStability, ModelKind, StabilityReport, Task};
 use serde::Serialize;
 use std::fmt::Write;
@@ -207,7 +207,7 @@ impl<'a> StabilityView<'a> {
                     fmt_err(k.error_max)
                 ),
                 k.prediction_change.map_or("-".to_string(), pct),
-                k.rank_tau.map_or("-".to_string(), |t| format!("{t:.2}")),
+                k.rank_tau.map_or("-".to_string(), |t| fixed(t, 2)),
             ]);
         }
         let width = |c: usize| rows.iter().map(|r| r[c].chars().count()).max().unwrap_or(0);

@@ -1,7 +1,7 @@
 //! The report of `copse train`: the model summary, the out-of-bag importance with its
 //! tests, the out-of-bag error curve, the files written, and the time taken.
 use super::model::ModelView;
-use super::ranking::{importance_section, ImportanceView};
+use super::ranking::{importance_section, oob_baseline, ImportanceView};
 use super::sections::{data_section, oob_section, rare_class_advice, settings_section};
 use super::{caution, Style};
 use crate::numbers::decimal_bytes;
@@ -23,6 +23,8 @@ pub struct TrainView<'a> {
     threads: usize,
     seconds: f64,
     notes: &'a [String],
+    /// Missing cells of each input among the rows used, in input order.
+    missing_cells: &'a [usize],
     /// Seconds spent training, checking out of bag and measuring importance.
     #[serde(skip)]
     training_seconds: f64,
@@ -63,6 +65,8 @@ pub struct TrainFacts<'a> {
     pub training_seconds: f64,
     /// Notes about the data.
     pub notes: &'a [String],
+    /// Missing cells of each input among the rows used, in input order.
+    pub missing_cells: &'a [usize],
 }
 
 impl<'a> TrainView<'a> {
@@ -75,7 +79,11 @@ impl<'a> TrainView<'a> {
             .unwrap_or_default();
         TrainView {
             model: ModelView::new("train", forest),
-            importance: ImportanceView::new(forest.oob_importance(), facts.shuffle),
+            importance: ImportanceView::new(
+                forest.oob_importance(),
+                facts.shuffle,
+                oob_baseline(forest),
+            ),
             oob_error_curve: &forest.oob().error_curve,
             model_file: ModelFile {
                 path: model_path,
@@ -93,6 +101,7 @@ impl<'a> TrainView<'a> {
             threads: facts.threads,
             seconds: facts.seconds,
             notes: facts.notes,
+            missing_cells: facts.missing_cells,
             training_seconds: facts.training_seconds,
             forest,
             shuffle: facts.shuffle,
@@ -104,7 +113,7 @@ impl<'a> TrainView<'a> {
         let model = self.forest;
         let mut text = String::new();
         let _ = writeln!(text, "copse training report\n");
-        data_section(&mut text, st, model);
+        data_section(&mut text, st, model, Some(self.missing_cells));
         settings_section(&mut text, st, model, Some(self.threads));
         oob_section(&mut text, st, model);
         if let Some(advice) = rare_class_advice(model) {

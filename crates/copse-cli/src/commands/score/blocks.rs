@@ -2,6 +2,7 @@
 //! blocks in order to the scorer, with the next block read ahead on a second thread
 //! while the current one is scored.
 use crate::error::{CliError, CliResult};
+use crate::numbers::count;
 use copse_data::{CsvInput, Row, RowEncoder};
 
 /// A block of input rows: their records (for the kept columns), their encoded input
@@ -165,10 +166,16 @@ impl Unscorable {
         if self.count > self.lines.len() as u64 {
             lines.push(format!("and {} more", self.count - self.lines.len() as u64));
         }
+        let (were, line) = if self.count == 1 {
+            ("was", "line")
+        } else {
+            ("were", "lines")
+        };
         format!(
-            "{} of {rows} rows of {source} could not be scored and were written with an empty \
-             prediction (lines {}); the first: {}",
+            "{} of {} of {source} could not be scored and {were} written with an empty \
+             prediction ({line} {}); the first: {}",
             self.count,
+            count(rows as usize, "row", "rows"),
             lines.join(", "),
             self.first.as_deref().unwrap_or("")
         )

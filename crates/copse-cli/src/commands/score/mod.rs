@@ -10,11 +10,13 @@ mod rows;
 
 use crate::args::ScoreArgs;
 use crate::error::{CliError, CliResult};
+use crate::numbers::count;
 use crate::output::{refuse_overwrite, Output};
 use crate::ui::Ui;
 use blocks::{each_block, Block, BlockReader, Unscorable};
 use copse_data::{CsvInput, Missing, RowEncoder};
 use copse_forest::Forest;
+pub(crate) use rows::target_size;
 use rows::{csv_text, RowWriter};
 use std::io::Write;
 
@@ -269,12 +271,13 @@ fn tell(a: &ScoreArgs, ui: &Ui, forest: &Forest, src: &Source, written: &Written
         );
         if written.clamped > 0 {
             ui.note(&format!(
-                "{} standard error(s) could not be estimated and are left empty: the \
+                "{} could not be estimated and {} left empty: the \
                  bias correction exceeded the raw estimate, which happens when the trees are \
                  few compared with the training rows ({} trees for {} rows here); more trees \
                  leave fewer unknown (in our checks, ten times as many trees as rows left \
                  almost none)",
-                written.clamped,
+                count(written.clamped, "standard error", "standard errors"),
+                if written.clamped == 1 { "is" } else { "are" },
                 forest.trees().len(),
                 forest.draws().map_or(0, copse_forest::Draws::population)
             ));

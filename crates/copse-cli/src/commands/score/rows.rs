@@ -2,7 +2,7 @@
 //! model, written as CSV text in parallel pieces that go out in order.
 use super::blocks::Block;
 use crate::error::{forest_error, CliError, CliResult};
-use crate::numbers::compact;
+use crate::numbers::{fixed, value_decimals, PROBABILITY_DECIMALS};
 use copse_forest::Forest;
 use ndarray::ArrayView2;
 use rayon::prelude::*;
@@ -40,6 +40,13 @@ impl RowWriter<'_> {
             .map_err(|e| CliError::failure(format!("internal: {e}")))?;
         let fail =
             |e: copse_forest::Error| forest_error(&e, &format!("cannot score {}", self.source));
+        // One precision per output column: six decimals for probabilities, six
+        // significant digits of the largest training value for values.
+        let d = if classes.is_empty() {
+            value_decimals(target_size(forest))
+        } else {
+            PROBABILITY_DECIMALS
+        };
         let mut clamped = 0;
         let (preds, se) = if self.uncertainty {
             let u = forest.prediction_uncertainty(x).map_err(fail)?;
@@ -75,13 +82,13 @@ impl RowWriter<'_> {
                                 fields.push_field("");
                             }
                         } else if classes.is_empty() {
-                            fields.push_field(&compact(preds[[i, 0]]));
+                            fields.push_field(&fixed(preds[[i, 0]], d));
                         } else {
                             probs.clear();
                             probs.extend(preds.row(i).iter());
                             fields.push_field(forest.class_label(&probs).unwrap_or(""));
                             for &v in &probs {
-                                fields.push_field(&compact(v));
+                                fields.push_field(&fixed(v, d));
                             }
                         }
                         if let Some(se) = &se {
@@ -90,7 +97,7 @@ impl RowWriter<'_> {
                                 let cell = if b.blank[i] {
                                     String::new()
                                 } else {
-                                    compact(v)
+                                    fixed(v, d)
                                 };
                                 fields.push_field(&cell);
                             }
@@ -103,6 +110,14 @@ impl RowWriter<'_> {
             .collect();
         Ok((texts, clamped))
     }
+}
+
+/// The largest size of the training target's values (0 when the model has none).
+pub(crate) fn target_size(forest: &Forest) -> f64 {
+    forest
+        .card()
+        .value_range
+        .map_or(0.0, |[lo, _, hi]| lo.abs().max(hi.abs()))
 }
 
 /// The CSV text of what `write` puts out, with `delimiter` and quoting as needed.
