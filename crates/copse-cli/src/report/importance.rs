@@ -1,7 +1,10 @@
 //! The report of `copse importance`: permutation importance on labelled rows the model
 //! has not seen, with its tests, beside the model summary (whose out-of-bag importance
 //! is listed as `oob_importance` in JSON).
+use super::brier_ranking::brier_led_table;
 use super::model::ModelView;
+use super::notices::{NoticesView, TrainingRowsView};
+use super::paragraph;
 use super::ranking::{importance_intro, importance_with_tests, ImportanceView, RankView, TestView};
 use super::{caution, Style, LABEL};
 use copse_forest::{Forest, PermutationImportance};
@@ -24,6 +27,12 @@ pub struct ImportanceReport<'a> {
     source: &'a str,
     rows_read: usize,
     repeats: u32,
+    /// The first block: model notes and the training-row check.
+    #[serde(flatten)]
+    notices: NoticesView<'a>,
+    /// The measure the printed ranking and the chart lead with: `brier` for classes
+    /// (it sees probabilities), the error measure for numbers.
+    importance_leading_measure: &'static str,
     #[serde(skip)]
     imp: &'a PermutationImportance,
     #[serde(skip)]
@@ -40,6 +49,7 @@ impl<'a> ImportanceReport<'a> {
         source: &'a str,
         rows_read: usize,
         repeats: u32,
+        training_rows: TrainingRowsView,
     ) -> Self {
         let oob = ImportanceView::new(forest.oob_importance(), None);
         ImportanceReport {
@@ -50,6 +60,12 @@ impl<'a> ImportanceReport<'a> {
             source,
             rows_read,
             repeats,
+            notices: NoticesView::new(forest, Some(training_rows)),
+            importance_leading_measure: if imp.brier.is_some() {
+                "brier"
+            } else {
+                imp.error.measure.key()
+            },
             imp,
             model_path,
         }
@@ -59,6 +75,7 @@ impl<'a> ImportanceReport<'a> {
     pub fn text(&self, st: Style) -> String {
         let mut text = String::new();
         let _ = writeln!(text, "copse importance report\n");
+        self.notices.text(&mut text, st);
         let _ = writeln!(text, "  {:<LABEL$}{}", "model", self.model_path.display());
         let _ = writeln!(
             text,
@@ -66,11 +83,34 @@ impl<'a> ImportanceReport<'a> {
             "data", self.source, self.rows_read
         );
         let _ = writeln!(text, "{}", st.head("WHICH INPUTS MATTER ON THESE ROWS"));
-        let _ = writeln!(text, "{}\n", importance_intro(&self.imp.error, true));
+        let brier_led = brier_led_table(self.imp);
+        if let Some(table) = &brier_led {
+            paragraph(
+                &mut text,
+                &format!(
+                    "Rise in the Brier score on these rows when one input's values are shuffled \
+                     (mean of {} shuffles ± standard error), which sees every change in the \
+                     probabilities; the rise in misclassification sits beside it, and is nearly \
+                     zero for every input when a class is rare. Near zero or below: no \
+                     detectable effect.",
+                    self.repeats
+                ),
+            );
+            let _ = writeln!(text);
+            text.push_str(table);
+            let _ = writeln!(text);
+            paragraph(
+                &mut text,
+                "The same inputs by the rise in misclassification, with its tests:",
+            );
+            let _ = writeln!(text);
+        } else {
+            let _ = writeln!(text, "{}\n", importance_intro(&self.imp.error, true));
+        }
         importance_with_tests(
             &mut text,
             self.imp,
-            true,
+            brier_led.is_none(),
             None,
             "for p-values with few inputs, train with 'copse train ... --null-permutations 199'.",
         );

@@ -1,5 +1,6 @@
 //! The report of `copse train`: the model summary, the out-of-bag importance with its
 //! tests, the out-of-bag error curve, the files written, and the time taken.
+use super::judged::Judged;
 use super::model::ModelView;
 use super::ranking::{importance_section, ImportanceView};
 use super::sections::{data_section, oob_section, rare_class_advice, settings_section};
@@ -23,6 +24,8 @@ pub struct TrainView<'a> {
     threads: usize,
     seconds: f64,
     notes: &'a [String],
+    #[serde(flatten)]
+    judged: Option<&'a Judged<'a>>,
     /// Seconds spent training, checking out of bag and measuring importance.
     #[serde(skip)]
     training_seconds: f64,
@@ -63,6 +66,8 @@ pub struct TrainFacts<'a> {
     pub training_seconds: f64,
     /// Notes about the data.
     pub notes: &'a [String],
+    /// The decision layer on the out-of-bag scores.
+    pub judged: Option<&'a Judged<'a>>,
 }
 
 impl<'a> TrainView<'a> {
@@ -93,6 +98,7 @@ impl<'a> TrainView<'a> {
             threads: facts.threads,
             seconds: facts.seconds,
             notes: facts.notes,
+            judged: facts.judged,
             training_seconds: facts.training_seconds,
             forest,
             shuffle: facts.shuffle,
@@ -104,11 +110,17 @@ impl<'a> TrainView<'a> {
         let model = self.forest;
         let mut text = String::new();
         let _ = writeln!(text, "copse training report\n");
+        if let Some(j) = self.judged {
+            j.notices_text(&mut text, st);
+        }
         data_section(&mut text, st, model);
         settings_section(&mut text, st, model, Some(self.threads));
         oob_section(&mut text, st, model);
         if let Some(advice) = rare_class_advice(model) {
             let _ = writeln!(text, "{advice}\n");
+        }
+        if let Some(j) = self.judged {
+            j.text(&mut text, st);
         }
         importance_section(&mut text, st, model, self.shuffle);
         let _ = writeln!(text, "{}", st.head("OUTPUTS"));
