@@ -10,6 +10,7 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
 
 mod bad_input;
+mod decision_report;
 mod decisions;
 mod extras;
 mod library;

@@ -219,8 +219,8 @@ impl DecisionView {
                 "{}",
                 st.head(&format!(
                     "LOWEST EXPECTED COST (a false alarm costs {}, a miss costs {})",
-                    sig(c.false_alarm_cost, 4),
-                    sig(c.miss_cost, 4)
+                    trim_num(c.false_alarm_cost, 4),
+                    trim_num(c.miss_cost, 4)
                 ))
             );
             paragraph(
@@ -229,10 +229,10 @@ impl DecisionView {
                     "Call a row '{yes}' when its probability is at least {} = {} / ({} + {}), \
                      the cut-off that minimises expected cost when the probabilities are \
                      calibrated (Elkan 2001, Theorem 1).",
-                    sig(c.cutoff, 4),
-                    sig(c.false_alarm_cost, 4),
-                    sig(c.false_alarm_cost, 4),
-                    sig(c.miss_cost, 4)
+                    trim_num(c.cutoff, 4),
+                    trim_num(c.false_alarm_cost, 4),
+                    trim_num(c.false_alarm_cost, 4),
+                    trim_num(c.miss_cost, 4)
                 ),
             );
             let _ = writeln!(out);

@@ -120,7 +120,8 @@ impl GroupsView {
         } else {
             ("root mean sq. error", format!("  {:>10}", "no skill"))
         };
-        let _ = writeln!(out, "  {:<w$}  {:>6}  {first:<26}{rest}", "group", "rows");
+        let head = format!("  {:<w$}  {:>6}  {first:<26}{rest}", "group", "rows");
+        let _ = writeln!(out, "{}", head.trim_end());
         for g in &self.groups {
             let name: String = g.group.chars().take(24).collect();
             let mut row = format!("  {name:<w$}  {:>6}", g.rows);

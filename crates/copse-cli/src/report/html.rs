@@ -5,7 +5,7 @@
 //! The page is also well-formed XML (every element closed, every attribute quoted),
 //! which its test checks.
 use super::decision::{share_with_interval, DecisionView};
-use crate::numbers::{pct, sig};
+use crate::numbers::{pct, sig, trim_num};
 use copse_forest::decision::CutoffTable;
 use std::fmt::Write;
 
@@ -344,10 +344,10 @@ fn decision_table(d: &DecisionView, heading: &str) -> Option<String> {
         let _ = writeln!(
             h,
             "<p>Cut-off {} = {} / ({} + {}) (Elkan 2001, Theorem 1).</p>",
-            sig(c.cutoff, 4),
-            sig(c.false_alarm_cost, 4),
-            sig(c.false_alarm_cost, 4),
-            sig(c.miss_cost, 4)
+            trim_num(c.cutoff, 4),
+            trim_num(c.false_alarm_cost, 4),
+            trim_num(c.false_alarm_cost, 4),
+            trim_num(c.miss_cost, 4)
         );
         cutoff_table(&mut h, &c.table, yes);
         head(&mut h, &["choice", "cost per row"]);
