@@ -10,8 +10,10 @@ use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
 
 mod bad_input;
+mod decision_report;
 mod decisions;
 mod extras;
+mod html_check;
 mod library;
 mod reliability;
 mod shapes;

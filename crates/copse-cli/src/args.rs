@@ -272,6 +272,14 @@ pub struct TrainArgs {
     #[arg(long)]
     pub json: bool,
 
+    /// Also write the whole report, with its charts and decision tables, as one HTML
+    /// file that opens offline.
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
+
+    #[command(flatten)]
+    pub decision: crate::decision_args::DecisionArgs,
+
     /// Train even when the model would obviously not fit in the memory available.
     #[arg(long)]
     pub allow_large: bool,
@@ -335,6 +343,23 @@ pub struct EvaluateArgs {
     /// Print one JSON object instead of text.
     #[arg(long)]
     pub json: bool,
+
+    /// Also give the figures for each value of this column (an input or any other
+    /// column of the file), with intervals, to check the errors across groups.
+    #[arg(long, value_name = "COL")]
+    pub by: Option<String>,
+
+    /// Also write the whole report, with its charts and decision tables, as one HTML
+    /// file that opens offline.
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
+
+    /// Also write SVG charts (catch by rank, calibration) here.
+    #[arg(long, value_name = "DIR")]
+    pub plots: Option<PathBuf>,
+
+    #[command(flatten)]
+    pub decision: crate::decision_args::DecisionArgs,
 }
 
 /// `copse importance`.

@@ -11,6 +11,7 @@
 #[allow(missing_docs)]
 pub mod args;
 pub mod commands;
+pub mod decision_args;
 pub mod demo_data;
 pub mod error;
 pub mod harness;
@@ -20,5 +21,6 @@ pub mod memory;
 pub mod numbers;
 pub mod output;
 pub mod plots;
+pub mod plots_decision;
 pub mod report;
 pub mod ui;

@@ -259,7 +259,41 @@ pub struct Labelled {
 /// # Errors
 /// As for [`RowEncoder::new`], [`RowEncoder::encode`] and the outcome readers, and
 /// `NoRows` for a file with no data rows.
-pub fn read_labelled(mut input: CsvInput, model: &Forest, missing: Missing) -> Result<Labelled> {
+pub fn read_labelled(input: CsvInput, model: &Forest, missing: Missing) -> Result<Labelled> {
+    read_labelled_with_column(input, model, missing, None).map(|(l, _)| l)
+}
+
+/// The cells of one column, one per row (`None` for a cell read as missing).
+pub type ColumnCells = Vec<Option<String>>;
+
+/// Reads every row of `input` for `model`, as [`read_labelled`], and also the text of
+/// column `extra` in each row (trimmed; `None` for a cell read as missing), for
+/// grouping rows by a column that need not be an input.
+///
+/// # Errors
+/// As for [`read_labelled`], and `Columns` when the file has no column `extra`.
+pub fn read_labelled_with_column(
+    mut input: CsvInput,
+    model: &Forest,
+    missing: Missing,
+    extra: Option<&str>,
+) -> Result<(Labelled, Option<ColumnCells>)> {
+    let extra_col = match extra {
+        None => None,
+        Some(name) => Some(input.column(name).ok_or_else(|| {
+            Error::new(
+                ErrorKind::Columns,
+                format!(
+                    "{} has no column '{}'; its columns are {}",
+                    input.name(),
+                    clip(name),
+                    input.headers().join(", ")
+                ),
+            )
+        })?),
+    };
+    let mut cells: Vec<Option<String>> = Vec::new();
+    let extra_missing = missing.clone();
     let mut enc = RowEncoder::new(&input, model, missing, true)?;
     let p = model.n_features();
     let mut values: Vec<f64> = Vec::new();
@@ -271,6 +305,10 @@ pub fn read_labelled(mut input: CsvInput, model: &Forest, missing: Missing) -> R
     while input.read(&mut record)? {
         enc.encode(&record, &mut row)?;
         values.extend_from_slice(&row);
+        if let Some(c) = extra_col {
+            let cell = record.get(c).unwrap_or("").trim();
+            cells.push((!extra_missing.is_missing(cell)).then(|| cell.to_string()));
+        }
         match model.task() {
             Task::Classify => codes.push(enc.class(&record)?),
             Task::Regress => ys.push(enc.value(&record)?),
@@ -294,11 +332,12 @@ pub fn read_labelled(mut input: CsvInput, model: &Forest, missing: Missing) -> R
         },
         Task::Regress => Outcome::Values(ys),
     };
-    Ok(Labelled {
+    let labelled = Labelled {
         x,
         outcome,
         rows,
         encoder: enc,
         notes: input.blank_lines_note().into_iter().collect(),
-    })
+    };
+    Ok((labelled, extra_col.map(|_| cells)))
 }

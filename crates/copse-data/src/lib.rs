@@ -50,7 +50,7 @@ pub mod training;
 
 pub use cells::{clip, one_line, parse_number, Missing};
 pub use csv_input::{CsvInput, Delimiter, Row};
-pub use encode::{read_labelled, Labelled, RowEncoder};
+pub use encode::{read_labelled, read_labelled_with_column, ColumnCells, Labelled, RowEncoder};
 pub use error::{Error, ErrorKind, Result};
 pub use infer::MAX_TARGET_SIZE;
 pub use records::MAX_RECORD_BYTES;

@@ -5,7 +5,9 @@ use crate::args::{
     ColumnRoles, CsvArgs, DelimiterArg, DemoArgs, ImpurityArg, ScoreArgs, TrainArgs,
 };
 use crate::commands::make_demo_data::write_demo_files;
+use crate::commands::report_page::{CATCH_SVG, RELIABILITY_SVG};
 use crate::commands::{emit, make_folder, score, train};
+use crate::decision_args::DecisionArgs;
 use crate::demo_data::{DEFAULT_SEED, ID, TARGET};
 use crate::error::{CliError, CliResult};
 use crate::numbers::{count, pct};
@@ -18,6 +20,8 @@ use std::path::Path;
 const TRAIN_ROWS: u64 = 2000;
 const SCORE_ROWS: u64 = 500;
 const TREES: u32 = 500;
+/// Segments the demo's inspectors can visit: the catch-by-rank table gets a line for it.
+const DEMO_BUDGET: u64 = 50;
 
 /// Runs `copse demo`.
 ///
@@ -35,6 +39,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
     let plots_dir = dir.join("plots");
     let scored_path = dir.join("scored_segments.csv");
     let report_path = dir.join("report.txt");
+    let page_path = dir.join("report.html");
 
     let csv = CsvArgs {
         delimiter: DelimiterArg::Comma,
@@ -67,6 +72,11 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         shuffled_target_runs: None,
         renamed_shuffled_target_runs: None,
         json: false,
+        report: Some(page_path.clone()),
+        decision: DecisionArgs {
+            budget: Some(DEMO_BUDGET),
+            ..DecisionArgs::default()
+        },
         allow_large: false,
     };
     let mut text = String::new();
@@ -112,9 +122,12 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         ("segments to score", score_csv.clone()),
         ("model", model_path.clone()),
         ("report (as above)", report_path.clone()),
+        ("report page (open it)", page_path.clone()),
         ("out-of-bag predictions", oob_path.clone()),
         ("importance chart", plots_dir.join("importance.svg")),
         ("out-of-bag error chart", plots_dir.join("oob_error.svg")),
+        ("catch-by-rank chart", plots_dir.join(CATCH_SVG)),
+        ("calibration chart", plots_dir.join(RELIABILITY_SVG)),
         ("scored segments", scored_path.clone()),
     ];
     for (what, path) in &items {
@@ -123,7 +136,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
     let _ = writeln!(
         tail,
         "\nThe same steps by hand:\n  \
-         copse train --data {} --target {TARGET} --ignore {ID} --out {} --oob-out {} --plots {}\n  \
+         copse train --data {} --target {TARGET} --ignore {ID} --out {} --oob-out {} --plots {} --budget {DEMO_BUDGET} --report {}\n  \
          copse score --model {} --data {} --keep {ID} --out {}\n  \
          copse evaluate --model {} --data <labelled rows the model has not seen>\n  \
          copse inspect --model {} --tree 0",
@@ -131,6 +144,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         model_path.display(),
         oob_path.display(),
         plots_dir.display(),
+        page_path.display(),
         model_path.display(),
         score_csv.display(),
         scored_path.display(),

@@ -6,7 +6,9 @@ use crate::commands::{emit, load_labelled};
 use crate::error::{forest_error, CliError, CliResult};
 use crate::output::write_file;
 use crate::plots;
-use crate::report::importance::ImportanceReport;
+use crate::plots_decision;
+use crate::report::importance::{HeldOutRows, ImportanceReport};
+use crate::report::notices::TrainingRowsView;
 use crate::report::ranking::shown_mirror;
 use crate::report::{self, Style};
 use crate::ui::Ui;
@@ -30,17 +32,28 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
         let about = mirror.as_ref().map_or(String::new(), |m| {
             format!("; p: mirrored-null test, {} null values", m.null_size)
         });
-        let svg = plots::importance_svg(
-            &imp.error,
-            mirror.as_ref(),
-            &format!("Which inputs matter: rise in {measure} when shuffled"),
-            &format!(
-                "held-out rows from {source}, {} shuffles per input, model {}{about}",
-                a.repeats,
-                a.model.display()
+        let sub = format!(
+            "held-out rows from {source}, {} shuffles per input, model {}",
+            a.repeats,
+            a.model.display()
+        );
+        // For classes the chart leads with the rise in Brier score, which sees
+        // probabilities, and shows the misclassification rise beside it.
+        let drawn = match &imp.brier {
+            Some(brier) => plots_decision::brier_importance_svg(
+                brier,
+                &imp.error,
+                "Which inputs matter: rise in Brier score and in misclassification when shuffled",
+                &sub,
             ),
-        )
-        .map_err(|e| CliError::failure(format!("could not draw the chart: {e}")))?;
+            None => plots::importance_svg(
+                &imp.error,
+                mirror.as_ref(),
+                &format!("Which inputs matter: rise in {measure} when shuffled"),
+                &format!("{sub}{about}"),
+            ),
+        };
+        let svg = drawn.map_err(|e| CliError::failure(format!("could not draw the chart: {e}")))?;
         write_file(path, svg.as_bytes())?;
         crate::output::commit_all()?;
         ui.wrote(&format!("importance chart: {}", path.display()));
@@ -55,8 +68,21 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
             .filter(|&b| b > 0.0),
         copse_forest::Task::Classify => None,
     };
+    let training_rows = TrainingRowsView::new(&model, data.x.view(), "importance");
+    if let Some(w) = &training_rows.warning {
+        ui.warn(w);
+    }
     let view = ImportanceReport::new(
-        &model, &a.model, &imp, &source, data.rows, a.repeats, baseline,
+        &model,
+        &a.model,
+        &imp,
+        HeldOutRows {
+            source: &source,
+            rows_read: data.rows,
+            repeats: a.repeats,
+            baseline,
+        },
+        training_rows,
     );
     if a.json {
         return report::print_json(&view);

@@ -5,6 +5,7 @@ pub mod evaluate;
 pub mod importance;
 pub mod inspect;
 pub mod make_demo_data;
+pub mod report_page;
 pub mod score;
 pub mod stability;
 pub mod train;
@@ -121,6 +122,26 @@ pub fn load_labelled(
     csv: &crate::args::CsvArgs,
     ui: &Ui,
 ) -> CliResult<(copse_forest::Forest, String, copse_data::Labelled)> {
+    load_labelled_by(model, data, csv, ui, None).map(|(m, s, l, _)| (m, s, l))
+}
+
+/// As [`load_labelled`], and also the cells of column `by` (any column of the file),
+/// one per row, when asked.
+///
+/// # Errors
+/// Input errors for a bad model file or data, or a file without column `by`.
+pub fn load_labelled_by(
+    model: &std::path::Path,
+    data: &str,
+    csv: &crate::args::CsvArgs,
+    ui: &Ui,
+    by: Option<&str>,
+) -> CliResult<(
+    copse_forest::Forest,
+    String,
+    copse_data::Labelled,
+    Option<copse_data::ColumnCells>,
+)> {
     let model = load_model(model)?;
     let input = copse_data::CsvInput::open(data, csv.delimiter.into())?;
     let source = input.name().to_string();
@@ -128,14 +149,14 @@ pub fn load_labelled(
         || copse_data::Missing::of_model(&model),
         copse_data::Missing::from_list,
     );
-    let labelled = copse_data::read_labelled(input, &model, missing)?;
+    let (labelled, cells) = copse_data::read_labelled_with_column(input, &model, missing, by)?;
     if let Some(w) = labelled.encoder.unseen_warning() {
         ui.warn(&w);
     }
     for n in &labelled.notes {
         ui.note(n);
     }
-    Ok((model, source, labelled))
+    Ok((model, source, labelled, cells))
 }
 
 /// Reads a training file, the common start of `train` and `stability`: the columns in

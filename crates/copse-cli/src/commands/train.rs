@@ -1,14 +1,18 @@
 //! `copse train`: read a CSV file, grow the forest, write the model (and optionally the
 //! out-of-bag predictions and charts), and report.
 use crate::args::TrainArgs;
+use crate::commands::report_page;
 use crate::commands::{
     check_features_per_split, check_output, emit, make_folder, read_training, tree_settings,
 };
+use crate::decision_args::DecisionArgs;
 use crate::error::{forest_error, CliError, CliResult};
 use crate::memory;
 use crate::numbers::{binary_bytes, fixed, value_decimals, PROBABILITY_DECIMALS};
 use crate::output::{write_file, Output};
 use crate::plots;
+use crate::report::html::{Chart, Page};
+use crate::report::judged::{Judged, Scores};
 use crate::report::ranking::shown_mirror;
 use crate::report::train::{TrainFacts, TrainView};
 use crate::report::{self, Style};
@@ -74,8 +78,12 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     if let Some(dir) = &a.plots {
         make_folder(dir)?;
     }
+    if let Some(page) = &a.report {
+        check_output(&a.data, page, "HTML report")?;
+    }
 
     let data = read_training(&a.data, &a.roles, &a.csv, ui)?;
+    check_positive(&a.decision, &data)?;
     if a.keep_draws && (a.sampling != Sampling::Bootstrap || a.balanced) {
         return Err(CliError::input(
             "--keep-draws is for standard errors, which assume plain bootstrap samples; use \
@@ -137,6 +145,27 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     let train_secs = started.elapsed().as_secs_f64();
     let model = trained.forest;
 
+    let judged = Judged::new(
+        &model,
+        Scores {
+            preds: trained.oob.predictions.view(),
+            outcome: &data.outcome,
+            kind: "out-of-bag",
+            training_rows: None,
+            by: None,
+        },
+        &a.decision,
+    )?;
+    let charts = if a.plots.is_some() || a.report.is_some() {
+        let mut c = model_charts(&model, shuffle_error)?;
+        if let Some(d) = &judged.decision {
+            c.extend(report_page::decision_charts(d, &judged_subtitle(&model))?);
+        }
+        c
+    } else {
+        Vec::new()
+    };
+
     let mut outputs = Vec::new();
     let bytes = model
         .to_bytes()
@@ -152,6 +181,26 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         for (what, path) in write_plots(dir, &model, shuffle_error)? {
             outputs.push((what, path));
         }
+        let decision_charts: Vec<_> = charts
+            .iter()
+            .filter(|(name, _)| {
+                [report_page::CATCH_SVG, report_page::RELIABILITY_SVG].contains(name)
+            })
+            .map(|(name, c)| {
+                (
+                    *name,
+                    Chart {
+                        after: c.after.clone(),
+                        caption: c.caption.clone(),
+                        svg: c.svg.clone(),
+                    },
+                )
+            })
+            .collect();
+        outputs.extend(report_page::write_charts(dir, &decision_charts)?);
+    }
+    if let Some(page) = &a.report {
+        outputs.push(("report page".to_string(), page.clone()));
     }
     let total_secs = started.elapsed().as_secs_f64();
 
@@ -167,15 +216,61 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
             training_seconds: train_secs,
             notes: &data.notes,
             missing_cells: &missing_cells,
+            judged: Some(&judged),
         },
     );
     let text = view.text(Style::new(ui.stdout_colour()));
     let json = report::json_text(&view)?;
+    if let Some(page) = &a.report {
+        let plain = view.text(Style::new(false));
+        report_page::write_page(
+            page,
+            &Page {
+                text: &plain,
+                subtitle: judged_subtitle(&model),
+                decision: judged.decision.as_ref(),
+                charts: charts.into_iter().map(|(_, c)| c).collect(),
+            },
+        )?;
+    }
     Ok(TrainRun {
         text,
         json,
         outputs,
     })
+}
+
+/// Refuses, before growing anything, a `--positive` that names no class of the data.
+fn check_positive(d: &DecisionArgs, data: &TrainingData) -> CliResult<()> {
+    let Some(p) = &d.positive else {
+        return Ok(());
+    };
+    if data.task == Task::Regress {
+        return Err(CliError::input(format!(
+            "--positive {p} names a class, but the target '{}' is read as numbers; drop --positive \
+             or use --task classify",
+            data.target
+        )));
+    }
+    if !data.classes().iter().any(|c| c == p) {
+        return Err(CliError::input(format!(
+            "--positive {p} is not a class of '{}' in {}; its classes are {}",
+            data.target,
+            data.source,
+            data.classes().join(", ")
+        )));
+    }
+    Ok(())
+}
+
+/// The line under a chart's or a page's title: trees, target and data of `model`.
+pub fn judged_subtitle(model: &Forest) -> String {
+    format!(
+        "{} trees, target '{}', data {}",
+        model.trees().len(),
+        model.card().target,
+        model.card().source
+    )
 }
 
 /// Refuses, before growing anything, a model that obviously would not fit in the
@@ -324,14 +419,35 @@ pub fn write_plots(
     shuffle: Option<&Significance>,
 ) -> CliResult<Vec<(String, PathBuf)>> {
     let mut written = Vec::new();
+    for (name, c) in model_charts(model, shuffle)? {
+        let path = dir.join(name);
+        write_file(&path, c.svg.as_bytes())?;
+        let what = if name == "importance.svg" {
+            "importance chart"
+        } else {
+            "out-of-bag error chart"
+        };
+        written.push((what.to_string(), path));
+    }
+    let _ = std::io::stderr().flush();
+    Ok(written)
+}
+
+/// The importance chart and the out-of-bag error curve of `model`, as (file name,
+/// chart), with p-values beside the inputs of the importance chart: those of
+/// `shuffle` when given, else the mirrored-null test's when its null sample is large
+/// enough to show.
+///
+/// # Errors
+/// A failure when drawing fails.
+pub fn model_charts(
+    model: &Forest,
+    shuffle: Option<&Significance>,
+) -> CliResult<Vec<(&'static str, Chart)>> {
+    let mut charts = Vec::new();
     let f = model;
     let measure = report::error_measure(model.task()).to_string();
-    let sub = format!(
-        "{} trees, target '{}', data {}",
-        f.trees().len(),
-        model.card().target,
-        model.card().source
-    );
+    let sub = judged_subtitle(model);
     let draw_err = |e: String| CliError::failure(format!("could not draw a chart: {e}"));
     if let Some(imp) = f.oob_importance() {
         let mirror = shown_mirror(&imp.error);
@@ -353,16 +469,27 @@ pub fn write_plots(
             &format!("{sub}{about}"),
         )
         .map_err(draw_err)?;
-        let path = dir.join("importance.svg");
-        write_file(&path, svg.as_bytes())?;
-        written.push(("importance chart".to_string(), path));
+        charts.push((
+            "importance.svg",
+            Chart {
+                after: "WHICH INPUTS MATTER".into(),
+                caption:
+                    "Rise in out-of-bag error when each input is shuffled, with one standard error."
+                        .into(),
+                svg,
+            },
+        ));
     }
     if f.oob().error_curve.iter().any(Option::is_some) {
         let svg = plots::oob_curve_svg(&f.oob().error_curve, &measure, &sub).map_err(draw_err)?;
-        let path = dir.join("oob_error.svg");
-        write_file(&path, svg.as_bytes())?;
-        written.push(("out-of-bag error chart".to_string(), path));
+        charts.push((
+            "oob_error.svg",
+            Chart {
+                after: "OUT-OF-BAG CHECK".into(),
+                caption: "Out-of-bag error as trees are added.".into(),
+                svg,
+            },
+        ));
     }
-    let _ = std::io::stderr().flush();
-    Ok(written)
+    Ok(charts)
 }

@@ -1,5 +1,6 @@
 //! The report of `copse evaluate`: the model summary and how well the model predicts
 //! labelled rows it has not seen, beside its out-of-bag estimate.
+use super::judged::Judged;
 use super::measures::{measures_block, MeasuresView};
 use super::model::ModelView;
 use super::ranking::{oob_baseline, ImportanceView};
@@ -18,6 +19,8 @@ pub struct EvaluateView<'a> {
     #[serde(flatten)]
     importance: ImportanceView<'a>,
     evaluation: EvaluationView<'a>,
+    #[serde(flatten)]
+    judged: Option<&'a Judged<'a>>,
     #[serde(skip)]
     forest: &'a Forest,
     #[serde(skip)]
@@ -47,6 +50,7 @@ impl<'a> EvaluateView<'a> {
         source: &'a str,
         rows_read: usize,
         unseen: u64,
+        judged: Option<&'a Judged<'a>>,
     ) -> Self {
         EvaluateView {
             model: ModelView::new("evaluate", forest),
@@ -58,6 +62,7 @@ impl<'a> EvaluateView<'a> {
                 rows_without_target: eval.rows_missing_outcome,
                 unseen_category_cells: unseen,
             },
+            judged,
             forest,
             metrics: &eval.metrics,
             model_path,
@@ -69,6 +74,9 @@ impl<'a> EvaluateView<'a> {
         let e = &self.evaluation;
         let mut text = String::new();
         let _ = writeln!(text, "copse evaluation report\n");
+        if let Some(j) = self.judged {
+            j.notices_text(&mut text, st);
+        }
         let _ = writeln!(text, "{}", st.head("MODEL AND DATA"));
         let _ = writeln!(text, "  {:<LABEL$}{}", "model", self.model_path.display());
         let _ = writeln!(
@@ -115,6 +123,9 @@ impl<'a> EvaluateView<'a> {
                 "  Error here {now}; the out-of-bag estimate at training was {then}. A much larger\n  \
                  error here suggests these rows differ from the training data.\n"
             );
+        }
+        if let Some(j) = self.judged {
+            j.text(&mut text, st);
         }
         caution(&mut text, st);
         text

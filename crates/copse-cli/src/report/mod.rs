@@ -10,11 +10,18 @@
 //! always have: [`print_json`] prints a view through a JSON map, which keeps its keys
 //! sorted, so a view's fields can be laid out for reading and the model summary shared
 //! by flattening.
+pub mod brier_ranking;
+pub mod decision;
 pub mod evaluate;
+pub mod figures;
+pub mod groups;
+pub mod html;
 pub mod importance;
 pub mod inspect;
+pub mod judged;
 pub mod measures;
 pub mod model;
+pub mod notices;
 pub mod ranking;
 pub mod sections;
 pub mod stability;

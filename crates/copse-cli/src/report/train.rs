@@ -1,5 +1,6 @@
 //! The report of `copse train`: the model summary, the out-of-bag importance with its
 //! tests, the out-of-bag error curve, the files written, and the time taken.
+use super::judged::Judged;
 use super::model::ModelView;
 use super::ranking::{importance_section, oob_baseline, ImportanceView};
 use super::sections::{data_section, oob_section, rare_class_advice, settings_section};
@@ -25,6 +26,8 @@ pub struct TrainView<'a> {
     notes: &'a [String],
     /// Missing cells of each input among the rows used, in input order.
     missing_cells: &'a [usize],
+    #[serde(flatten)]
+    judged: Option<&'a Judged<'a>>,
     /// Seconds spent training, checking out of bag and measuring importance.
     #[serde(skip)]
     training_seconds: f64,
@@ -67,6 +70,8 @@ pub struct TrainFacts<'a> {
     pub notes: &'a [String],
     /// Missing cells of each input among the rows used, in input order.
     pub missing_cells: &'a [usize],
+    /// The decision layer on the out-of-bag scores.
+    pub judged: Option<&'a Judged<'a>>,
 }
 
 impl<'a> TrainView<'a> {
@@ -102,6 +107,7 @@ impl<'a> TrainView<'a> {
             seconds: facts.seconds,
             notes: facts.notes,
             missing_cells: facts.missing_cells,
+            judged: facts.judged,
             training_seconds: facts.training_seconds,
             forest,
             shuffle: facts.shuffle,
@@ -113,11 +119,17 @@ impl<'a> TrainView<'a> {
         let model = self.forest;
         let mut text = String::new();
         let _ = writeln!(text, "copse training report\n");
+        if let Some(j) = self.judged {
+            j.notices_text(&mut text, st);
+        }
         data_section(&mut text, st, model, Some(self.missing_cells));
         settings_section(&mut text, st, model, Some(self.threads));
         oob_section(&mut text, st, model);
         if let Some(advice) = rare_class_advice(model) {
             let _ = writeln!(text, "{advice}\n");
+        }
+        if let Some(j) = self.judged {
+            j.text(&mut text, st);
         }
         importance_section(&mut text, st, model, self.shuffle);
         let _ = writeln!(text, "{}", st.head("OUTPUTS"));

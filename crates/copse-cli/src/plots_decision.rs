@@ -1,0 +1,345 @@
+//! SVG charts of the decision layer, in the look of [`crate::plots`]:
+//! - catch by rank: the share of the positive class caught against the share of rows
+//!   inspected from the top, with the diagonal that random picking follows and the
+//!   standard depths marked;
+//! - reliability: each bin's mean probability against the share observed, with Wilson
+//!   whiskers and the diagonal of perfect calibration;
+//! - importance for classes: the rise in Brier score (which sees probabilities) beside
+//!   the rise in misclassification, in one order.
+use crate::numbers::{pct_short, plain};
+use copse_forest::decision::{CatchByRank, Reliability};
+use copse_forest::Importance;
+use plotters::coord::ranged1d::SegmentValue;
+use plotters::coord::types::RangedCoordf64;
+use plotters::prelude::*;
+
+const TEAL: RGBColor = RGBColor(38, 120, 128);
+const AMBER: RGBColor = RGBColor(191, 120, 32);
+const INK: RGBColor = RGBColor(33, 37, 41);
+const GREY: RGBColor = RGBColor(110, 117, 125);
+const GRID: RGBColor = RGBColor(228, 231, 235);
+
+type PlotResult<T> = Result<T, String>;
+type Area<'a> = DrawingArea<SVGBackend<'a>, plotters::coord::Shift>;
+
+fn err<E: std::fmt::Display>(e: E) -> String {
+    e.to_string()
+}
+
+fn titled<'a>(root: &Area<'a>, title: &str, subtitle: &str) -> PlotResult<Area<'a>> {
+    root.fill(&WHITE).map_err(err)?;
+    let (top, rest) = root.split_vertically(64);
+    top.draw(&Text::new(
+        title.to_string(),
+        (18, 14),
+        ("sans-serif", 20)
+            .into_font()
+            .style(FontStyle::Bold)
+            .color(&INK),
+    ))
+    .map_err(err)?;
+    top.draw(&Text::new(
+        subtitle.to_string(),
+        (18, 40),
+        ("sans-serif", 13).into_font().color(&GREY),
+    ))
+    .map_err(err)?;
+    Ok(rest)
+}
+
+/// A unit square chart (both axes 0 to 1, shown as percentages) with the diagonal.
+fn unit_chart<'a, 'b>(
+    area: &'b Area<'a>,
+    x_desc: &str,
+    y_desc: &str,
+) -> PlotResult<ChartContext<'b, SVGBackend<'a>, Cartesian2d<RangedCoordf64, RangedCoordf64>>> {
+    let mut chart = ChartBuilder::on(area)
+        .margin_left(18)
+        .margin_right(36)
+        .margin_bottom(10)
+        .x_label_area_size(40)
+        .y_label_area_size(64)
+        .build_cartesian_2d(0f64..1f64, 0f64..1f64)
+        .map_err(err)?;
+    chart
+        .configure_mesh()
+        .light_line_style(WHITE)
+        .bold_line_style(GRID)
+        .axis_style(GREY)
+        .x_desc(x_desc)
+        .y_desc(y_desc)
+        .x_label_formatter(&|v| pct_short(*v))
+        .y_label_formatter(&|v| pct_short(*v))
+        .label_style(("sans-serif", 13).into_font().color(&INK))
+        .axis_desc_style(("sans-serif", 13).into_font().color(&GREY))
+        .draw()
+        .map_err(err)?;
+    chart
+        .draw_series(std::iter::once(PathElement::new(
+            vec![(0.0, 0.0), (1.0, 1.0)],
+            GREY.stroke_width(1),
+        )))
+        .map_err(err)?;
+    Ok(chart)
+}
+
+/// The catch-by-rank curve of `curve` (points at many depths, shallowest first) with
+/// the depths of `marked` drawn as dots, as SVG text.
+///
+/// # Errors
+/// A message when drawing fails.
+pub fn catch_svg(
+    curve: &CatchByRank,
+    marked: &CatchByRank,
+    positive: &str,
+    subtitle: &str,
+) -> PlotResult<String> {
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (860, 560)).into_drawing_area();
+        let area = titled(
+            &root,
+            &format!("Share of '{positive}' caught when inspecting the top rows by score"),
+            subtitle,
+        )?;
+        let mut chart = unit_chart(
+            &area,
+            "share of rows inspected, highest score first",
+            &format!("share of all '{positive}' rows caught"),
+        )?;
+        let line: Vec<(f64, f64)> = std::iter::once((0.0, 0.0))
+            .chain(curve.points.iter().map(|p| (p.top_share, p.caught_share)))
+            .collect();
+        chart
+            .draw_series(LineSeries::new(line, TEAL.stroke_width(2)))
+            .map_err(err)?;
+        for p in &marked.points {
+            chart
+                .draw_series(std::iter::once(Circle::new(
+                    (p.top_share, p.caught_share),
+                    4,
+                    INK.filled(),
+                )))
+                .map_err(err)?;
+            chart
+                .draw_series(std::iter::once(
+                    EmptyElement::at((p.top_share, p.caught_share))
+                        + Text::new(
+                            format!(
+                                "top {}: {}",
+                                pct_short(p.top_share),
+                                pct_short(p.caught_share)
+                            ),
+                            (8, 4),
+                            ("sans-serif", 12).into_font().color(&INK),
+                        ),
+                ))
+                .map_err(err)?;
+        }
+        chart
+            .draw_series(std::iter::once(
+                EmptyElement::at((0.62, 0.55))
+                    + Text::new(
+                        "random picking".to_string(),
+                        (0, 0),
+                        ("sans-serif", 12).into_font().color(&GREY),
+                    ),
+            ))
+            .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
+
+/// The reliability chart of `r` as SVG text: a dot per bin at its mean probability and
+/// observed share, whiskers over the share's 95% Wilson interval.
+///
+/// # Errors
+/// A message when drawing fails.
+pub fn reliability_svg(r: &Reliability, positive: &str, subtitle: &str) -> PlotResult<String> {
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (860, 560)).into_drawing_area();
+        let area = titled(
+            &root,
+            &format!("Do the probabilities of '{positive}' mean what they say?"),
+            subtitle,
+        )?;
+        let mut chart = unit_chart(
+            &area,
+            "mean probability in the bin (promised)",
+            &format!("share of the bin that was '{positive}' (observed)"),
+        )?;
+        let pts: Vec<(f64, f64)> = r
+            .bins
+            .iter()
+            .map(|b| (b.mean_score, b.observed_share))
+            .collect();
+        chart
+            .draw_series(LineSeries::new(pts.clone(), TEAL.mix(0.6).stroke_width(1)))
+            .map_err(err)?;
+        for b in &r.bins {
+            if let Some(i) = b.observed_interval {
+                chart
+                    .draw_series(std::iter::once(PathElement::new(
+                        vec![(b.mean_score, i.low), (b.mean_score, i.high)],
+                        INK.stroke_width(1),
+                    )))
+                    .map_err(err)?;
+            }
+        }
+        chart
+            .draw_series(pts.iter().map(|&p| Circle::new(p, 5, TEAL.filled())))
+            .map_err(err)?;
+        chart
+            .draw_series(std::iter::once(
+                EmptyElement::at((0.62, 0.55))
+                    + Text::new(
+                        "promised = observed".to_string(),
+                        (0, 0),
+                        ("sans-serif", 12).into_font().color(&GREY),
+                    ),
+            ))
+            .map_err(err)?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
+
+/// One panel of bars, inputs in the order `order` (top first).
+fn bar_panel(
+    area: &Area<'_>,
+    imp: &Importance,
+    order: &[usize],
+    names: &[String],
+    caption: &str,
+    colour: RGBColor,
+    show_names: bool,
+) -> PlotResult<()> {
+    let n = order.len().max(1);
+    let (mut lo, mut hi) = (0.0f64, 0.0f64);
+    for f in &imp.features {
+        let se = f.std_error.unwrap_or(0.0);
+        lo = lo.min(f.mean - se);
+        hi = hi.max(f.mean + se);
+    }
+    if hi - lo <= 0.0 {
+        hi = lo + 1e-6;
+    }
+    let pad = 0.06 * (hi - lo);
+    let (lo, hi) = (if lo < 0.0 { lo - pad } else { 0.0 }, hi + pad);
+    let longest = names.iter().map(|s| s.chars().count()).max().unwrap_or(5) as u32;
+    let mut chart = ChartBuilder::on(area)
+        .caption(caption, ("sans-serif", 14).into_font().color(&INK))
+        .margin(10)
+        .x_label_area_size(34)
+        .y_label_area_size(if show_names {
+            (longest * 8 + 16).min(260)
+        } else {
+            8
+        })
+        .build_cartesian_2d(lo..hi, (0..n as i32 - 1).into_segmented())
+        .map_err(err)?;
+    chart
+        .configure_mesh()
+        .disable_y_mesh()
+        .light_line_style(WHITE)
+        .bold_line_style(GRID)
+        .axis_style(GREY)
+        .y_labels(n)
+        .y_label_formatter(&|v| match v {
+            SegmentValue::CenterOf(i) if show_names && (*i as usize) < n => order
+                .get(n - 1 - *i as usize)
+                .and_then(|&j| names.get(j))
+                .cloned()
+                .unwrap_or_default(),
+            _ => String::new(),
+        })
+        .x_labels(5)
+        .x_label_formatter(&|v| plain(*v))
+        .label_style(("sans-serif", 12).into_font().color(&INK))
+        .draw()
+        .map_err(err)?;
+    for (pos, &j) in order.iter().enumerate() {
+        let Some(f) = imp.features.get(j) else {
+            continue;
+        };
+        let slot = (n - 1 - pos) as i32;
+        let (a, b) = if f.mean >= 0.0 {
+            (0.0, f.mean)
+        } else {
+            (f.mean, 0.0)
+        };
+        let mut bar = Rectangle::new(
+            [
+                (a, SegmentValue::Exact(slot)),
+                (b, SegmentValue::Exact(slot + 1)),
+            ],
+            colour.mix(0.85).filled(),
+        );
+        bar.set_margin(6, 6, 0, 0);
+        chart.draw_series(std::iter::once(bar)).map_err(err)?;
+        if let Some(se) = f.std_error {
+            let y = SegmentValue::CenterOf(slot);
+            chart
+                .draw_series(std::iter::once(PathElement::new(
+                    vec![(f.mean - se, y.clone()), (f.mean + se, y)],
+                    INK.stroke_width(2),
+                )))
+                .map_err(err)?;
+        }
+    }
+    chart
+        .draw_series(std::iter::once(PathElement::new(
+            vec![
+                (0.0, SegmentValue::Exact(0)),
+                (0.0, SegmentValue::Exact(n as i32)),
+            ],
+            INK.stroke_width(1),
+        )))
+        .map_err(err)?;
+    Ok(())
+}
+
+/// Importance for classes as SVG text: the rise in Brier score on the left (inputs in
+/// its order, most important on top) and the rise in misclassification of the same
+/// inputs on the right; whiskers of one standard error.
+///
+/// # Errors
+/// A message when drawing fails.
+pub fn brier_importance_svg(
+    brier: &Importance,
+    error: &Importance,
+    title: &str,
+    subtitle: &str,
+) -> PlotResult<String> {
+    let order: Vec<usize> = brier.ranked().iter().map(|f| f.feature).collect();
+    let names: Vec<String> = brier.features.iter().map(|f| f.name.clone()).collect();
+    let n = order.len().max(1) as u32;
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (960, 170 + 30 * n)).into_drawing_area();
+        let area = titled(&root, title, subtitle)?;
+        let (left, right) = area.split_horizontally(600);
+        bar_panel(
+            &left,
+            brier,
+            &order,
+            &names,
+            "rise in Brier score (sees probabilities)",
+            TEAL,
+            true,
+        )?;
+        bar_panel(
+            &right,
+            error,
+            &order,
+            &names,
+            "rise in misclassification",
+            AMBER,
+            false,
+        )?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
