@@ -114,3 +114,29 @@ fn class_codes_are_not_silently_read_as_numbers() {
     let many = write("many.csv", &(0..40).collect::<Vec<_>>());
     assert!(many.notes.iter().all(|n| !n.contains("class codes")));
 }
+
+/// Wrong conclusion 4: one input per split by rounding. Iris (Fisher 1936) with
+/// `petal_width` as a numeric target has 4 inputs, where a third rounds to 1; the default
+/// tries 2, and the report says it raised the rule.
+#[test]
+fn the_default_never_tries_one_input_of_four() {
+    let dir = tmp();
+    let iris = repo("tests/data/iris.csv");
+    let out = super::copse_in(
+        dir.path(),
+        &[
+            "train",
+            "--data",
+            iris.to_str().expect("utf-8 path"),
+            "--target",
+            "petal_width",
+            "--out",
+            "w.copse",
+            "--trees",
+            "20",
+        ],
+        None,
+    );
+    let (so, _) = super::expect_code(&out, 0);
+    assert!(so.contains("2 of 4") && so.contains("raised to 2"), "{so}");
+}

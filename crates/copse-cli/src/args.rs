@@ -208,7 +208,7 @@ pub struct TrainArgs {
 
     /// Inputs tried at each split: a count such as 4, a share such as 33%, or root (square
     /// root of the inputs), log (log2 of the inputs) or every [default: root for classes,
-    /// a third of the inputs for numbers].
+    /// a third of the inputs for numbers, at least 2 with 3 or more inputs].
     #[arg(long, value_name = "RULE", value_parser = parse_features_per_split, conflicts_with = "bagging")]
     pub features_per_split: Option<FeaturesPerSplit>,
 

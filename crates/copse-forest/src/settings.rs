@@ -60,7 +60,26 @@ impl FeaturesPerSplit {
                 (f * p_f).floor() as usize
             }
         };
-        Ok(k.clamp(1, p.max(1)))
+        // The default never tries a single input per split when there are three or
+        // more: one input makes every split's choice of input blind, and on a 4-input
+        // regression a third (rounded to 1) made the forest worse than a single tree.
+        let floor = if self == FeaturesPerSplit::Default && p >= 3 {
+            2
+        } else {
+            1
+        };
+        Ok(k.clamp(floor, p.max(1)))
+    }
+
+    /// Whether the default rule was raised to its floor of 2 inputs for `p` inputs.
+    pub fn default_raised(self, p: usize, classification: bool) -> bool {
+        let p_f = p as f64;
+        let plain = if classification {
+            p_f.sqrt().floor() as usize
+        } else {
+            p / 3
+        };
+        self == FeaturesPerSplit::Default && p >= 3 && plain < 2
     }
 }
 
@@ -325,6 +344,18 @@ impl ForestSettings {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The default never rounds to one input per split with three or more inputs.
+    #[test]
+    fn the_default_tries_at_least_two_inputs() {
+        let d = FeaturesPerSplit::Default;
+        assert_eq!(d.resolve(4, false).unwrap(), 2); // a third of 4 rounds to 1
+        assert_eq!(d.resolve(3, true).unwrap(), 2); // the root of 3 rounds to 1
+        assert_eq!(d.resolve(2, false).unwrap(), 1); // two inputs: no floor
+        assert_eq!(d.resolve(30, false).unwrap(), 10);
+        assert!(d.default_raised(4, false) && !d.default_raised(30, false));
+        assert_eq!(FeaturesPerSplit::Count(1).resolve(4, false).unwrap(), 1);
+    }
 
     #[test]
     fn defaults_follow_the_usual_rules() {

@@ -164,6 +164,11 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
             FeaturesPerSplit::Every | FeaturesPerSplit::Count(_) => "a fixed count".to_string(),
         }
     };
+    let kind = if s.features_per_split.default_raised(p, classify) {
+        format!("{kind}, raised to 2: one input per split chooses blindly")
+    } else {
+        kind
+    };
     line(out, "inputs per split", &format!("{k} of {p} ({kind})"));
     line(
         out,
