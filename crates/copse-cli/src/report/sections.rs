@@ -195,7 +195,10 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
     line(
         out,
         "smallest leaf",
-        &format!("{} {rows}", trim_num(s.tree.min_leaf, 3)),
+        &format!(
+            "{} {rows} (counted with their draws: a row drawn twice counts 2)",
+            trim_num(s.tree.min_leaf, 3)
+        ),
     );
     line(
         out,
@@ -250,6 +253,12 @@ pub fn oob_section(out: &mut String, st: Style, model: &Model) {
                     }
                 );
             }
+            let _ = writeln!(
+                out,
+                "  (a row's class probabilities are the mean of its trees' leaf class shares, a \
+                 soft vote;\n   its class is the most probable one, ties going to the first in \
+                 the list)"
+            );
         }
         Some(Metrics::Values(m)) => {
             value_block(out, m, "rows judged");
