@@ -92,7 +92,7 @@ pub use importance::{
 pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics};
 pub use oob_summary::{OobReport, OobSummary};
 pub use outcome::{natural_order, Outcome, MISSING};
-pub use predict::Evaluation;
+pub use predict::{Evaluation, SCORING_BLOCK_BYTES};
 pub use progress::{Progress, Stage};
 pub use settings::{FeaturesPerSplit, ForestSettings, Sampling, TreeRules};
 pub use significance::{
