@@ -693,3 +693,39 @@ fn r14_scoring_a_very_wide_file_keeps_memory_bounded() {
         assert!(out.starts_with("c0,prediction,prob_a,prob_b\n"), "{model}");
     }
 }
+
+/// `copse stability` on 3 rows with `--folds 2`: a fold's tree would have 1 row to
+/// train on, and the message says so and which fold count works (it once said only 1
+/// row had a known outcome, when all 3 had); `--folds 3` runs.
+#[test]
+fn r15_stability_folds_too_few_for_a_tree_give_the_right_reason() {
+    let dir = tmp();
+    put(dir.path(), "d.csv", "a,y\n1,1.5\n2,2.5\n3,4.0\n");
+    let mut args = vec![
+        "stability",
+        "--data",
+        "d.csv",
+        "--target",
+        "y",
+        "--trees",
+        "5",
+        "--seeds",
+        "2",
+        "--folds",
+        "2",
+    ];
+    let se = refused(
+        dir.path(),
+        &args,
+        None,
+        2,
+        &[
+            "with 3 rows with an outcome in 2 folds",
+            "trained on the other folds' 1 row(s)",
+            "use 3 folds or more",
+        ],
+    );
+    assert!(!se.contains("known outcome"), "{se}");
+    args[10] = "3";
+    expect_code(&copse_in(dir.path(), &args, None), 0);
+}
