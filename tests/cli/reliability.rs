@@ -729,3 +729,31 @@ fn r15_stability_folds_too_few_for_a_tree_give_the_right_reason() {
     args[10] = "3";
     expect_code(&copse_in(dir.path(), &args, None), 0);
 }
+
+/// Target labels `plain` and `plain ` (a trailing space) are one class once cells are
+/// trimmed; the training notes say which labels were merged, on standard error and in
+/// the JSON report (they once merged without a word).
+#[test]
+fn r16_labels_merged_by_trimming_are_noted() {
+    let dir = tmp();
+    let mut d = String::from("a,finish\n");
+    for i in 0..30 {
+        let label = ["plain", "plain ", "ribbed"][i % 3];
+        d.push_str(&format!("{i},{label}\n"));
+    }
+    put(dir.path(), "d.csv", d);
+    let mut args = train_args("d.csv", "finish");
+    args.push("--json");
+    let (so, se) = expect_code(&copse_in(dir.path(), &args, None), 0);
+    let want = "the target 'finish' holds labels that differ only in spaces at their ends, \
+                and each such set is read as one: 'plain' and 'plain ' as 'plain'";
+    assert!(se.contains(want), "{se}");
+    let j = super::json_of(&so);
+    let notes = j["notes"].as_array().expect("notes");
+    assert!(
+        notes
+            .iter()
+            .any(|n| n.as_str().is_some_and(|n| n.starts_with(want))),
+        "{notes:?}"
+    );
+}

@@ -255,22 +255,37 @@ pub(crate) struct Levels {
     pub codes: HashMap<String, u32>,
 }
 
-/// Labels for every categorical used column, by column index.
+/// Labels for every categorical used column, by column index. Cells are trimmed, so
+/// labels that differ only in spaces at their ends become one; each column where that
+/// happened gets a note naming them (`names` are the headers, `target` the outcome
+/// column).
 pub(crate) fn levels(
     records: &[csv::StringRecord],
     layout: &Layout,
     categorical: &[bool],
     missing: &Missing,
+    names: &[String],
+    notes: &mut Vec<String>,
 ) -> HashMap<usize, Levels> {
     let mut out = HashMap::new();
     for &j in layout.used.iter().filter(|&&j| categorical[j]) {
-        let seen: HashSet<&str> = records
+        // The cells as written: more of them than trimmed labels means some merged.
+        let written: HashSet<&str> = records
             .iter()
-            .map(|r| r[j].trim())
-            .filter(|cell| !missing.is_missing(cell))
+            .map(|r| &r[j])
+            .filter(|cell| !missing.is_missing(cell.trim()))
             .collect();
+        let seen: HashSet<&str> = written.iter().map(|c| c.trim()).collect();
         let mut labels: Vec<String> = seen.into_iter().map(str::to_string).collect();
         labels.sort_by(|a, b| natural_order(a, b));
+        if written.len() > labels.len() {
+            let role = if j == layout.target {
+                format!("the target '{}'", names[j])
+            } else {
+                format!("input '{}'", names[j])
+            };
+            notes.push(merged_note(&role, &written, &labels));
+        }
         let codes = labels
             .iter()
             .enumerate()
@@ -279,4 +294,86 @@ pub(crate) fn levels(
         out.insert(j, Levels { labels, codes });
     }
     out
+}
+
+/// The note for a column whose cells `written` became the trimmed `labels` with some
+/// merged: each merged label with the forms it was written in (at most three shown,
+/// escaped so spaces and tabs show between the quotes), in label order.
+fn merged_note(role: &str, written: &HashSet<&str>, labels: &[String]) -> String {
+    let mut groups: Vec<String> = Vec::new();
+    let mut count = 0;
+    for label in labels {
+        let mut forms: Vec<&str> = written
+            .iter()
+            .copied()
+            .filter(|c| c.trim() == label)
+            .collect();
+        if forms.len() < 2 {
+            continue;
+        }
+        count += 1;
+        if groups.len() < EXAMPLES {
+            forms.sort_unstable();
+            let forms: Vec<String> = forms.iter().map(|f| format!("'{}'", clip(f))).collect();
+            groups.push(format!("{} as '{}'", forms.join(" and "), clip(label)));
+        }
+    }
+    if count > groups.len() {
+        groups.push(format!("and {} more", count - groups.len()));
+    }
+    format!(
+        "{role} holds labels that differ only in spaces at their ends, and each such set is read \
+         as one: {}; if they mean different things, give them different names",
+        groups.join("; ")
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// `plain` and `plain ` (and ` plain`) are one class after trimming, and the note
+    /// names them; a label written one way only gives no note.
+    #[test]
+    fn labels_merged_by_trimming_are_named() {
+        let rows = ["plain", "plain ", " plain", "ribbed", " smooth", "plain"];
+        let records: Vec<csv::StringRecord> = rows
+            .iter()
+            .map(|c| csv::StringRecord::from(vec![*c]))
+            .collect();
+        let layout = Layout {
+            target: 0,
+            inputs: Vec::new(),
+            used: vec![0],
+        };
+        let mut notes = Vec::new();
+        let names = ["finish".to_string()];
+        let l = levels(
+            &records,
+            &layout,
+            &[true],
+            &Missing::standard(),
+            &names,
+            &mut notes,
+        );
+        assert_eq!(l[&0].labels, ["plain", "ribbed", "smooth"]);
+        assert_eq!(notes.len(), 1, "{notes:?}");
+        assert!(
+            notes[0].starts_with("the target 'finish' holds labels that differ only in spaces")
+                && notes[0].contains("' plain' and 'plain' and 'plain ' as 'plain'")
+                && !notes[0].contains("smooth"),
+            "{}",
+            notes[0]
+        );
+        let mut notes = Vec::new();
+        levels(
+            &records[3..],
+            &layout,
+            &[true],
+            &Missing::standard(),
+            &names,
+            &mut notes,
+        );
+        assert!(notes.is_empty(), "{notes:?}");
+    }
 }

@@ -97,7 +97,14 @@ impl TrainingTable {
         if task == Task::Regress {
             infer::check_target_size(&records, tc, &missing, &name, &roles.target)?;
         }
-        let mut levels = infer::levels(&records, &layout, &categorical, &missing);
+        let mut levels = infer::levels(
+            &records,
+            &layout,
+            &categorical,
+            &missing,
+            &headers,
+            &mut notes,
+        );
         let rows = encode_rows(&records, &layout, &levels, task, &missing);
         drop(records);
 
