@@ -1,7 +1,8 @@
 //! The bad-input matrix, continued (cases r01 on): rows that must never be dropped or
 //! misnumbered (stray quotes, rows without line ends, blank lines), outputs of one
 //! command replaced together or not at all, standard error that cannot be written, the
-//! memory check against measured peaks, and the smaller promises of the messages. Each
+//! memory check against measured peaks, scoring memory on very wide files, decimal
+//! commas, labels merged by trimming, and the smaller promises of the messages. Each
 //! runs the real binary in a temporary folder, like `bad_input.rs`, whose helpers it
 //! shares.
 //!
@@ -755,5 +756,98 @@ fn r16_labels_merged_by_trimming_are_noted() {
             .iter()
             .any(|n| n.as_str().is_some_and(|n| n.starts_with(want))),
         "{notes:?}"
+    );
+}
+
+/// A decimal-comma file (semicolons between fields, `5,1` cells): read as it is, its
+/// measurements would be categories, and a note says so and offers `--decimal comma`;
+/// with it, the model is the one trained on the same numbers written with points (the
+/// same predictions), its card keeps the mark, so scoring, evaluation and importance read
+/// new decimal-comma files the same way without being told, and a point in such a file
+/// is refused with a hint.
+#[test]
+fn r17_decimal_commas_are_noted_and_read_with_decimal_comma() {
+    let dir = tmp();
+    let points = std::fs::read_to_string(super::bad_input::iris()).expect("iris");
+    let commas = points.replace(',', ";").replace('.', ",");
+    put(dir.path(), "p.csv", &points);
+    put(dir.path(), "c.csv", &commas);
+    let train = |data: &str, model: &str, extra: &[&str]| {
+        let mut args = vec![
+            "train", "--data", data, "--target", "species", "--out", model, "--trees", "20",
+            "--seed", "7",
+        ];
+        args.extend_from_slice(extra);
+        copse_in(dir.path(), &args, None)
+    };
+    let (_, se) = expect_code(
+        &train("c.csv", "raw.copse", &["--delimiter", "semicolon"]),
+        0,
+    );
+    assert!(
+        se.contains(
+            "columns 'sepal_length', 'sepal_width', 'petal_length' and 1 more hold numbers \
+             written with a decimal comma (such as '5,1' on line 2), so copse reads them as \
+             categories; add --decimal comma to read them as numbers"
+        ),
+        "{se}"
+    );
+    let comma_args = ["--delimiter", "semicolon", "--decimal", "comma"];
+    let (_, se) = expect_code(&train("c.csv", "c.copse", &comma_args), 0);
+    assert!(!se.contains("decimal comma"), "{se}");
+    expect_code(&train("p.csv", "p.copse", &[]), 0);
+    // Scored without --decimal: the comma model reads commas from its card.
+    let score = |model: &str, data: &str, delimiter: &str| {
+        let args = [
+            "score",
+            "--model",
+            model,
+            "--data",
+            data,
+            "--delimiter",
+            delimiter,
+        ];
+        let (so, _) = expect_code(&copse_in(dir.path(), &args, None), 0);
+        so.replace(';', ",")
+    };
+    let by_commas = score("c.copse", "c.csv", "semicolon");
+    assert_eq!(by_commas.lines().count(), 151);
+    assert_eq!(by_commas, score("p.copse", "p.csv", "comma"));
+    for command in ["evaluate", "importance"] {
+        let args = [
+            command,
+            "--model",
+            "c.copse",
+            "--data",
+            "c.csv",
+            "--delimiter",
+            "semicolon",
+        ];
+        expect_code(&copse_in(dir.path(), &args, None), 0);
+    }
+    let stability = [
+        "stability",
+        "--data",
+        "c.csv",
+        "--target",
+        "species",
+        "--trees",
+        "5",
+        "--seeds",
+        "2",
+        "--delimiter",
+        "semicolon",
+        "--decimal",
+        "comma",
+    ];
+    let (_, se) = expect_code(&copse_in(dir.path(), &stability, None), 0);
+    assert!(!se.contains("decimal comma"), "{se}");
+    let args = ["score", "--model", "c.copse", "--data", "p.csv"];
+    refused(
+        dir.path(),
+        &args,
+        None,
+        2,
+        &["'5.1' is not a finite number", "add --decimal point"],
     );
 }

@@ -48,7 +48,8 @@ pub mod records;
 pub mod roles;
 pub mod training;
 
-pub use cells::{clip, parse_number, Missing};
+pub use cells::{clip, looks_decimal_comma, parse_number, read_number, Missing};
+pub use copse_forest::DecimalMark;
 pub use csv_input::{CsvInput, Delimiter, Row};
 pub use encode::{read_labelled, Labelled, RowEncoder};
 pub use error::{Error, ErrorKind, Result};

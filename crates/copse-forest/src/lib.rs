@@ -79,7 +79,7 @@ pub mod task;
 pub mod train;
 pub mod uncertainty;
 
-pub use card::{ModelCard, STANDARD_MISSING_TOKENS};
+pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
 pub use error::{io_reason, Error, ErrorKind, Result};

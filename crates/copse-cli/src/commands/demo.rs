@@ -39,6 +39,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
     let csv = CsvArgs {
         delimiter: DelimiterArg::Comma,
         missing: None,
+        decimal: None,
     };
     let targs = TrainArgs {
         data: shown(&train_csv),

@@ -100,7 +100,7 @@ struct Source {
 /// # Errors
 /// Input errors for a file that cannot be read or lacks the model's columns.
 fn open_input(a: &ScoreArgs, model: &Forest) -> CliResult<Source> {
-    let input = CsvInput::open(&a.data, a.csv.delimiter.into())?;
+    let input = crate::commands::open_for_model(&a.data, &a.csv, model)?;
     let missing = a
         .csv
         .missing
