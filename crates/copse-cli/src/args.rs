@@ -80,6 +80,11 @@ pub struct CsvArgs {
     /// [default: NA,NaN].
     #[arg(long, value_name = "TOKEN,...", allow_hyphen_values = true)]
     pub missing: Option<String>,
+
+    /// Decimal mark of the numbers: point (5.1) or comma (5,1; usual with --delimiter
+    /// semicolon) [default: point; when scoring or checking a model, the model's].
+    #[arg(long, value_enum, value_name = "MARK")]
+    pub decimal: Option<DecimalArg>,
 }
 
 /// `--missing` of the commands that read rows for a model.
@@ -143,6 +148,24 @@ impl From<DelimiterArg> for Delimiter {
             DelimiterArg::Comma => Delimiter::Comma,
             DelimiterArg::Tab => Delimiter::Tab,
             DelimiterArg::Semicolon => Delimiter::Semicolon,
+        }
+    }
+}
+
+/// Decimal marks.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum DecimalArg {
+    /// `5.1`
+    Point,
+    /// `5,1`
+    Comma,
+}
+
+impl From<DecimalArg> for copse_data::DecimalMark {
+    fn from(d: DecimalArg) -> Self {
+        match d {
+            DecimalArg::Point => copse_data::DecimalMark::Point,
+            DecimalArg::Comma => copse_data::DecimalMark::Comma,
         }
     }
 }

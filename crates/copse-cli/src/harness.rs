@@ -6,7 +6,7 @@
 //! the options too.
 use crate::report::inspect::InspectView;
 use crate::report::{self, ranking, sections, Style};
-use copse_data::{CsvInput, Delimiter, Missing, Roles, RowEncoder, TrainingTable};
+use copse_data::{CsvInput, DecimalMark, Delimiter, Missing, Roles, RowEncoder, TrainingTable};
 use copse_forest::model_file::{FORMAT_VERSION, HEADER_LEN, MAGIC};
 use copse_forest::{Forest as Model, ForestSettings, Task, TrainOptions, TreeRules};
 use ndarray::Array2;
@@ -38,7 +38,7 @@ fn csv_input(bytes: &[u8], delimiter: Delimiter) -> Option<CsvInput> {
 /// cleanly with their own model.
 pub fn ingest_csv(data: &[u8]) -> Option<usize> {
     let (&ctrl, rest) = data.split_first()?;
-    // Settings byte: bits 0-1 delimiter, 2-4 target column, 5-6 task.
+    // Settings byte: bits 0-1 delimiter, 2-4 target column, 5-6 task, 7 decimal comma.
     let delimiter = match ctrl & 3 {
         1 => Delimiter::Tab,
         2 => Delimiter::Semicolon,
@@ -49,7 +49,12 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
         2 => Some(Task::Regress),
         _ => None,
     };
-    let input = csv_input(rest, delimiter)?;
+    let mark = if ctrl & 0x80 == 0 {
+        DecimalMark::Point
+    } else {
+        DecimalMark::Comma
+    };
+    let input = csv_input(rest, delimiter)?.with_decimal(mark);
     let headers = input.headers().to_vec();
     let target = headers[usize::from((ctrl >> 2) & 7) % headers.len()].clone();
     let roles = Roles {
@@ -93,9 +98,11 @@ pub fn ingest_csv(data: &[u8]) -> Option<usize> {
     exercise(&back);
 
     // Score the same bytes with the model, the way `copse score` does.
-    let Some(mut input) = csv_input(rest, delimiter) else {
+    let Some(input) = csv_input(rest, delimiter) else {
         panic!("the training bytes fail to open a second time");
     };
+    // As `copse score` does: the mark from the model's card.
+    let mut input = input.with_decimal(back.card().decimal_mark);
     let mut enc = match RowEncoder::new(&input, &back, Missing::of_model(&back), false) {
         Ok(enc) => enc,
         Err(e) => panic!("the training file lacks columns of its own model: {e}"),

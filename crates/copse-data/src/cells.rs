@@ -1,6 +1,6 @@
 //! What one cell means: missing-value tokens, finite numbers, and cells quoted in
 //! messages.
-use copse_forest::STANDARD_MISSING_TOKENS;
+use copse_forest::{DecimalMark, STANDARD_MISSING_TOKENS};
 use serde::{Deserialize, Serialize};
 
 /// Cell texts that mean "missing" (besides an empty cell, which always does).
@@ -71,6 +71,51 @@ pub fn parse_number(cell: &str) -> Option<f64> {
     cell.parse::<f64>().ok().filter(|v| v.is_finite())
 }
 
+/// A finite number written with the decimal mark `mark`, or `None`. With a comma mark,
+/// `5,1` is 5.1, and a cell holding a point is not a number (in such files a point
+/// groups thousands, which copse does not read).
+///
+/// # Example
+/// ```
+/// use copse_data::{read_number, DecimalMark};
+/// assert_eq!(read_number("5,1", DecimalMark::Comma), Some(5.1));
+/// assert_eq!(read_number("-2,5e3", DecimalMark::Comma), Some(-2500.0));
+/// assert_eq!(read_number("5.1", DecimalMark::Comma), None);
+/// assert_eq!(read_number("5,1", DecimalMark::Point), None);
+/// ```
+#[inline]
+pub fn read_number(cell: &str, mark: DecimalMark) -> Option<f64> {
+    match mark {
+        DecimalMark::Point => parse_number(cell),
+        DecimalMark::Comma if cell.contains('.') => None,
+        DecimalMark::Comma => {
+            // A copy on the stack with the comma as a point; longer cells are rare.
+            let mut buf = [0u8; 64];
+            if cell.len() > buf.len() {
+                return parse_number(&cell.replace(',', "."));
+            }
+            let b = &mut buf[..cell.len()];
+            b.copy_from_slice(cell.as_bytes());
+            b.iter_mut().filter(|c| **c == b',').for_each(|c| *c = b'.');
+            std::str::from_utf8(b).ok().and_then(parse_number)
+        }
+    }
+}
+
+/// True when a trimmed cell reads as a number written with a decimal comma and is not
+/// a number as written: digits, one comma, digits, with an optional sign (`5,1`,
+/// `-0,25`).
+pub fn looks_decimal_comma(cell: &str) -> bool {
+    let body = cell.strip_prefix(['-', '+']).unwrap_or(cell);
+    match body.split_once(',') {
+        Some((whole, part)) => {
+            let digits = |t: &str| !t.is_empty() && t.bytes().all(|b| b.is_ascii_digit());
+            digits(whole) && digits(part)
+        }
+        None => false,
+    }
+}
+
 /// A cell as quoted in a message: control characters escaped (`\n`, `\r`, `\t`,
 /// `\0`, others as `\u{..}`), so every message stays on one line and nothing reaches
 /// the terminal raw, and shortened to 40 characters.
@@ -130,6 +175,22 @@ mod tests {
         assert_eq!(parse_number("-inf"), None);
         assert_eq!(parse_number("nan"), None);
         assert_eq!(parse_number("-2.5e3"), Some(-2500.0));
+    }
+
+    #[test]
+    fn decimal_commas_are_read_only_when_asked_for_and_recognised() {
+        assert_eq!(read_number("0,25", DecimalMark::Comma), Some(0.25));
+        assert_eq!(read_number("7", DecimalMark::Comma), Some(7.0));
+        assert_eq!(read_number("1,2,3", DecimalMark::Comma), None);
+        assert_eq!(read_number("1.5", DecimalMark::Point), Some(1.5));
+        let long = format!("0,{}", "1".repeat(80));
+        assert!(read_number(&long, DecimalMark::Comma).is_some_and(|v| (v - 0.111).abs() < 1e-3));
+        for yes in ["5,1", "-0,25", "+12,0"] {
+            assert!(looks_decimal_comma(yes), "{yes}");
+        }
+        for no in ["5", "5.1", "5,", ",5", "a,b", "1,2,3", "5,1e3", ""] {
+            assert!(!looks_decimal_comma(no), "{no}");
+        }
     }
 
     #[test]

@@ -4,7 +4,7 @@
 use crate::cells::clip;
 use crate::error::{Error, ErrorKind, Result};
 use crate::records::{Framed, Records, MAX_RECORD_BYTES};
-use copse_forest::io_reason;
+use copse_forest::{io_reason, DecimalMark};
 use std::fs::File;
 use std::io::{self, Read};
 use std::path::Path;
@@ -60,6 +60,7 @@ pub struct CsvInput {
     headers: Vec<String>,
     size: Option<u64>,
     delimiter: Delimiter,
+    decimal: DecimalMark,
     consumed: Arc<AtomicU64>,
     blank: BlankLines,
 }
@@ -143,6 +144,7 @@ impl CsvInput {
             headers: Vec::new(),
             size,
             delimiter,
+            decimal: DecimalMark::Point,
             consumed,
             blank: BlankLines::default(),
         };
@@ -198,6 +200,30 @@ impl CsvInput {
         }
         self.headers = headers;
         Ok(())
+    }
+
+    /// The same input, its numbers read with the decimal mark `mark` (a point unless
+    /// set).
+    ///
+    /// # Example
+    /// ```
+    /// use copse_data::{CsvInput, DecimalMark, Delimiter, Missing, Roles, TrainingTable};
+    /// let text = "width;kind\n5,1;a\n4,9;b\n6,2;a\n";
+    /// let source = Box::new(std::io::Cursor::new(text.as_bytes().to_vec()));
+    /// let input = CsvInput::from_reader("t.csv".into(), source, None, Delimiter::Semicolon)?
+    ///     .with_decimal(DecimalMark::Comma);
+    /// let table = TrainingTable::from_csv(input, &Roles::target("kind"), Missing::standard())?;
+    /// assert_eq!(table.x[[0, 0]], 5.1);
+    /// # Ok::<(), copse_data::Error>(())
+    /// ```
+    pub fn with_decimal(mut self, mark: DecimalMark) -> Self {
+        self.decimal = mark;
+        self
+    }
+
+    /// The decimal mark numbers are read with.
+    pub fn decimal(&self) -> DecimalMark {
+        self.decimal
     }
 
     /// The file's name as used in messages.

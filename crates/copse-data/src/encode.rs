@@ -2,10 +2,10 @@
 //! model's inputs by name (any order, extra columns ignored), numbers parsed, category
 //! labels turned into the model's codes. A category the model never saw is treated as
 //! missing and counted, so the caller can warn about it.
-use crate::cells::{clip, parse_number, Missing};
+use crate::cells::{clip, looks_decimal_comma, parse_number, read_number, Missing};
 use crate::csv_input::CsvInput;
 use crate::error::{Error, ErrorKind, Result};
-use copse_forest::{FeatureKind, Forest, Outcome, Task, MISSING};
+use copse_forest::{DecimalMark, FeatureKind, Forest, Outcome, Task, MISSING};
 use ndarray::Array2;
 use std::collections::HashMap;
 
@@ -19,6 +19,7 @@ pub struct RowEncoder {
     class_lookup: HashMap<String, u32>,
     classes: Vec<String>,
     missing: Missing,
+    decimal: DecimalMark,
     unseen: Vec<u64>,
     unseen_examples: Vec<Vec<String>>,
 }
@@ -26,7 +27,9 @@ pub struct RowEncoder {
 impl RowEncoder {
     /// Matches `input`'s columns to `model`'s inputs (and its outcome column when
     /// `need_target`); `missing` gives the cells read as missing (usually the
-    /// model's own, [`Missing::of_model`]).
+    /// model's own, [`Missing::of_model`]); numbers are read with `input`'s decimal
+    /// mark ([`CsvInput::with_decimal`]; usually the model's, its card's
+    /// `decimal_mark`).
     ///
     /// # Errors
     /// `Columns`, naming every column the model needs that the file lacks.
@@ -108,6 +111,7 @@ impl RowEncoder {
             class_lookup,
             classes,
             missing,
+            decimal: input.decimal(),
             unseen: vec![0; p],
             unseen_examples: vec![Vec::new(); p],
         })
@@ -136,17 +140,18 @@ impl RowEncoder {
                         f64::NAN
                     }
                 },
-                None => match parse_number(cell) {
+                None => match read_number(cell, self.decimal) {
                     Some(v) => v,
                     None => {
                         let line = record.position().map_or(0, |p| p.line());
                         return Err(Error::new(ErrorKind::BadValue, format!(
                             "{} line {line}, column '{}': '{}' is not a finite number, but the model was \
-                             trained with '{}' as a numeric input; fix the value, or list it as missing with --missing",
+                             trained with '{}' as a numeric input; fix the value, or list it as missing with --missing{}",
                             self.source,
                             self.names[k],
                             clip(cell),
-                            self.names[k]
+                            self.names[k],
+                            self.mark_hint(cell)
                         )));
                     }
                 },
@@ -191,15 +196,30 @@ impl RowEncoder {
         if self.missing.is_missing(cell) {
             return Ok(f64::NAN);
         }
-        parse_number(cell).ok_or_else(|| {
+        read_number(cell, self.decimal).ok_or_else(|| {
             let line = record.position().map_or(0, |p| p.line());
             Error::new(ErrorKind::BadValue, format!(
                 "{} line {line}, column '{name}': '{}' is not a finite number, and the model predicts numbers; \
-                 fix the value or leave it empty",
+                 fix the value or leave it empty{}",
                 self.source,
-                clip(cell)
+                clip(cell),
+                self.mark_hint(cell)
             ))
         })
+    }
+
+    /// A hint for a cell that is a number with the other decimal mark.
+    fn mark_hint(&self, cell: &str) -> &'static str {
+        match self.decimal {
+            DecimalMark::Point if looks_decimal_comma(cell) => {
+                "; if the file writes numbers with a decimal comma, add --decimal comma"
+            }
+            DecimalMark::Comma if parse_number(cell).is_some() => {
+                "; numbers are read with a decimal comma (the model's training file had them); \
+                 if this file writes a decimal point, add --decimal point"
+            }
+            _ => "",
+        }
     }
 
     /// Cells whose category the model never saw, per input, for a warning; `None` when

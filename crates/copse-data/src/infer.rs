@@ -6,11 +6,11 @@
 //! finite number, otherwise categorical. Categories are listed in natural order
 //! (numbers by value, then text; [`copse_forest::natural_order`]), so codes do not
 //! depend on row order.
-use crate::cells::{clip, parse_number, Missing};
+use crate::cells::{clip, looks_decimal_comma, read_number, Missing};
 use crate::csv_input::CsvInput;
 use crate::error::{Error, ErrorKind, Result};
 use crate::roles::{Layout, Roles};
-use copse_forest::{natural_order, Task};
+use copse_forest::{natural_order, DecimalMark, Task};
 use std::collections::{HashMap, HashSet};
 
 /// Per-column tallies of the inference pass.
@@ -21,6 +21,10 @@ pub(crate) struct ColumnTally {
     pub texts: usize,
     /// First few non-numeric cells: (line, text).
     pub text_examples: Vec<(u64, String)>,
+    /// Non-numeric cells that would be numbers with a decimal comma (`5,1`), counted
+    /// when numbers are read with a point; the first of them.
+    pub decimal_commas: usize,
+    pub comma_example: Option<(u64, String)>,
 }
 
 const EXAMPLES: usize = 3;
@@ -45,6 +49,7 @@ pub(crate) fn tally(
     let mut records = Vec::new();
     let mut tallies = vec![ColumnTally::default(); input.headers().len()];
     let mut record = csv::StringRecord::new();
+    let mark = input.decimal();
     while input.read(&mut record)? {
         let line = line_of(&record);
         for &j in &layout.used {
@@ -52,12 +57,18 @@ pub(crate) fn tally(
             let t = &mut tallies[j];
             if missing.is_missing(cell) {
                 t.missing += 1;
-            } else if parse_number(cell).is_some() {
+            } else if read_number(cell, mark).is_some() {
                 t.numbers += 1;
             } else {
                 t.texts += 1;
                 if t.text_examples.len() < EXAMPLES {
                     t.text_examples.push((line, cell.to_string()));
+                }
+                if mark == DecimalMark::Point && looks_decimal_comma(cell) {
+                    t.decimal_commas += 1;
+                    if t.comma_example.is_none() {
+                        t.comma_example = Some((line, cell.to_string()));
+                    }
                 }
             }
         }
@@ -98,6 +109,7 @@ pub(crate) fn kinds(
     notes: &mut Vec<String>,
 ) -> Result<Vec<bool>> {
     let mut categorical = vec![false; headers.len()];
+    let mut comma_columns: Vec<(&str, &(u64, String))> = Vec::new();
     for &j in &layout.used {
         let h = &headers[j];
         let t = &tallies[j];
@@ -107,14 +119,27 @@ pub(crate) fn kinds(
                     ErrorKind::BadValue,
                     format!(
                         "{name} line {line}, column '{h}': '{}' is not a finite number, but --numeric lists '{h}'; \
-                         fix the value, or add it to the missing tokens with --missing",
-                        clip(text)
+                         fix the value, or add it to the missing tokens with --missing{}",
+                        clip(text),
+                        comma_hint(text)
                     ),
                 ));
             }
         } else if roles.categorical.contains(h) || t.texts > 0 {
             categorical[j] = true;
-            if !roles.categorical.contains(h) && t.numbers >= t.texts {
+            let forced = roles.categorical.contains(h);
+            // Most texts, and with the numbers most cells, are numbers with a
+            // decimal comma: a file of decimal commas, said once for all its columns.
+            if !forced
+                && 2 * t.decimal_commas > t.texts
+                && 2 * (t.decimal_commas + t.numbers) > t.texts + t.numbers
+            {
+                if let Some(example) = &t.comma_example {
+                    comma_columns.push((h, example));
+                    continue;
+                }
+            }
+            if !forced && t.numbers >= t.texts {
                 notes.push(format!(
                     "column '{h}' is read as categorical because of cells that are not finite numbers: {}; \
                      if they mean 'missing', add them with --missing, or fix them",
@@ -123,7 +148,55 @@ pub(crate) fn kinds(
             }
         }
     }
+    if let Some(&(_, (line, example))) = comma_columns.first() {
+        let shown: Vec<String> = comma_columns
+            .iter()
+            .take(EXAMPLES)
+            .map(|(h, _)| format!("'{h}'"))
+            .collect();
+        let more = comma_columns.len() - shown.len();
+        notes.push(format!(
+            "{} {}{} {} numbers written with a decimal comma (such as '{}' on line {line}), so \
+             copse reads {} as categories; add --decimal comma to read {} as numbers",
+            if comma_columns.len() == 1 {
+                "column"
+            } else {
+                "columns"
+            },
+            shown.join(", "),
+            if more > 0 {
+                format!(" and {more} more")
+            } else {
+                String::new()
+            },
+            if comma_columns.len() == 1 {
+                "holds"
+            } else {
+                "hold"
+            },
+            clip(example),
+            if comma_columns.len() == 1 {
+                "it"
+            } else {
+                "them"
+            },
+            if comma_columns.len() == 1 {
+                "it"
+            } else {
+                "them"
+            },
+        ));
+    }
     Ok(categorical)
+}
+
+/// A hint for a cell that is no number as read but would be one with a decimal comma.
+pub(crate) fn comma_hint(cell: &str) -> &'static str {
+    if looks_decimal_comma(cell) {
+        "; if the file writes numbers with a decimal comma, add --decimal comma"
+    } else {
+        ""
+    }
 }
 
 /// The task: as forced by the roles, else classification for a categorical outcome
@@ -151,8 +224,9 @@ pub(crate) fn task(
                     ErrorKind::BadValue,
                     format!(
                         "{name} line {line}, column '{target_name}': '{}' is not a number, so '{target_name}' cannot be \
-                         the target of a regression; fix the value or use --task classify",
-                        clip(text)
+                         the target of a regression; fix the value or use --task classify{}",
+                        clip(text),
+                        comma_hint(text)
                     ),
                 ));
             }
@@ -170,6 +244,7 @@ pub(crate) fn distinct_numbers(
     records: &[csv::StringRecord],
     col: usize,
     missing: &Missing,
+    mark: DecimalMark,
     cap: usize,
 ) -> Vec<f64> {
     let mut seen: Vec<f64> = Vec::new();
@@ -178,7 +253,7 @@ pub(crate) fn distinct_numbers(
         if missing.is_missing(cell) {
             continue;
         }
-        if let Some(v) = parse_number(cell) {
+        if let Some(v) = read_number(cell, mark) {
             if let Err(at) = seen.binary_search_by(|s| s.total_cmp(&v)) {
                 seen.insert(at, v);
                 if seen.len() > cap {
@@ -225,6 +300,7 @@ pub(crate) fn check_target_size(
     records: &[csv::StringRecord],
     col: usize,
     missing: &Missing,
+    mark: DecimalMark,
     name: &str,
     target: &str,
 ) -> Result<()> {
@@ -233,7 +309,7 @@ pub(crate) fn check_target_size(
         if missing.is_missing(cell) {
             continue;
         }
-        if parse_number(cell).is_some_and(|v| v.abs() > MAX_TARGET_SIZE) {
+        if read_number(cell, mark).is_some_and(|v| v.abs() > MAX_TARGET_SIZE) {
             return Err(Error::new(
                 ErrorKind::BadValue,
                 format!(
@@ -255,22 +331,37 @@ pub(crate) struct Levels {
     pub codes: HashMap<String, u32>,
 }
 
-/// Labels for every categorical used column, by column index.
+/// Labels for every categorical used column, by column index. Cells are trimmed, so
+/// labels that differ only in spaces at their ends become one; each column where that
+/// happened gets a note naming them (`names` are the headers, `target` the outcome
+/// column).
 pub(crate) fn levels(
     records: &[csv::StringRecord],
     layout: &Layout,
     categorical: &[bool],
     missing: &Missing,
+    names: &[String],
+    notes: &mut Vec<String>,
 ) -> HashMap<usize, Levels> {
     let mut out = HashMap::new();
     for &j in layout.used.iter().filter(|&&j| categorical[j]) {
-        let seen: HashSet<&str> = records
+        // The cells as written: more of them than trimmed labels means some merged.
+        let written: HashSet<&str> = records
             .iter()
-            .map(|r| r[j].trim())
-            .filter(|cell| !missing.is_missing(cell))
+            .map(|r| &r[j])
+            .filter(|cell| !missing.is_missing(cell.trim()))
             .collect();
+        let seen: HashSet<&str> = written.iter().map(|c| c.trim()).collect();
         let mut labels: Vec<String> = seen.into_iter().map(str::to_string).collect();
         labels.sort_by(|a, b| natural_order(a, b));
+        if written.len() > labels.len() {
+            let role = if j == layout.target {
+                format!("the target '{}'", names[j])
+            } else {
+                format!("input '{}'", names[j])
+            };
+            notes.push(merged_note(&role, &written, &labels));
+        }
         let codes = labels
             .iter()
             .enumerate()
@@ -279,4 +370,86 @@ pub(crate) fn levels(
         out.insert(j, Levels { labels, codes });
     }
     out
+}
+
+/// The note for a column whose cells `written` became the trimmed `labels` with some
+/// merged: each merged label with the forms it was written in (at most three shown,
+/// escaped so spaces and tabs show between the quotes), in label order.
+fn merged_note(role: &str, written: &HashSet<&str>, labels: &[String]) -> String {
+    let mut groups: Vec<String> = Vec::new();
+    let mut count = 0;
+    for label in labels {
+        let mut forms: Vec<&str> = written
+            .iter()
+            .copied()
+            .filter(|c| c.trim() == label)
+            .collect();
+        if forms.len() < 2 {
+            continue;
+        }
+        count += 1;
+        if groups.len() < EXAMPLES {
+            forms.sort_unstable();
+            let forms: Vec<String> = forms.iter().map(|f| format!("'{}'", clip(f))).collect();
+            groups.push(format!("{} as '{}'", forms.join(" and "), clip(label)));
+        }
+    }
+    if count > groups.len() {
+        groups.push(format!("and {} more", count - groups.len()));
+    }
+    format!(
+        "{role} holds labels that differ only in spaces at their ends, and each such set is read \
+         as one: {}; if they mean different things, give them different names",
+        groups.join("; ")
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// `plain` and `plain ` (and ` plain`) are one class after trimming, and the note
+    /// names them; a label written one way only gives no note.
+    #[test]
+    fn labels_merged_by_trimming_are_named() {
+        let rows = ["plain", "plain ", " plain", "ribbed", " smooth", "plain"];
+        let records: Vec<csv::StringRecord> = rows
+            .iter()
+            .map(|c| csv::StringRecord::from(vec![*c]))
+            .collect();
+        let layout = Layout {
+            target: 0,
+            inputs: Vec::new(),
+            used: vec![0],
+        };
+        let mut notes = Vec::new();
+        let names = ["finish".to_string()];
+        let l = levels(
+            &records,
+            &layout,
+            &[true],
+            &Missing::standard(),
+            &names,
+            &mut notes,
+        );
+        assert_eq!(l[&0].labels, ["plain", "ribbed", "smooth"]);
+        assert_eq!(notes.len(), 1, "{notes:?}");
+        assert!(
+            notes[0].starts_with("the target 'finish' holds labels that differ only in spaces")
+                && notes[0].contains("' plain' and 'plain' and 'plain ' as 'plain'")
+                && !notes[0].contains("smooth"),
+            "{}",
+            notes[0]
+        );
+        let mut notes = Vec::new();
+        levels(
+            &records[3..],
+            &layout,
+            &[true],
+            &Missing::standard(),
+            &names,
+            &mut notes,
+        );
+        assert!(notes.is_empty(), "{notes:?}");
+    }
 }

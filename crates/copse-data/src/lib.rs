@@ -48,7 +48,8 @@ pub mod records;
 pub mod roles;
 pub mod training;
 
-pub use cells::{clip, one_line, parse_number, Missing};
+pub use cells::{clip, looks_decimal_comma, one_line, parse_number, read_number, Missing};
+pub use copse_forest::DecimalMark;
 pub use csv_input::{CsvInput, Delimiter, Row};
 pub use encode::{read_labelled, read_labelled_with_column, ColumnCells, Labelled, RowEncoder};
 pub use error::{Error, ErrorKind, Result};

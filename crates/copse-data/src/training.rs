@@ -1,14 +1,14 @@
 //! A training table: a whole file read into memory with its column kinds inferred,
 //! the outcome encoded, and remarks a careful analyst would want to see; and training
 //! a forest on it, so the model file records where its rows came from.
-use crate::cells::{parse_number, Missing};
+use crate::cells::{read_number, Missing};
 use crate::csv_input::{CsvInput, Delimiter};
 use crate::error::{Error, ErrorKind, Result};
 use crate::infer::{self, line_of, ColumnTally, Levels};
 use crate::roles::{lay_out, Layout, Roles};
 use copse_forest::{
-    FeatureKind, FeatureMeta, Forest, ForestSettings, ModelCard, Outcome, Task, TrainOptions,
-    Trained,
+    DecimalMark, FeatureKind, FeatureMeta, Forest, ForestSettings, ModelCard, Outcome, Task,
+    TrainOptions, Trained,
 };
 use ndarray::Array2;
 use std::collections::HashMap;
@@ -29,6 +29,8 @@ pub struct TrainingTable {
     pub task: Task,
     /// Missing-value tokens in force.
     pub missing: Missing,
+    /// The decimal mark the file's numbers were read with.
+    pub decimal: DecimalMark,
     /// Inputs, rows by inputs: numbers, category codes, NaN for missing.
     pub x: Array2<f64>,
     /// Outcome of each row (class labels in natural order).
@@ -102,6 +104,7 @@ impl TrainingTable {
         let layout = lay_out(&input, roles)?;
         let name = input.name().to_string();
         let headers = input.headers().to_vec();
+        let mark = input.decimal();
         let (records, tallies) = infer::tally(&mut input, &layout, &missing)?;
         let n_read = records.len();
         let mut notes: Vec<String> = input.blank_lines_note().into_iter().collect();
@@ -109,17 +112,24 @@ impl TrainingTable {
         let tc = layout.target;
         let mut task = infer::task(&name, roles, &tallies[tc], categorical[tc], n_read)?;
         if roles.task.is_none() && task == Task::Regress {
-            let distinct = infer::distinct_numbers(&records, tc, &missing, infer::FEW_CODES);
+            let distinct = infer::distinct_numbers(&records, tc, &missing, mark, infer::FEW_CODES);
             let (read_as, note) = infer::numeric_outcome(&roles.target, &distinct);
             task = read_as;
             notes.extend(note);
         }
         categorical[tc] = task == Task::Classify;
         if task == Task::Regress {
-            infer::check_target_size(&records, tc, &missing, &name, &roles.target)?;
+            infer::check_target_size(&records, tc, &missing, mark, &name, &roles.target)?;
         }
-        let mut levels = infer::levels(&records, &layout, &categorical, &missing);
-        let rows = encode_rows(&records, &layout, &levels, task, &missing);
+        let mut levels = infer::levels(
+            &records,
+            &layout,
+            &categorical,
+            &missing,
+            &headers,
+            &mut notes,
+        );
+        let rows = encode_rows(&records, &layout, &levels, task, &missing, mark);
         drop(records);
 
         let features: Vec<FeatureMeta> = layout
@@ -145,6 +155,7 @@ impl TrainingTable {
             target: roles.target.clone(),
             task,
             missing,
+            decimal: mark,
             x: rows.x,
             outcome,
             lines: rows.lines,
@@ -180,8 +191,8 @@ impl TrainingTable {
     }
 
     /// The model card of `forest` (trained on this table) with this table's source
-    /// recorded: file name, outcome column, missing tokens, rows read and left out,
-    /// ignored columns, and the remarks about the data.
+    /// recorded: file name, outcome column, missing tokens, decimal mark, rows read
+    /// and left out, ignored columns, and the remarks about the data.
     pub fn card_for(&self, forest: &Forest) -> ModelCard {
         ModelCard {
             target: self.target.clone(),
@@ -191,6 +202,7 @@ impl TrainingTable {
             rows_without_outcome: self.rows_without_outcome,
             ignored: self.ignored.clone(),
             notes: self.notes.clone(),
+            decimal_mark: self.decimal,
             ..forest.card().clone()
         }
     }
@@ -322,6 +334,7 @@ fn encode_rows(
     levels: &HashMap<usize, Levels>,
     task: Task,
     missing: &Missing,
+    mark: DecimalMark,
 ) -> Rows {
     let tc = layout.target;
     let keep: Vec<&csv::StringRecord> = records
@@ -340,7 +353,7 @@ fn encode_rows(
             }
             x[[row, k]] = match levels.get(&j) {
                 Some(l) => l.codes.get(cell).map_or(f64::NAN, |&c| f64::from(c)),
-                None => parse_number(cell).unwrap_or(f64::NAN),
+                None => read_number(cell, mark).unwrap_or(f64::NAN),
             };
         }
         let cell = r[tc].trim();
@@ -351,7 +364,7 @@ fn encode_rows(
                     .and_then(|l| l.codes.get(cell).copied())
                     .unwrap_or(u32::MAX),
             ),
-            Task::Regress => values.push(parse_number(cell).unwrap_or(f64::NAN)),
+            Task::Regress => values.push(read_number(cell, mark).unwrap_or(f64::NAN)),
         }
     }
     Rows {

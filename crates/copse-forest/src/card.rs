@@ -1,7 +1,8 @@
 //! The model card: what a model file records about how the model was made, beside the
 //! trees (the outcome column's name, the missing-value tokens new files are read with,
-//! the training source and its row counts, the class counts or value range, the copse
-//! version). No clock times, so the same run gives the same file byte for byte.
+//! the training source and its row counts, the class counts or value range, the decimal
+//! mark of its numbers, the copse version). No clock times, so the same run gives the
+//! same file byte for byte.
 use crate::error::{Error, ErrorKind, Result};
 use crate::metrics::Metrics;
 use crate::oob_summary::OobSummary;
@@ -11,6 +12,26 @@ use serde::{Deserialize, Serialize};
 /// Cell texts that mean "missing" when none are given (an empty cell always does):
 /// the general conventions `NA` and `NaN`. Any other token can be given instead.
 pub const STANDARD_MISSING_TOKENS: [&str; 2] = ["NA", "NaN"];
+
+/// The decimal mark numbers in a CSV file are written with.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+pub enum DecimalMark {
+    /// `5.1` (the default).
+    #[default]
+    Point,
+    /// `5,1`, usual where fields are separated by semicolons.
+    Comma,
+}
+
+impl DecimalMark {
+    /// The name used on the command line.
+    pub fn name(self) -> &'static str {
+        match self {
+            DecimalMark::Point => "point",
+            DecimalMark::Comma => "comma",
+        }
+    }
+}
 
 /// A record of how a model was made, stored in its file.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -38,6 +59,9 @@ pub struct ModelCard {
     /// Remarks about the training data that the reports repeat (how the outcome was
     /// read, inputs that cannot help, rows left out).
     pub notes: Vec<String>,
+    /// The decimal mark of the training file's numbers; new files are read with it
+    /// unless told otherwise.
+    pub decimal_mark: DecimalMark,
 }
 
 impl ModelCard {
@@ -82,6 +106,7 @@ impl ModelCard {
             value_range,
             features_rule,
             notes: Vec::new(),
+            decimal_mark: DecimalMark::Point,
         }
     }
 

@@ -79,7 +79,7 @@ pub mod task;
 pub mod train;
 pub mod uncertainty;
 
-pub use card::{ModelCard, STANDARD_MISSING_TOKENS};
+pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
 pub use error::{io_reason, Error, ErrorKind, Result};
@@ -92,7 +92,7 @@ pub use importance::{
 pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics};
 pub use oob_summary::{OobReport, OobSummary};
 pub use outcome::{natural_order, Outcome, MISSING};
-pub use predict::Evaluation;
+pub use predict::{Evaluation, SCORING_BLOCK_BYTES};
 pub use progress::{Progress, Stage};
 pub use settings::{FeaturesPerSplit, ForestSettings, Sampling, TreeRules};
 pub use significance::{

@@ -17,6 +17,16 @@ use serde::{Deserialize, Serialize};
 /// the work over the threads. The block size does not change any result.
 const PREDICT_BLOCK: (usize, usize) = (256, 16384);
 
+/// Most bytes of input values one thread copies into a block in batch prediction: the
+/// row limits above, met by a model of 20,000 inputs, would copy 2.6 GB per thread.
+const PREDICT_BLOCK_BYTES: usize = 4 << 20;
+
+/// Most bytes the rows of one scoring batch may take ([`Forest::scoring_block_rows_for`]):
+/// their input values, their outputs, and what the caller holds for each. Two batches
+/// circulate when reading runs ahead of scoring, so scoring memory stays near 2 x 16 MiB
+/// plus the model, whatever the width of the rows.
+pub const SCORING_BLOCK_BYTES: usize = 16 << 20;
+
 /// Accuracy of a forest on a labelled data set.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Evaluation {
@@ -66,7 +76,8 @@ impl Forest {
         let scorers = self.scorers(n);
         let block = (2 * per_tree)
             .min(n.div_ceil(rayon::current_num_threads()))
-            .clamp(PREDICT_BLOCK.0, PREDICT_BLOCK.1);
+            .clamp(PREDICT_BLOCK.0, PREDICT_BLOCK.1)
+            .min((PREDICT_BLOCK_BYTES / (8 * self.n_features()).max(1)).max(1));
         out.par_chunks_mut(block * k.max(1))
             .enumerate()
             .for_each(|(b, chunk)| {
@@ -83,7 +94,9 @@ impl Forest {
     /// memory small) and at most 65,536 (a batch's text and values bound the memory
     /// used, whatever the input's length). Measured on 1,000,000 rows scored by the
     /// command line, 2 threads, trees of about 10,500 nodes: 4,096-row batches 125,000
-    /// rows/s, 32,768-row batches 175,000 rows/s, same output.
+    /// rows/s, 32,768-row batches 175,000 rows/s, same output. Fewer rows when the
+    /// batch's input values and outputs would pass [`SCORING_BLOCK_BYTES`] (a model of
+    /// many inputs); [`Forest::scoring_block_rows_for`] counts the caller's bytes too.
     ///
     /// # Example
     /// ```
@@ -98,8 +111,33 @@ impl Forest {
     /// # Ok::<(), copse_forest::Error>(())
     /// ```
     pub fn scoring_block_rows(&self) -> usize {
+        self.scoring_block_rows_for(0)
+    }
+
+    /// Rows per scoring batch, as [`Forest::scoring_block_rows`], when the caller also
+    /// holds `caller_row_bytes` for each row of a batch (its text, the columns it
+    /// copies to the output): the batch's input values (8 bytes each), outputs and the
+    /// caller's bytes stay within [`SCORING_BLOCK_BYTES`], down to one row.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_forest::{synth, Forest, ForestSettings, TrainOptions, SCORING_BLOCK_BYTES};
+    ///
+    /// let data = synth::twonorm(100, 1);
+    /// let settings = ForestSettings { trees: 5, ..Default::default() };
+    /// let options = TrainOptions { oob_importance: false, ..TrainOptions::default() };
+    /// let forest = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &options)?
+    ///     .forest;
+    /// // Rows that each carry 100 kB of text: a batch of 167 rows holds 16 MiB.
+    /// let rows = forest.scoring_block_rows_for(100_000);
+    /// assert!(rows * 100_000 <= SCORING_BLOCK_BYTES && rows > 100);
+    /// # Ok::<(), copse_forest::Error>(())
+    /// ```
+    pub fn scoring_block_rows_for(&self, caller_row_bytes: usize) -> usize {
         let per_tree = self.n_nodes() / self.trees.len().max(1);
-        (2 * rayon::current_num_threads() * per_tree).clamp(4096, 65536)
+        let by_nodes = (2 * rayon::current_num_threads() * per_tree).clamp(4096, 65536);
+        let row_bytes = 8 * (self.n_features() + self.n_outputs()) + caller_row_bytes;
+        by_nodes.min((SCORING_BLOCK_BYTES / row_bytes.max(1)).max(1))
     }
 
     /// Prediction for one row of input values into `out` (length [`Forest::n_outputs`]).

@@ -185,6 +185,18 @@ pub fn stability_report(
             settings.folds
         ));
     }
+    let fewest = fewest_training_rows(labelled.len(), settings.folds);
+    if fewest < 2 {
+        let (n, f) = (labelled.len(), settings.folds);
+        let remedy = match (f + 1..=n).find(|&g| fewest_training_rows(n, g) >= 2) {
+            Some(g) => format!("use {g} folds or more, or more rows"),
+            None => "add rows: 2 folds need at least 4 rows with an outcome".into(),
+        };
+        return bad_setting(format!(
+            "with {n} rows with an outcome in {f} folds, the single tree of the largest fold is \
+             trained on the other folds' {fewest} row(s), and a tree needs at least 2; {remedy}"
+        ));
+    }
     settings.forest.validate()?;
     let classes = outcome.is_classes();
     let p = x.ncols();
@@ -249,6 +261,12 @@ pub fn stability_report(
         rows: labelled.len(),
         classes,
     })
+}
+
+/// Rows the single tree of a fold is trained on, at fewest, when `n` rows are split
+/// into `folds` folds (fold sizes differ by at most one): those outside the largest.
+fn fewest_training_rows(n: usize, folds: usize) -> usize {
+    n - n.div_ceil(folds.max(1))
 }
 
 /// The single tree's run for one seed: `folds`-fold cross-validation over `order`
@@ -501,6 +519,7 @@ pub fn kendall_tau_b(x: &[f64], y: &[f64]) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::error::ErrorKind;
 
     #[test]
     fn kendall_tau_b_on_small_cases() {
@@ -517,5 +536,41 @@ mod tests {
         let t = kendall_tau_b(&[1.0, 1.0, 2.0], &[1.0, 2.0, 3.0]).expect("defined");
         assert!((t - 2.0 / 6f64.sqrt()).abs() < 1e-12);
         assert_eq!(kendall_tau_b(&[1.0, 1.0], &[1.0, 2.0]), None);
+    }
+
+    /// 3 rows in 2 folds leave a fold's tree 1 row to train on: refused for that reason
+    /// (it once failed later, saying only 1 row had a known outcome), with the fold
+    /// count that works; 3 folds of 3 rows train each tree on 2.
+    #[test]
+    fn folds_that_leave_a_tree_one_row_are_refused_for_that_reason() {
+        assert_eq!(fewest_training_rows(3, 2), 1);
+        assert_eq!(fewest_training_rows(3, 3), 2);
+        assert_eq!(fewest_training_rows(4, 2), 2);
+        assert_eq!(fewest_training_rows(10, 3), 6);
+        let x = ndarray::Array2::from_shape_vec((3, 1), vec![1.0, 2.0, 3.0]).expect("shape");
+        let meta = [FeatureMeta::numeric("a".to_string())];
+        let outcome = Outcome::Values(vec![1.0, 2.0, 4.0]);
+        let mut settings = StabilitySettings {
+            folds: 2,
+            ..StabilitySettings::default()
+        };
+        settings.forest.trees = 3;
+        let e = stability_report(x.view(), &meta, &outcome, &settings, &|_, _| {})
+            .expect_err("2 folds of 3 rows");
+        assert_eq!(e.kind(), ErrorKind::InvalidSetting);
+        assert!(
+            e.message().contains("3 rows with an outcome in 2 folds")
+                && e.message().contains("1 row(s)")
+                && e.message().contains("use 3 folds or more"),
+            "{e}"
+        );
+        settings.folds = 3;
+        assert!(stability_report(x.view(), &meta, &outcome, &settings, &|_, _| {}).is_ok());
+        let x2 = ndarray::Array2::from_shape_vec((2, 1), vec![1.0, 2.0]).expect("shape");
+        let two = Outcome::Values(vec![1.0, 2.0]);
+        settings.folds = 2;
+        let e =
+            stability_report(x2.view(), &meta, &two, &settings, &|_, _| {}).expect_err("2 rows");
+        assert!(e.message().contains("add rows"), "{e}");
     }
 }

@@ -44,6 +44,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
     let csv = CsvArgs {
         delimiter: DelimiterArg::Comma,
         missing: None,
+        decimal: None,
     };
     let targs = TrainArgs {
         data: shown(&train_csv),

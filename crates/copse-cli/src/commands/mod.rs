@@ -110,6 +110,20 @@ pub fn load_model(path: &std::path::Path) -> CliResult<copse_forest::Forest> {
     copse_forest::Forest::load(path).map_err(|e| CliError::input(e.message()))
 }
 
+/// Opens new rows for `model`: numbers read with the decimal mark given, or else the
+/// one the model's training file had (its card).
+///
+/// # Errors
+/// An input error for a file that cannot be opened or whose header is bad.
+pub fn open_for_model(
+    data: &str,
+    csv: &crate::args::CsvArgs,
+    model: &copse_forest::Forest,
+) -> CliResult<copse_data::CsvInput> {
+    let mark = csv.decimal.map_or(model.card().decimal_mark, Into::into);
+    Ok(copse_data::CsvInput::open(data, csv.delimiter.into())?.with_decimal(mark))
+}
+
 /// Loads a model and reads labelled rows it has not seen, the common start of
 /// `evaluate` and `importance`: missing tokens default to the model's, and categories
 /// the model never saw are warned about. Returns the model, the data's name and rows.
@@ -143,7 +157,7 @@ pub fn load_labelled_by(
     Option<copse_data::ColumnCells>,
 )> {
     let model = load_model(model)?;
-    let input = copse_data::CsvInput::open(data, csv.delimiter.into())?;
+    let input = open_for_model(data, csv, &model)?;
     let source = input.name().to_string();
     let missing = csv.missing.as_deref().map_or_else(
         || copse_data::Missing::of_model(&model),
@@ -171,7 +185,8 @@ pub fn read_training(
     csv: &crate::args::CsvArgs,
     ui: &Ui,
 ) -> CliResult<copse_data::TrainingTable> {
-    let input = copse_data::CsvInput::open(data, csv.delimiter.into())?;
+    let input = copse_data::CsvInput::open(data, csv.delimiter.into())?
+        .with_decimal(csv.decimal.map_or_else(Default::default, Into::into));
     let missing = csv.missing.as_deref().map_or_else(
         copse_data::Missing::standard,
         copse_data::Missing::from_list,

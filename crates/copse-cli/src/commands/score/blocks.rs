@@ -1,28 +1,39 @@
 //! Input rows in blocks: reading and encoding them into a block, and passing full
 //! blocks in order to the scorer, with the next block read ahead on a second thread
 //! while the current one is scored.
+//!
+//! A block keeps of each row only what the output needs: the model's input values and
+//! the `--keep` cells. The whole record is read into one reused row, so a file of
+//! 20,000 columns costs one row of text, not a block of them.
 use crate::error::{CliError, CliResult};
 use crate::numbers::count;
 use copse_data::{CsvInput, Row, RowEncoder};
 
-/// A block of input rows: their records (for the kept columns), their encoded input
-/// values (row-major), which of them cannot be scored, how many it holds, and the
-/// bytes of input read by the time it was filled (for progress).
+/// Most bytes of kept cells one block gathers: a block ends early when its `--keep`
+/// cells reach this, so long kept texts cannot grow a block beyond bounds.
+const KEPT_BYTES: usize = 8 << 20;
+
+/// A block of input rows: their kept cells (in `--keep` order), their encoded input
+/// values (row-major), which of them cannot be scored, how many it holds, whether the
+/// input ended with it, and the bytes of input read by the time it was filled (for
+/// progress).
 pub(super) struct Block {
-    pub(super) records: Vec<csv::StringRecord>,
+    pub(super) kept: Vec<csv::StringRecord>,
     pub(super) x: Vec<f64>,
     pub(super) blank: Vec<bool>,
     pub(super) m: usize,
+    pub(super) last: bool,
     pub(super) bytes: u64,
 }
 
 impl Block {
     pub(super) fn new(rows: usize, p: usize) -> Self {
         Self {
-            records: (0..rows).map(|_| csv::StringRecord::new()).collect(),
+            kept: (0..rows).map(|_| csv::StringRecord::new()).collect(),
             x: vec![0.0; rows * p],
             blank: vec![false; rows],
             m: 0,
+            last: false,
             bytes: 0,
         }
     }
@@ -35,23 +46,33 @@ pub(super) struct BlockReader<'a> {
     pub(super) skipped: &'a mut Unscorable,
     pub(super) blank_unscorable: bool,
     pub(super) p: usize,
+    /// The input columns copied to the output, by position.
+    pub(super) keep: &'a [usize],
+    /// The row being read (all its fields).
+    pub(super) record: csv::StringRecord,
 }
 
 impl BlockReader<'_> {
-    /// Fills `b` with the next rows, as many as it holds unless the input ends first.
+    /// Fills `b` with the next rows, as many as it holds unless the input ends first
+    /// or its kept cells reach [`KEPT_BYTES`].
     ///
     /// # Errors
     /// A row that cannot be read or encoded, unless `--blank-unscorable` keeps it as a
     /// blank row.
     pub(super) fn fill(&mut self, b: &mut Block) -> CliResult<()> {
         let p = self.p;
+        let record = &mut self.record;
         b.m = 0;
-        while b.m < b.blank.len() {
+        b.last = false;
+        let mut kept_bytes = 0;
+        while b.m < b.blank.len() && kept_bytes < KEPT_BYTES {
             let m = b.m;
-            let record = &mut b.records[m];
             let x = &mut b.x[m * p..(m + 1) * p];
             let fault = match self.input.read_row(record)? {
-                Row::End => break,
+                Row::End => {
+                    b.last = true;
+                    break;
+                }
                 Row::Record => match self.enc.encode(record, x) {
                     Ok(()) => None,
                     Err(e) => Some((record.position().map_or(0, |p| p.line()), e)),
@@ -62,6 +83,12 @@ impl BlockReader<'_> {
                     Some((line, e))
                 }
             };
+            let kept = &mut b.kept[m];
+            kept.clear();
+            for &c in self.keep {
+                kept.push_field(record.get(c).unwrap_or(""));
+            }
+            kept_bytes += kept.as_byte_record().as_slice().len();
             b.blank[m] = fault.is_some();
             if let Some((line, e)) = fault {
                 if !self.blank_unscorable {
@@ -82,8 +109,8 @@ impl BlockReader<'_> {
 }
 
 /// Passes blocks filled by `fill` (each like `first`, whose row count is the block
-/// size), in order, to `emit`, which scores and writes them; a block with fewer rows
-/// than the size is the last. With `ahead`, a second thread fills the next block while
+/// size), in order, to `emit`, which scores and writes them, until a block marked as
+/// the last. With `ahead`, a second thread fills the next block while
 /// `emit` works on the current one (two blocks circulate), so the serial reading hides
 /// behind the parallel scoring; without it (one thread), blocks are filled in turn. An
 /// error from `fill` reaches the caller after every block before it was emitted, as
@@ -102,7 +129,7 @@ pub(super) fn each_block(
             if b.m > 0 {
                 emit(&b)?;
             }
-            if b.m < size {
+            if b.last {
                 return Ok(());
             }
         }
@@ -120,7 +147,7 @@ pub(super) fn each_block(
                     return;
                 };
                 let filled = fill(&mut b);
-                let last = filled.is_err() || b.m < size;
+                let last = filled.is_err() || b.last;
                 if full_tx.send(filled.map(|()| b)).is_err() || last {
                     return;
                 }
@@ -195,7 +222,12 @@ mod tests {
         let mut next = 0;
         move |b: &mut Block| {
             b.m = 0;
-            while b.m < b.blank.len() && next < rows {
+            b.last = false;
+            while b.m < b.blank.len() {
+                if next == rows {
+                    b.last = true;
+                    break;
+                }
                 if Some(next) == fault {
                     return Err(CliError::input(format!("row {next} is bad")));
                 }

@@ -4,7 +4,9 @@
 //! (`se_prediction`, or `se_<class>` per class probability) by the bias-corrected
 //! infinitesimal jackknife. Memory stays bounded by the block size (two blocks: one read
 //! ahead while the other is scored, when more than one thread runs) whatever the length
-//! of the input.
+//! of the input; blocks are sized by bytes as well as rows, and keep only the model's
+//! inputs and the kept cells of each row, so the width of the input does not matter
+//! either.
 mod blocks;
 mod rows;
 
@@ -100,7 +102,7 @@ struct Source {
 /// # Errors
 /// Input errors for a file that cannot be read or lacks the model's columns.
 fn open_input(a: &ScoreArgs, model: &Forest) -> CliResult<Source> {
-    let input = CsvInput::open(&a.data, a.csv.delimiter.into())?;
+    let input = crate::commands::open_for_model(&a.data, &a.csv, model)?;
     let missing = a
         .csv
         .missing
@@ -186,9 +188,10 @@ fn write_blocks(
     // The header goes out with the first block, so a fault in the first rows leaves
     // standard output empty.
     let mut header_written = false;
-    let block = a
-        .block_rows
-        .map_or_else(|| forest.scoring_block_rows(), |b| b as usize);
+    let block = a.block_rows.map_or_else(
+        || forest.scoring_block_rows_for(row_bytes(a, forest, keep.len())),
+        |b| b as usize,
+    );
     let p = forest.n_features();
     let source = src.input.name().to_string();
     let writer = RowWriter {
@@ -210,6 +213,8 @@ fn write_blocks(
         skipped: &mut written.skipped,
         blank_unscorable: a.blank_unscorable,
         p,
+        keep,
+        record: csv::StringRecord::new(),
     };
     let (mut rows, mut clamped) = (0u64, 0usize);
     let put = |out: &mut Output, text: &[u8]| {
@@ -248,6 +253,15 @@ fn write_blocks(
     written.rows = rows;
     written.clamped = clamped;
     Ok(written)
+}
+
+/// Bytes a block holds for each row besides the model's input values and outputs, for
+/// sizing blocks by bytes: the kept cells (taken as 16 bytes of text and 8 of bounds
+/// each; a block also stops when its kept text reaches its own cap), the output row's
+/// text (about 24 bytes a field) and the row's own bookkeeping.
+fn row_bytes(a: &ScoreArgs, forest: &Forest, kept: usize) -> usize {
+    let fields = (forest.n_outputs() + 1) * if a.uncertainty { 2 } else { 1 };
+    24 * kept + 24 * fields + 64
 }
 
 /// Tells on standard error about unseen categories, unscorable rows and, with

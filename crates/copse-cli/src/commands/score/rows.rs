@@ -72,8 +72,8 @@ impl RowWriter<'_> {
                     let mut probs: Vec<f64> = Vec::with_capacity(classes.len());
                     for i in part {
                         fields.clear();
-                        for &c in self.keep {
-                            fields.push_field(b.records[i].get(c).unwrap_or(""));
+                        for c in 0..self.keep.len() {
+                            fields.push_field(b.kept[i].get(c).unwrap_or(""));
                         }
                         if b.blank[i] {
                             // An empty prediction and empty probabilities: the row is
