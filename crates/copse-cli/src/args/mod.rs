@@ -5,12 +5,14 @@ use crate::help::{
     DEMO_EXAMPLES, EVALUATE_EXAMPLES, IMPORTANCE_EXAMPLES, INSPECT_EXAMPLES,
     MAKE_DEMO_DATA_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES,
 };
-use clap::{Args, Parser, Subcommand, ValueEnum};
-use copse_data::Delimiter;
+use clap::{Args, Parser, Subcommand};
 use copse_data::Roles;
 use copse_forest::Task;
-use copse_forest::{FeaturesPerSplit, Impurity, Sampling};
+use copse_forest::{FeaturesPerSplit, Sampling};
 use std::path::PathBuf;
+
+mod values;
+pub use values::{DecimalArg, DelimiterArg, ImpurityArg, TaskArg};
 
 /// copse: grow an ensemble of decision trees from a CSV table, check how well it
 /// predicts without a holdout (out-of-bag), rank which inputs matter, and score new
@@ -127,81 +129,6 @@ impl From<&ColumnRoles> for Roles {
             categorical: r.categorical.clone(),
             numeric: r.numeric.clone(),
             task: r.task.map(Task::from),
-        }
-    }
-}
-
-/// Field separators.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
-pub enum DelimiterArg {
-    /// `,`
-    Comma,
-    /// a tab character
-    Tab,
-    /// `;`
-    Semicolon,
-}
-
-impl From<DelimiterArg> for Delimiter {
-    fn from(d: DelimiterArg) -> Self {
-        match d {
-            DelimiterArg::Comma => Delimiter::Comma,
-            DelimiterArg::Tab => Delimiter::Tab,
-            DelimiterArg::Semicolon => Delimiter::Semicolon,
-        }
-    }
-}
-
-/// Decimal marks.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
-pub enum DecimalArg {
-    /// `5.1`
-    Point,
-    /// `5,1`
-    Comma,
-}
-
-impl From<DecimalArg> for copse_data::DecimalMark {
-    fn from(d: DecimalArg) -> Self {
-        match d {
-            DecimalArg::Point => copse_data::DecimalMark::Point,
-            DecimalArg::Comma => copse_data::DecimalMark::Comma,
-        }
-    }
-}
-
-/// Task override.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
-pub enum TaskArg {
-    /// Predict a class label.
-    Classify,
-    /// Predict a number.
-    Regress,
-}
-
-impl From<TaskArg> for Task {
-    fn from(t: TaskArg) -> Self {
-        match t {
-            TaskArg::Classify => Task::Classify,
-            TaskArg::Regress => Task::Regress,
-        }
-    }
-}
-
-/// Impurity measure.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
-pub enum ImpurityArg {
-    /// Gini impurity.
-    Gini,
-    /// Entropy (information).
-    Entropy,
-}
-
-impl From<ImpurityArg> for Impurity {
-    fn from(i: ImpurityArg) -> Self {
-        match i {
-            ImpurityArg::Gini => Impurity::Gini,
-            ImpurityArg::Entropy => Impurity::Entropy,
         }
     }
 }

@@ -1,0 +1,80 @@
+//! The words some options take (delimiter, decimal mark, task, impurity), each turned
+//! into the library's own type.
+use clap::ValueEnum;
+use copse_data::Delimiter;
+use copse_forest::{Impurity, Task};
+
+/// Field separators.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum DelimiterArg {
+    /// `,`
+    Comma,
+    /// a tab character
+    Tab,
+    /// `;`
+    Semicolon,
+}
+
+impl From<DelimiterArg> for Delimiter {
+    fn from(d: DelimiterArg) -> Self {
+        match d {
+            DelimiterArg::Comma => Delimiter::Comma,
+            DelimiterArg::Tab => Delimiter::Tab,
+            DelimiterArg::Semicolon => Delimiter::Semicolon,
+        }
+    }
+}
+
+/// Decimal marks.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum DecimalArg {
+    /// `5.1`
+    Point,
+    /// `5,1`
+    Comma,
+}
+
+impl From<DecimalArg> for copse_data::DecimalMark {
+    fn from(d: DecimalArg) -> Self {
+        match d {
+            DecimalArg::Point => copse_data::DecimalMark::Point,
+            DecimalArg::Comma => copse_data::DecimalMark::Comma,
+        }
+    }
+}
+
+/// Task override.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum TaskArg {
+    /// Predict a class label.
+    Classify,
+    /// Predict a number.
+    Regress,
+}
+
+impl From<TaskArg> for Task {
+    fn from(t: TaskArg) -> Self {
+        match t {
+            TaskArg::Classify => Task::Classify,
+            TaskArg::Regress => Task::Regress,
+        }
+    }
+}
+
+/// Impurity measure.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum ImpurityArg {
+    /// Gini impurity.
+    Gini,
+    /// Entropy (information).
+    Entropy,
+}
+
+impl From<ImpurityArg> for Impurity {
+    fn from(i: ImpurityArg) -> Self {
+        match i {
+            ImpurityArg::Gini => Impurity::Gini,
+            ImpurityArg::Entropy => Impurity::Entropy,
+        }
+    }
+}
