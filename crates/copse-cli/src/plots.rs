@@ -11,19 +11,19 @@ use copse_forest::{Importance, KindStability, Significance, StabilityReport};
 use plotters::coord::ranged1d::SegmentValue;
 use plotters::prelude::*;
 
-const TEAL: RGBColor = RGBColor(38, 120, 128);
-const INK: RGBColor = RGBColor(33, 37, 41);
-const GREY: RGBColor = RGBColor(110, 117, 125);
-const GRID: RGBColor = RGBColor(228, 231, 235);
+pub(crate) const TEAL: RGBColor = RGBColor(38, 120, 128);
+pub(crate) const INK: RGBColor = RGBColor(33, 37, 41);
+pub(crate) const GREY: RGBColor = RGBColor(110, 117, 125);
+pub(crate) const GRID: RGBColor = RGBColor(228, 231, 235);
 
-type PlotResult<T> = Result<T, String>;
+pub(crate) type PlotResult<T> = Result<T, String>;
 
-fn err<E: std::fmt::Display>(e: E) -> String {
+pub(crate) fn err<E: std::fmt::Display>(e: E) -> String {
     e.to_string()
 }
 
 /// Draws the title block and returns the area below it.
-fn titled<'a>(
+pub(crate) fn titled<'a>(
     root: &DrawingArea<SVGBackend<'a>, plotters::coord::Shift>,
     title: &str,
     subtitle: &str,

@@ -7,45 +7,16 @@
 //! - importance for classes: the rise in Brier score (which sees probabilities) beside
 //!   the rise in misclassification, in one order.
 use crate::numbers::{pct_short, plain};
+use crate::plots::{err, titled, PlotResult, GREY, GRID, INK, TEAL};
 use copse_forest::decision::{CatchByRank, Reliability};
 use copse_forest::Importance;
 use plotters::coord::ranged1d::SegmentValue;
 use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 
-const TEAL: RGBColor = RGBColor(38, 120, 128);
 const AMBER: RGBColor = RGBColor(191, 120, 32);
-const INK: RGBColor = RGBColor(33, 37, 41);
-const GREY: RGBColor = RGBColor(110, 117, 125);
-const GRID: RGBColor = RGBColor(228, 231, 235);
 
-type PlotResult<T> = Result<T, String>;
 type Area<'a> = DrawingArea<SVGBackend<'a>, plotters::coord::Shift>;
-
-fn err<E: std::fmt::Display>(e: E) -> String {
-    e.to_string()
-}
-
-fn titled<'a>(root: &Area<'a>, title: &str, subtitle: &str) -> PlotResult<Area<'a>> {
-    root.fill(&WHITE).map_err(err)?;
-    let (top, rest) = root.split_vertically(64);
-    top.draw(&Text::new(
-        title.to_string(),
-        (18, 14),
-        ("sans-serif", 20)
-            .into_font()
-            .style(FontStyle::Bold)
-            .color(&INK),
-    ))
-    .map_err(err)?;
-    top.draw(&Text::new(
-        subtitle.to_string(),
-        (18, 40),
-        ("sans-serif", 13).into_font().color(&GREY),
-    ))
-    .map_err(err)?;
-    Ok(rest)
-}
 
 /// A unit square chart (both axes 0 to 1, shown as percentages) with the diagonal.
 fn unit_chart<'a, 'b>(
