@@ -19,6 +19,7 @@ mod reliability;
 mod shapes;
 #[path = "../support/mod.rs"]
 mod support;
+mod unfamiliar;
 
 /// A file of the repository.
 fn repo(rel: &str) -> PathBuf {

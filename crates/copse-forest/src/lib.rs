@@ -21,6 +21,7 @@
 //! - [`significance`]: p-values for permutation importance;
 //! - [`stability`]: how one tree, bagged trees and a forest vary over seeds;
 //! - [`uncertainty`]: standard errors of predictions (infinitesimal jackknife);
+//! - [`unfamiliar`]: rows outside the training ranges ([`Unfamiliar`]);
 //! - `synth` (feature `synth`): seeded generators of published synthetic problems.
 //!
 //! Determinism: every random draw comes from a generator seeded by the master seed
@@ -80,6 +81,7 @@ pub mod synth;
 pub mod task;
 pub mod train;
 pub mod uncertainty;
+pub mod unfamiliar;
 
 pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
@@ -108,3 +110,4 @@ pub use stability::{
 pub use task::Task;
 pub use train::TrainOptions;
 pub use uncertainty::Uncertainty;
+pub use unfamiliar::{Familiar, Unfamiliar};

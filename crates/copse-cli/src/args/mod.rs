@@ -260,6 +260,12 @@ pub struct ScoreArgs {
     #[arg(long)]
     pub uncertainty: bool,
 
+    /// Add a column 'unfamiliar': 1 for a row with a value outside the range the model
+    /// was trained on or a category it never saw (the forest predicts flat there), else
+    /// 0.
+    #[arg(long)]
+    pub flag_unfamiliar: bool,
+
     #[command(flatten)]
     pub csv: CsvArgs,
 

@@ -98,6 +98,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         out: Some(shown(&scored_path)),
         keep: vec![ID.to_string()],
         uncertainty: false,
+        flag_unfamiliar: false,
         csv,
         blank_unscorable: false,
         block_rows: None,

@@ -14,13 +14,15 @@ use copse_data::{CsvInput, Row, RowEncoder};
 const KEPT_BYTES: usize = 8 << 20;
 
 /// A block of input rows: their kept cells (in `--keep` order), their encoded input
-/// values (row-major), which of them cannot be scored, how many it holds, whether the
+/// values (row-major), which of them cannot be scored, which hold a category the model
+/// never saw, how many it holds, whether the
 /// input ended with it, and the bytes of input read by the time it was filled (for
 /// progress).
 pub(super) struct Block {
     pub(super) kept: Vec<csv::StringRecord>,
     pub(super) x: Vec<f64>,
     pub(super) blank: Vec<bool>,
+    pub(super) unseen: Vec<bool>,
     pub(super) m: usize,
     pub(super) last: bool,
     pub(super) bytes: u64,
@@ -32,6 +34,7 @@ impl Block {
             kept: (0..rows).map(|_| csv::StringRecord::new()).collect(),
             x: vec![0.0; rows * p],
             blank: vec![false; rows],
+            unseen: vec![false; rows],
             m: 0,
             last: false,
             bytes: 0,
@@ -68,6 +71,7 @@ impl BlockReader<'_> {
         while b.m < b.blank.len() && kept_bytes < KEPT_BYTES {
             let m = b.m;
             let x = &mut b.x[m * p..(m + 1) * p];
+            let unseen_before: u64 = self.enc.unseen_counts().iter().sum();
             let fault = match self.input.read_row(record)? {
                 Row::End => {
                     b.last = true;
@@ -90,6 +94,7 @@ impl BlockReader<'_> {
             }
             kept_bytes += kept.as_byte_record().as_slice().len();
             b.blank[m] = fault.is_some();
+            b.unseen[m] = self.enc.unseen_counts().iter().sum::<u64>() > unseen_before;
             if let Some((line, e)) = fault {
                 if !self.blank_unscorable {
                     return Err(CliError::input(format!(

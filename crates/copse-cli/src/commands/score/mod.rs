@@ -2,13 +2,15 @@
 //! input row, in input order: the kept columns, `prediction`, and for classes one
 //! `prob_<class>` column per class; with `--uncertainty`, a standard error per output
 //! (`se_prediction`, or `se_<class>` per class probability) by the bias-corrected
-//! infinitesimal jackknife. Memory stays bounded by the block size (two blocks: one read
+//! infinitesimal jackknife; with `--flag-unfamiliar`, `unfamiliar` (1 for a row outside
+//! the training ranges, else 0). Memory stays bounded by the block size (two blocks: one read
 //! ahead while the other is scored, when more than one thread runs) whatever the length
 //! of the input; blocks are sized by bytes as well as rows, and keep only the model's
 //! inputs and the kept cells of each row, so the width of the input does not matter
 //! either.
 mod blocks;
 mod rows;
+mod unfamiliar;
 
 use crate::args::ScoreArgs;
 use crate::error::{CliError, CliResult};
@@ -17,7 +19,7 @@ use crate::output::{refuse_overwrite, Output};
 use crate::ui::Ui;
 use blocks::{each_block, Block, BlockReader, Unscorable};
 use copse_data::{CsvInput, Missing, RowEncoder};
-use copse_forest::Forest;
+use copse_forest::{Forest, Unfamiliar};
 pub(crate) use rows::target_size;
 use rows::{csv_text, RowWriter};
 use std::io::Write;
@@ -59,6 +61,15 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     let written = write_blocks(a, ui, &model, &mut src, &keep, &header, &mut out)?;
     out.finish()?;
     tell(a, ui, &model, &src, &written);
+    if let Some(warning) = unfamiliar::warning(
+        &model,
+        &written.unfamiliar,
+        &src.enc,
+        written.unfamiliar_rows,
+        written.rows,
+    ) {
+        ui.warn(&warning);
+    }
     Ok(ScoreRun {
         rows: written.rows,
         output,
@@ -132,7 +143,8 @@ fn kept_columns(a: &ScoreArgs, input: &CsvInput) -> CliResult<Vec<usize>> {
 }
 
 /// The output's column names: the kept columns, `prediction`, a `prob_<class>` per
-/// class, and with `--uncertainty` the standard errors.
+/// class, with `--uncertainty` the standard errors, and with `--flag-unfamiliar`
+/// `unfamiliar`.
 ///
 /// # Errors
 /// An input error when two columns would have the same name.
@@ -146,6 +158,9 @@ fn output_header(a: &ScoreArgs, classes: &[String]) -> CliResult<Vec<String>> {
         } else {
             header.extend(classes.iter().map(|c| format!("se_{c}")));
         }
+    }
+    if a.flag_unfamiliar {
+        header.push("unfamiliar".to_string());
     }
     for (i, h) in header.iter().enumerate() {
         if header[..i].contains(h) {
@@ -165,6 +180,10 @@ struct Written {
     clamped: usize,
     /// Rows written with an empty prediction.
     skipped: Unscorable,
+    /// Cells and rows outside the training ranges (unseen categories aside).
+    unfamiliar: Unfamiliar,
+    /// Rows outside the training ranges or holding an unseen category.
+    unfamiliar_rows: u64,
 }
 
 /// Reads, scores and writes every row in blocks, the header first.
@@ -205,6 +224,8 @@ fn write_blocks(
         rows: 0,
         clamped: 0,
         skipped: Unscorable::default(),
+        unfamiliar: Unfamiliar::of(forest),
+        unfamiliar_rows: 0,
     };
     let bar = ui.bytes_bar(src.input.size(), "scoring");
     let mut reader = BlockReader {
@@ -217,12 +238,15 @@ fn write_blocks(
         record: csv::StringRecord::new(),
     };
     let (mut rows, mut clamped) = (0u64, 0usize);
+    let (ranges, unfamiliar_rows) = (&mut written.unfamiliar, &mut written.unfamiliar_rows);
+    let mut flags: Vec<bool> = Vec::new();
     let put = |out: &mut Output, text: &[u8]| {
         out.write_all(text)
             .map_err(|e| CliError::write(&out_name, &e))
     };
     let mut emit = |b: &Block| -> CliResult<()> {
-        let (texts, c) = writer.block_text(b)?;
+        *unfamiliar_rows += unfamiliar::flag_block(ranges, b, p, &mut flags)?;
+        let (texts, c) = writer.block_text(b, a.flag_unfamiliar.then_some(&flags[..]))?;
         clamped += c;
         if !header_written {
             put(out, &header_text)?;
@@ -260,7 +284,8 @@ fn write_blocks(
 /// each; a block also stops when its kept text reaches its own cap), the output row's
 /// text (about 24 bytes a field) and the row's own bookkeeping.
 fn row_bytes(a: &ScoreArgs, forest: &Forest, kept: usize) -> usize {
-    let fields = (forest.n_outputs() + 1) * if a.uncertainty { 2 } else { 1 };
+    let fields = (forest.n_outputs() + 1) * if a.uncertainty { 2 } else { 1 }
+        + usize::from(a.flag_unfamiliar);
     24 * kept + 24 * fields + 64
 }
 

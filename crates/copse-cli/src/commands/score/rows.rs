@@ -27,11 +27,16 @@ pub(super) struct RowWriter<'a> {
 impl RowWriter<'_> {
     /// Scores the rows of `b` and makes their text, in pieces to write in order;
     /// returns the pieces and the number of standard errors that could not be
-    /// estimated.
+    /// estimated. With `unfamiliar` (one flag per row of the block), each row ends
+    /// with 1 or 0.
     ///
     /// # Errors
     /// A model that cannot score the rows (an internal fault).
-    pub(super) fn block_text(&self, b: &Block) -> CliResult<(Vec<CliResult<Vec<u8>>>, usize)> {
+    pub(super) fn block_text(
+        &self,
+        b: &Block,
+        unfamiliar: Option<&[bool]>,
+    ) -> CliResult<(Vec<CliResult<Vec<u8>>>, usize)> {
         let forest = self.forest;
         let classes = forest.classes();
         let m = b.m;
@@ -101,6 +106,14 @@ impl RowWriter<'_> {
                                 };
                                 fields.push_field(&cell);
                             }
+                        }
+                        if let Some(flags) = unfamiliar {
+                            // An unscorable row was not judged: its cell stays empty.
+                            fields.push_field(match (b.blank[i], flags[i]) {
+                                (true, _) => "",
+                                (false, true) => "1",
+                                (false, false) => "0",
+                            });
                         }
                         w.write_record(&fields)?;
                     }
