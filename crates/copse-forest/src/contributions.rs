@@ -270,16 +270,20 @@ fn unwound_sum(path: &[Step], i: usize) -> f64 {
     let (zero, one) = (path[i].zero, path[i].one);
     let total = (l + 1) as f64;
     let mut sum = 0.0;
+    // The leaves' hot loop: divisions by the step's fractions and the path's length
+    // are taken once, as products by their reciprocals.
     if one != 0.0 {
+        let (up, down) = (total / one, zero / total);
         let mut next = path[l].weight;
         for j in (0..l).rev() {
-            let w = next * total / ((j + 1) as f64 * one);
+            let w = next * up / (j + 1) as f64;
             sum += w;
-            next = path[j].weight - w * zero * (l - j) as f64 / total;
+            next = path[j].weight - w * down * (l - j) as f64;
         }
     } else {
+        let up = total / zero;
         for j in (0..l).rev() {
-            sum += path[j].weight * total / (zero * (l - j) as f64);
+            sum += path[j].weight * up / (l - j) as f64;
         }
     }
     sum
