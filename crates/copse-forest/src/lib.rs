@@ -17,6 +17,7 @@
 //! - [`model_file`]: the model file: save, load, bytes, checks on reading;
 //! - [`task`]: classes or numbers ([`Task`]);
 //! - [`draws`]: how many times each tree drew each row, kept on request ([`Draws`]);
+//! - [`contributions`]: exact Shapley values of each row's prediction ([`Contributions`]);
 //! - [`effects`]: effect curves of one input, mean and per row ([`EffectCurve`]);
 //! - [`significance`]: p-values for permutation importance;
 //! - [`stability`]: how one tree, bagged trees and a forest vary over seeds;
@@ -51,6 +52,7 @@
 pub use ndarray;
 
 pub mod card;
+pub mod contributions;
 pub mod decision;
 pub mod draws;
 pub mod effects;
@@ -84,6 +86,7 @@ pub mod uncertainty;
 pub mod unfamiliar;
 
 pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
+pub use contributions::Contributions;
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
 pub use effects::{EffectCurve, EffectGrid, EffectSettings};
