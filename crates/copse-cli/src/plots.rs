@@ -115,49 +115,10 @@ pub fn importance_svg(
             .map_err(err)?;
         for (pos, f) in ranked.iter().enumerate() {
             let slot = (n - 1 - pos) as i32;
-            let (a, b) = if f.mean >= 0.0 {
-                (0.0, f.mean)
-            } else {
-                (f.mean, 0.0)
-            };
-            let mut bar = Rectangle::new(
-                [
-                    (a, SegmentValue::Exact(slot)),
-                    (b, SegmentValue::Exact(slot + 1)),
-                ],
-                TEAL.mix(0.85).filled(),
-            );
-            bar.set_margin(6, 6, 0, 0);
-            chart.draw_series(std::iter::once(bar)).map_err(err)?;
-            if let Some(se) = f.std_error {
-                let y = SegmentValue::CenterOf(slot);
-                let style = INK.stroke_width(2);
-                chart
-                    .draw_series(std::iter::once(PathElement::new(
-                        vec![(f.mean - se, y.clone()), (f.mean + se, y.clone())],
-                        style,
-                    )))
-                    .map_err(err)?;
-                for end in [f.mean - se, f.mean + se] {
-                    chart
-                        .draw_series(std::iter::once(
-                            EmptyElement::at((end, y.clone()))
-                                + PathElement::new(vec![(0, -6), (0, 6)], style),
-                        ))
-                        .map_err(err)?;
-                }
-            }
+            draw_rise(&mut chart, slot, f.mean, f.std_error, TEAL, true)?;
         }
         // The zero line: bars left of it are inputs whose shuffling helped.
-        chart
-            .draw_series(std::iter::once(PathElement::new(
-                vec![
-                    (0.0, SegmentValue::Exact(0)),
-                    (0.0, SegmentValue::Exact(n as i32)),
-                ],
-                INK.stroke_width(1),
-            )))
-            .map_err(err)?;
+        draw_zero_line(&mut chart, n)?;
         root.present().map_err(err)?;
     }
     Ok(svg)
@@ -424,4 +385,75 @@ pub fn stability_svg(r: &StabilityReport, subtitle: &str) -> PlotResult<String> 
         root.present().map_err(err)?;
     }
     Ok(svg)
+}
+
+/// A chart of rises: values across, one segment per input down.
+pub(crate) type RiseChart<'a, 'b> = ChartContext<
+    'b,
+    SVGBackend<'a>,
+    Cartesian2d<
+        plotters::coord::types::RangedCoordf64,
+        plotters::coord::ranged1d::SegmentedCoord<plotters::coord::types::RangedCoordi32>,
+    >,
+>;
+
+/// One input's rise in segment `slot`: a bar from zero to `mean` and a whisker of ± one
+/// standard error (with end caps when `caps`).
+pub(crate) fn draw_rise(
+    chart: &mut RiseChart<'_, '_>,
+    slot: i32,
+    mean: f64,
+    se: Option<f64>,
+    colour: RGBColor,
+    caps: bool,
+) -> PlotResult<()> {
+    let (a, b) = if mean >= 0.0 {
+        (0.0, mean)
+    } else {
+        (mean, 0.0)
+    };
+    let mut bar = Rectangle::new(
+        [
+            (a, SegmentValue::Exact(slot)),
+            (b, SegmentValue::Exact(slot + 1)),
+        ],
+        colour.mix(0.85).filled(),
+    );
+    bar.set_margin(6, 6, 0, 0);
+    chart.draw_series(std::iter::once(bar)).map_err(err)?;
+    if let Some(se) = se {
+        let y = SegmentValue::CenterOf(slot);
+        let style = INK.stroke_width(2);
+        chart
+            .draw_series(std::iter::once(PathElement::new(
+                vec![(mean - se, y.clone()), (mean + se, y.clone())],
+                style,
+            )))
+            .map_err(err)?;
+        if caps {
+            for end in [mean - se, mean + se] {
+                chart
+                    .draw_series(std::iter::once(
+                        EmptyElement::at((end, y.clone()))
+                            + PathElement::new(vec![(0, -6), (0, 6)], style),
+                    ))
+                    .map_err(err)?;
+            }
+        }
+    }
+    Ok(())
+}
+
+/// The zero line across the `n` segments of a rise chart.
+pub(crate) fn draw_zero_line(chart: &mut RiseChart<'_, '_>, n: usize) -> PlotResult<()> {
+    chart
+        .draw_series(std::iter::once(PathElement::new(
+            vec![
+                (0.0, SegmentValue::Exact(0)),
+                (0.0, SegmentValue::Exact(n as i32)),
+            ],
+            INK.stroke_width(1),
+        )))
+        .map_err(err)?;
+    Ok(())
 }

@@ -7,7 +7,7 @@
 //! - importance for classes: the rise in Brier score (which sees probabilities) beside
 //!   the rise in misclassification, in one order.
 use crate::numbers::{pct_short, plain};
-use crate::plots::{err, titled, PlotResult, GREY, GRID, INK, TEAL};
+use crate::plots::{draw_rise, draw_zero_line, err, titled, PlotResult, GREY, GRID, INK, TEAL};
 use copse_forest::decision::{CatchByRank, Reliability};
 use copse_forest::Importance;
 use plotters::coord::ranged1d::SegmentValue;
@@ -235,40 +235,16 @@ fn bar_panel(
         let Some(f) = imp.features.get(j) else {
             continue;
         };
-        let slot = (n - 1 - pos) as i32;
-        let (a, b) = if f.mean >= 0.0 {
-            (0.0, f.mean)
-        } else {
-            (f.mean, 0.0)
-        };
-        let mut bar = Rectangle::new(
-            [
-                (a, SegmentValue::Exact(slot)),
-                (b, SegmentValue::Exact(slot + 1)),
-            ],
-            colour.mix(0.85).filled(),
-        );
-        bar.set_margin(6, 6, 0, 0);
-        chart.draw_series(std::iter::once(bar)).map_err(err)?;
-        if let Some(se) = f.std_error {
-            let y = SegmentValue::CenterOf(slot);
-            chart
-                .draw_series(std::iter::once(PathElement::new(
-                    vec![(f.mean - se, y.clone()), (f.mean + se, y)],
-                    INK.stroke_width(2),
-                )))
-                .map_err(err)?;
-        }
+        draw_rise(
+            &mut chart,
+            (n - 1 - pos) as i32,
+            f.mean,
+            f.std_error,
+            colour,
+            false,
+        )?;
     }
-    chart
-        .draw_series(std::iter::once(PathElement::new(
-            vec![
-                (0.0, SegmentValue::Exact(0)),
-                (0.0, SegmentValue::Exact(n as i32)),
-            ],
-            INK.stroke_width(1),
-        )))
-        .map_err(err)?;
+    draw_zero_line(&mut chart, n)?;
     Ok(())
 }
 
