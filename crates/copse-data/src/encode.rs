@@ -274,6 +274,49 @@ pub struct Labelled {
     pub notes: Vec<String>,
 }
 
+/// A file of input rows read whole with a model's schema; an outcome column, if
+/// present, is not read.
+pub struct InputRows {
+    /// Inputs, rows by model inputs.
+    pub x: Array2<f64>,
+    /// The encoder, for its unseen-category counts.
+    pub encoder: RowEncoder,
+    /// Remarks about the file for the user (blank lines passed over).
+    pub notes: Vec<String>,
+}
+
+/// Reads every row of `input` for `model`, inputs only (for effect curves, which
+/// need the rows in memory but not their outcomes).
+///
+/// # Errors
+/// As for [`RowEncoder::new`] and [`RowEncoder::encode`], and `NoRows` for a file
+/// with no data rows.
+pub fn read_inputs(mut input: CsvInput, model: &Forest, missing: Missing) -> Result<InputRows> {
+    let mut enc = RowEncoder::new(&input, model, missing, false)?;
+    let p = model.n_features();
+    let mut values: Vec<f64> = Vec::new();
+    let mut row = vec![0.0; p];
+    let mut record = csv::StringRecord::new();
+    let mut rows = 0usize;
+    while input.read(&mut record)? {
+        enc.encode(&record, &mut row)?;
+        values.extend_from_slice(&row);
+        rows += 1;
+    }
+    if rows == 0 {
+        return Err(Error::new(
+            ErrorKind::NoRows,
+            format!("{} has a header but no data rows; add rows to read", input.name()),
+        ));
+    }
+    let x = Array2::from_shape_fn((rows, p), |(i, j)| values[i * p + j]);
+    Ok(InputRows {
+        x,
+        encoder: enc,
+        notes: input.blank_lines_note().into_iter().collect(),
+    })
+}
+
 /// Reads every row of `input` for `model`, including the outcome column.
 ///
 /// # Errors

@@ -51,7 +51,10 @@ pub mod training;
 pub use cells::{clip, looks_decimal_comma, one_line, parse_number, read_number, Missing};
 pub use copse_forest::DecimalMark;
 pub use csv_input::{CsvInput, Delimiter, Row};
-pub use encode::{read_labelled, read_labelled_with_column, ColumnCells, Labelled, RowEncoder};
+pub use encode::{
+    read_inputs, read_labelled, read_labelled_with_column, ColumnCells, InputRows, Labelled,
+    RowEncoder,
+};
 pub use error::{Error, ErrorKind, Result};
 pub use infer::MAX_TARGET_SIZE;
 pub use records::MAX_RECORD_BYTES;

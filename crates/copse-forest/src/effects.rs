@@ -52,20 +52,52 @@ impl Default for EffectGrid {
 pub struct EffectSettings {
     /// The grid of values the input is set to.
     pub grid: EffectGrid,
-    /// Most rows whose own curves are kept; the rows are evenly spaced over the data
-    /// (row `floor(i * n / m)` for `i` in `0..m`): no random draw, so the same data
-    /// always gives the same rows.
+    /// Most rows whose own curves are kept.
     pub row_curves: usize,
+    /// How the kept rows are chosen: `None`, evenly spaced over the data (row
+    /// `floor(i * n / m)` for `i` in `0..m`); `Some(seed)`, a simple random sample
+    /// drawn with this seed ([`sample_rows`]). Either way the same data and settings
+    /// always give the same rows.
+    pub row_seed: Option<u64>,
 }
 
 impl Default for EffectSettings {
-    /// The default grid and 50 row curves (more make a plot unreadable).
+    /// The default grid and 50 evenly spaced row curves (more make a plot unreadable).
     fn default() -> Self {
         EffectSettings {
             grid: EffectGrid::default(),
             row_curves: 50,
+            row_seed: None,
         }
     }
+}
+
+/// `m` of the rows `0..n` drawn without replacement with `seed`, ascending (all rows
+/// when `n <= m`). Each set of `m` rows is equally likely: Floyd's algorithm (Bentley
+/// & Floyd 1987, "Programming pearls: a sample of brilliance", Comm. ACM 30:754-757),
+/// which draws `m` numbers whatever `n` is.
+///
+/// # Example
+/// ```
+/// let rows = copse_forest::effects::sample_rows(1000, 5, 7);
+/// assert_eq!(rows.len(), 5);
+/// assert!(rows.windows(2).all(|w| w[0] < w[1]) && rows[4] < 1000);
+/// assert_eq!(rows, copse_forest::effects::sample_rows(1000, 5, 7));
+/// ```
+pub fn sample_rows(n: usize, m: usize, seed: u64) -> Vec<usize> {
+    use rand::RngExt as _;
+    if m >= n {
+        return (0..n).collect();
+    }
+    let mut rng = crate::rng::task_rng(seed, crate::rng::Purpose::EffectRows, n as u64, m as u64);
+    let mut chosen = std::collections::BTreeSet::new();
+    for j in n - m..n {
+        let t = rng.random_range(0..=j);
+        if !chosen.insert(t) {
+            chosen.insert(j);
+        }
+    }
+    chosen.into_iter().collect()
 }
 
 /// An effect curve of one input.
@@ -147,7 +179,10 @@ impl Forest {
         };
         let grid = effect_grid(x.column(input).iter().copied(), levels, &settings.grid)?;
         let (g, k) = (grid.len(), self.n_outputs());
-        let rows = thinned_rows(n, settings.row_curves);
+        let rows = match settings.row_seed {
+            None => thinned_rows(n, settings.row_curves),
+            Some(seed) => sample_rows(n, settings.row_curves, seed),
+        };
         let mut sums = Array2::<f64>::zeros((g, k));
         let mut row_curves = Array3::<f64>::zeros((rows.len(), g, k));
 
@@ -197,7 +232,7 @@ impl Forest {
 }
 
 /// The grid of an effect curve, checked.
-fn effect_grid(
+pub(crate) fn effect_grid(
     values: impl Iterator<Item = f64>,
     levels: Option<usize>,
     grid: &EffectGrid,
@@ -274,30 +309,35 @@ fn count_along(
     let mut counts = vec![0; grid.len()];
     let mut missing = 0;
     for v in values {
-        let slot = if v.is_nan() {
-            None
-        } else if levels.is_some() {
-            grid.iter().position(|&c| c == v)
-        } else {
-            // Nearest grid point, the earlier one on a tie; a user grid need not be
-            // sorted, so every point is looked at.
-            grid.iter()
-                .enumerate()
-                .fold(None, |best: Option<(usize, f64)>, (i, &c)| {
-                    let d = (v - c).abs();
-                    match best {
-                        Some((_, bd)) if bd <= d => best,
-                        _ => Some((i, d)),
-                    }
-                })
-                .map(|(i, _)| i)
-        };
-        match slot {
+        match grid_slot(v, grid, levels.is_some()) {
             Some(i) => counts[i] += 1,
             None => missing += 1,
         }
     }
     (counts, missing)
+}
+
+/// The grid point value `v` is counted at: a categorical input's own category, a
+/// numeric input's nearest grid point (the earlier one on a tie); `None` when `v` is
+/// missing or a category not on the grid.
+pub(crate) fn grid_slot(v: f64, grid: &[f64], categorical: bool) -> Option<usize> {
+    if v.is_nan() {
+        None
+    } else if categorical {
+        grid.iter().position(|&c| c == v)
+    } else {
+        // A user grid need not be sorted, so every point is looked at.
+        grid.iter()
+            .enumerate()
+            .fold(None, |best: Option<(usize, f64)>, (i, &c)| {
+                let d = (v - c).abs();
+                match best {
+                    Some((_, bd)) if bd <= d => best,
+                    _ => Some((i, d)),
+                }
+            })
+            .map(|(i, _)| i)
+    }
 }
 
 #[cfg(test)]
@@ -419,6 +459,7 @@ mod tests {
         let effect = EffectSettings {
             grid: EffectGrid::Values(grid.clone()),
             row_curves: 7,
+            row_seed: None,
         };
         let curve = forest.effect_curve(data.x.view(), 1, &effect).unwrap();
         assert_eq!(curve.rows, vec![0, 17, 34, 51, 68, 85, 102]);
@@ -501,5 +542,51 @@ mod tests {
         )
         .unwrap();
         assert!(grid.windows(2).all(|w| w[0] < w[1]) && grid[0] == 1.0);
+    }
+
+    #[test]
+    fn seeded_rows_are_a_uniform_sample_without_repeats() {
+        // 4000 draws of 3 rows of 10: each row is chosen with probability 0.3, so its
+        // count is Binomial(4000, 0.3), mean 1200 and sd sqrt(4000 * 0.3 * 0.7) = 29;
+        // 5 sd either side is 145.
+        let mut counts = [0usize; 10];
+        for seed in 0..4000 {
+            let rows = sample_rows(10, 3, seed);
+            assert_eq!(rows.len(), 3);
+            assert!(rows.windows(2).all(|w| w[0] < w[1]) && rows[2] < 10);
+            for r in rows {
+                counts[r] += 1;
+            }
+        }
+        assert!(counts.iter().all(|&c| c.abs_diff(1200) < 145), "{counts:?}");
+        assert_eq!(sample_rows(4, 9, 1), vec![0, 1, 2, 3]);
+        // The kept curves follow the seed, and each is its row's own.
+        let data = synth::friedman1(60, 3);
+        let settings = ForestSettings {
+            trees: 5,
+            ..Default::default()
+        };
+        let forest = Forest::train(
+            data.x.view(),
+            &data.meta,
+            &data.outcome,
+            &settings,
+            &no_importance(),
+        )
+        .unwrap()
+        .forest;
+        let effect = EffectSettings {
+            grid: EffectGrid::Values(vec![0.5]),
+            row_curves: 4,
+            row_seed: Some(9),
+        };
+        let curve = forest.effect_curve(data.x.view(), 0, &effect).unwrap();
+        assert_eq!(curve.rows, sample_rows(60, 4, 9));
+        let mut changed = data.x.clone();
+        changed.column_mut(0).fill(0.5);
+        let pred = forest.predict(changed.view()).unwrap();
+        for (slot, &r) in curve.rows.iter().enumerate() {
+            assert_eq!(curve.row_curves[[slot, 0, 0]], pred[[r, 0]]);
+        }
     }
 }

@@ -19,6 +19,8 @@
 //! - [`draws`]: how many times each tree drew each row, kept on request ([`Draws`]);
 //! - [`contributions`]: exact Shapley values of each row's prediction ([`Contributions`]);
 //! - [`effects`]: effect curves of one input, mean and per row ([`EffectCurve`]);
+//! - [`effect_surface`]: effect surfaces of two inputs and their interaction
+//!   ([`EffectSurface`]);
 //! - [`significance`]: p-values for permutation importance;
 //! - [`stability`]: how one tree, bagged trees and a forest vary over seeds;
 //! - [`uncertainty`]: standard errors of predictions (infinitesimal jackknife);
@@ -55,6 +57,7 @@ pub mod card;
 pub mod contributions;
 pub mod decision;
 pub mod draws;
+pub mod effect_surface;
 pub mod effects;
 pub mod error;
 pub mod fingerprint;
@@ -89,6 +92,7 @@ pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
 pub use contributions::Contributions;
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
+pub use effect_surface::{EffectSurface, SurfaceSettings};
 pub use effects::{EffectCurve, EffectGrid, EffectSettings};
 pub use error::{io_reason, Error, ErrorKind, Result};
 pub use fingerprint::RowFingerprint;

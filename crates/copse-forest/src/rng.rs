@@ -24,6 +24,9 @@ pub(crate) enum Purpose {
     /// Permutation of input `j` among the held-out half's rows for tree `t` of one
     /// half's forest (hold-out importance; each half has its own seed).
     HalfPermute = 8,
+    /// The rows whose own curves an effect curve keeps, or the rows an effect curve
+    /// averages over when capped.
+    EffectRows = 9,
 }
 
 /// SplitMix64 output function (Steele, Lea & Flood 2014, "Fast splittable
