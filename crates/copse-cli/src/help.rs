@@ -34,6 +34,14 @@ Examples:
   copse importance --model mains.copse --data held_out.csv --repeats 30 \\
       --plot importance.svg";
 
+/// Examples of `copse effect`.
+pub const EFFECT_EXAMPLES: &str = "\
+Examples:
+  copse effect --model mains.copse --data demo-data/water_mains.csv \\
+      --input install_year --input material
+  copse effect --model mains.copse --data demo-data/water_mains.csv \\
+      --pair install_year,soil_corrosivity --out-dir effects --json > effects.json";
+
 /// Examples of `copse stability`.
 pub const STABILITY_EXAMPLES: &str = "\
 Examples:

@@ -306,7 +306,10 @@ pub fn read_inputs(mut input: CsvInput, model: &Forest, missing: Missing) -> Res
     if rows == 0 {
         return Err(Error::new(
             ErrorKind::NoRows,
-            format!("{} has a header but no data rows; add rows to read", input.name()),
+            format!(
+                "{} has a header but no data rows; add rows to read",
+                input.name()
+            ),
         ));
     }
     let x = Array2::from_shape_fn((rows, p), |(i, j)| values[i * p + j]);

@@ -68,7 +68,11 @@ impl EffectSurface {
     pub fn interaction(&self, k: usize) -> Array2<f64> {
         let layer = self.mean.index_axis(Axis(2), k);
         let (ga, gb) = layer.dim();
-        let rows: Vec<f64> = layer.rows().into_iter().map(|r| r.sum() / gb as f64).collect();
+        let rows: Vec<f64> = layer
+            .rows()
+            .into_iter()
+            .map(|r| r.sum() / gb as f64)
+            .collect();
         let cols: Vec<f64> = layer
             .columns()
             .into_iter()
@@ -225,9 +229,15 @@ mod tests {
             oob_importance: false,
             ..TrainOptions::default()
         };
-        let forest = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &options)
-            .unwrap()
-            .forest;
+        let forest = Forest::train(
+            data.x.view(),
+            &data.meta,
+            &data.outcome,
+            &settings,
+            &options,
+        )
+        .unwrap()
+        .forest;
         (forest, data)
     }
 
@@ -287,8 +297,14 @@ mod tests {
         // samples, so the additive pair may reach 1.5 times the noise level; the true
         // interaction of x1,x2 on this grid has rms 1.25 (from the formula), which the
         // forest flattens by half at most as it does one-input curves.
-        assert!(i45 < 1.5 * noise, "x4,x5 interaction {i45} against noise {noise}");
-        assert!(i12 > 3.0 * noise, "x1,x2 interaction {i12} against noise {noise}");
+        assert!(
+            i45 < 1.5 * noise,
+            "x4,x5 interaction {i45} against noise {noise}"
+        );
+        assert!(
+            i12 > 3.0 * noise,
+            "x1,x2 interaction {i12} against noise {noise}"
+        );
         assert!(i12 > 0.5 * 1.25 * 0.5, "x1,x2 interaction {i12}");
         assert!(x12.interaction_share(0) > 10.0 * x45.interaction_share(0));
         // Every row lies in one cell.
@@ -327,9 +343,15 @@ mod tests {
             oob_importance: false,
             ..TrainOptions::default()
         };
-        let forest = Forest::train(data.x.view(), &data.meta, &data.outcome, &settings, &options)
-            .unwrap()
-            .forest;
+        let forest = Forest::train(
+            data.x.view(),
+            &data.meta,
+            &data.outcome,
+            &settings,
+            &options,
+        )
+        .unwrap()
+        .forest;
         let s = SurfaceSettings::default();
         for (a, b) in [(2, 2), (0, 10)] {
             let e = forest.effect_surface(data.x.view(), a, b, &s).unwrap_err();

@@ -2,7 +2,7 @@
 //! Checks that need no files (ranges, words) happen here, so a bad flag is a usage
 //! error (exit 2) before any work starts.
 use crate::help::{
-    DEMO_EXAMPLES, EVALUATE_EXAMPLES, IMPORTANCE_EXAMPLES, INSPECT_EXAMPLES,
+    DEMO_EXAMPLES, EFFECT_EXAMPLES, EVALUATE_EXAMPLES, IMPORTANCE_EXAMPLES, INSPECT_EXAMPLES,
     MAKE_DEMO_DATA_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES,
 };
 use clap::{Args, Parser, Subcommand};
@@ -11,7 +11,9 @@ use copse_forest::Task;
 use copse_forest::{FeaturesPerSplit, Sampling};
 use std::path::PathBuf;
 
+mod effect;
 mod values;
+pub use effect::EffectArgs;
 pub use values::{DecimalArg, DelimiterArg, ImpurityArg, TaskArg};
 
 /// copse: grow an ensemble of decision trees from a CSV table, check how well it
@@ -56,6 +58,10 @@ pub enum Command {
     /// Rank inputs by permutation importance on a labelled CSV file.
     #[command(after_help = IMPORTANCE_EXAMPLES)]
     Importance(ImportanceArgs),
+    /// Draw how the predictions move as one input (or two together) changes: the
+    /// average over the rows given and a sample of single rows' curves (CSV and SVG).
+    #[command(after_help = EFFECT_EXAMPLES)]
+    Effect(EffectArgs),
     /// Compare one tree, bagged trees and a random forest over several seeds: how much
     /// their error, answers and importance ranking move.
     #[command(after_help = STABILITY_EXAMPLES)]
@@ -90,7 +96,8 @@ pub struct CsvArgs {
 }
 
 /// `--missing` of the commands that read rows for a model.
-const MODEL_MISSING: &str = "Cell texts that mean \"missing\", comma-separated; an empty cell is \
+pub(crate) const MODEL_MISSING: &str =
+    "Cell texts that mean \"missing\", comma-separated; an empty cell is \
 always missing [default: the tokens the model was trained with]";
 
 /// The roles of a training file's columns, as `copse train` and `copse stability`

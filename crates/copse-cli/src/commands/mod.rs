@@ -1,6 +1,7 @@
 //! One module per subcommand; each takes its parsed arguments and the terminal
 //! settings, does its work on the current rayon pool, and returns an error to `main`.
 pub mod demo;
+pub mod effect;
 pub mod evaluate;
 pub mod importance;
 pub mod inspect;
@@ -33,6 +34,7 @@ pub fn run(cli: Cli) -> CliResult<()> {
         Command::Score(a) => score::run(&a, &ui),
         Command::Evaluate(a) => evaluate::run(&a, &ui),
         Command::Importance(a) => importance::run(&a, &ui),
+        Command::Effect(a) => effect::run(&a, &ui),
         Command::Stability(a) => stability::run(&a, &ui),
         Command::Inspect(a) => inspect::run(&a, &ui),
         Command::Demo(a) => demo::run(&a, &ui),

@@ -12,6 +12,7 @@
 //! by flattening.
 pub mod brier_ranking;
 pub mod decision;
+pub mod effect;
 pub mod evaluate;
 pub mod figures;
 pub mod groups;
