@@ -465,6 +465,9 @@ fn class_importance_leads_with_the_brier_rise() {
     assert_eq!(j["importance_leading_measure"], "brier");
 }
 
+/// The heading of the page's effect curves, which the printed report does not have.
+const EFFECTS: &str = "HOW THE PREDICTIONS MOVE WITH THE TOP INPUTS";
+
 /// The section headings of a printed report (unindented lines after the title).
 fn printed_headings(text: &str) -> Vec<String> {
     text.lines()
@@ -505,11 +508,26 @@ fn the_html_report_is_well_formed_and_has_every_section() {
     let train_html = std::fs::read_to_string(dir.path().join("train.html")).expect("page");
     for (text, html) in [(text, train_html), (eval_text, eval_html)] {
         let heads = well_formed_headings(&html).unwrap_or_else(|e| panic!("{e}"));
-        let printed: Vec<String> = printed_headings(&text)
+        let mut printed: Vec<String> = printed_headings(&text)
             .iter()
             .map(|h| h.replace('\'', "&#39;"))
             .collect();
+        // The page adds the effect curves of the top inputs before the caution.
+        let caution = printed
+            .iter()
+            .position(|h| h == "CAUTION")
+            .expect("caution");
+        printed.insert(caution, EFFECTS.to_string());
         assert_eq!(heads, printed);
+        // Three curves (the top three inputs), each with the data's rows under it.
+        assert_eq!(
+            html.matches("the data&#39;s rows along the axis").count(),
+            3
+        );
+        assert!(
+            html.contains("rows of the data at each value")
+                || html.contains("rows of the data in each category")
+        );
         for part in [
             "CATCH BY RANK",
             "LOWEST EXPECTED COST",

@@ -103,14 +103,19 @@ pub fn run(a: &EvaluateArgs, ui: &Ui) -> CliResult<()> {
         written.extend(report_page::write_charts(dir, &charts)?);
     }
     if let Some(page) = &a.report {
-        let plain = view.text(Style::new(false));
+        let class = report_page::page_class(&model, judged.decision.as_ref());
+        let (section, effects) =
+            report_page::effect_section(&model, data.x.view(), &source, class)?;
+        let plain = report_page::with_section(&view.text(Style::new(false)), &section);
+        let mut page_charts: Vec<_> = charts.into_iter().map(|(_, c)| c).collect();
+        page_charts.extend(effects);
         report_page::write_page(
             page,
             &Page {
                 text: &plain,
                 subtitle: format!("model {}, rows from {source}", a.model.display()),
                 decision: judged.decision.as_ref(),
-                charts: charts.into_iter().map(|(_, c)| c).collect(),
+                charts: page_charts,
             },
         )?;
         written.push(("report page".to_string(), page.clone()));

@@ -1,5 +1,6 @@
 //! The files of the decision layer that `train` and `evaluate` share: the catch-by-rank
-//! and reliability charts (`--plots DIR`) and the HTML page (`--report FILE.html`).
+//! and reliability charts (`--plots DIR`) and the HTML page (`--report FILE.html`),
+//! with the page's effect curves of the top inputs.
 use crate::error::{CliError, CliResult};
 use crate::output::write_file;
 use crate::plots_decision;
@@ -92,4 +93,127 @@ pub fn write_charts(
 /// A failure when the file cannot be written.
 pub fn write_page(path: &Path, page: &Page<'_>) -> CliResult<()> {
     write_file(path, html::render(page).as_bytes())
+}
+
+/// The heading of the page's effect-curve section.
+pub const EFFECTS_HEADING: &str = "HOW THE PREDICTIONS MOVE WITH THE TOP INPUTS";
+/// Inputs drawn on the page: the top ones by importance.
+const PAGE_INPUTS: usize = 3;
+/// Rows the page's curves average over (drawn at random when the data has more), so
+/// the page stays quick to make on large files.
+const PAGE_ROWS: usize = 300;
+/// Points along each numeric input on the page.
+const PAGE_GRID: usize = 12;
+/// Single rows' curves drawn faint on the page.
+const PAGE_CURVES: usize = 20;
+
+/// The page's effect-curve section for the rows `x` of `source`: its printed text (to
+/// go before the caution, see [`with_section`]) and its charts. The inputs are the top
+/// [`PAGE_INPUTS`] by out-of-bag importance (by impurity decrease when the model has
+/// none); the curves show the chance of `class` (a class's code) or the value.
+///
+/// # Errors
+/// A failure when a curve cannot be computed or drawn.
+pub fn effect_section(
+    model: &copse_forest::Forest,
+    x: ndarray::ArrayView2<'_, f64>,
+    source: &str,
+    class: usize,
+) -> CliResult<(String, Vec<Chart>)> {
+    use crate::commands::effect::{draw_curve, output_words, quantile_grid};
+    use crate::numbers::{pct, sig};
+    use std::fmt::Write as _;
+    let ranked: Vec<(usize, String)> = match model.oob_importance() {
+        Some(p) => p.brier.as_ref().unwrap_or(&p.error).ranked(),
+        None => model.impurity_importance().ranked(),
+    }
+    .into_iter()
+    .take(PAGE_INPUTS)
+    .map(|f| (f.feature, f.name.clone()))
+    .collect();
+    let n = x.nrows();
+    let rows = copse_forest::effects::sample_rows(n, PAGE_ROWS, 1);
+    let sample = x.select(ndarray::Axis(0), &rows);
+    let words = output_words(model, class);
+    let mut text = format!("{EFFECTS_HEADING}\n");
+    let by = if model.oob_importance().is_some() {
+        "out-of-bag importance"
+    } else {
+        "impurity decrease"
+    };
+    let _ = writeln!(
+        text,
+        "  The {} inputs ranked highest by {by}; the {words} averaged over {} of the {n} rows \
+         of {source}{}.",
+        ranked.len(),
+        rows.len(),
+        if rows.len() < n {
+            " (drawn at random)"
+        } else {
+            ""
+        }
+    );
+    let value = |v: f64| {
+        if model.task() == copse_forest::Task::Classify {
+            pct(v)
+        } else {
+            sig(v, 4)
+        }
+    };
+    let mut charts = Vec::new();
+    for (j, name) in ranked {
+        let settings = copse_forest::EffectSettings {
+            grid: quantile_grid(PAGE_GRID),
+            row_curves: PAGE_CURVES,
+            row_seed: Some(1),
+        };
+        let curve = model
+            .effect_curve(sample.view(), j, &settings)
+            .map_err(|e| {
+                CliError::failure(format!(
+                    "could not compute the effect of {name}: {}",
+                    e.message()
+                ))
+            })?;
+        let avg = curve.mean.column(class);
+        let (lo, hi) = avg
+            .iter()
+            .fold((f64::MAX, f64::MIN), |(a, b), &v| (a.min(v), b.max(v)));
+        let _ = writeln!(
+            text,
+            "  {name:<24}the average moves from {} to {}",
+            value(lo),
+            value(hi)
+        );
+        charts.push(Chart {
+            after: EFFECTS_HEADING.into(),
+            caption: format!(
+                "The {words} as {name} changes: the average bold, single rows faint, the data's rows along the axis below."
+            ),
+            svg: draw_curve(model, &curve, sample.view(), class, source)?,
+        });
+    }
+    for l in crate::report::wrap(crate::report::effect::READING, crate::report::WIDTH) {
+        let _ = writeln!(text, "  {l}");
+    }
+    text.push('\n');
+    Ok((text, charts))
+}
+
+/// `text` (a printed report) with `section` placed before its caution (at the end
+/// when it has none).
+pub fn with_section(text: &str, section: &str) -> String {
+    match text.find("\nCAUTION\n") {
+        Some(i) => format!("{}\n{section}{}", &text[..i], &text[i + 1..]),
+        None => format!("{text}\n{section}"),
+    }
+}
+
+/// The class whose chance the page's curves show: the decision layer's positive class
+/// when it has one, else for two classes the second, else the first (0 for numbers).
+pub fn page_class(model: &copse_forest::Forest, decision: Option<&DecisionView>) -> usize {
+    let classes = model.classes();
+    decision
+        .and_then(|d| classes.iter().position(|c| *c == d.positive_class))
+        .unwrap_or(usize::from(classes.len() == 2))
 }

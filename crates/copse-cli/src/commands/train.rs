@@ -222,14 +222,19 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     let text = view.text(Style::new(ui.stdout_colour()));
     let json = report::json_text(&view)?;
     if let Some(page) = &a.report {
-        let plain = view.text(Style::new(false));
+        let class = report_page::page_class(&model, judged.decision.as_ref());
+        let (section, effects) =
+            report_page::effect_section(&model, data.x.view(), &data.source, class)?;
+        let plain = report_page::with_section(&view.text(Style::new(false)), &section);
+        let mut charts: Vec<Chart> = charts.into_iter().map(|(_, c)| c).collect();
+        charts.extend(effects);
         report_page::write_page(
             page,
             &Page {
                 text: &plain,
                 subtitle: judged_subtitle(&model),
                 decision: judged.decision.as_ref(),
-                charts: charts.into_iter().map(|(_, c)| c).collect(),
+                charts,
             },
         )?;
     }
