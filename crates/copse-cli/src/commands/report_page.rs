@@ -109,7 +109,7 @@ const PAGE_CURVES: usize = 20;
 
 /// The page's effect-curve section for the rows `x` of `source`: its printed text (to
 /// go before the caution, see [`with_section`]) and its charts. The inputs are the top
-/// [`PAGE_INPUTS`] by out-of-bag importance (by impurity decrease when the model has
+/// three by out-of-bag importance (by impurity decrease when the model has
 /// none); the curves show the chance of `class` (a class's code) or the value.
 ///
 /// # Errors
