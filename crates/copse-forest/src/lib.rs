@@ -86,7 +86,7 @@ pub mod uncertainty;
 pub mod unfamiliar;
 
 pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
-pub use contributions::{ContributionWalk, Contributions};
+pub use contributions::{ContributionRanking, ContributionWalk, Contributions, RANKING_ROWS};
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
 pub use effects::{EffectCurve, EffectGrid, EffectSettings};

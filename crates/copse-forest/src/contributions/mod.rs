@@ -21,6 +21,7 @@
 //! reports rows per second). The tests check both against each other and against a sum over all subsets.
 mod leaf_walk;
 mod path_walk;
+mod ranking;
 #[cfg(test)]
 mod tests;
 
@@ -29,6 +30,8 @@ use crate::forest::Forest;
 use copse_tree::Tree;
 use ndarray::{Array3, ArrayView2};
 use rayon::prelude::*;
+
+pub use ranking::{ContributionRanking, RANKING_ROWS};
 
 /// Contributions of the inputs to the forest's predictions for a batch of rows.
 #[derive(Debug, Clone, PartialEq)]
