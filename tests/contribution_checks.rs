@@ -53,7 +53,7 @@ fn and_forest() -> Forest {
         ..Default::default()
     };
     Forest::train(x.view(), &meta, &outcome, &settings, &options())
-        .unwrap()
+        .expect("fixed data")
         .forest
 }
 
@@ -66,7 +66,7 @@ fn symmetric_inputs_share_equally_and_a_dummy_gets_nothing() {
         [0.75, 0.25, 0.5],
         [0.25, 0.75, 0.1]
     ];
-    let c = forest.contributions(rows.view()).unwrap();
+    let c = forest.contributions(rows.view()).expect("fixed data");
     // Class "yes" (output 1). By hand from v(S) = E[f | x_S] with the four cells equally
     // covered: v({}) = 1/4; for x1 = x2 = 0.75, v({1}) = v({2}) = 1/2 and v({1,2}) = 1,
     // so each input gets (1/4 + 1/2) / 2 = 0.375; for both 0.25, v({1}) = v({2}) =
@@ -121,9 +121,11 @@ fn noise_inputs_of_friedman_one_get_next_to_nothing() {
         &settings,
         &options(),
     )
-    .unwrap()
+    .expect("fixed data")
     .forest;
-    let ranking = forest.contribution_ranking(fresh.x.view(), 500).unwrap();
+    let ranking = forest
+        .contribution_ranking(fresh.x.view(), 500)
+        .expect("fixed data");
     assert_eq!((ranking.rows, ranking.rows_given), (500, 1000));
     let m = &ranking.mean_abs;
     eprintln!("mean |contribution| per input: {m:.3?}");
