@@ -2,6 +2,7 @@
 //! settings, does its work on the current rayon pool, and returns an error to `main`.
 pub mod demo;
 pub mod evaluate;
+pub mod explain;
 pub mod importance;
 pub mod inspect;
 pub mod make_demo_data;
@@ -31,6 +32,7 @@ pub fn run(cli: Cli) -> CliResult<()> {
     pool.install(|| match cli.command {
         Command::Train(a) => train::run(&a, &ui),
         Command::Score(a) => score::run(&a, &ui),
+        Command::Explain(a) => explain::run(&a, &ui),
         Command::Evaluate(a) => evaluate::run(&a, &ui),
         Command::Importance(a) => importance::run(&a, &ui),
         Command::Stability(a) => stability::run(&a, &ui),
