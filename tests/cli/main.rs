@@ -12,6 +12,7 @@ use std::process::{Command, Output, Stdio};
 mod bad_input;
 mod decision_report;
 mod decisions;
+mod explain;
 mod extras;
 mod html_check;
 mod library;
