@@ -298,3 +298,50 @@ fn bad_rows_stop_with_the_line_named_and_no_output_file() {
     let (so, se) = expect_code(&copse_in(dir.path(), &bal, None), 2);
     assert!(so.is_empty() && se.contains("class-balanced"), "{se}");
 }
+
+#[test]
+fn the_importance_report_ranks_inputs_by_mean_absolute_part() {
+    let dir = tmp();
+    train_demo(dir.path());
+    let data = repo("demo-data/water_mains.csv");
+    let data = data.to_str().expect("utf-8 path");
+    let args = [
+        "importance",
+        "--model",
+        "mains.copse",
+        "--data",
+        data,
+        "--repeats",
+        "2",
+    ];
+    let (so, _) = expect_code(&copse_in(dir.path(), &args, None), 0);
+    assert!(so.contains("HOW FAR EACH INPUT MOVES A PREDICTION"), "{so}");
+    let mut json = args.to_vec();
+    json.push("--json");
+    let (so, _) = expect_code(&copse_in(dir.path(), &json, None), 0);
+    let j = json_of(&so)["contribution_ranking"].clone();
+    assert_eq!(
+        (j["rows"].as_u64(), j["rows_given"].as_u64()),
+        (Some(2000), Some(2000))
+    );
+    assert_eq!(j["output"], "class yes");
+    let ranking = j["ranking"].as_array().expect("a ranking");
+    assert_eq!(ranking.len(), 8);
+    // The same figures as the mean of the absolute parts `copse explain` writes for
+    // those rows, to the rounding of six decimals.
+    let (rows, _) = explain(dir.path(), "mains.copse", data, &["--top", "0"]);
+    let mut last = f64::INFINITY;
+    for (i, r) in ranking.iter().enumerate() {
+        assert_eq!(r["rank"].as_u64(), Some(i as u64 + 1));
+        let mean = r["mean_abs"].as_f64().expect("a mean");
+        assert!(mean <= last);
+        last = mean;
+        let name = r["feature"].as_str().expect("a name");
+        let parts = column(&rows, &format!("part_yes_{name}"));
+        let printed = parts.iter().map(|v| v.abs()).sum::<f64>() / parts.len() as f64;
+        assert!(
+            (printed - mean).abs() <= 5e-7,
+            "{name}: {printed} against {mean}"
+        );
+    }
+}
