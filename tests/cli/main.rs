@@ -13,6 +13,7 @@ mod bad_input;
 mod decision_report;
 mod decisions;
 mod effects;
+mod explain;
 mod extras;
 mod html_check;
 mod library;

@@ -21,6 +21,13 @@ Examples:
   copse score --model with_draws.copse --data new_segments.csv --uncertainty \\
       --out scored_se.csv    # a model trained with --keep-draws";
 
+/// Examples of `copse explain`.
+pub const EXPLAIN_EXAMPLES: &str = "\
+Examples:
+  copse explain --model mains.copse --data demo-data/water_mains_to_score.csv \\
+      --keep segment_id --out explained.csv
+  copse explain --model mains.copse --data new_segments.csv --top 5 | head";
+
 /// Examples of `copse evaluate`.
 pub const EVALUATE_EXAMPLES: &str = "\
 Examples:

@@ -89,7 +89,7 @@ pub mod uncertainty;
 pub mod unfamiliar;
 
 pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
-pub use contributions::Contributions;
+pub use contributions::{ContributionRanking, ContributionWalk, Contributions, RANKING_ROWS};
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
 pub use effect_surface::{EffectSurface, SurfaceSettings};

@@ -2,7 +2,8 @@
 //! Checks that need no files (ranges, words) happen here, so a bad flag is a usage
 //! error (exit 2) before any work starts.
 use crate::help::{
-    DEMO_EXAMPLES, EFFECT_EXAMPLES, EVALUATE_EXAMPLES, IMPORTANCE_EXAMPLES, INSPECT_EXAMPLES,
+    DEMO_EXAMPLES, EFFECT_EXAMPLES, EVALUATE_EXAMPLES, EXPLAIN_EXAMPLES, IMPORTANCE_EXAMPLES,
+    INSPECT_EXAMPLES,
     MAKE_DEMO_DATA_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES,
 };
 use clap::{Args, Parser, Subcommand};
@@ -52,6 +53,11 @@ pub enum Command {
     /// Predict for every row of a CSV file, streaming, in input order.
     #[command(after_help = SCORE_EXAMPLES)]
     Score(ScoreArgs),
+    /// Say for every row of a CSV file how much each input moved its prediction away
+    /// from the model's base value (exact Shapley values), with the largest reasons in
+    /// words; streaming, in input order.
+    #[command(after_help = EXPLAIN_EXAMPLES)]
+    Explain(ExplainArgs),
     /// Measure a model's accuracy on a labelled CSV file it has not seen.
     #[command(after_help = EVALUATE_EXAMPLES)]
     Evaluate(EvaluateArgs),
@@ -284,6 +290,45 @@ pub struct ScoreArgs {
 
     /// Rows read and scored together (memory use grows with it); by default sized
     /// from the model (see `copse_forest::Forest::scoring_block_rows`).
+    #[arg(long, value_name = "N", hide = true, value_parser = clap::value_parser!(u32).range(1..))]
+    pub block_rows: Option<u32>,
+}
+
+/// `copse explain`.
+#[derive(Debug, Args)]
+#[command(mut_arg("missing", |a| a.help(MODEL_MISSING)))]
+pub struct ExplainArgs {
+    /// The model file.
+    #[arg(long, value_name = "MODEL")]
+    pub model: PathBuf,
+
+    /// Rows to explain: a CSV file with a header row, or - for standard input.
+    #[arg(long, value_name = "FILE")]
+    pub data: String,
+
+    /// Where to write the explained CSV [default: standard output].
+    #[arg(long, value_name = "FILE")]
+    pub out: Option<String>,
+
+    /// Input columns to copy into the output, first (for example an id).
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub keep: Vec<String>,
+
+    /// Reasons in words per row: the inputs that moved its prediction most, largest
+    /// first (0 for none; at most the model's inputs are given).
+    #[arg(long, value_name = "K", default_value_t = 3)]
+    pub top: u16,
+
+    #[command(flatten)]
+    pub csv: CsvArgs,
+
+    /// Write a row that cannot be read (text in a numeric input, a wrong number of
+    /// fields, text that is not UTF-8) with empty cells and count it on standard error,
+    /// instead of stopping with an error.
+    #[arg(long)]
+    pub blank_unscorable: bool,
+
+    /// Rows read and explained together; by default a few hundred per thread.
     #[arg(long, value_name = "N", hide = true, value_parser = clap::value_parser!(u32).range(1..))]
     pub block_rows: Option<u32>,
 }

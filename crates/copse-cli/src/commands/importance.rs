@@ -68,6 +68,14 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
             .filter(|&b| b > 0.0),
         copse_forest::Task::Classify => None,
     };
+    // Beside the permutation ranking: how far each input moves a prediction on the
+    // same rows (capped for cost; a model trained with class balancing has none).
+    let contributions = match model.contribution_ranking(data.x.view(), copse_forest::RANKING_ROWS)
+    {
+        Ok(c) => Some(c),
+        Err(e) if e.kind() == copse_forest::ErrorKind::InvalidSetting => None,
+        Err(e) => return Err(forest_error(&e, &format!("cannot explain {source}"))),
+    };
     let training_rows = TrainingRowsView::new(&model, data.x.view(), "importance");
     if let Some(w) = &training_rows.warning {
         ui.warn(w);
@@ -81,6 +89,7 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
             rows_read: data.rows,
             repeats: a.repeats,
             baseline,
+            contributions: contributions.as_ref(),
         },
         training_rows,
     );

@@ -3,6 +3,7 @@
 pub mod demo;
 pub mod effect;
 pub mod evaluate;
+pub mod explain;
 pub mod importance;
 pub mod inspect;
 pub mod make_demo_data;
@@ -32,6 +33,7 @@ pub fn run(cli: Cli) -> CliResult<()> {
     pool.install(|| match cli.command {
         Command::Train(a) => train::run(&a, &ui),
         Command::Score(a) => score::run(&a, &ui),
+        Command::Explain(a) => explain::run(&a, &ui),
         Command::Evaluate(a) => evaluate::run(&a, &ui),
         Command::Importance(a) => importance::run(&a, &ui),
         Command::Effect(a) => effect::run(&a, &ui),

@@ -2,6 +2,7 @@
 //! has not seen, with its tests, beside the model summary (whose out-of-bag importance
 //! is listed as `oob_importance` in JSON).
 use super::brier_ranking::brier_led_table;
+use super::contribution::ContributionView;
 use super::model::ModelView;
 use super::notices::{NoticesView, TrainingRowsView};
 use super::paragraph;
@@ -10,7 +11,7 @@ use super::ranking::{
 };
 use super::{caution, Style, LABEL};
 use crate::numbers::count;
-use copse_forest::{Forest, PermutationImportance};
+use copse_forest::{ContributionRanking, Forest, PermutationImportance};
 use serde::Serialize;
 use std::fmt::Write;
 use std::path::Path;
@@ -36,12 +37,17 @@ pub struct ImportanceReport<'a> {
     /// The measure the printed ranking and the chart lead with: `brier` for classes
     /// (it sees probabilities), the error measure for numbers.
     importance_leading_measure: &'static str,
+    /// Inputs by mean absolute contribution on the same rows (null for a model trained
+    /// with class balancing, whose predictions no sum of parts gives).
+    contribution_ranking: Option<ContributionView<'a>>,
     #[serde(skip)]
     imp: &'a PermutationImportance,
     #[serde(skip)]
     baseline: Option<f64>,
     #[serde(skip)]
     model_path: &'a Path,
+    #[serde(skip)]
+    model_target: &'a str,
 }
 
 /// The rows a held-out importance was measured on.
@@ -54,6 +60,8 @@ pub struct HeldOutRows<'a> {
     pub repeats: u32,
     /// For numbers, the forest's mean squared error on those rows.
     pub baseline: Option<f64>,
+    /// The inputs by mean absolute contribution on those rows, when available.
+    pub contributions: Option<&'a ContributionRanking>,
 }
 
 impl<'a> ImportanceReport<'a> {
@@ -71,6 +79,7 @@ impl<'a> ImportanceReport<'a> {
             rows_read,
             repeats,
             baseline,
+            contributions,
         } = rows;
         let oob = ImportanceView::new(forest.oob_importance(), None, oob_baseline(forest));
         ImportanceReport {
@@ -87,9 +96,11 @@ impl<'a> ImportanceReport<'a> {
             } else {
                 imp.error.measure.key()
             },
+            contribution_ranking: contributions.map(|c| ContributionView::new(forest, c)),
             imp,
             baseline,
             model_path,
+            model_target: &forest.card().target,
         }
     }
 
@@ -144,6 +155,9 @@ impl<'a> ImportanceReport<'a> {
             "see 'copse train --shuffled-target-runs'.",
         );
         let _ = writeln!(text);
+        if let Some(c) = &self.contribution_ranking {
+            c.text(&mut text, st, self.model_target);
+        }
         caution(&mut text, st);
         text
     }

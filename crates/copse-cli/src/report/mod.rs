@@ -11,6 +11,7 @@
 //! sorted, so a view's fields can be laid out for reading and the model summary shared
 //! by flattening.
 pub mod brier_ranking;
+pub mod contribution;
 pub mod decision;
 pub mod effect;
 pub mod evaluate;

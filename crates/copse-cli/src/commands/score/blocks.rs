@@ -18,18 +18,18 @@ const KEPT_BYTES: usize = 8 << 20;
 /// never saw, how many it holds, whether the
 /// input ended with it, and the bytes of input read by the time it was filled (for
 /// progress).
-pub(super) struct Block {
-    pub(super) kept: Vec<csv::StringRecord>,
-    pub(super) x: Vec<f64>,
-    pub(super) blank: Vec<bool>,
-    pub(super) unseen: Vec<bool>,
-    pub(super) m: usize,
-    pub(super) last: bool,
-    pub(super) bytes: u64,
+pub(crate) struct Block {
+    pub(crate) kept: Vec<csv::StringRecord>,
+    pub(crate) x: Vec<f64>,
+    pub(crate) blank: Vec<bool>,
+    pub(crate) unseen: Vec<bool>,
+    pub(crate) m: usize,
+    pub(crate) last: bool,
+    pub(crate) bytes: u64,
 }
 
 impl Block {
-    pub(super) fn new(rows: usize, p: usize) -> Self {
+    pub(crate) fn new(rows: usize, p: usize) -> Self {
         Self {
             kept: (0..rows).map(|_| csv::StringRecord::new()).collect(),
             x: vec![0.0; rows * p],
@@ -43,16 +43,16 @@ impl Block {
 }
 
 /// Reads and encodes rows into blocks.
-pub(super) struct BlockReader<'a> {
-    pub(super) input: &'a mut CsvInput,
-    pub(super) enc: &'a mut RowEncoder,
-    pub(super) skipped: &'a mut Unscorable,
-    pub(super) blank_unscorable: bool,
-    pub(super) p: usize,
+pub(crate) struct BlockReader<'a> {
+    pub(crate) input: &'a mut CsvInput,
+    pub(crate) enc: &'a mut RowEncoder,
+    pub(crate) skipped: &'a mut Unscorable,
+    pub(crate) blank_unscorable: bool,
+    pub(crate) p: usize,
     /// The input columns copied to the output, by position.
-    pub(super) keep: &'a [usize],
+    pub(crate) keep: &'a [usize],
     /// The row being read (all its fields).
-    pub(super) record: csv::StringRecord,
+    pub(crate) record: csv::StringRecord,
 }
 
 impl BlockReader<'_> {
@@ -62,7 +62,7 @@ impl BlockReader<'_> {
     /// # Errors
     /// A row that cannot be read or encoded, unless `--blank-unscorable` keeps it as a
     /// blank row.
-    pub(super) fn fill(&mut self, b: &mut Block) -> CliResult<()> {
+    pub(crate) fn fill(&mut self, b: &mut Block) -> CliResult<()> {
         let p = self.p;
         let record = &mut self.record;
         b.m = 0;
@@ -120,7 +120,7 @@ impl BlockReader<'_> {
 /// behind the parallel scoring; without it (one thread), blocks are filled in turn. An
 /// error from `fill` reaches the caller after every block before it was emitted, as
 /// when filling in turn; an error from `emit` stops the filling.
-pub(super) fn each_block(
+pub(crate) fn each_block(
     fill: &mut (dyn FnMut(&mut Block) -> CliResult<()> + Send),
     first: Block,
     ahead: bool,
@@ -174,8 +174,8 @@ pub(super) fn each_block(
 /// Rows written with an empty prediction: how many, the first few lines, and the first
 /// reason in full.
 #[derive(Default)]
-pub(super) struct Unscorable {
-    pub(super) count: u64,
+pub(crate) struct Unscorable {
+    pub(crate) count: u64,
     lines: Vec<u64>,
     first: Option<String>,
 }
@@ -193,7 +193,7 @@ impl Unscorable {
         }
     }
 
-    pub(super) fn warning(&self, source: &str, rows: u64) -> String {
+    pub(crate) fn warning(&self, source: &str, rows: u64) -> String {
         let mut lines: Vec<String> = self.lines.iter().map(u64::to_string).collect();
         if self.count > self.lines.len() as u64 {
             lines.push(format!("and {} more", self.count - self.lines.len() as u64));

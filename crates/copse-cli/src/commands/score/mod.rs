@@ -8,8 +8,8 @@
 //! of the input; blocks are sized by bytes as well as rows, and keep only the model's
 //! inputs and the kept cells of each row, so the width of the input does not matter
 //! either.
-mod blocks;
-mod rows;
+pub(crate) mod blocks;
+pub(crate) mod rows;
 mod unfamiliar;
 
 use crate::args::ScoreArgs;
@@ -53,8 +53,8 @@ pub fn run(a: &ScoreArgs, ui: &Ui) -> CliResult<()> {
 /// As for [`run`].
 pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     let model = open_model(a)?;
-    let mut src = open_input(a, &model)?;
-    let keep = kept_columns(a, &src.input)?;
+    let mut src = open_input(&a.data, &a.csv, &model)?;
+    let keep = kept_columns(&a.keep, &src.input)?;
     let header = output_header(a, model.classes())?;
     let mut out = Output::create(a.out.as_deref())?;
     let output = out.name().to_string();
@@ -103,19 +103,22 @@ fn open_model(a: &ScoreArgs) -> CliResult<Forest> {
 }
 
 /// The rows to score and their encoder into the model's inputs.
-struct Source {
-    input: CsvInput,
-    enc: RowEncoder,
+pub(crate) struct Source {
+    pub(crate) input: CsvInput,
+    pub(crate) enc: RowEncoder,
 }
 
 /// Opens the rows to score, with missing tokens as given or else the model's.
 ///
 /// # Errors
 /// Input errors for a file that cannot be read or lacks the model's columns.
-fn open_input(a: &ScoreArgs, model: &Forest) -> CliResult<Source> {
-    let input = crate::commands::open_for_model(&a.data, &a.csv, model)?;
-    let missing = a
-        .csv
+pub(crate) fn open_input(
+    data: &str,
+    csv: &crate::args::CsvArgs,
+    model: &Forest,
+) -> CliResult<Source> {
+    let input = crate::commands::open_for_model(data, csv, model)?;
+    let missing = csv
         .missing
         .as_deref()
         .map_or_else(|| Missing::of_model(model), Missing::from_list);
@@ -127,9 +130,8 @@ fn open_input(a: &ScoreArgs, model: &Forest) -> CliResult<Source> {
 ///
 /// # Errors
 /// An input error naming a column the input does not have.
-fn kept_columns(a: &ScoreArgs, input: &CsvInput) -> CliResult<Vec<usize>> {
-    a.keep
-        .iter()
+pub(crate) fn kept_columns(keep: &[String], input: &CsvInput) -> CliResult<Vec<usize>> {
+    keep.iter()
         .map(|k| {
             input.column(k).ok_or_else(|| {
                 CliError::input(format!(

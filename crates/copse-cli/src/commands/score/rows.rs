@@ -11,17 +11,17 @@ use rayon::prelude::*;
 const TEXT_ROWS: usize = 2048;
 
 /// What each output row holds, and how it is written.
-pub(super) struct RowWriter<'a> {
+pub(crate) struct RowWriter<'a> {
     /// The model.
-    pub(super) forest: &'a Forest,
+    pub(crate) forest: &'a Forest,
     /// The input's name, for messages.
-    pub(super) source: &'a str,
+    pub(crate) source: &'a str,
     /// The input columns kept, by position.
-    pub(super) keep: &'a [usize],
+    pub(crate) keep: &'a [usize],
     /// Whether standard errors are written.
-    pub(super) uncertainty: bool,
+    pub(crate) uncertainty: bool,
     /// The CSV delimiter.
-    pub(super) delimiter: u8,
+    pub(crate) delimiter: u8,
 }
 
 impl RowWriter<'_> {
@@ -32,7 +32,7 @@ impl RowWriter<'_> {
     ///
     /// # Errors
     /// A model that cannot score the rows (an internal fault).
-    pub(super) fn block_text(
+    pub(crate) fn block_text(
         &self,
         b: &Block,
         unfamiliar: Option<&[bool]>,
@@ -138,7 +138,7 @@ pub(crate) fn target_size(forest: &Forest) -> f64 {
 /// # Errors
 /// None in practice (the text goes to memory); a failure of the CSV writer is reported
 /// as an internal fault.
-pub(super) fn csv_text(
+pub(crate) fn csv_text(
     delimiter: u8,
     capacity: usize,
     write: impl FnOnce(&mut csv::Writer<Vec<u8>>) -> csv::Result<()>,
