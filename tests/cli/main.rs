@@ -14,6 +14,7 @@ mod decision_report;
 mod decisions;
 mod extras;
 mod html_check;
+mod intervals;
 mod library;
 mod reliability;
 mod shapes;
