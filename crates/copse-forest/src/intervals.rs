@@ -202,11 +202,11 @@ impl Gather {
     #[inline]
     fn add(&mut self, tree: &TreeRows, leaf: usize) {
         let (ranks, counts) = tree.members(leaf);
-        let draws: u32 = counts.iter().map(|&c| u32::from(c)).sum();
+        let draws: u64 = counts.iter().map(|&c| u64::from(c)).sum();
         if draws == 0 {
             return;
         }
-        let per_draw = 1.0 / f64::from(draws);
+        let per_draw = 1.0 / draws as f64;
         for (&r, &c) in ranks.iter().zip(counts) {
             let w = &mut self.weight[r as usize];
             if *w == 0.0 {
