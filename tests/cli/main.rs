@@ -16,6 +16,7 @@ mod effects;
 mod explain;
 mod extras;
 mod html_check;
+mod intervals;
 mod library;
 mod reliability;
 mod shapes;
@@ -647,9 +648,9 @@ fn tampered_model_files_are_refused_clearly() {
     b[..4].copy_from_slice(b"PK\x03\x04");
     cases.push(("zip.copse", b, "not a copse model"));
     let mut b = good.clone();
-    b[8] = 4;
+    b[8] = 5;
     cases.push(("future.copse", b, "newer copse"));
-    // Formats 1 and 2 are earlier layouts; this copse reads format 3 only.
+    // Formats 1 and 2 are earlier layouts; this copse reads formats 3 and 4.
     for old in [1, 2] {
         let mut b = good.clone();
         b[8] = old;

@@ -198,6 +198,7 @@ fn exercise(model: &Model) {
         awkward[(i + j) % awkward.len()]
     });
     let _ = model.predict(x.view());
+    let _ = model.outcome_intervals(x.view(), 0.9);
     let classes = (!model.classes().is_empty()).then(|| model.classes());
     for t in model.trees().iter().take(8) {
         let _ = copse_tree::render::render(t, model.meta(), classes);

@@ -11,7 +11,9 @@
 //! of changes between neighbours; the factor is the outcome's Gini impurity). Each node
 //! takes 16 bytes, a leaf's output and weight included; a leaf with three or more
 //! classes also keeps a table of its class shares, 8 bytes a class, as the engine
-//! stores it; `--keep-draws` adds a byte per row and tree.
+//! stores it; `--keep-draws` adds a byte per row and tree; `--keep-leaf-rows` adds,
+//! per tree, 5 bytes for each distinct row drawn and 4 per node, and 8 bytes a row
+//! once (copse_forest's `leaf_rows`).
 //!
 //! The peak comes when the model is saved: the model and its encoded file (about the
 //! same size) are in memory together, beside the per-row tables of the out-of-bag pass
@@ -19,6 +21,7 @@
 //! the file and its binned copy, and the program itself. Checked against peaks measured
 //! for 2, 3, 100 and 1,000 classes (tests/cli/reliability.rs): within a factor 1.5,
 //! above rather than below when the data has structure (pure leaves come earlier).
+use copse_forest::leaf_rows::{LEAF_MEMBER_BYTES, LEAF_NODE_BYTES};
 use copse_forest::Sampling;
 
 /// Bytes of one tree node in memory, as the engine lays it out.
@@ -41,6 +44,8 @@ pub struct Request {
     pub sampling: Sampling,
     /// Whether the in-bag counts are kept (`--keep-draws`: a byte per row and tree).
     pub keep_draws: bool,
+    /// Whether the leaf rows are kept (`--keep-leaf-rows`).
+    pub keep_leaf_rows: bool,
     /// Gini impurity of the class outcome (1 - sum of squared class shares), the share
     /// of neighbouring rows whose classes differ; 1 for regression.
     pub mixing: f64,
@@ -87,6 +92,7 @@ impl Request {
             outputs: data.classes().len().max(1) as u64,
             sampling: settings.sampling,
             keep_draws,
+            keep_leaf_rows: false,
             mixing,
             inputs: data.features.len() as u64,
         }
@@ -121,8 +127,18 @@ pub fn model_bytes(r: &Request) -> f64 {
         0.0
     };
     let draws = if r.keep_draws { r.rows as f64 } else { 0.0 };
-    let per_tree = nodes * NODE_BYTES as f64 + leaves * 8.0 * shares + draws;
-    per_tree * r.trees as f64
+    let members = if r.keep_leaf_rows {
+        distinct * LEAF_MEMBER_BYTES as f64 + (nodes + 1.0) * LEAF_NODE_BYTES as f64
+    } else {
+        0.0
+    };
+    let per_tree = nodes * NODE_BYTES as f64 + leaves * 8.0 * shares + draws + members;
+    let outcomes = if r.keep_leaf_rows {
+        8.0 * r.rows as f64
+    } else {
+        0.0
+    };
+    per_tree * r.trees as f64 + outcomes
 }
 
 /// Estimated peak bytes of the whole training run: the model and its encoded file
@@ -175,6 +191,7 @@ mod tests {
             outputs: 2,
             sampling: Sampling::Whole,
             keep_draws: false,
+            keep_leaf_rows: false,
             mixing: 1.0,
             inputs: 4,
         };
@@ -189,6 +206,14 @@ mod tests {
             ..base
         };
         assert!((model_bytes(&draws) - want - 10_000.0 * 100.0).abs() < 1.0);
+        // Kept leaf rows: every row drawn once (no resampling) at 5 bytes, 4 bytes per
+        // node and one more per tree, and the 10,000 outcomes at 8 bytes.
+        let leaf_rows = Request {
+            keep_leaf_rows: true,
+            ..base
+        };
+        let extra = (5.0 * 10_000.0 + 4.0 * 20_000.0) * 100.0 + 8.0 * 10_000.0;
+        assert!((model_bytes(&leaf_rows) - want - extra).abs() < 1.0);
         let bigger_leaves = Request {
             min_leaf: 10,
             ..base

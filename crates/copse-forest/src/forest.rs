@@ -5,6 +5,7 @@ use crate::draws::Draws;
 use crate::error::{Error, ErrorKind, Result};
 use crate::fingerprint::RowFingerprint;
 use crate::importance::{Importance, PermutationImportance};
+use crate::leaf_rows::LeafRows;
 use crate::oob_summary::{OobReport, OobSummary};
 use crate::outcome::{Outcome, MISSING};
 use crate::settings::ForestSettings;
@@ -44,6 +45,9 @@ pub struct Forest {
     pub(crate) prior_shift: Option<Vec<f64>>,
     /// A fingerprint of the training rows' inputs, to recognise them later.
     pub(crate) fingerprint: RowFingerprint,
+    /// The training rows of every leaf and the training outcomes, when kept
+    /// ([`crate::TrainOptions::keep_leaf_rows`]); model format 4 on.
+    pub(crate) leaf_rows: Option<LeafRows>,
 }
 
 /// What [`Forest::train`] returns: the model, and the per-row out-of-bag results that
@@ -181,9 +185,11 @@ impl Forest {
         self.trees.iter().map(|t| t.nodes().len()).sum()
     }
 
-    /// Bytes the trees occupy in memory.
+    /// Bytes the trees, and the leaf rows when kept ([`LeafRows::heap_bytes`]),
+    /// occupy in memory.
     pub fn heap_bytes(&self) -> usize {
-        self.trees.iter().map(Tree::heap_bytes).sum()
+        self.trees.iter().map(Tree::heap_bytes).sum::<usize>()
+            + self.leaf_rows.as_ref().map_or(0, LeafRows::heap_bytes)
     }
 
     /// Checks what a model read from a file must satisfy before it is used: every
@@ -269,6 +275,12 @@ impl Forest {
         }
         if let Some(draws) = &self.draws {
             draws.check(self.training_rows, self.trees.len())?;
+        }
+        if let Some(rows) = &self.leaf_rows {
+            if self.task != Task::Regress {
+                return whole("it keeps leaf rows, which only regression models keep".into());
+            }
+            rows.check(&self.trees)?;
         }
         Ok(())
     }

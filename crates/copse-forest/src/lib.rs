@@ -21,6 +21,9 @@
 //! - [`effects`]: effect curves of one input, mean and per row ([`EffectCurve`]);
 //! - [`effect_surface`]: effect surfaces of two inputs and their interaction
 //!   ([`EffectSurface`]);
+//! - [`leaf_rows`]: the training rows of every leaf, kept on request ([`LeafRows`]);
+//! - [`intervals`]: outcome quantiles and ranges of numeric outcomes (quantile
+//!   regression forests) and their out-of-bag check ([`IntervalCheck`]);
 //! - [`significance`]: p-values for permutation importance;
 //! - [`stability`]: how one tree, bagged trees and a forest vary over seeds;
 //! - [`uncertainty`]: standard errors of predictions (infinitesimal jackknife);
@@ -64,7 +67,9 @@ pub mod fingerprint;
 pub mod forest;
 pub mod held_out;
 pub mod importance;
+pub mod intervals;
 mod leaf_paths;
+pub mod leaf_rows;
 mod loss;
 pub mod metrics;
 pub mod model_file;
@@ -101,6 +106,8 @@ pub use importance::{
     FeatureImportance, Importance, ImportanceMeasure, ImportanceMethod, PermutationImportance,
     IMPURITY_CAUTION,
 };
+pub use intervals::IntervalCheck;
+pub use leaf_rows::LeafRows;
 pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics};
 pub use oob_summary::{OobReport, OobSummary};
 pub use outcome::{natural_order, Outcome, MISSING};

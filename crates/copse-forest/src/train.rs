@@ -7,6 +7,8 @@ use crate::error::{bad_setting, Error, ErrorKind, Result};
 use crate::fingerprint::RowFingerprint;
 use crate::forest::{Forest, Trained};
 use crate::importance::impurity_importance;
+use crate::intervals::{oob_check, OOB_CHECK_LEVEL};
+use crate::leaf_rows::{outcome_ranks, LeafRows, TreeRows};
 use crate::oob::{out_of_bag, OobMask};
 use crate::oob_importance::oob_permutation;
 use crate::outcome::Outcome;
@@ -30,6 +32,13 @@ pub struct TrainOptions<'a> {
     /// row and tree; see [`Draws`]). Needed for standard errors of predictions
     /// ([`Forest::prediction_uncertainty`]). Default false.
     pub keep_draws: bool,
+    /// Keep in the model the training rows of every leaf with their draw counts and
+    /// the training outcomes (see [`LeafRows`] for the bytes), so that
+    /// [`Forest::outcome_quantiles`] and [`Forest::outcome_intervals`] can give
+    /// quantiles and ranges of the outcome; training also measures how often outcomes
+    /// fall inside their out-of-bag 90% range ([`LeafRows::oob_check`]). Regression
+    /// only. Default false.
+    pub keep_leaf_rows: bool,
     /// Told about progress (for a progress bar); reports may come from several threads
     /// at once. Default none.
     pub progress: Option<&'a (dyn Fn(Progress) + Sync)>,
@@ -40,6 +49,7 @@ impl Default for TrainOptions<'_> {
         TrainOptions {
             oob_importance: true,
             keep_draws: false,
+            keep_leaf_rows: false,
             progress: None,
         }
     }
@@ -50,6 +60,7 @@ impl std::fmt::Debug for TrainOptions<'_> {
         f.debug_struct("TrainOptions")
             .field("oob_importance", &self.oob_importance)
             .field("keep_draws", &self.keep_draws)
+            .field("keep_leaf_rows", &self.keep_leaf_rows)
             .field("progress", &self.progress.map(|_| "callback"))
             .finish()
     }
@@ -62,6 +73,8 @@ struct Grown {
     oob: OobMask,
     /// Draw counts and how many saturated, when asked for.
     draws: Option<(Vec<u8>, usize)>,
+    /// The rows of each leaf, when asked for.
+    leaf_rows: Option<TreeRows>,
 }
 
 impl Forest {
@@ -136,6 +149,16 @@ impl Forest {
         tree_settings.validate()?;
         let target = outcome.view()?;
         let sampler = Sampler::new(outcome, settings.sampling, settings.balanced)?;
+        let ranks = match (options.keep_leaf_rows, outcome) {
+            (false, _) => None,
+            (true, Outcome::Values(y)) => Some(outcome_ranks(y)),
+            (true, Outcome::Classes { .. }) => {
+                return bad_setting(
+                    "leaf rows are kept for quantiles of a numeric outcome; this outcome is \
+                     classes, so drop keep_leaf_rows",
+                )
+            }
+        };
 
         let n_trees = settings.trees;
         let done = AtomicUsize::new(0);
@@ -151,6 +174,9 @@ impl Forest {
                     let bag_weight = weights.iter().sum();
                     let oob = OobMask::from_weights(weights);
                     let draws = options.keep_draws.then(|| Draws::column(weights));
+                    let leaf_rows = ranks
+                        .as_ref()
+                        .map(|(rank, _)| TreeRows::collect(&tree, x, weights, rank));
                     let d = done.fetch_add(1, Ordering::Relaxed) + 1;
                     progress(Progress {
                         stage: Stage::Growing,
@@ -162,6 +188,7 @@ impl Forest {
                         bag_weight,
                         oob,
                         draws,
+                        leaf_rows,
                     })
                 },
             )
@@ -174,6 +201,7 @@ impl Forest {
         let mut bag_weights = Vec::with_capacity(n_trees);
         let mut draw_columns = Vec::new();
         let mut saturated = 0;
+        let mut tree_rows = Vec::new();
         for g in grown {
             trees.push(g.tree);
             masks.push(g.oob);
@@ -182,6 +210,7 @@ impl Forest {
                 draw_columns.push(col);
                 saturated += sat;
             }
+            tree_rows.extend(g.leaf_rows);
         }
         let draws = options
             .keep_draws
@@ -213,6 +242,14 @@ impl Forest {
         } else {
             None
         };
+        let leaf_rows = match (ranks, outcome) {
+            (Some((_, sorted)), Outcome::Values(y)) => {
+                let mut rows = LeafRows::new(sorted, tree_rows);
+                rows.oob_check = oob_check(&trees, &masks, x, y, &rows, OOB_CHECK_LEVEL);
+                Some(rows)
+            }
+            _ => None,
+        };
         let impurity =
             impurity_importance(&trees, &bag_weights, meta, outcome, settings.tree.impurity);
         let (task, classes) = match outcome {
@@ -236,6 +273,7 @@ impl Forest {
             card,
             prior_shift,
             fingerprint,
+            leaf_rows,
         };
         Ok(Trained {
             forest,

@@ -221,6 +221,13 @@ pub struct TrainArgs {
     #[arg(long)]
     pub keep_draws: bool,
 
+    /// Keep in the model the rows each leaf was grown on and the training outcomes
+    /// (about 3 bytes per row and tree under the bootstrap, plus 4 per node), so that
+    /// 'copse score --interval' can give ranges of a numeric target; the report then
+    /// says how often outcomes fell inside their out-of-bag 90% range.
+    #[arg(long)]
+    pub keep_leaf_rows: bool,
+
     /// Test each input's importance against N forests trained on a shuffled target and
     /// report p-values (costs N more forests; 199 gives p-values down to 0.005).
     #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..=100_000))]
@@ -272,6 +279,13 @@ pub struct ScoreArgs {
     /// for each class probability); the model must have been trained with --keep-draws.
     #[arg(long)]
     pub uncertainty: bool,
+
+    /// Add the range the target probably falls in, at this coverage between 0 and 1:
+    /// with 0.9, columns low_90 and high_90 (the 5% and 95% quantiles of the training
+    /// outcomes sharing the row's leaves); the model must have been trained with
+    /// --keep-leaf-rows on a numeric target.
+    #[arg(long, value_name = "LEVEL", value_parser = parse_coverage)]
+    pub interval: Option<f64>,
 
     /// Add a column 'unfamiliar': 1 for a row with a value outside the range the model
     /// was trained on or a category it never saw (the forest predicts flat there), else
@@ -508,6 +522,16 @@ pub struct MakeDemoDataArgs {
 fn parse_features_per_split(s: &str) -> Result<FeaturesPerSplit, String> {
     s.parse::<FeaturesPerSplit>()
         .map_err(|e| e.message().to_string())
+}
+
+fn parse_coverage(s: &str) -> Result<f64, String> {
+    match s.trim().parse::<f64>() {
+        Ok(v) if v > 0.0 && v < 1.0 => Ok(v),
+        _ => Err(format!(
+            "'{s}' is not a coverage strictly between 0 and 1; give one such as 0.9 (for a range \
+             from the 5% to the 95% quantile)"
+        )),
+    }
 }
 
 fn renamed_shuffled_target_runs(_: &str) -> Result<u32, String> {

@@ -90,6 +90,14 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
              --sampling bootstrap without --balanced, or drop --keep-draws",
         ));
     }
+    if a.keep_leaf_rows && data.task != Task::Regress {
+        return Err(CliError::input(format!(
+            "--keep-leaf-rows keeps the training outcomes for ranges of a numeric target, but the \
+             target '{}' is read as classes; drop --keep-leaf-rows (class probabilities already \
+             say how sure the model is), or use --task regress if the target holds numbers",
+            data.target
+        )));
+    }
     if a.shuffled_target_runs.is_some() && a.sampling == Sampling::Whole {
         return Err(CliError::input(
             "--shuffled-target-runs compares out-of-bag importances, and --sampling none leaves no \
@@ -124,6 +132,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     }
     let options = TrainOptions {
         keep_draws: a.keep_draws,
+        keep_leaf_rows: a.keep_leaf_rows,
         ..TrainOptions::default()
     };
     let rows_used = data.outcome.n_labelled();
@@ -284,7 +293,10 @@ fn check_memory(data: &TrainingData, settings: &ForestSettings, a: &TrainArgs) -
     let Some(available) = memory::available_bytes() else {
         return Ok(());
     };
-    let request = memory::Request::new(data, settings, a.keep_draws);
+    let request = memory::Request {
+        keep_leaf_rows: a.keep_leaf_rows,
+        ..memory::Request::new(data, settings, a.keep_draws)
+    };
     let need = memory::peak_bytes(&request);
     if need > available as f64 {
         return Err(CliError::input(format!(

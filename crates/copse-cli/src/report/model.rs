@@ -128,6 +128,7 @@ pub struct SettingsView {
     bins: usize,
     seed: u64,
     keep_draws: bool,
+    keep_leaf_rows: bool,
 }
 
 impl SettingsView {
@@ -145,6 +146,7 @@ impl SettingsView {
             bins: s.bins,
             seed: s.seed,
             keep_draws: model.draws().is_some(),
+            keep_leaf_rows: model.leaf_rows().is_some(),
         }
     }
 }
@@ -211,6 +213,20 @@ pub struct OobView<'a> {
     measures: MeasuresView<'a>,
     rows_never_out_of_bag: usize,
     rows_without_target: usize,
+    /// With kept leaf rows: how often training outcomes fell inside their out-of-bag
+    /// range.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    outcome_range: Option<RangeCheckView>,
+}
+
+/// The out-of-bag check of the outcome ranges (`--keep-leaf-rows`): the coverage asked
+/// for, the rows judged, the share whose outcome lay inside, the mean width.
+#[derive(Debug, Serialize)]
+pub struct RangeCheckView {
+    coverage: f64,
+    rows: usize,
+    share_inside: f64,
+    mean_width: f64,
 }
 
 impl<'a> OobView<'a> {
@@ -220,6 +236,15 @@ impl<'a> OobView<'a> {
             measures: MeasuresView::new(o.metrics.as_ref()),
             rows_never_out_of_bag: o.rows_never_oob,
             rows_without_target: o.rows_missing_outcome,
+            outcome_range: model
+                .leaf_rows()
+                .and_then(|r| r.oob_check())
+                .map(|c| RangeCheckView {
+                    coverage: c.level,
+                    rows: c.rows,
+                    share_inside: c.share_inside(),
+                    mean_width: c.mean_width,
+                }),
         }
     }
 }

@@ -3,7 +3,7 @@
 use super::measures::{class_block, value_block};
 use super::model::impurity_name;
 use super::{line, Style};
-use crate::numbers::{count, decimal_bytes, pct, plain, sig, trim_num};
+use crate::numbers::{count, decimal_bytes, pct, pct_short, plain, sig, trim_num};
 use copse_forest::{FeatureKind, FeaturesPerSplit, Forest as Model, Metrics, Sampling, Task};
 use std::fmt::Write;
 
@@ -216,6 +216,16 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
             ),
         );
     }
+    if let Some(rows) = f.leaf_rows() {
+        line(
+            out,
+            "leaf rows kept",
+            &format!(
+                "yes, {} (for 'copse score --interval')",
+                decimal_bytes(rows.heap_bytes() as u64)
+            ),
+        );
+    }
     if let Some(t) = threads {
         line(out, "threads", &t.to_string());
     }
@@ -262,9 +272,35 @@ pub fn oob_section(out: &mut String, st: Style, model: &Model) {
         }
         Some(Metrics::Values(m)) => {
             value_block(out, m, "rows judged");
+            range_check(out, f);
         }
     }
     let _ = writeln!(out);
+}
+
+/// With kept leaf rows, how often training outcomes fell inside their out-of-bag range.
+fn range_check(out: &mut String, model: &Model) {
+    let Some(c) = model.leaf_rows().and_then(|r| r.oob_check()) else {
+        return;
+    };
+    line(
+        out,
+        &format!("{} ranges", pct_short(c.level)),
+        &format!(
+            "{} of {} inside their out-of-bag range, mean width {}",
+            pct(c.share_inside()),
+            count(c.rows, "row", "rows"),
+            sig(c.mean_width, 4)
+        ),
+    );
+    let _ = writeln!(
+        out,
+        "  (a range runs from the {} to the {} quantile of the training outcomes sharing the\n   \
+         row's leaves in the trees that left it out; coverage holds on average over rows, not\n   \
+         for each row)",
+        pct_short((1.0 - c.level) / 2.0),
+        pct_short((1.0 + c.level) / 2.0)
+    );
 }
 
 /// Advice when a rare class is mostly missed at the plain majority vote.

@@ -1,6 +1,7 @@
 //! Saving and loading a [`Forest`]: its file bytes through the container, written
-//! through a temporary file and a rename, read back with every check.
-use super::{decode, encode, read};
+//! through a temporary file and a rename, read back with every check. Files of format
+//! 3 (before leaf rows could be kept) are read as models without leaf rows.
+use super::{decode_payload, encode, open, read_file};
 use crate::error::{io_reason, Error, ErrorKind, Result};
 use crate::forest::Forest;
 use std::io::{self, Write};
@@ -44,7 +45,12 @@ impl Forest {
     /// # Errors
     /// As for [`Forest::load`], without `Io`.
     pub fn from_bytes(bytes: &[u8], name: &str) -> Result<Forest> {
-        decode::<Forest>(bytes, name)?.checked(name)
+        let (version, payload) = open(bytes, name)?;
+        let forest = match version {
+            3 => decode_payload::<FormatThree>(payload, name)?.into(),
+            _ => decode_payload::<Forest>(payload, name)?,
+        };
+        forest.checked(name)
     }
 
     /// Writes the model file to `path` through a temporary file in the same folder
@@ -102,7 +108,7 @@ impl Forest {
     /// `FileTooLarge` or `InvalidModel`, each naming the file and saying what to do.
     pub fn load(path: impl AsRef<Path>) -> Result<Forest> {
         let path = path.as_ref();
-        read::<Forest>(path)?.checked(&path.display().to_string())
+        Forest::from_bytes(&read_file(path)?, &path.display().to_string())
     }
 
     fn checked(self, name: &str) -> Result<Forest> {
@@ -116,5 +122,49 @@ impl Forest {
             )
         })?;
         Ok(self)
+    }
+}
+
+/// A forest as format 3 stored it: the fields of [`Forest`] in order, without the leaf
+/// rows that format 4 added at the end.
+#[derive(serde::Deserialize)]
+struct FormatThree {
+    meta: Vec<copse_tree::FeatureMeta>,
+    task: crate::task::Task,
+    classes: Vec<String>,
+    trees: Vec<copse_tree::Tree>,
+    settings: crate::settings::ForestSettings,
+    features_per_split: usize,
+    training_rows: usize,
+    oob: crate::oob_summary::OobSummary,
+    oob_importance: Option<crate::importance::PermutationImportance>,
+    impurity_importance: crate::importance::Importance,
+    draws: Option<crate::draws::Draws>,
+    bins: Vec<copse_tree::FeatureBins>,
+    card: crate::card::ModelCard,
+    prior_shift: Option<Vec<f64>>,
+    fingerprint: crate::fingerprint::RowFingerprint,
+}
+
+impl From<FormatThree> for Forest {
+    fn from(f: FormatThree) -> Self {
+        Forest {
+            meta: f.meta,
+            task: f.task,
+            classes: f.classes,
+            trees: f.trees,
+            settings: f.settings,
+            features_per_split: f.features_per_split,
+            training_rows: f.training_rows,
+            oob: f.oob,
+            oob_importance: f.oob_importance,
+            impurity_importance: f.impurity_importance,
+            draws: f.draws,
+            bins: f.bins,
+            card: f.card,
+            prior_shift: f.prior_shift,
+            fingerprint: f.fingerprint,
+            leaf_rows: None,
+        }
     }
 }

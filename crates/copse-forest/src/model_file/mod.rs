@@ -25,10 +25,13 @@ use std::path::Path;
 
 /// First eight bytes of every model file.
 pub const MAGIC: [u8; 8] = [0xC0, b'P', b'S', b'E', b'M', b'D', b'\r', b'\n'];
-/// The format this build writes and the only one it reads. Format 3 is the forest
-/// with its model card (format 2 held a command-line schema beside the forest; format
-/// 1 stored leaf outputs in tables beside the nodes).
-pub const FORMAT_VERSION: u16 = 3;
+/// The format this build writes. Format 4 adds the leaf rows a model may keep
+/// (`Forest::leaf_rows`); format 3 is the forest with its model card, still read (as a
+/// model without leaf rows); format 2 held a command-line schema beside the forest and
+/// format 1 stored leaf outputs in tables beside the nodes, and neither is read.
+pub const FORMAT_VERSION: u16 = 4;
+/// The oldest format this build reads.
+pub const OLDEST_READ_VERSION: u16 = 3;
 /// Bytes before the payload.
 pub const HEADER_LEN: usize = 20;
 /// Bytes after the payload.
@@ -127,13 +130,13 @@ fn check_header(header: &[u8], file_len: u64, name: &str) -> Result<u64> {
             ),
         ));
     }
-    if (1..FORMAT_VERSION).contains(&version) {
+    if (1..OLDEST_READ_VERSION).contains(&version) {
         return Err(fault(
             OlderFormat,
             format!(
                 "{name} was written by an earlier copse (model format {version}; this copse reads \
-                 format {FORMAT_VERSION} only); the model must be trained again with this copse \
-                 ('copse train')"
+                 formats {OLDEST_READ_VERSION} to {FORMAT_VERSION}); the model must be trained again \
+                 with this copse ('copse train')"
             ),
         ));
     }
@@ -175,6 +178,12 @@ fn check_header(header: &[u8], file_len: u64, name: &str) -> Result<u64> {
 /// `Undecodable`, each
 /// with a message saying what to do.
 pub fn decode<T: DeserializeOwned>(bytes: &[u8], name: &str) -> Result<T> {
+    decode_payload(open(bytes, name)?.1, name)
+}
+
+/// Checks the container of a model file (marker, version, length, checksum) and
+/// returns its format version and payload; `name` names it in messages.
+pub(crate) fn open<'a>(bytes: &'a [u8], name: &str) -> Result<(u16, &'a [u8])> {
     let head = &bytes[..bytes.len().min(HEADER_LEN)];
     let claimed = check_header(head, bytes.len() as u64, name)?;
     let body_end = HEADER_LEN + claimed as usize;
@@ -191,7 +200,10 @@ pub fn decode<T: DeserializeOwned>(bytes: &[u8], name: &str) -> Result<T> {
             ),
         ));
     }
-    decode_payload(&bytes[HEADER_LEN..body_end], name)
+    Ok((
+        u16::from_le_bytes([bytes[8], bytes[9]]),
+        &bytes[HEADER_LEN..body_end],
+    ))
 }
 
 /// Runs the decoder with a byte limit of `$bits` bits, the first that covers the payload.
@@ -212,7 +224,7 @@ macro_rules! decode_with_limit {
     }};
 }
 
-fn decode_payload<T: DeserializeOwned>(payload: &[u8], name: &str) -> Result<T> {
+pub(crate) fn decode_payload<T: DeserializeOwned>(payload: &[u8], name: &str) -> Result<T> {
     // The limit bounds what the decoder may claim, and so allocate, to at most eight
     // times the payload's size (and at least 128 KiB).
     let result: std::result::Result<(T, usize), bincode::error::DecodeError> =
@@ -242,6 +254,14 @@ fn decode_payload<T: DeserializeOwned>(payload: &[u8], name: &str) -> Result<T> 
 /// # Errors
 /// As for [`decode`], plus [`ErrorKind::Io`] and `FileTooLarge`.
 pub fn read<T: DeserializeOwned>(path: &Path) -> Result<T> {
+    decode(&read_file(path)?, &path.display().to_string())
+}
+
+/// The bytes of the model file at `path`, its header checked before the rest is read.
+///
+/// # Errors
+/// `Io`, `FileTooLarge`, and the header's faults as for [`decode`].
+pub(crate) fn read_file(path: &Path) -> Result<Vec<u8>> {
     let name = path.display().to_string();
     let io_err = |e: io::Error| {
         fault(
@@ -281,7 +301,7 @@ pub fn read<T: DeserializeOwned>(path: &Path) -> Result<T> {
     f.take(file_len - HEADER_LEN as u64)
         .read_to_end(&mut bytes)
         .map_err(io_err)?;
-    decode(&bytes, &name)
+    Ok(bytes)
 }
 
 mod forest_file;

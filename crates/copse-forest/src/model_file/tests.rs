@@ -216,3 +216,47 @@ fn altered_contents_with_a_valid_checksum_never_panic() {
     );
     assert!(refused >= 1, "no altered file was refused");
 }
+
+/// The same for a regression model that keeps its leaf rows: whatever single bit is
+/// changed (checksum recomputed), a model that passes the checks on reading gives
+/// outcome ranges without a panic.
+#[test]
+fn altered_leaf_rows_with_a_valid_checksum_never_panic() {
+    use rand::{RngExt, SeedableRng};
+    let d = crate::synth::friedman1(60, 3);
+    let settings = crate::ForestSettings {
+        trees: 2,
+        seed: 2,
+        ..crate::ForestSettings::default()
+    };
+    let options = crate::TrainOptions {
+        keep_leaf_rows: true,
+        oob_importance: false,
+        ..crate::TrainOptions::default()
+    };
+    let forest = Forest::train(d.x.view(), &d.meta, &d.outcome, &settings, &options)
+        .unwrap()
+        .forest;
+    let bytes = forest.to_bytes().unwrap();
+    let n = bytes.len();
+    let mut rng = rand_xoshiro::Xoshiro256PlusPlus::seed_from_u64(12);
+    let (mut decoded, mut refused) = (0, 0);
+    for _ in 0..400 {
+        let mut b = bytes.clone();
+        let at = rng.random_range(HEADER_LEN..n - TRAILER_LEN);
+        b[at] ^= 1 << rng.random_range(0..8);
+        let crc = crc32fast::hash(&b[..n - 4]);
+        b[n - 4..].copy_from_slice(&crc.to_le_bytes());
+        match Forest::from_bytes(&b, "hostile") {
+            Ok(m) => {
+                decoded += 1;
+                assert!(m.outcome_intervals(d.x.view(), 0.9).is_ok());
+            }
+            Err(_) => refused += 1,
+        }
+    }
+    assert!(
+        decoded >= 1 && refused >= 1,
+        "{decoded} decoded, {refused} refused"
+    );
+}

@@ -3,7 +3,9 @@
 //! `prob_<class>` column per class; with `--uncertainty`, a standard error per output
 //! (`se_prediction`, or `se_<class>` per class probability) by the bias-corrected
 //! infinitesimal jackknife; with `--flag-unfamiliar`, `unfamiliar` (1 for a row outside
-//! the training ranges, else 0). Memory stays bounded by the block size (two blocks: one read
+//! the training ranges, else 0); with `--interval C`, `low_<C>` and `high_<C>` (the
+//! range at coverage C from the training outcomes sharing the row's leaves, as
+//! percentages: `low_90`, `high_90`). Memory stays bounded by the block size (two blocks: one read
 //! ahead while the other is scored, when more than one thread runs) whatever the length
 //! of the input; blocks are sized by bytes as well as rows, and keep only the model's
 //! inputs and the kept cells of each row, so the width of the input does not matter
@@ -56,6 +58,7 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     let mut src = open_input(&a.data, &a.csv, &model)?;
     let keep = kept_columns(&a.keep, &src.input)?;
     let header = output_header(a, model.classes())?;
+    check_interval(a, &model)?;
     let mut out = Output::create(a.out.as_deref())?;
     let output = out.name().to_string();
     let written = write_blocks(a, ui, &model, &mut src, &keep, &header, &mut out)?;
@@ -100,6 +103,38 @@ fn open_model(a: &ScoreArgs) -> CliResult<Forest> {
         )));
     }
     Ok(model)
+}
+
+/// Refuses `--interval` for a class model or a model without its leaf rows.
+///
+/// # Errors
+/// An input error saying how to retrain.
+fn check_interval(a: &ScoreArgs, model: &Forest) -> CliResult<()> {
+    if a.interval.is_none() {
+        return Ok(());
+    }
+    if !model.classes().is_empty() {
+        return Err(CliError::input(format!(
+            "--interval gives ranges of a numeric target, but {} predicts classes of '{}'; its \
+             class probabilities already say how sure it is: drop --interval",
+            a.model.display(),
+            model.card().target
+        )));
+    }
+    if model.leaf_rows().is_none() {
+        return Err(CliError::input(format!(
+            "{} did not keep the rows of its leaves, which --interval needs; retrain it with \
+             'copse train ... --keep-leaf-rows'",
+            a.model.display()
+        )));
+    }
+    Ok(())
+}
+
+/// The name of a range column: `low` or `high`, then the coverage as a percentage
+/// (`low_90`, `high_97.5`).
+fn range_column(end: &str, coverage: f64) -> String {
+    format!("{end}_{}", crate::numbers::trim_num(100.0 * coverage, 6))
 }
 
 /// The rows to score and their encoder into the model's inputs.
@@ -161,6 +196,10 @@ fn output_header(a: &ScoreArgs, classes: &[String]) -> CliResult<Vec<String>> {
             header.extend(classes.iter().map(|c| format!("se_{c}")));
         }
     }
+    if let Some(c) = a.interval {
+        header.push(range_column("low", c));
+        header.push(range_column("high", c));
+    }
     if a.flag_unfamiliar {
         header.push("unfamiliar".to_string());
     }
@@ -220,6 +259,7 @@ fn write_blocks(
         source: &source,
         keep,
         uncertainty: a.uncertainty,
+        interval: a.interval,
         delimiter,
     };
     let mut written = Written {
@@ -287,7 +327,8 @@ fn write_blocks(
 /// text (about 24 bytes a field) and the row's own bookkeeping.
 fn row_bytes(a: &ScoreArgs, forest: &Forest, kept: usize) -> usize {
     let fields = (forest.n_outputs() + 1) * if a.uncertainty { 2 } else { 1 }
-        + usize::from(a.flag_unfamiliar);
+        + usize::from(a.flag_unfamiliar)
+        + if a.interval.is_some() { 2 } else { 0 };
     24 * kept + 24 * fields + 64
 }
 
@@ -302,6 +343,27 @@ fn tell(a: &ScoreArgs, ui: &Ui, forest: &Forest, src: &Source, written: &Written
     }
     if let Some(note) = src.input.blank_lines_note() {
         ui.note(&note);
+    }
+    if let Some(c) = a.interval {
+        let oob = forest
+            .leaf_rows()
+            .and_then(|r| r.oob_check())
+            .map_or(String::new(), |k| {
+                format!(
+                    "; at training, {} of the training outcomes fell inside their out-of-bag \
+                     {} range",
+                    crate::numbers::pct(k.share_inside()),
+                    crate::numbers::pct_short(k.level)
+                )
+            });
+        ui.note(&format!(
+            "{} and {}: about {} of outcomes like the training rows' fall in such ranges, on \
+             average over rows, not for each row{oob}; a row unlike the training rows gets the \
+             range of the nearest ones",
+            range_column("low", c),
+            range_column("high", c),
+            crate::numbers::pct_short(c)
+        ));
     }
     if a.uncertainty {
         ui.note(

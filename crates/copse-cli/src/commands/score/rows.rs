@@ -1,5 +1,5 @@
-//! The output rows of a block: the block's predictions (and standard errors) from the
-//! model, written as CSV text in parallel pieces that go out in order.
+//! The output rows of a block: the block's predictions (and standard errors and
+//! outcome ranges) from the model, written as CSV text in parallel pieces that go out in order.
 use super::blocks::Block;
 use crate::error::{forest_error, CliError, CliResult};
 use crate::numbers::{fixed, value_decimals, PROBABILITY_DECIMALS};
@@ -20,6 +20,8 @@ pub(crate) struct RowWriter<'a> {
     pub(crate) keep: &'a [usize],
     /// Whether standard errors are written.
     pub(crate) uncertainty: bool,
+    /// The coverage of the outcome ranges written, if any.
+    pub(crate) interval: Option<f64>,
     /// The CSV delimiter.
     pub(crate) delimiter: u8,
 }
@@ -62,6 +64,10 @@ impl RowWriter<'_> {
         } else {
             (forest.predict(x).map_err(fail)?, None)
         };
+        let ranges = match self.interval {
+            Some(c) => Some(forest.outcome_intervals(x, c).map_err(fail)?),
+            None => None,
+        };
         // Prediction columns per row: the prediction, plus one probability per class.
         let out_fields = if classes.is_empty() {
             1
@@ -99,6 +105,17 @@ impl RowWriter<'_> {
                         if let Some(se) = &se {
                             for &v in se.row(i) {
                                 // An unscorable row gets no standard error either.
+                                let cell = if b.blank[i] {
+                                    String::new()
+                                } else {
+                                    fixed(v, d)
+                                };
+                                fields.push_field(&cell);
+                            }
+                        }
+                        if let Some(ranges) = &ranges {
+                            for &v in ranges.row(i) {
+                                // An unscorable row gets no range either.
                                 let cell = if b.blank[i] {
                                     String::new()
                                 } else {
