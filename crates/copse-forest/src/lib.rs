@@ -14,6 +14,7 @@
 //! - [`decision`]: from two-class scores to decisions: catch by rank, cut-offs,
 //!   calibration, intervals, no-skill baselines;
 //! - [`card`]: what a model file records about how the model was made ([`ModelCard`]);
+//! - [`case_weights`]: case weights and row groups given to training;
 //! - [`model_file`]: the model file: save, load, bytes, checks on reading;
 //! - [`task`]: classes or numbers ([`Task`]);
 //! - [`draws`]: how many times each tree drew each row, kept on request ([`Draws`]);
@@ -52,6 +53,7 @@
 pub use ndarray;
 
 pub mod card;
+pub mod case_weights;
 pub mod contributions;
 pub mod decision;
 pub mod draws;
@@ -86,6 +88,7 @@ pub mod uncertainty;
 pub mod unfamiliar;
 
 pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
+pub use case_weights::{GroupsRecord, WeightsRecord};
 pub use contributions::Contributions;
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
@@ -97,7 +100,7 @@ pub use importance::{
     FeatureImportance, Importance, ImportanceMeasure, ImportanceMethod, PermutationImportance,
     IMPURITY_CAUTION,
 };
-pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics};
+pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics, WeightedTable};
 pub use oob_summary::{OobReport, OobSummary};
 pub use outcome::{natural_order, Outcome, MISSING};
 pub use predict::{Evaluation, SCORING_BLOCK_BYTES};

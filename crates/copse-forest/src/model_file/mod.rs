@@ -25,10 +25,12 @@ use std::path::Path;
 
 /// First eight bytes of every model file.
 pub const MAGIC: [u8; 8] = [0xC0, b'P', b'S', b'E', b'M', b'D', b'\r', b'\n'];
-/// The format this build writes and the only one it reads. Format 3 is the forest
-/// with its model card (format 2 held a command-line schema beside the forest; format
-/// 1 stored leaf outputs in tables beside the nodes).
-pub const FORMAT_VERSION: u16 = 3;
+/// The format this build writes and the only one it reads. Format 4 adds case
+/// weights and row groups to the model card and weighted totals to the out-of-bag
+/// measures; format 3 was the forest with its model card (format 2 held a
+/// command-line schema beside the forest; format 1 stored leaf outputs in tables
+/// beside the nodes).
+pub const FORMAT_VERSION: u16 = 4;
 /// Bytes before the payload.
 pub const HEADER_LEN: usize = 20;
 /// Bytes after the payload.
