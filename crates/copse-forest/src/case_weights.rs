@@ -168,6 +168,39 @@ pub(crate) fn checked_groups(
     Ok(Some((clusters, record)))
 }
 
+/// Cross-validation folds of the stability report's single tree: the fold of each
+/// position of `order`: positions `f, f + folds, ...` form fold `f`;
+/// with `groups`, the groups in order of first appearance do, so a fold holds whole
+/// groups.
+pub(crate) fn folds_of(
+    order: &[usize],
+    groups: Option<&[u32]>,
+    folds: usize,
+) -> Result<Vec<usize>> {
+    let Some(g) = groups else {
+        return Ok((0..order.len()).map(|pos| pos % folds).collect());
+    };
+    let mut rank = std::collections::HashMap::new();
+    let fold_of = order
+        .iter()
+        .map(|&i| {
+            let next = rank.len();
+            *rank.entry(g[i]).or_insert(next) % folds
+        })
+        .collect();
+    if rank.len() < folds {
+        return Err(Error::new(
+            ErrorKind::InvalidSetting,
+            format!(
+                "{folds} folds of whole groups need at least {folds} groups; the rows with an \
+             outcome form {}",
+                rank.len()
+            ),
+        ));
+    }
+    Ok(fold_of)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

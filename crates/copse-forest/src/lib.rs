@@ -111,7 +111,8 @@ pub use significance::{
     Significance, SignificanceTest, MIRROR_FEW_NULL, MIRROR_MIN_NULL,
 };
 pub use stability::{
-    stability_report, KindStability, ModelKind, StabilityReport, StabilitySettings,
+    stability_report, stability_report_grouped, KindStability, ModelKind, StabilityReport,
+    StabilitySettings,
 };
 pub use task::Task;
 pub use train::TrainOptions;

@@ -33,7 +33,15 @@ pub struct Judged<'a> {
     /// Where the scores come from, for headings.
     #[serde(skip)]
     pub scores: &'static str,
+    /// For a model trained with case weights: that the sections of this layer count
+    /// every row once (the headline measures weigh rows).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rows_counted_once: Option<&'static str>,
 }
+
+/// What [`Judged::rows_counted_once`] says.
+pub const ROWS_COUNTED_ONCE: &str = "the intervals, baselines, decision tables and groups \
+count every row once, not by its case weight";
 
 /// The scores of a report and what to do with them.
 pub struct Scores<'a> {
@@ -94,6 +102,7 @@ impl<'a> Judged<'a> {
             decision,
             groups,
             scores: s.kind,
+            rows_counted_once: model.card().weights.is_some().then_some(ROWS_COUNTED_ONCE),
         })
     }
 
@@ -105,6 +114,10 @@ impl<'a> Judged<'a> {
     /// The sections after the headline measures: intervals and baselines, decision
     /// tables, groups.
     pub fn text(&self, out: &mut String, st: Style) {
+        if let Some(note) = self.rows_counted_once {
+            let _ = writeln!(out, "  Note: {note}.");
+            let _ = writeln!(out);
+        }
         if let Some(f) = &self.headline_figures {
             let _ = writeln!(
                 out,
