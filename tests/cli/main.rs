@@ -20,6 +20,7 @@ mod shapes;
 #[path = "../support/mod.rs"]
 mod support;
 mod unfamiliar;
+mod weights;
 
 /// A file of the repository.
 fn repo(rel: &str) -> PathBuf {

@@ -51,7 +51,7 @@ pub(crate) fn read_weight(
         Err(Error::new(
             ErrorKind::BadValue,
             format!(
-                "{file}, line {}, column '{name}': {what}; case weights must be numbers of 0 or \
+                "{file} line {}, column '{name}': {what}; case weights must be numbers of 0 or \
                  more on every row with a target (0 leaves a row out)",
                 line_of(r)
             ),
@@ -93,7 +93,7 @@ pub(crate) fn read_groups(
             return Err(Error::new(
                 ErrorKind::BadValue,
                 format!(
-                    "{file}, line {}, column '{name}': the group label is missing; every row \
+                    "{file} line {}, column '{name}': the group label is missing; every row \
                      with a target needs one (a row that stands alone can take a label of its \
                      own)",
                     line_of(r)

@@ -37,7 +37,15 @@ pub struct Judged<'a> {
     /// every row once (the headline measures weigh rows).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub rows_counted_once: Option<&'static str>,
+    /// For a model trained with row groups: that the intervals treat rows as
+    /// independent, so they are too narrow when rows of a group are alike.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rows_taken_as_independent: Option<&'static str>,
 }
+
+/// What [`Judged::rows_taken_as_independent`] says.
+pub const ROWS_TAKEN_AS_INDEPENDENT: &str = "the intervals below treat rows as independent \
+cases; rows of one group are not, so the intervals are narrower than they should be";
 
 /// What [`Judged::rows_counted_once`] says.
 pub const ROWS_COUNTED_ONCE: &str = "the intervals, baselines, decision tables and groups \
@@ -103,6 +111,11 @@ impl<'a> Judged<'a> {
             groups,
             scores: s.kind,
             rows_counted_once: model.card().weights.is_some().then_some(ROWS_COUNTED_ONCE),
+            rows_taken_as_independent: model
+                .card()
+                .groups
+                .is_some()
+                .then_some(ROWS_TAKEN_AS_INDEPENDENT),
         })
     }
 
@@ -114,7 +127,10 @@ impl<'a> Judged<'a> {
     /// The sections after the headline measures: intervals and baselines, decision
     /// tables, groups.
     pub fn text(&self, out: &mut String, st: Style) {
-        if let Some(note) = self.rows_counted_once {
+        for note in [self.rows_counted_once, self.rows_taken_as_independent]
+            .into_iter()
+            .flatten()
+        {
             let _ = writeln!(out, "  Note: {note}.");
             let _ = writeln!(out);
         }

@@ -157,12 +157,15 @@ pub fn data_section(out: &mut String, st: Style, model: &Model, missing: Option<
             out,
             "row groups",
             &format!(
-                "'{}': {} of {} to {}; trees draw whole groups, and a row is judged out of \
-                 bag only by trees that saw none of its group",
+                "'{}': {} of {}; trees draw whole groups, and a row is judged out of bag \
+                 only by trees that saw none of its group",
                 g.column,
                 count(g.groups, "group", "groups"),
-                g.smallest,
-                count(g.largest, "row", "rows")
+                if g.smallest == g.largest {
+                    format!("{} each", count(g.largest, "row", "rows"))
+                } else {
+                    format!("{} to {} rows", g.smallest, g.largest)
+                }
             ),
         );
     }
