@@ -3,7 +3,7 @@
 //! rows reproduce every leaf's mean; the engine's quantiles equal a slow computation
 //! of the paper's weights from the draw counts; held-out and out-of-bag coverage of
 //! 90% ranges on Friedman #1 and on the Palmer penguins' body masses; ranges that
-//! widen where the noise is larger; model files of format 3 still read. Each
+//! widen where the noise is larger. Each
 //! statistical tolerance is derived in a comment; figures are printed (run with
 //! `--nocapture`). Seeds move with `COPSE_TEST_SEED_OFFSET` (`support::seed`).
 use copse_forest::intervals::weighted_quantiles;
@@ -383,31 +383,4 @@ fn quantiles_are_refused_without_leaf_rows_or_for_classes() {
         assert!(f.outcome_intervals(d.x.view(), bad).is_err(), "{bad}");
     }
     assert!(f.outcome_quantiles(d.x.view(), &[1.2]).is_err());
-}
-
-#[test]
-fn a_format_3_model_file_still_reads_and_scores_as_before() {
-    // tests/data/format3_penguins_mass.copse was written by the last copse of model
-    // format 3 ('copse train --data tests/data/penguins.csv --target body_mass_g
-    // --trees 4 --seed 3'); that copse scored the first eight birds (two decimals)
-    // as below.
-    let path = format!(
-        "{}/../../tests/data/format3_penguins_mass.copse",
-        env!("CARGO_MANIFEST_DIR")
-    );
-    let f = Forest::load(&path).expect("format 3 reads");
-    assert!(f.leaf_rows().is_none());
-    // Every row of the file, in file order (the fourth bird has no measurements).
-    let x = support::read_data_set("penguins.csv", "body_mass_g").x;
-    let p = f.predict(x.view()).expect("scores");
-    let want = [
-        3731.25, 3800.00, 3262.50, 4025.00, 3487.50, 4175.00, 3668.75, 4406.25,
-    ];
-    for (i, w) in want.iter().enumerate() {
-        assert!((p[[i, 0]] - w).abs() < 0.005, "row {i}: {}", p[[i, 0]]);
-    }
-    let e = f
-        .outcome_intervals(x.view(), 0.9)
-        .expect_err("no leaf rows");
-    assert_eq!(e.kind(), ErrorKind::InvalidSetting);
 }

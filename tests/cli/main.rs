@@ -23,6 +23,7 @@ mod shapes;
 #[path = "../support/mod.rs"]
 mod support;
 mod unfamiliar;
+mod weights;
 
 /// A file of the repository.
 fn repo(rel: &str) -> PathBuf {
@@ -650,8 +651,8 @@ fn tampered_model_files_are_refused_clearly() {
     let mut b = good.clone();
     b[8] = 5;
     cases.push(("future.copse", b, "newer copse"));
-    // Formats 1 and 2 are earlier layouts; this copse reads formats 3 and 4.
-    for old in [1, 2] {
+    // Formats 1 to 3 are earlier layouts; this copse reads format 4 only.
+    for old in [1, 2, 3] {
         let mut b = good.clone();
         b[8] = old;
         cases.push(("earlier.copse", b, "trained again with this copse"));

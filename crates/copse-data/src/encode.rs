@@ -272,6 +272,10 @@ pub struct Labelled {
     pub encoder: RowEncoder,
     /// Remarks about the file for the user (blank lines passed over).
     pub notes: Vec<String>,
+    /// Each row's case weight, read from the model's case weights column
+    /// ([`copse_forest::ModelCard::weights`]) when the model has one and the file
+    /// holds it (0 on rows without a target, which no figure counts); else `None`.
+    pub weights: Option<Vec<f64>>,
 }
 
 /// A file of input rows read whole with a model's schema; an outcome column, if
@@ -360,6 +364,13 @@ pub fn read_labelled_with_column(
     };
     let mut cells: Vec<Option<String>> = Vec::new();
     let extra_missing = missing.clone();
+    let weights_col = model
+        .card()
+        .weights
+        .as_ref()
+        .and_then(|w| input.column(&w.column).map(|j| (j, w.column.clone())));
+    let mut weights: Vec<f64> = Vec::new();
+    let (file, mark) = (input.name().to_string(), input.decimal());
     let mut enc = RowEncoder::new(&input, model, missing, true)?;
     let p = model.n_features();
     let mut values: Vec<f64> = Vec::new();
@@ -375,9 +386,24 @@ pub fn read_labelled_with_column(
             let cell = record.get(c).unwrap_or("").trim();
             cells.push((!extra_missing.is_missing(cell)).then(|| cell.to_string()));
         }
-        match model.task() {
-            Task::Classify => codes.push(enc.class(&record)?),
-            Task::Regress => ys.push(enc.value(&record)?),
+        let known = match model.task() {
+            Task::Classify => {
+                let c = enc.class(&record)?;
+                codes.push(c);
+                c != copse_forest::MISSING
+            }
+            Task::Regress => {
+                let y = enc.value(&record)?;
+                ys.push(y);
+                !y.is_nan()
+            }
+        };
+        if let Some((j, name)) = &weights_col {
+            weights.push(if known {
+                crate::row_roles::read_weight(&file, &record, *j, name, &extra_missing, mark)?
+            } else {
+                0.0
+            });
         }
         rows += 1;
     }
@@ -404,6 +430,7 @@ pub fn read_labelled_with_column(
         rows,
         encoder: enc,
         notes: input.blank_lines_note().into_iter().collect(),
+        weights: weights_col.map(|_| weights),
     };
     Ok((labelled, extra_col.map(|_| cells)))
 }

@@ -421,6 +421,8 @@ mod tests {
             target: 0,
             inputs: Vec::new(),
             used: vec![0],
+            weights: None,
+            group: None,
         };
         let mut notes = Vec::new();
         let names = ["finish".to_string()];

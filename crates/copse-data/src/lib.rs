@@ -10,6 +10,7 @@
 //!   lines, restarting after a quote that never closes);
 //! - [`cells`]: missing tokens and numbers ([`Missing`]);
 //! - [`roles`]: which column is the outcome, which are left out ([`Roles`]);
+//! - [`row_roles`]: case weights and group labels of training rows;
 //! - `infer` (private): column kinds, the task, category labels;
 //! - [`training`]: the training table ([`TrainingTable`]) and training on it;
 //! - [`encode`]: new rows read the way a model's training rows were ([`RowEncoder`]).
@@ -46,6 +47,7 @@ pub mod error;
 mod infer;
 pub mod records;
 pub mod roles;
+pub mod row_roles;
 pub mod training;
 
 pub use cells::{clip, looks_decimal_comma, one_line, parse_number, read_number, Missing};

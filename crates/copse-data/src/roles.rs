@@ -17,6 +17,10 @@ pub struct Roles {
     pub numeric: Vec<String>,
     /// Forced task, or `None` to follow the outcome column's kind.
     pub task: Option<Task>,
+    /// Column of case weights (not an input), if any.
+    pub weights: Option<String>,
+    /// Column of row group labels (not an input), if any.
+    pub group: Option<String>,
 }
 
 impl Roles {
@@ -38,6 +42,10 @@ pub(crate) struct Layout {
     pub used: Vec<usize>,
     /// Input columns in file order (model order).
     pub inputs: Vec<usize>,
+    /// Index of the case weights column.
+    pub weights: Option<usize>,
+    /// Index of the group column.
+    pub group: Option<usize>,
 }
 
 fn check_names(input: &CsvInput, names: &[String], flag: &str) -> Result<()> {
@@ -112,6 +120,28 @@ pub(crate) fn lay_out(input: &CsvInput, roles: &Roles) -> Result<Layout> {
     check_names(input, &roles.ignore, "--ignore")?;
     check_names(input, &roles.categorical, "--categorical")?;
     check_names(input, &roles.numeric, "--numeric")?;
+    check_names(input, roles.weights.as_slice(), "--weights")?;
+    check_names(input, roles.group.as_slice(), "--group")?;
+    for (flag, col) in [("--weights", &roles.weights), ("--group", &roles.group)] {
+        let Some(c) = col else { continue };
+        if c == &roles.target {
+            return columns(format!(
+                "'{c}' is both the target and the {flag} column; choose another column"
+            ));
+        }
+        if roles.ignore.contains(c) || roles.categorical.contains(c) || roles.numeric.contains(c) {
+            return columns(format!(
+                "'{c}' is the {flag} column, which is never an input; drop it from --ignore, \
+                 --categorical and --numeric"
+            ));
+        }
+    }
+    if roles.weights.is_some() && roles.weights == roles.group {
+        return columns(format!(
+            "'{}' is both the --weights and the --group column; they must differ",
+            roles.weights.as_deref().unwrap_or("")
+        ));
+    }
     if roles.ignore.contains(&roles.target) {
         return columns(format!(
             "'{}' is both the target and ignored; drop it from --ignore",
@@ -131,8 +161,11 @@ pub(crate) fn lay_out(input: &CsvInput, roles: &Roles) -> Result<Layout> {
     }
     let headers = input.headers();
     let target = input.column(&roles.target).unwrap_or(0);
+    let weights = roles.weights.as_deref().and_then(|c| input.column(c));
+    let group = roles.group.as_deref().and_then(|c| input.column(c));
     let used: Vec<usize> = (0..headers.len())
         .filter(|&j| !roles.ignore.contains(&headers[j]))
+        .filter(|&j| Some(j) != weights && Some(j) != group)
         .collect();
     let inputs: Vec<usize> = used.iter().copied().filter(|&j| j != target).collect();
     if inputs.is_empty() {
@@ -146,6 +179,8 @@ pub(crate) fn lay_out(input: &CsvInput, roles: &Roles) -> Result<Layout> {
         target,
         used,
         inputs,
+        weights,
+        group,
     })
 }
 

@@ -6,9 +6,10 @@ use crate::csv_input::{CsvInput, Delimiter};
 use crate::error::{Error, ErrorKind, Result};
 use crate::infer::{self, line_of, ColumnTally, Levels};
 use crate::roles::{lay_out, Layout, Roles};
+use crate::row_roles;
 use copse_forest::{
-    DecimalMark, FeatureKind, FeatureMeta, Forest, ForestSettings, ModelCard, Outcome, Task,
-    TrainOptions, Trained,
+    DecimalMark, FeatureKind, FeatureMeta, Forest, ForestSettings, GroupsRecord, ModelCard,
+    Outcome, Task, TrainOptions, Trained, WeightsRecord,
 };
 use ndarray::Array2;
 use std::collections::HashMap;
@@ -45,6 +46,11 @@ pub struct TrainingTable {
     pub ignored: Vec<String>,
     /// Remarks about the data for the user.
     pub notes: Vec<String>,
+    /// The case weights column and each row's weight, if one was given.
+    pub weights: Option<(String, Vec<f64>)>,
+    /// The group column and each row's group number (labels numbered in order of
+    /// first appearance), if one was given.
+    pub groups: Option<(String, Vec<u32>)>,
 }
 
 impl TrainingTable {
@@ -130,6 +136,25 @@ impl TrainingTable {
             &mut notes,
         );
         let rows = encode_rows(&records, &layout, &levels, task, &missing, mark);
+        let kept: Vec<&csv::StringRecord> = records
+            .iter()
+            .filter(|r| !missing.is_missing(r[tc].trim()))
+            .collect();
+        let weights = match (layout.weights, &roles.weights) {
+            (Some(j), Some(c)) => Some((
+                c.clone(),
+                row_roles::read_weights(&name, &kept, j, c, &missing, mark)?,
+            )),
+            _ => None,
+        };
+        let groups = match (layout.group, &roles.group) {
+            (Some(j), Some(c)) => Some((
+                c.clone(),
+                row_roles::read_groups(&name, &kept, j, c, &missing)?,
+            )),
+            _ => None,
+        };
+        drop(kept);
         drop(records);
 
         let features: Vec<FeatureMeta> = layout
@@ -163,6 +188,8 @@ impl TrainingTable {
             rows_without_outcome: n_read - rows.kept,
             ignored: roles.ignore.clone(),
             notes,
+            weights,
+            groups,
         };
         table.remark(&tallies, &layout);
         if rows.kept < 2 {
@@ -203,6 +230,15 @@ impl TrainingTable {
             ignored: self.ignored.clone(),
             notes: self.notes.clone(),
             decimal_mark: self.decimal,
+            weights: self.weights.as_ref().map(|(column, w)| WeightsRecord {
+                column: column.clone(),
+                total: w.iter().sum(),
+                zero_rows: w.iter().filter(|&&v| v == 0.0).count(),
+            }),
+            groups: forest.card().groups.clone().map(|g| GroupsRecord {
+                column: self.groups.as_ref().map_or(g.column, |(c, _)| c.clone()),
+                ..g
+            }),
             ..forest.card().clone()
         }
     }
@@ -235,12 +271,26 @@ impl TrainingTable {
         settings: &ForestSettings,
         options: &TrainOptions<'_>,
     ) -> copse_forest::Result<Trained> {
+        // The table's weights and groups, when it has them, are the ones trained with.
+        let options = TrainOptions {
+            case_weights: self
+                .weights
+                .as_ref()
+                .map(|(_, w)| w.as_slice())
+                .or(options.case_weights),
+            groups: self
+                .groups
+                .as_ref()
+                .map(|(_, g)| g.as_slice())
+                .or(options.groups),
+            ..*options
+        };
         let mut trained = Forest::train(
             self.x.view(),
             &self.features,
             &self.outcome,
             settings,
-            options,
+            &options,
         )?;
         let card = self.card_for(&trained.forest);
         trained.forest.set_card(card)?;
@@ -314,6 +364,36 @@ impl TrainingTable {
                 "{dropped} of {n_read} {rows} {have} no value for the target '{target}' and {are} left \
                  out of training"
             ));
+        }
+        self.remark_row_roles();
+    }
+
+    /// Remarks about case weights (rows of weight 0, weights far from counts) and, when
+    /// no group column was given, about many rows that repeat another row's inputs.
+    fn remark_row_roles(&mut self) {
+        let rows = self.x.nrows();
+        if let Some((col, w)) = &self.weights {
+            let zero = w.iter().filter(|&&v| v == 0.0).count();
+            if zero > 0 {
+                self.notes.push(format!(
+                    "{zero} of {rows} rows have case weight 0 in '{col}': no tree draws them and \
+                     every figure counts them with weight 0"
+                ));
+            }
+            let total: f64 = w.iter().sum();
+            let mean = total / rows.max(1) as f64;
+            if !(0.1..=10.0).contains(&mean) {
+                self.notes.push(format!(
+                    "the case weights in '{col}' average {mean:.3}; a weight counts cases, so each \
+                     tree draws as many cases as they add up to ({total:.0}); unless they are \
+                     counts, scale them to average about 1"
+                ));
+            }
+        }
+        if self.groups.is_none() {
+            let repeated = row_roles::rows_with_repeated_inputs(self.x.view());
+            self.notes
+                .extend(row_roles::repeated_inputs_note(repeated, rows));
         }
     }
 }

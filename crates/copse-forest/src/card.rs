@@ -3,6 +3,7 @@
 //! the training source and its row counts, the class counts or value range, the decimal
 //! mark of its numbers, the copse version). No clock times, so the same run gives the
 //! same file byte for byte.
+use crate::case_weights::{GroupsRecord, WeightsRecord};
 use crate::error::{Error, ErrorKind, Result};
 use crate::metrics::Metrics;
 use crate::oob_summary::OobSummary;
@@ -62,6 +63,11 @@ pub struct ModelCard {
     /// The decimal mark of the training file's numbers; new files are read with it
     /// unless told otherwise.
     pub decimal_mark: DecimalMark,
+    /// The case weights training used, if any ([`crate::case_weights`]); `None` also
+    /// for weights that were all 1 when trained from an array.
+    pub weights: Option<WeightsRecord>,
+    /// The row groups resampling drew whole, if any.
+    pub groups: Option<GroupsRecord>,
 }
 
 impl ModelCard {
@@ -107,6 +113,8 @@ impl ModelCard {
             features_rule,
             notes: Vec::new(),
             decimal_mark: DecimalMark::Point,
+            weights: None,
+            groups: None,
         }
     }
 
@@ -125,6 +133,16 @@ impl ModelCard {
         let bad = |what: &str| Err(Error::new(ErrorKind::InvalidModel, what.to_string()));
         if !within(self.rows_without_outcome) {
             return bad("its record leaves out more rows than it read");
+        }
+        if let Some(w) = &self.weights {
+            if !(within(w.zero_rows) && w.total.is_finite() && w.total >= 0.0) {
+                return bad("its record of case weights does not fit its rows");
+            }
+        }
+        if let Some(g) = &self.groups {
+            if !within(g.groups) || g.smallest > g.largest || !within(g.largest) {
+                return bad("its record of row groups does not fit its rows");
+            }
         }
         if self.class_counts.len() != n_classes
             || total(self.class_counts.iter().copied(), read).is_none()

@@ -14,6 +14,7 @@
 //! - [`decision`]: from two-class scores to decisions: catch by rank, cut-offs,
 //!   calibration, intervals, no-skill baselines;
 //! - [`card`]: what a model file records about how the model was made ([`ModelCard`]);
+//! - [`case_weights`]: case weights and row groups given to training;
 //! - [`model_file`]: the model file: save, load, bytes, checks on reading;
 //! - [`task`]: classes or numbers ([`Task`]);
 //! - [`draws`]: how many times each tree drew each row, kept on request ([`Draws`]);
@@ -57,6 +58,7 @@
 pub use ndarray;
 
 pub mod card;
+pub mod case_weights;
 pub mod contributions;
 pub mod decision;
 pub mod draws;
@@ -95,6 +97,7 @@ pub mod unfamiliar;
 
 pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
 pub use contributions::{ContributionRanking, ContributionWalk, Contributions, RANKING_ROWS};
+pub use case_weights::{GroupsRecord, WeightsRecord};
 pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
 pub use effect_surface::{EffectSurface, SurfaceSettings};
@@ -108,7 +111,7 @@ pub use importance::{
 };
 pub use intervals::IntervalCheck;
 pub use leaf_rows::LeafRows;
-pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics};
+pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics, WeightedTable};
 pub use oob_summary::{OobReport, OobSummary};
 pub use outcome::{natural_order, Outcome, MISSING};
 pub use predict::{Evaluation, SCORING_BLOCK_BYTES};
@@ -119,7 +122,8 @@ pub use significance::{
     Significance, SignificanceTest, MIRROR_FEW_NULL, MIRROR_MIN_NULL,
 };
 pub use stability::{
-    stability_report, KindStability, ModelKind, StabilityReport, StabilitySettings,
+    stability_report, stability_report_grouped, KindStability, ModelKind, StabilityReport,
+    StabilitySettings,
 };
 pub use task::Task;
 pub use train::TrainOptions;

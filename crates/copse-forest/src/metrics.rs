@@ -44,6 +44,19 @@ pub struct ClassMetrics {
     /// Area under the ROC curve with the second class (index 1) as the positive class
     /// and its probability as the score; two classes only, and both must be present.
     pub roc_auc: Option<f64>,
+    /// With case weights: the total weight of the rows measured, and the confusion
+    /// table in weights (every other figure above is then a weighted mean, and
+    /// `confusion` still counts rows). `None` without case weights.
+    pub weighted: Option<WeightedTable>,
+}
+
+/// Case-weighted totals of class measures.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct WeightedTable {
+    /// Sum of the case weights of the rows measured.
+    pub total: f64,
+    /// Sums of case weights by true class (outer index) and predicted class (inner).
+    pub confusion: Vec<Vec<f64>>,
 }
 
 /// Measures of value predictions on the rows where both the outcome and the
@@ -59,6 +72,9 @@ pub struct ValueMetrics {
     /// `1 - MSE / Var(y)`, with `Var(y)` the mean squared deviation of the true values
     /// on the same rows (n denominator); `None` when the true values are all equal.
     pub r_squared: Option<f64>,
+    /// With case weights, the total weight of the rows measured (every figure above is
+    /// then a weighted mean, `Var(y)` the weighted variance); `None` without.
+    pub weight_total: Option<f64>,
 }
 
 /// Measures for either kind of model.
@@ -92,11 +108,28 @@ impl Metrics {
 /// code (or one outside the columns) or a NaN probability are skipped. `None` when no
 /// row is left.
 pub fn class_metrics(codes: &[u32], probs: ArrayView2<'_, f64>) -> Option<ClassMetrics> {
+    class_metrics_weighted(codes, probs, None)
+}
+
+/// Class measures as [`class_metrics`], each row counted with its case weight when
+/// `weights` are given (one per row, non-negative): every figure is a weighted mean
+/// (the error is the weight share of wrong rows), the ROC AUC the weighted rank
+/// statistic, and [`ClassMetrics::weighted`] holds the confusion table in weights.
+/// `None` when no row is left or the rows left weigh nothing.
+pub fn class_metrics_weighted(
+    codes: &[u32],
+    probs: ArrayView2<'_, f64>,
+    weights: Option<&[f64]>,
+) -> Option<ClassMetrics> {
     let k = probs.ncols();
     let mut confusion = vec![vec![0u64; k]; k];
-    let (mut rows, mut wrong) = (0usize, 0usize);
+    let mut in_weight = vec![vec![0.0f64; k]; k];
+    let mut rows = 0usize;
+    // Sums of weights; with no weights every row weighs exactly 1.0, so the sums are
+    // the row counts and the figures those of the unweighted formulas, bit for bit.
+    let (mut total, mut wrong) = (0.0, 0.0);
     let (mut log_loss, mut brier) = (0.0, 0.0);
-    let (mut truth, mut score) = (Vec::new(), Vec::new());
+    let (mut truth, mut score, mut case) = (Vec::new(), Vec::new(), Vec::new());
     let mut p = vec![0.0; k];
     for (i, row) in probs.rows().into_iter().enumerate() {
         let y = codes[i];
@@ -104,42 +137,52 @@ pub fn class_metrics(codes: &[u32], probs: ArrayView2<'_, f64>) -> Option<ClassM
             continue;
         }
         let y = y as usize;
+        let w = weights.map_or(1.0, |w| w[i]);
         p.iter_mut().zip(row).for_each(|(a, b)| *a = *b);
         let hat = predicted_class(&p);
         confusion[y][hat] += 1;
+        in_weight[y][hat] += w;
         rows += 1;
-        wrong += usize::from(hat != y);
-        log_loss -= p[y].clamp(LOG_LOSS_EPSILON, 1.0).ln();
-        brier += brier_row(&p, y);
+        total += w;
+        if hat != y {
+            wrong += w;
+        }
+        log_loss -= w * p[y].clamp(LOG_LOSS_EPSILON, 1.0).ln();
+        brier += w * brier_row(&p, y);
         if k == 2 {
             truth.push(y == 1);
             score.push(p[1]);
+            case.push(w);
         }
     }
-    if rows == 0 {
+    if rows == 0 || total <= 0.0 {
         return None;
     }
-    let n = rows as f64;
-    let wrong_share_by_class = confusion
+    let wrong_share_by_class = in_weight
         .iter()
         .enumerate()
         .map(|(c, r)| {
-            let total: u64 = r.iter().sum();
-            (total > 0).then(|| (total - r[c]) as f64 / total as f64)
+            let all: f64 = r.iter().sum();
+            (all > 0.0).then(|| (all - r[c]) / all)
         })
         .collect();
+    let roc_auc = match (k, weights) {
+        (2, None) => roc_auc(&truth, &score),
+        (2, Some(_)) => roc_auc_weighted(&truth, &score, &case),
+        _ => None,
+    };
     Some(ClassMetrics {
         rows,
-        error: wrong as f64 / n,
+        error: wrong / total,
         confusion,
         wrong_share_by_class,
-        log_loss: log_loss / n,
-        brier: brier / n,
-        roc_auc: if k == 2 {
-            roc_auc(&truth, &score)
-        } else {
-            None
-        },
+        log_loss: log_loss / total,
+        brier: brier / total,
+        roc_auc,
+        weighted: weights.map(|_| WeightedTable {
+            total,
+            confusion: in_weight,
+        }),
     })
 }
 
@@ -158,29 +201,49 @@ pub(crate) fn brier_row(p: &[f64], y: usize) -> f64 {
 /// Value measures of `pred` against `truth`; rows where either is NaN are skipped.
 /// `None` when no row is left.
 pub fn value_metrics(truth: &[f64], pred: &[f64]) -> Option<ValueMetrics> {
-    let pairs: Vec<(f64, f64)> = truth
+    value_metrics_weighted(truth, pred, None)
+}
+
+/// Value measures as [`value_metrics`], each row counted with its case weight when
+/// `weights` are given: weighted mean squared and absolute errors, and `R^2` against
+/// the weighted variance of the true values. `None` when no row is left or the rows
+/// left weigh nothing.
+pub fn value_metrics_weighted(
+    truth: &[f64],
+    pred: &[f64],
+    weights: Option<&[f64]>,
+) -> Option<ValueMetrics> {
+    // With no weights every row weighs exactly 1.0: the sums below are then those of
+    // the unweighted formulas, bit for bit.
+    let cases: Vec<(f64, f64, f64)> = truth
         .iter()
         .zip(pred)
-        .filter(|(y, p)| !y.is_nan() && !p.is_nan())
-        .map(|(&y, &p)| (y, p))
+        .enumerate()
+        .filter(|(_, (y, p))| !y.is_nan() && !p.is_nan())
+        .map(|(i, (&y, &p))| (y, p, weights.map_or(1.0, |w| w[i])))
         .collect();
-    if pairs.is_empty() {
+    let n: f64 = cases.iter().map(|c| c.2).sum();
+    if cases.is_empty() || n <= 0.0 {
         return None;
     }
-    let n = pairs.len() as f64;
-    let mse = pairs.iter().map(|(y, p)| (y - p) * (y - p)).sum::<f64>() / n;
-    let mae = pairs.iter().map(|(y, p)| (y - p).abs()).sum::<f64>() / n;
-    let mean = pairs.iter().map(|(y, _)| y).sum::<f64>() / n;
-    let var = pairs
+    let mse = cases
         .iter()
-        .map(|(y, _)| (y - mean) * (y - mean))
+        .map(|(y, p, w)| w * ((y - p) * (y - p)))
+        .sum::<f64>()
+        / n;
+    let mae = cases.iter().map(|(y, p, w)| w * (y - p).abs()).sum::<f64>() / n;
+    let mean = cases.iter().map(|(y, _, w)| w * y).sum::<f64>() / n;
+    let var = cases
+        .iter()
+        .map(|(y, _, w)| w * ((y - mean) * (y - mean)))
         .sum::<f64>()
         / n;
     Some(ValueMetrics {
-        rows: pairs.len(),
+        rows: cases.len(),
         mse,
         mae,
         r_squared: (var > 0.0).then(|| 1.0 - mse / var),
+        weight_total: weights.map(|_| n),
     })
 }
 
@@ -209,6 +272,52 @@ pub fn roc_auc(positive: &[bool], score: &[f64]) -> Option<f64> {
     }
     let (p, q) = (n_pos as f64, n_neg as f64);
     Some((rank_sum_pos - p * (p + 1.0) / 2.0) / (p * q))
+}
+
+/// Area under the ROC curve with case weights: the weighted share of (positive,
+/// negative) pairs in which the positive scores higher, ties counted one half, each
+/// pair weighing the product of its cases' weights (the rank-sum form above with
+/// every row repeated as often as its weight). `None` when either class weighs
+/// nothing.
+pub fn roc_auc_weighted(positive: &[bool], score: &[f64], weight: &[f64]) -> Option<f64> {
+    let w_pos: f64 = (0..positive.len())
+        .filter(|&i| positive[i])
+        .map(|i| weight[i])
+        .sum();
+    let w_neg: f64 = (0..positive.len())
+        .filter(|&i| !positive[i])
+        .map(|i| weight[i])
+        .sum();
+    if w_pos <= 0.0 || w_neg <= 0.0 {
+        return None;
+    }
+    let mut order: Vec<usize> = (0..score.len()).collect();
+    order.sort_by(|&a, &b| score[a].total_cmp(&score[b]));
+    // Walk up the scores: each positive wins against the negative weight below its
+    // tied run and ties with the negative weight inside it.
+    let (mut below, mut won) = (0.0, 0.0);
+    let mut i = 0;
+    while i < order.len() {
+        let mut j = i;
+        while j + 1 < order.len() && score[order[j + 1]] == score[order[i]] {
+            j += 1;
+        }
+        let run = &order[i..=j];
+        let pos: f64 = run
+            .iter()
+            .filter(|&&r| positive[r])
+            .map(|&r| weight[r])
+            .sum();
+        let neg: f64 = run
+            .iter()
+            .filter(|&&r| !positive[r])
+            .map(|&r| weight[r])
+            .sum();
+        won += pos * (below + 0.5 * neg);
+        below += neg;
+        i = j + 1;
+    }
+    Some(won / (w_pos * w_neg))
 }
 
 #[cfg(test)]
@@ -245,6 +354,46 @@ mod tests {
         let ll = -(0.8f64.ln() + 0.7f64.ln() + 0.4f64.ln()) / 3.0;
         assert!((m.log_loss - ll).abs() < 1e-12);
         assert_eq!(m.roc_auc, Some(1.0));
+    }
+
+    #[test]
+    fn whole_number_weights_measure_as_repeated_rows() {
+        // Weights 2, 1, 3 against the rows written out that many times: every figure
+        // of the weighted formulas is the plain figure of the repeated rows.
+        let probs = array![[0.8, 0.2], [0.3, 0.7], [0.6, 0.4]];
+        let w = [2.0, 1.0, 3.0];
+        let m = class_metrics_weighted(&[0, 1, 1], probs.view(), Some(&w)).expect("a value");
+        let rep = array![
+            [0.8, 0.2],
+            [0.8, 0.2],
+            [0.3, 0.7],
+            [0.6, 0.4],
+            [0.6, 0.4],
+            [0.6, 0.4]
+        ];
+        let r = class_metrics(&[0, 0, 1, 1, 1, 1], rep.view()).expect("a value");
+        for (a, b) in [
+            (m.error, r.error),
+            (m.brier, r.brier),
+            (m.log_loss, r.log_loss),
+            (m.roc_auc.expect("auc"), r.roc_auc.expect("auc")),
+        ] {
+            assert!((a - b).abs() < 1e-12, "{a} vs {b}");
+        }
+        let table = m.weighted.expect("weighted");
+        assert_eq!(table.confusion, vec![vec![2.0, 0.0], vec![3.0, 1.0]]);
+        assert_eq!(m.wrong_share_by_class, r.wrong_share_by_class);
+        let v =
+            value_metrics_weighted(&[1.0, 2.0, 4.0], &[1.5, 2.0, 3.0], Some(&w)).expect("a value");
+        let vr = value_metrics(
+            &[1.0, 1.0, 2.0, 4.0, 4.0, 4.0],
+            &[1.5, 1.5, 2.0, 3.0, 3.0, 3.0],
+        )
+        .expect("a value");
+        assert!((v.mse - vr.mse).abs() < 1e-12 && (v.mae - vr.mae).abs() < 1e-12);
+        let (a, b) = (v.r_squared.expect("r2"), vr.r_squared.expect("r2"));
+        assert!((a - b).abs() < 1e-12);
+        assert_eq!(v.weight_total, Some(6.0));
     }
 
     #[test]

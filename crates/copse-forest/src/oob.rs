@@ -1,7 +1,7 @@
 //! Out-of-bag estimates: each row is predicted by the trees that did not see it, which
 //! estimates the forest's error without a holdout (Breiman 1996, "Out-of-bag
 //! estimation"; Breiman 2001, section 3.1).
-use crate::metrics::{class_metrics, predicted_class, value_metrics, Metrics};
+use crate::metrics::{class_metrics_weighted, predicted_class, value_metrics_weighted, Metrics};
 use crate::oob_summary::{OobReport, OobSummary};
 use crate::outcome::Outcome;
 use crate::predict::Scorer;
@@ -40,11 +40,11 @@ impl OobMask {
 struct Block {
     preds: Vec<f64>,
     trees_out: Vec<u32>,
-    /// Per tree: rows whose first out-of-bag tree it is.
-    d_cover: Vec<i64>,
-    /// Per tree: change in the number of misclassified rows.
-    d_wrong: Vec<i64>,
-    /// Per tree: change in the sum of squared errors.
+    /// Per tree: rows whose first out-of-bag tree it is (their case weights).
+    d_cover: Vec<f64>,
+    /// Per tree: change in the number (case weight) of misclassified rows.
+    d_wrong: Vec<f64>,
+    /// Per tree: change in the (weighted) sum of squared errors.
     d_sse: Vec<f64>,
 }
 
@@ -64,12 +64,16 @@ const GROUP_ROWS: usize = 16384;
 ///
 /// With `shift` (class-balanced models, [`crate::priors`]) every row's class
 /// probabilities, and the class it is counted as predicting along the error curve, are
-/// shifted back to the training class shares.
+/// shifted back to the training class shares. With case `weights` every figure and
+/// the error curve weigh each row by its weight (the per-row predictions do not
+/// change).
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn out_of_bag(
     trees: &[Tree],
     masks: &[OobMask],
     x: ArrayView2<'_, f64>,
     outcome: &Outcome,
+    weights: Option<&[f64]>,
     shift: Option<&[f64]>,
     progress: &(dyn Fn(Progress) + Sync),
 ) -> (OobReport, OobSummary) {
@@ -84,6 +88,7 @@ pub(crate) fn out_of_bag(
         k: outcome_width(outcome),
         bs: block_rows(n),
         shift,
+        weights,
     };
     let n_blocks = n.div_ceil(pass.bs);
     let group = group_blocks(n, per_tree, pass.bs);
@@ -104,7 +109,7 @@ pub(crate) fn out_of_bag(
         .collect();
     let blocks: Vec<Block> = groups.into_iter().flatten().collect();
     let curve = error_curve(&blocks, nt, outcome);
-    summarize(&blocks, n, pass.k, outcome, curve)
+    summarize(&blocks, n, pass.k, outcome, weights, curve)
 }
 
 /// Each tree laid out for scoring once, when there are rows enough to pay for it.
@@ -143,6 +148,8 @@ struct Pass<'a, 'x> {
     bs: usize,
     /// Class-share shift of a balanced model.
     shift: Option<&'a [f64]>,
+    /// Case weights of the rows, if any.
+    weights: Option<&'a [f64]>,
 }
 
 /// Where a group's rows stand in the running error measures: whether each row's
@@ -172,8 +179,8 @@ impl Pass<'_, '_> {
                 Block {
                     preds: vec![0.0; len * k],
                     trees_out: vec![0; len],
-                    d_cover: vec![0; nt],
-                    d_wrong: vec![0; nt],
+                    d_cover: vec![0.0; nt],
+                    d_wrong: vec![0.0; nt],
                     d_sse: vec![0.0; nt],
                 }
             })
@@ -245,8 +252,10 @@ impl Pass<'_, '_> {
         if self.outcome.is_missing(i) {
             return;
         }
+        // Without weights every row weighs exactly 1.0, so these sums are counts.
+        let w = self.weights.map_or(1.0, |w| w[i]);
         if count == 1 {
-            out.d_cover[t] += 1;
+            out.d_cover[t] += w;
         }
         match self.outcome {
             Outcome::Classes { codes, .. } => {
@@ -255,12 +264,13 @@ impl Pass<'_, '_> {
                     None => predicted_class(sums),
                 };
                 let wrong = class != codes[i] as usize;
-                out.d_wrong[t] += i64::from(wrong) - i64::from(running.was_wrong[r]);
+                out.d_wrong[t] +=
+                    w * (f64::from(u8::from(wrong)) - f64::from(u8::from(running.was_wrong[r])));
                 running.was_wrong[r] = wrong;
             }
             Outcome::Values(y) => {
                 let e = sums[0] / f64::from(count) - y[i];
-                out.d_sse[t] += e * e - running.prev_sq[r];
+                out.d_sse[t] += w * (e * e - running.prev_sq[r]);
                 running.prev_sq[r] = e * e;
             }
         }
@@ -287,7 +297,7 @@ fn mean_of_sums(out: &mut Block, k: usize, shift: Option<&[f64]>) {
 /// Entry `t`: the out-of-bag error of trees `0..=t`, the per-tree changes added over
 /// the blocks in block order.
 fn error_curve(blocks: &[Block], nt: usize, outcome: &Outcome) -> Vec<Option<f64>> {
-    let (mut cover, mut wrong, mut sse) = (0i64, 0i64, 0.0f64);
+    let (mut cover, mut wrong, mut sse) = (0.0f64, 0.0f64, 0.0f64);
     let mut curve = Vec::with_capacity(nt);
     for t in 0..nt {
         for b in blocks {
@@ -295,9 +305,9 @@ fn error_curve(blocks: &[Block], nt: usize, outcome: &Outcome) -> Vec<Option<f64
             wrong += b.d_wrong[t];
             sse += b.d_sse[t];
         }
-        curve.push((cover > 0).then(|| match outcome {
-            Outcome::Classes { .. } => wrong as f64 / cover as f64,
-            Outcome::Values(_) => sse.max(0.0) / cover as f64,
+        curve.push((cover > 0.0).then(|| match outcome {
+            Outcome::Classes { .. } => wrong / cover,
+            Outcome::Values(_) => sse.max(0.0) / cover,
         }));
     }
     curve
@@ -309,6 +319,7 @@ fn summarize(
     n: usize,
     k: usize,
     outcome: &Outcome,
+    weights: Option<&[f64]>,
     error_curve: Vec<Option<f64>>,
 ) -> (OobReport, OobSummary) {
     let mut preds = Vec::with_capacity(n * k);
@@ -321,10 +332,10 @@ fn summarize(
         Array2::from_shape_vec((n, k), preds).expect("blocks hold n rows of k outputs");
     let metrics = match outcome {
         Outcome::Classes { codes, .. } => {
-            class_metrics(codes, predictions.view()).map(Metrics::Classes)
+            class_metrics_weighted(codes, predictions.view(), weights).map(Metrics::Classes)
         }
         Outcome::Values(y) => {
-            value_metrics(y, &predictions.column(0).to_vec()).map(Metrics::Values)
+            value_metrics_weighted(y, &predictions.column(0).to_vec(), weights).map(Metrics::Values)
         }
     };
     let rows_labelled = outcome.n_labelled();

@@ -24,12 +24,14 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 /// result is exactly that of re-predicting every row, at a cost that grows with the
 /// rows that change course rather than with the number of inputs. Rows are copied into
 /// contiguous blocks and descend several at a time ([`Tree::leaf_indices`]); every sum
-/// is taken in row order as before.
+/// is taken in row order as before. With case `weights`, each row's change in loss
+/// counts with its weight and the increases are weighted means.
 pub(crate) fn tree_permutation_increase(
     tree: &Tree,
     x: ArrayView2<'_, f64>,
     outcome: &Outcome,
     rows: &[usize],
+    weights: Option<&[f64]>,
     rng_for: impl Fn(usize) -> rand_xoshiro::Xoshiro256PlusPlus,
 ) -> (Vec<f64>, Vec<f64>) {
     let p = x.ncols();
@@ -78,6 +80,7 @@ pub(crate) fn tree_permutation_increase(
         }
     }
     let (mut inc_err, mut inc_brier) = (vec![0.0; p], vec![0.0; p]);
+    let total = weights.map_or(m as f64, |w| rows.iter().map(|&i| w[i]).sum());
     let (mut picks, mut starts) = (Vec::with_capacity(STRETCH), Vec::with_capacity(STRETCH));
     let mut found = vec![0u32; STRETCH];
     let mut vals = Vec::with_capacity(m);
@@ -118,13 +121,22 @@ pub(crate) fn tree_permutation_increase(
             for (&pos, &leaf) in picks.iter().zip(found.iter()) {
                 let pos = pos as usize;
                 let l = row_loss(outcome, rows[pos], &tree.leaf_value(leaf as usize));
-                de += l.error - base[pos].error;
-                db += l.brier - base[pos].brier;
+                match weights {
+                    None => {
+                        de += l.error - base[pos].error;
+                        db += l.brier - base[pos].brier;
+                    }
+                    Some(w) => {
+                        let w = w[rows[pos]];
+                        de += w * (l.error - base[pos].error);
+                        db += w * (l.brier - base[pos].brier);
+                    }
+                }
                 block[pos * p + j] = original[pos];
             }
         }
-        inc_err[j] = de / m as f64;
-        inc_brier[j] = db / m as f64;
+        inc_err[j] = de / total;
+        inc_brier[j] = db / total;
     }
     (inc_err, inc_brier)
 }
@@ -134,12 +146,15 @@ pub(crate) fn tree_permutation_increase(
 /// the generator for (seed, t, j), and the increase in the tree's error on those rows
 /// is one replicate. An input the tree never tests has increase exactly 0 (its
 /// permutation cannot change the tree's predictions). Trees with no out-of-bag row
-/// with a known outcome are left out; `None` when no tree is left.
+/// with a known outcome are left out; `None` when no tree is left. With case
+/// `weights`, rows of weight 0 are left out and the others count with their weights.
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn oob_permutation(
     trees: &[Tree],
     masks: &[OobMask],
     x: ArrayView2<'_, f64>,
     outcome: &Outcome,
+    weights: Option<&[f64]>,
     meta: &[FeatureMeta],
     seed: u64,
     progress: &(dyn Fn(Progress) + Sync),
@@ -147,11 +162,14 @@ pub(crate) fn oob_permutation(
     let n = x.nrows();
     let rows_of = |t: usize| -> Vec<usize> {
         (0..n)
-            .filter(|&i| masks[t].contains(i) && !outcome.is_missing(i))
+            .filter(|&i| {
+                masks[t].contains(i) && !outcome.is_missing(i) && weights.is_none_or(|w| w[i] > 0.0)
+            })
             .collect()
     };
     let rng_of = |t: usize, j: usize| task_rng(seed, Purpose::OobPermute, t as u64, j as u64);
-    let (errs, briers) = per_tree_increases(trees, x, outcome, &rows_of, &rng_of, progress);
+    let (errs, briers) =
+        per_tree_increases(trees, x, outcome, weights, &rows_of, &rng_of, progress);
     if errs.is_empty() {
         return None;
     }
@@ -172,6 +190,7 @@ pub(crate) fn per_tree_increases(
     trees: &[Tree],
     x: ArrayView2<'_, f64>,
     outcome: &Outcome,
+    weights: Option<&[f64]>,
     rows_of: &(dyn Fn(usize) -> Vec<usize> + Sync),
     rng_of: &(dyn Fn(usize, usize) -> rand_xoshiro::Xoshiro256PlusPlus + Sync),
     progress: &(dyn Fn(Progress) + Sync),
@@ -182,8 +201,9 @@ pub(crate) fn per_tree_increases(
         .into_par_iter()
         .map(|t| {
             let rows = rows_of(t);
-            let result = (!rows.is_empty())
-                .then(|| tree_permutation_increase(&trees[t], x, outcome, &rows, |j| rng_of(t, j)));
+            let result = (!rows.is_empty()).then(|| {
+                tree_permutation_increase(&trees[t], x, outcome, &rows, weights, |j| rng_of(t, j))
+            });
             let d = done.fetch_add(1, Ordering::Relaxed) + 1;
             progress(Progress {
                 stage: Stage::Importance,
@@ -281,7 +301,7 @@ pub(crate) mod tests {
             for (t, tree) in f.trees().iter().enumerate() {
                 let rng = |j: usize| task_rng(9, Purpose::OobPermute, t as u64, j as u64);
                 let (fast_e, fast_b) =
-                    tree_permutation_increase(tree, d.x.view(), &d.outcome, &rows, rng);
+                    tree_permutation_increase(tree, d.x.view(), &d.outcome, &rows, None, rng);
                 for j in 0..d.x.ncols() {
                     let (e, b) = full_increase(tree, d.x.view(), &d.outcome, &rows, j, &mut rng(j));
                     assert!((fast_e[j] - e).abs() < 1e-9, "tree {t} input {j}");

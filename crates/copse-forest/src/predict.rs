@@ -3,7 +3,7 @@
 //! predictions against a known outcome.
 use crate::error::{Error, ErrorKind, Result};
 use crate::forest::Forest;
-use crate::metrics::{class_metrics, predicted_class, value_metrics, Metrics};
+use crate::metrics::{class_metrics_weighted, predicted_class, value_metrics_weighted, Metrics};
 use crate::outcome::Outcome;
 use crate::task::Task;
 use copse_tree::tree::CompactTree;
@@ -194,13 +194,34 @@ impl Forest {
     /// # Ok::<(), copse_forest::Error>(())
     /// ```
     pub fn evaluate(&self, x: ArrayView2<'_, f64>, outcome: &Outcome) -> Result<Evaluation> {
+        self.evaluate_weighted(x, outcome, None)
+    }
+
+    /// Accuracy measures as [`Forest::evaluate`], each row counted with its case
+    /// weight when `weights` are given (weighted error, Brier score, log loss, ROC AUC
+    /// and confusion table in weights; weighted squared and absolute errors):
+    /// see [`crate::metrics::class_metrics_weighted`].
+    ///
+    /// # Errors
+    /// As for [`Forest::evaluate`]; `LengthMismatch` for a wrong number of weights,
+    /// `BadValue` for a negative or non-finite one, `NoTargets` when the rows with a
+    /// known outcome weigh nothing.
+    pub fn evaluate_weighted(
+        &self,
+        x: ArrayView2<'_, f64>,
+        outcome: &Outcome,
+        weights: Option<&[f64]>,
+    ) -> Result<Evaluation> {
         let outcome = self.align_rows(x, outcome)?;
+        let weights = crate::case_weights::checked_weights(weights, &outcome)?.map(|(w, _)| w);
         let preds = self.predict(x)?;
         let metrics = match &outcome {
             Outcome::Classes { codes, .. } => {
-                class_metrics(codes, preds.view()).map(Metrics::Classes)
+                class_metrics_weighted(codes, preds.view(), weights).map(Metrics::Classes)
             }
-            Outcome::Values(y) => value_metrics(y, &preds.column(0).to_vec()).map(Metrics::Values),
+            Outcome::Values(y) => {
+                value_metrics_weighted(y, &preds.column(0).to_vec(), weights).map(Metrics::Values)
+            }
         };
         let missing = x.nrows() - outcome.n_labelled();
         match metrics {

@@ -350,6 +350,7 @@ pub fn holdout_importance(
             forest.trees(),
             xh.view(),
             &yh,
+            None,
             &|_| held.clone(),
             &|t, j| task_rng(permute_seed, Purpose::HalfPermute, t as u64, j as u64),
             &|_| {},

@@ -172,6 +172,24 @@ pub fn stability_report(
     settings: &StabilitySettings,
     progress: &(dyn Fn(usize, usize) + Sync),
 ) -> Result<StabilityReport> {
+    stability_report_grouped(x, meta, outcome, None, settings, progress)
+}
+
+/// [`stability_report`] for rows in `groups` (a group number per row, see
+/// [`TrainOptions::groups`]): the ensembles draw whole groups, so their out-of-bag
+/// figures judge rows only by trees that saw none of their group, and the single
+/// tree's folds hold whole groups (drawn in a seed-drawn order of groups).
+///
+/// # Errors
+/// As for [`stability_report`]; `InvalidSetting` for more folds than groups.
+pub fn stability_report_grouped(
+    x: ArrayView2<'_, f64>,
+    meta: &[FeatureMeta],
+    outcome: &Outcome,
+    groups: Option<&[u32]>,
+    settings: &StabilitySettings,
+    progress: &(dyn Fn(usize, usize) + Sync),
+) -> Result<StabilityReport> {
     if settings.seeds < 2 {
         return bad_setting("a stability report compares seeds, so it needs at least 2");
     }
@@ -221,12 +239,14 @@ pub fn stability_report(
         let mut rng = task_rng(settings.forest.seed, Purpose::Stability, s as u64, 0);
         let mut order = labelled.clone();
         order.shuffle(&mut rng);
+        let fold_of = crate::case_weights::folds_of(&order, groups, settings.folds)?;
         runs[0].push(cross_validated_tree(
             x,
             meta,
             outcome,
             &settings.forest,
             &order,
+            &fold_of,
             settings.folds,
             rng.next_u64(),
             &tick,
@@ -234,7 +254,7 @@ pub fn stability_report(
         for (slot, base) in [(1, &bagged), (2, &forest)] {
             let mut st = base.clone();
             st.seed = rng.next_u64();
-            runs[slot].push(ensemble_run(x, meta, outcome, &st)?);
+            runs[slot].push(ensemble_run(x, meta, outcome, groups, &st)?);
             tick(1);
         }
     }
@@ -270,7 +290,8 @@ fn fewest_training_rows(n: usize, folds: usize) -> usize {
 }
 
 /// The single tree's run for one seed: `folds`-fold cross-validation over `order`
-/// (labelled rows in a seed-drawn order; fold `f` holds positions `f, f + folds, ...`).
+/// (labelled rows in a seed-drawn order; fold `f` holds the positions `fold_of` puts
+/// in it).
 #[allow(clippy::too_many_arguments)]
 fn cross_validated_tree(
     x: ArrayView2<'_, f64>,
@@ -278,6 +299,7 @@ fn cross_validated_tree(
     outcome: &Outcome,
     base: &ForestSettings,
     order: &[usize],
+    fold_of: &[usize],
     folds: usize,
     seed: u64,
     tick: &(dyn Fn(usize) + Sync),
@@ -297,13 +319,14 @@ fn cross_validated_tree(
     let per_fold: Vec<(Vec<usize>, Vec<f64>, Vec<f64>)> = (0..folds)
         .into_par_iter()
         .map(|f| -> Result<(Vec<usize>, Vec<f64>, Vec<f64>)> {
-            let held: Vec<usize> = order.iter().copied().skip(f).step_by(folds).collect();
-            let train: Vec<usize> = order
-                .iter()
-                .enumerate()
-                .filter(|(pos, _)| pos % folds != f)
-                .map(|(_, &i)| i)
-                .collect();
+            let (mut held, mut train) = (Vec::new(), Vec::new());
+            for (&i, &fold) in order.iter().zip(fold_of) {
+                if fold == f {
+                    held.push(i)
+                } else {
+                    train.push(i)
+                }
+            }
             let (xt, yt) = (x.select(Axis(0), &train), subset(outcome, &train));
             let tree = Forest::train(xt.view(), meta, &yt, &tree_settings, &options)?.forest;
             let (xh, yh) = (x.select(Axis(0), &held), subset(outcome, &held));
@@ -340,14 +363,19 @@ fn cross_validated_tree(
     })
 }
 
-/// One ensemble trained on all rows.
+/// One ensemble trained on all rows (drawing whole `groups` when given).
 fn ensemble_run(
     x: ArrayView2<'_, f64>,
     meta: &[FeatureMeta],
     outcome: &Outcome,
+    groups: Option<&[u32]>,
     settings: &ForestSettings,
 ) -> Result<Run> {
-    let trained = Forest::train(x, meta, outcome, settings, &TrainOptions::default())?;
+    let options = TrainOptions {
+        groups,
+        ..TrainOptions::default()
+    };
+    let trained = Forest::train(x, meta, outcome, settings, &options)?;
     let error = trained
         .forest
         .oob()

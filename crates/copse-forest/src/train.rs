@@ -2,6 +2,7 @@
 //! compute the out-of-bag estimates and importance, all combined in tree-index order
 //! so the model is the same for any number of threads.
 use crate::card::ModelCard;
+use crate::case_weights::{checked_groups, checked_weights};
 use crate::draws::Draws;
 use crate::error::{bad_setting, Error, ErrorKind, Result};
 use crate::fingerprint::RowFingerprint;
@@ -42,6 +43,16 @@ pub struct TrainOptions<'a> {
     /// Told about progress (for a progress bar); reports may come from several threads
     /// at once. Default none.
     pub progress: Option<&'a (dyn Fn(Progress) + Sync)>,
+    /// Case weights, one per row (finite, 0 or more on rows with a known outcome): a
+    /// weight counts cases, each tree draws cases in proportion to the weights, and
+    /// every out-of-bag figure and importance weighs rows by them (see
+    /// [`crate::case_weights`]). Weights all 1 give the same model as none, byte for
+    /// byte. Default none.
+    pub case_weights: Option<&'a [f64]>,
+    /// A group number per row: resampling draws whole groups, so a row is out of bag
+    /// only for trees that drew no row of its group (see [`crate::case_weights`]).
+    /// Default none.
+    pub groups: Option<&'a [u32]>,
 }
 
 impl Default for TrainOptions<'_> {
@@ -51,6 +62,8 @@ impl Default for TrainOptions<'_> {
             keep_draws: false,
             keep_leaf_rows: false,
             progress: None,
+            case_weights: None,
+            groups: None,
         }
     }
 }
@@ -62,6 +75,8 @@ impl std::fmt::Debug for TrainOptions<'_> {
             .field("keep_draws", &self.keep_draws)
             .field("keep_leaf_rows", &self.keep_leaf_rows)
             .field("progress", &self.progress.map(|_| "callback"))
+            .field("case_weights", &self.case_weights.map(<[f64]>::len))
+            .field("groups", &self.groups.map(<[u32]>::len))
             .finish()
     }
 }
@@ -90,7 +105,9 @@ impl Forest {
     /// # Errors
     /// `InvalidSetting` for bad settings; `LengthMismatch`, `EmptyData`, `BadValue`,
     /// `TooLarge` for data that does not fit; `NoTargets` with fewer than two known
-    /// outcomes.
+    /// outcomes (or groups, or rows of positive weight); `BadValue` for a negative or
+    /// non-finite case weight; `InvalidSetting` for draw counts kept with case weights
+    /// or groups (standard errors assume plain bootstrap draws of rows).
     ///
     /// # Example
     /// ```
@@ -148,7 +165,29 @@ impl Forest {
         let tree_settings = settings.tree.tree_settings((k < p).then_some(k));
         tree_settings.validate()?;
         let target = outcome.view()?;
-        let sampler = Sampler::new(outcome, settings.sampling, settings.balanced)?;
+        let weighted = checked_weights(options.case_weights, outcome)?;
+        let grouped = checked_groups(options.groups, outcome)?;
+        if options.keep_draws && (weighted.is_some() || grouped.is_some()) {
+            return bad_setting(
+                "standard errors of predictions assume plain bootstrap draws of rows; draw \
+                 counts cannot be kept with case weights or row groups",
+            );
+        }
+        if options.keep_leaf_rows && weighted.is_some() {
+            return bad_setting(
+                "outcome ranges weight the training outcomes by whole draws; leaf rows cannot \
+                 be kept with case weights yet, so drop keep_leaf_rows or the case weights",
+            );
+        }
+        let (weights, weights_record) = weighted.map_or((None, None), |(w, r)| (Some(w), Some(r)));
+        let (clusters, groups_record) = grouped.map_or((None, None), |(c, r)| (Some(c), Some(r)));
+        let sampler = Sampler::new(
+            outcome,
+            settings.sampling,
+            settings.balanced,
+            weights,
+            clusters,
+        )?;
         let ranks = match (options.keep_leaf_rows, outcome) {
             (false, _) => None,
             (true, Outcome::Values(y)) => Some(outcome_ranks(y)),
@@ -165,18 +204,24 @@ impl Forest {
         let grown: Vec<Grown> = (0..n_trees)
             .into_par_iter()
             .map_init(
-                || (Grower::new(tree_settings.clone()), vec![0.0; n], Vec::new()),
-                |(grower, weights, scratch), t| -> Result<Grown> {
+                || {
+                    let buffers = (vec![0.0; n], Vec::new(), Vec::new());
+                    (Grower::new(tree_settings.clone()), buffers)
+                },
+                |(grower, (counts, scratch, case_buf)), t| -> Result<Grown> {
                     let mut sample_rng = task_rng(settings.seed, Purpose::Sample, t as u64, 0);
-                    sampler.draw(&mut sample_rng, weights, scratch);
+                    sampler.draw(&mut sample_rng, counts, scratch);
+                    let case = sampler.case_weights(counts, case_buf);
                     let grow_seed = task_seed(settings.seed, Purpose::Grow, t as u64, 0);
-                    let tree = grower.grow(&data, &target, weights, grow_seed)?;
-                    let bag_weight = weights.iter().sum();
-                    let oob = OobMask::from_weights(weights);
-                    let draws = options.keep_draws.then(|| Draws::column(weights));
+                    let tree = grower.grow(&data, &target, case, grow_seed)?;
+                    let bag_weight = case.iter().sum();
+                    // Out of bag: never drawn (with row groups: no row of its group
+                    // drawn), whatever its case weight.
+                    let oob = OobMask::from_weights(counts);
+                    let draws = options.keep_draws.then(|| Draws::column(counts));
                     let leaf_rows = ranks
                         .as_ref()
-                        .map(|(rank, _)| TreeRows::collect(&tree, x, weights, rank));
+                        .map(|(rank, _)| TreeRows::collect(&tree, x, counts, rank));
                     let d = done.fetch_add(1, Ordering::Relaxed) + 1;
                     progress(Progress {
                         stage: Stage::Growing,
@@ -230,15 +275,31 @@ impl Forest {
         let prior_shift = match outcome {
             Outcome::Classes { codes, labels } if settings.balanced => {
                 let shares = crate::priors::training_shares(codes, labels.len());
-                let (raw, _) = out_of_bag(&trees, &masks, x, outcome, None, &|_| {});
+                let (raw, _) = out_of_bag(&trees, &masks, x, outcome, weights, None, &|_| {});
                 Some(crate::priors::fitted_shift(raw.predictions.view(), &shares))
             }
             _ => None,
         };
-        let (report, summary) =
-            out_of_bag(&trees, &masks, x, outcome, prior_shift.as_deref(), progress);
+        let (report, summary) = out_of_bag(
+            &trees,
+            &masks,
+            x,
+            outcome,
+            weights,
+            prior_shift.as_deref(),
+            progress,
+        );
         let oob_importance = if options.oob_importance {
-            oob_permutation(&trees, &masks, x, outcome, meta, settings.seed, progress)
+            oob_permutation(
+                &trees,
+                &masks,
+                x,
+                outcome,
+                weights,
+                meta,
+                settings.seed,
+                progress,
+            )
         } else {
             None
         };
@@ -256,7 +317,9 @@ impl Forest {
             Outcome::Classes { labels, .. } => (Task::Classify, labels.clone()),
             Outcome::Values(_) => (Task::Regress, Vec::new()),
         };
-        let card = ModelCard::for_outcome(outcome, settings.features_per_split.to_string());
+        let mut card = ModelCard::for_outcome(outcome, settings.features_per_split.to_string());
+        card.weights = weights_record;
+        card.groups = groups_record;
         let forest = Forest {
             meta: meta.to_vec(),
             task,

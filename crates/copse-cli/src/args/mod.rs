@@ -132,6 +132,17 @@ pub struct ColumnRoles {
     /// regress when it holds numbers].
     #[arg(long, value_enum)]
     pub task: Option<TaskArg>,
+
+    /// A column of case weights (numbers of 0 or more, not an input): a row of weight 3
+    /// counts as three identical rows in the draws and in every figure.
+    #[arg(long, value_name = "COL")]
+    pub weights: Option<String>,
+
+    /// A column of group labels (not an input): rows of one group (visits of one
+    /// patient, inspections of one segment) are drawn together, and judged out of bag
+    /// only by trees that saw none of the group.
+    #[arg(long, value_name = "COL")]
+    pub group: Option<String>,
 }
 
 impl From<&ColumnRoles> for Roles {
@@ -142,6 +153,8 @@ impl From<&ColumnRoles> for Roles {
             categorical: r.categorical.clone(),
             numeric: r.numeric.clone(),
             task: r.task.map(Task::from),
+            weights: r.weights.clone(),
+            group: r.group.clone(),
         }
     }
 }

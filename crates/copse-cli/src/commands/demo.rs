@@ -54,6 +54,8 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
             categorical: Vec::new(),
             numeric: Vec::new(),
             task: None,
+            weights: None,
+            group: None,
         },
         out: model_path.clone(),
         csv: csv.clone(),

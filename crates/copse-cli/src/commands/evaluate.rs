@@ -12,7 +12,7 @@ use crate::report::judged::{Judged, Scores};
 use crate::report::notices::TrainingRowsView;
 use crate::report::{self, Style};
 use crate::ui::Ui;
-use copse_forest::metrics::{class_metrics, value_metrics};
+use copse_forest::metrics::{class_metrics_weighted, value_metrics_weighted};
 use copse_forest::{Evaluation, Metrics, Outcome, Task};
 
 /// Runs `copse evaluate`.
@@ -51,9 +51,22 @@ pub fn run(a: &EvaluateArgs, ui: &Ui) -> CliResult<()> {
     let preds = model
         .predict(data.x.view())
         .map_err(|e| forest_error(&e, &context))?;
+    // With the model's case weights column in the file, every figure weighs rows by it.
+    let weights = data.weights.as_deref();
+    if let (Some(w), None) = (&model.card().weights, weights) {
+        ui.note(&format!(
+            "the model was trained with case weights from '{}', which {source} lacks; the \
+             figures count every row once",
+            w.column
+        ));
+    }
     let metrics = match &data.outcome {
-        Outcome::Classes { codes, .. } => class_metrics(codes, preds.view()).map(Metrics::Classes),
-        Outcome::Values(y) => value_metrics(y, &preds.column(0).to_vec()).map(Metrics::Values),
+        Outcome::Classes { codes, .. } => {
+            class_metrics_weighted(codes, preds.view(), weights).map(Metrics::Classes)
+        }
+        Outcome::Values(y) => {
+            value_metrics_weighted(y, &preds.column(0).to_vec(), weights).map(Metrics::Values)
+        }
     };
     let eval = match metrics {
         Some(metrics) => Evaluation {
@@ -61,7 +74,7 @@ pub fn run(a: &EvaluateArgs, ui: &Ui) -> CliResult<()> {
             rows_missing_outcome: data.rows - data.outcome.n_labelled(),
         },
         None => model
-            .evaluate(data.x.view(), &data.outcome)
+            .evaluate_weighted(data.x.view(), &data.outcome, weights)
             .map_err(|e| forest_error(&e, &context))?,
     };
     let unseen: u64 = data.encoder.unseen_counts().iter().sum();

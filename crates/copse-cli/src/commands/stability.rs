@@ -9,7 +9,7 @@ use crate::plots;
 use crate::report::stability::StabilityView;
 use crate::report::{self, Style};
 use crate::ui::Ui;
-use copse_forest::{stability_report, ForestSettings, StabilitySettings};
+use copse_forest::{stability_report_grouped, ForestSettings, StabilitySettings};
 
 /// Runs `copse stability`.
 ///
@@ -18,6 +18,11 @@ use copse_forest::{stability_report, ForestSettings, StabilitySettings};
 pub fn run(a: &StabilityArgs, ui: &Ui) -> CliResult<()> {
     if let Some(plot) = &a.plot {
         check_output(&a.data, plot, "chart file")?;
+    }
+    if a.roles.weights.is_some() {
+        return Err(CliError::input(
+            "copse stability does not take case weights yet: drop --weights (--group is taken)",
+        ));
     }
     let data = read_training(&a.data, &a.roles, &a.csv, ui)?;
     let labelled = data.outcome.n_labelled();
@@ -45,10 +50,11 @@ pub fn run(a: &StabilityArgs, ui: &Ui) -> CliResult<()> {
     };
     let total = (a.seeds * (a.folds + 2)) as u64;
     let bar = ui.bar(total, "training models");
-    let result = stability_report(
+    let result = stability_report_grouped(
         data.x.view(),
         &data.features,
         &data.outcome,
+        data.groups.as_ref().map(|(_, g)| g.as_slice()),
         &settings,
         &|done, _| bar.advance_to(done),
     );

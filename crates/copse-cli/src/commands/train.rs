@@ -98,6 +98,39 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
             data.target
         )));
     }
+    if a.keep_leaf_rows && a.roles.weights.is_some() {
+        return Err(CliError::input(
+            "--keep-leaf-rows weights the training outcomes by whole draws and does not take \
+             case weights yet; drop --keep-leaf-rows or --weights",
+        ));
+    }
+    if a.keep_draws && (a.roles.weights.is_some() || a.roles.group.is_some()) {
+        return Err(CliError::input(
+            "--keep-draws is for standard errors, which assume plain bootstrap draws of rows; \
+             drop --keep-draws, or --weights and --group",
+        ));
+    }
+    if a.shuffled_target_runs.is_some() && (a.roles.weights.is_some() || a.roles.group.is_some()) {
+        return Err(CliError::input(
+            "--shuffled-target-runs trains its forests on plain rows; it does not take case \
+             weights or groups yet: drop it, or --weights and --group",
+        ));
+    }
+    if a.balanced && a.roles.group.is_some() {
+        return Err(CliError::input(
+            "--balanced draws rows by class, and the groups of --group may mix classes; use one \
+             or the other",
+        ));
+    }
+    if a.roles.weights.is_some()
+        && a.roles.group.is_none()
+        && matches!(a.sampling, Sampling::Subsample(_))
+    {
+        return Err(CliError::input(
+            "--sampling subsample:F draws rows without replacement, which case weights do not \
+             define; use --sampling bootstrap or none with --weights (or add --group)",
+        ));
+    }
     if a.shuffled_target_runs.is_some() && a.sampling == Sampling::Whole {
         return Err(CliError::input(
             "--shuffled-target-runs compares out-of-bag importances, and --sampling none leaves no \

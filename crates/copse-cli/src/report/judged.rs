@@ -33,7 +33,23 @@ pub struct Judged<'a> {
     /// Where the scores come from, for headings.
     #[serde(skip)]
     pub scores: &'static str,
+    /// For a model trained with case weights: that the sections of this layer count
+    /// every row once (the headline measures weigh rows).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rows_counted_once: Option<&'static str>,
+    /// For a model trained with row groups: that the intervals treat rows as
+    /// independent, so they are too narrow when rows of a group are alike.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub rows_taken_as_independent: Option<&'static str>,
 }
+
+/// What [`Judged::rows_taken_as_independent`] says.
+pub const ROWS_TAKEN_AS_INDEPENDENT: &str = "the intervals below treat rows as independent \
+cases; rows of one group are not, so the intervals are narrower than they should be";
+
+/// What [`Judged::rows_counted_once`] says.
+pub const ROWS_COUNTED_ONCE: &str = "the intervals, baselines, decision tables and groups \
+count every row once, not by its case weight";
 
 /// The scores of a report and what to do with them.
 pub struct Scores<'a> {
@@ -94,6 +110,12 @@ impl<'a> Judged<'a> {
             decision,
             groups,
             scores: s.kind,
+            rows_counted_once: model.card().weights.is_some().then_some(ROWS_COUNTED_ONCE),
+            rows_taken_as_independent: model
+                .card()
+                .groups
+                .is_some()
+                .then_some(ROWS_TAKEN_AS_INDEPENDENT),
         })
     }
 
@@ -105,6 +127,13 @@ impl<'a> Judged<'a> {
     /// The sections after the headline measures: intervals and baselines, decision
     /// tables, groups.
     pub fn text(&self, out: &mut String, st: Style) {
+        for note in [self.rows_counted_once, self.rows_taken_as_independent]
+            .into_iter()
+            .flatten()
+        {
+            let _ = writeln!(out, "  Note: {note}.");
+            let _ = writeln!(out);
+        }
         if let Some(f) = &self.headline_figures {
             let _ = writeln!(
                 out,

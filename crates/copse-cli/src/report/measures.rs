@@ -1,10 +1,11 @@
 //! How well a model predicts a set of rows: the measures as a view (JSON keys
 //! `error`, `confusion`, `wrong_share_by_class`, `log_loss`, `brier`, `roc_auc` for
 //! classes; `error` (the mean squared error), `rmse`, `mae`, `r_squared`, `mse` for
-//! numbers; `rows` for both) and as printed lines: the headline figures, then for
+//! numbers; `rows` for both; with case weights also `weight_total`, and for classes
+//! `weighted_confusion`) and as printed lines: the headline figures, then for
 //! classes the confusion table and, under it, the share of each class predicted wrong.
 use super::line;
-use crate::numbers::{column_decimals, count, fixed, pct};
+use crate::numbers::{column_decimals, count, fixed, pct, sig};
 use copse_forest::{ClassMetrics, Metrics, ValueMetrics};
 use serde::Serialize;
 use std::fmt::Write;
@@ -31,6 +32,10 @@ pub struct ClassMeasures<'a> {
     log_loss: f64,
     brier: f64,
     roc_auc: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    weight_total: Option<f64>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    weighted_confusion: Option<&'a [Vec<f64>]>,
 }
 
 /// Measures of numbers; `error` repeats the mean squared error.
@@ -42,6 +47,8 @@ pub struct ValueMeasures {
     mae: f64,
     r_squared: Option<f64>,
     mse: f64,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    weight_total: Option<f64>,
 }
 
 /// No measures: no row was judged.
@@ -63,6 +70,8 @@ impl<'a> MeasuresView<'a> {
                 log_loss: c.log_loss,
                 brier: c.brier,
                 roc_auc: c.roc_auc,
+                weight_total: c.weighted.as_ref().map(|w| w.total),
+                weighted_confusion: c.weighted.as_ref().map(|w| w.confusion.as_slice()),
             }),
             Some(Metrics::Values(v)) => MeasuresView::Values(ValueMeasures {
                 rows: v.rows,
@@ -71,6 +80,7 @@ impl<'a> MeasuresView<'a> {
                 mae: v.mae,
                 r_squared: v.r_squared,
                 mse: v.mse,
+                weight_total: v.weight_total,
             }),
             None => MeasuresView::Nothing(NoMeasures {
                 rows: 0,
@@ -99,12 +109,20 @@ pub fn class_block(out: &mut String, m: &ClassMetrics, classes: &[String], rows_
         r.iter().sum::<u64>() - r.get(c).copied().unwrap_or(0)
     };
     let wrong: u64 = (0..m.confusion.len()).map(wrong_in).sum();
+    if let Some(w) = &m.weighted {
+        line(out, "case weight", &sig(w.total, 6));
+    }
     line(
         out,
         "misclassified",
         &format!(
-            "{} ({})",
+            "{}{} ({})",
             pct(m.error),
+            if m.weighted.is_some() {
+                " of the case weight"
+            } else {
+                ""
+            },
             count(wrong as usize, "row", "rows")
         ),
     );
@@ -171,12 +189,56 @@ pub fn class_block(out: &mut String, m: &ClassMetrics, classes: &[String], rows_
             wrong_in(i)
         );
     }
+    if let Some(w) = &m.weighted {
+        weighted_table(out, &w.confusion, classes, lw);
+    }
+}
+
+/// The confusion table in case weights (rows: actual class; columns: predicted).
+fn weighted_table(out: &mut String, table: &[Vec<f64>], classes: &[String], lw: usize) {
+    let top = table.iter().flatten().fold(0.0f64, |a, &b| a.max(b));
+    let d = column_decimals(top);
+    let cells: Vec<Vec<String>> = table
+        .iter()
+        .map(|r| r.iter().map(|&v| format!("{v:.d$}")).collect())
+        .collect();
+    let cw = classes
+        .iter()
+        .map(|c| c.len())
+        .chain(cells.iter().flatten().map(String::len))
+        .max()
+        .unwrap_or(0)
+        .max(5);
+    let _ = writeln!(out);
+    let _ = writeln!(
+        out,
+        "  confusion table in case weights (rows: actual class; columns: predicted class)"
+    );
+    let mut head = format!("  {:<lw$}", "");
+    for c in classes {
+        let _ = write!(head, "  {c:>cw$}");
+    }
+    let _ = writeln!(out, "{head}");
+    for (c, r) in classes.iter().zip(&cells) {
+        let mut row = format!("  {c:<lw$}");
+        for v in r {
+            let _ = write!(row, "  {v:>cw$}");
+        }
+        let _ = writeln!(out, "{row}");
+    }
 }
 
 /// Regression measures: the typical error in target units first (root mean squared
 /// error, then mean absolute error), then R².
 pub fn value_block(out: &mut String, m: &ValueMetrics, rows_label: &str) {
     line(out, rows_label, &m.rows.to_string());
+    if let Some(w) = m.weight_total {
+        line(
+            out,
+            "case weight",
+            &format!("{} (every figure below weighs rows by it)", sig(w, 6)),
+        );
+    }
     // Both errors in target units, to the same number of decimals.
     let d = column_decimals(m.mse.sqrt().max(m.mae));
     line(

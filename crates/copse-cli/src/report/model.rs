@@ -3,7 +3,7 @@
 //! common keys of `train`, `evaluate`, `importance` and `inspect`.
 use super::measures::MeasuresView;
 use super::CAUTION;
-use copse_forest::{FeatureKind, Forest, Task};
+use copse_forest::{FeatureKind, Forest, GroupsRecord, Task, WeightsRecord};
 use serde::Serialize;
 
 /// The model summary.
@@ -189,6 +189,13 @@ pub struct DataView<'a> {
     ignored: &'a [String],
     class_counts: &'a [u64],
     missing_tokens: &'a [String],
+    /// The case weights column, their total and rows of weight 0 (absent without).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    case_weights: Option<&'a WeightsRecord>,
+    /// The group column, the number of groups and their smallest and largest sizes
+    /// (absent without).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    row_groups: Option<&'a GroupsRecord>,
 }
 
 impl<'a> DataView<'a> {
@@ -201,6 +208,8 @@ impl<'a> DataView<'a> {
             ignored: &t.ignored,
             class_counts: &t.class_counts,
             missing_tokens: &t.missing_tokens,
+            case_weights: t.weights.as_ref(),
+            row_groups: t.groups.as_ref(),
         }
     }
 }

@@ -136,6 +136,39 @@ pub fn data_section(out: &mut String, st: Style, model: &Model, missing: Option<
     if !t.ignored.is_empty() {
         line(out, "left out", &t.ignored.join(", "));
     }
+    if let Some(w) = &t.weights {
+        let zero = match w.zero_rows {
+            0 => String::new(),
+            z => format!("; {} of weight 0, never drawn", count(z, "row", "rows")),
+        };
+        line(
+            out,
+            "case weights",
+            &format!(
+                "'{}', adding up to {}{zero}; trees draw rows in proportion to them and every \
+                 figure weighs rows by them",
+                w.column,
+                sig(w.total, 6)
+            ),
+        );
+    }
+    if let Some(g) = &t.groups {
+        line(
+            out,
+            "row groups",
+            &format!(
+                "'{}': {} of {}; trees draw whole groups, and a row is judged out of bag \
+                 only by trees that saw none of its group",
+                g.column,
+                count(g.groups, "group", "groups"),
+                if g.smallest == g.largest {
+                    format!("{} each", count(g.largest, "row", "rows"))
+                } else {
+                    format!("{} to {} rows", g.smallest, g.largest)
+                }
+            ),
+        );
+    }
     let _ = writeln!(out);
 }
 

@@ -45,11 +45,7 @@ impl Forest {
     /// # Errors
     /// As for [`Forest::load`], without `Io`.
     pub fn from_bytes(bytes: &[u8], name: &str) -> Result<Forest> {
-        let (version, payload) = open(bytes, name)?;
-        let forest = match version {
-            3 => decode_payload::<FormatThree>(payload, name)?.into(),
-            _ => decode_payload::<Forest>(payload, name)?,
-        };
+        let forest: Forest = decode_payload(open(bytes, name)?.1, name)?;
         forest.checked(name)
     }
 
@@ -122,49 +118,5 @@ impl Forest {
             )
         })?;
         Ok(self)
-    }
-}
-
-/// A forest as format 3 stored it: the fields of [`Forest`] in order, without the leaf
-/// rows that format 4 added at the end.
-#[derive(serde::Deserialize)]
-struct FormatThree {
-    meta: Vec<copse_tree::FeatureMeta>,
-    task: crate::task::Task,
-    classes: Vec<String>,
-    trees: Vec<copse_tree::Tree>,
-    settings: crate::settings::ForestSettings,
-    features_per_split: usize,
-    training_rows: usize,
-    oob: crate::oob_summary::OobSummary,
-    oob_importance: Option<crate::importance::PermutationImportance>,
-    impurity_importance: crate::importance::Importance,
-    draws: Option<crate::draws::Draws>,
-    bins: Vec<copse_tree::FeatureBins>,
-    card: crate::card::ModelCard,
-    prior_shift: Option<Vec<f64>>,
-    fingerprint: crate::fingerprint::RowFingerprint,
-}
-
-impl From<FormatThree> for Forest {
-    fn from(f: FormatThree) -> Self {
-        Forest {
-            meta: f.meta,
-            task: f.task,
-            classes: f.classes,
-            trees: f.trees,
-            settings: f.settings,
-            features_per_split: f.features_per_split,
-            training_rows: f.training_rows,
-            oob: f.oob,
-            oob_importance: f.oob_importance,
-            impurity_importance: f.impurity_importance,
-            draws: f.draws,
-            bins: f.bins,
-            card: f.card,
-            prior_shift: f.prior_shift,
-            fingerprint: f.fingerprint,
-            leaf_rows: None,
-        }
     }
 }

@@ -25,13 +25,15 @@ use std::path::Path;
 
 /// First eight bytes of every model file.
 pub const MAGIC: [u8; 8] = [0xC0, b'P', b'S', b'E', b'M', b'D', b'\r', b'\n'];
-/// The format this build writes. Format 4 adds the leaf rows a model may keep
-/// (`Forest::leaf_rows`); format 3 is the forest with its model card, still read (as a
-/// model without leaf rows); format 2 held a command-line schema beside the forest and
-/// format 1 stored leaf outputs in tables beside the nodes, and neither is read.
+/// The format this build writes and the only one it reads. Format 4 adds case weights
+/// and row groups to the model card, weighted totals to the out-of-bag measures, the
+/// cut-point mode to the settings and the leaf rows a model may keep
+/// (`Forest::leaf_rows`); format 3 was the forest with its model card (format 2 held
+/// a command-line schema beside the forest; format 1 stored leaf outputs in tables
+/// beside the nodes).
 pub const FORMAT_VERSION: u16 = 4;
-/// The oldest format this build reads.
-pub const OLDEST_READ_VERSION: u16 = 3;
+/// The oldest format this build reads (formats before it must be trained again).
+pub const OLDEST_READ_VERSION: u16 = 4;
 /// Bytes before the payload.
 pub const HEADER_LEN: usize = 20;
 /// Bytes after the payload.
@@ -135,8 +137,8 @@ fn check_header(header: &[u8], file_len: u64, name: &str) -> Result<u64> {
             OlderFormat,
             format!(
                 "{name} was written by an earlier copse (model format {version}; this copse reads \
-                 formats {OLDEST_READ_VERSION} to {FORMAT_VERSION}); the model must be trained again \
-                 with this copse ('copse train')"
+                 format {FORMAT_VERSION} only); the model must be trained again with this copse \
+                 ('copse train')"
             ),
         ));
     }
