@@ -21,6 +21,7 @@
 //! - [`effects`]: effect curves of one input, mean and per row ([`EffectCurve`]);
 //! - [`significance`]: p-values for permutation importance;
 //! - [`stability`]: how one tree, bagged trees and a forest vary over seeds;
+//! - [`tune`]: settings chosen by out-of-bag error over a small grid ([`tune::tune`]);
 //! - [`uncertainty`]: standard errors of predictions (infinitesimal jackknife);
 //! - [`unfamiliar`]: rows outside the training ranges ([`Unfamiliar`]);
 //! - `synth` (feature `synth`): seeded generators of published synthetic problems.
@@ -82,12 +83,13 @@ pub mod stability;
 pub mod synth;
 pub mod task;
 pub mod train;
+pub mod tune;
 pub mod uncertainty;
 pub mod unfamiliar;
 
 pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
 pub use contributions::Contributions;
-pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
+pub use copse_tree::{CutChoice, FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
 pub use effects::{EffectCurve, EffectGrid, EffectSettings};
 pub use error::{io_reason, Error, ErrorKind, Result};
@@ -111,6 +113,6 @@ pub use stability::{
     stability_report, KindStability, ModelKind, StabilityReport, StabilitySettings,
 };
 pub use task::Task;
-pub use train::TrainOptions;
+pub use train::{Prepared, TrainOptions};
 pub use uncertainty::Uncertainty;
 pub use unfamiliar::{Familiar, Unfamiliar};

@@ -25,10 +25,11 @@ use std::path::Path;
 
 /// First eight bytes of every model file.
 pub const MAGIC: [u8; 8] = [0xC0, b'P', b'S', b'E', b'M', b'D', b'\r', b'\n'];
-/// The format this build writes and the only one it reads. Format 3 is the forest
-/// with its model card (format 2 held a command-line schema beside the forest; format
+/// The format this build writes and the only one it reads. Format 4 adds how cut
+/// points were chosen to the tree settings; format 3 is the forest with its model
+/// card (format 2 held a command-line schema beside the forest; format
 /// 1 stored leaf outputs in tables beside the nodes).
-pub const FORMAT_VERSION: u16 = 3;
+pub const FORMAT_VERSION: u16 = 4;
 /// Bytes before the payload.
 pub const HEADER_LEN: usize = 20;
 /// Bytes after the payload.
