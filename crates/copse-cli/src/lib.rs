@@ -22,5 +22,6 @@ pub mod numbers;
 pub mod output;
 pub mod plots;
 pub mod plots_decision;
+pub mod plots_tune;
 pub mod report;
 pub mod ui;

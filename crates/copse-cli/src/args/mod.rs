@@ -3,7 +3,7 @@
 //! error (exit 2) before any work starts.
 use crate::help::{
     DEMO_EXAMPLES, EVALUATE_EXAMPLES, IMPORTANCE_EXAMPLES, INSPECT_EXAMPLES,
-    MAKE_DEMO_DATA_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES,
+    MAKE_DEMO_DATA_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES, TUNE_EXAMPLES,
 };
 use clap::{Args, Parser, Subcommand};
 use copse_data::Roles;
@@ -12,7 +12,7 @@ use copse_forest::{FeaturesPerSplit, Sampling};
 use std::path::PathBuf;
 
 mod values;
-pub use values::{DecimalArg, DelimiterArg, ImpurityArg, TaskArg};
+pub use values::{CutsArg, DecimalArg, DelimiterArg, ImpurityArg, TaskArg};
 
 /// copse: grow an ensemble of decision trees from a CSV table, check how well it
 /// predicts without a holdout (out-of-bag), rank which inputs matter, and score new
@@ -60,6 +60,10 @@ pub enum Command {
     /// their error, answers and importance ranking move.
     #[command(after_help = STABILITY_EXAMPLES)]
     Stability(StabilityArgs),
+    /// Try a small grid of settings (inputs per split, smallest leaf, cut points) judged
+    /// by out-of-bag error against the default, and say which 'copse train' line to use.
+    #[command(after_help = TUNE_EXAMPLES)]
+    Tune(TuneArgs),
     /// Describe a model file: inputs, settings, sizes, out-of-bag accuracy, tree rules.
     #[command(after_help = INSPECT_EXAMPLES)]
     Inspect(InspectArgs),
@@ -166,9 +170,10 @@ pub struct TrainArgs {
     #[arg(long)]
     pub bagging: bool,
 
-    /// How each tree's rows are drawn: bootstrap, subsample:F (F in (0,1]) or none.
-    #[arg(long, default_value = "bootstrap", value_name = "SCHEME", value_parser = parse_sampling)]
-    pub sampling: Sampling,
+    /// How each tree's rows are drawn: bootstrap, subsample:F (F in (0,1]) or none
+    /// [default: bootstrap; none with --cuts random].
+    #[arg(long, value_name = "SCHEME", value_parser = parse_sampling)]
+    pub sampling: Option<Sampling>,
 
     /// Draw the same number of rows from every class for each tree (for rare classes).
     #[arg(long)]
@@ -177,6 +182,12 @@ pub struct TrainArgs {
     /// Impurity measure for classification splits.
     #[arg(long, value_enum, default_value = "gini")]
     pub impurity: ImpurityArg,
+
+    /// Cut point on each input tried: the best one, or one drawn at random (randomized
+    /// cut points: faster, smoother; every row in every tree unless --sampling is given,
+    /// so no out-of-bag check).
+    #[arg(long, value_enum, default_value = "best", value_name = "CHOICE")]
+    pub cuts: CutsArg,
 
     /// Deepest level a leaf may sit at (the root is level 0, so 1 allows a single split)
     /// [default: no limit].
@@ -401,6 +412,66 @@ pub struct StabilityArgs {
     pub seed: u64,
 
     /// Also draw the comparison as an SVG chart in this file.
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+
+    /// Print one JSON object instead of text.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// `copse tune`.
+#[derive(Debug, Args)]
+pub struct TuneArgs {
+    /// Training data: a CSV file with a header row, or - for standard input.
+    #[arg(long, value_name = "FILE")]
+    pub data: String,
+
+    #[command(flatten)]
+    pub roles: ColumnRoles,
+
+    #[command(flatten)]
+    pub csv: CsvArgs,
+
+    /// Trees in each forest tried.
+    #[arg(long, default_value_t = 200, value_name = "N", value_parser = clap::value_parser!(u32).range(10..=100_000))]
+    pub trees: u32,
+
+    /// Inputs per split to try, comma-separated (counts, shares such as 33%, or root,
+    /// log, every) [default: half, once and twice the default count, and every input].
+    #[arg(long, value_name = "RULE,...", value_delimiter = ',', value_parser = parse_features_per_split)]
+    pub try_features: Vec<FeaturesPerSplit>,
+
+    /// Smallest leaves to try, comma-separated [default: 1,5,20].
+    #[arg(long, value_name = "N,...", value_delimiter = ',', value_parser = clap::value_parser!(u32).range(1..))]
+    pub try_min_leaf: Vec<u32>,
+
+    /// Cut choices to try, comma-separated [default: best,random].
+    #[arg(long, value_enum, value_name = "CHOICE,...", value_delimiter = ',')]
+    pub try_cuts: Vec<CutsArg>,
+
+    /// How each tree's rows are drawn while judging: bootstrap or subsample:F (the
+    /// out-of-bag error needs rows left out, so not none).
+    #[arg(long, default_value = "bootstrap", value_name = "SCHEME", value_parser = parse_sampling)]
+    pub sampling: Sampling,
+
+    /// Impurity measure for classification splits.
+    #[arg(long, value_enum, default_value = "gini")]
+    pub impurity: ImpurityArg,
+
+    /// Deepest level a leaf may sit at [default: no limit].
+    #[arg(long, value_name = "N", value_parser = clap::value_parser!(u32).range(1..))]
+    pub max_depth: Option<u32>,
+
+    /// Most value bins per numeric input.
+    #[arg(long, default_value_t = 255, value_name = "N", value_parser = clap::value_parser!(u32).range(2..=65535))]
+    pub bins: u32,
+
+    /// Seed of every forest (all draw the same resamples, so they compare row by row).
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    pub seed: u64,
+
+    /// Also draw each setting's difference from the default as an SVG chart in this file.
     #[arg(long, value_name = "FILE")]
     pub plot: Option<PathBuf>,
 

@@ -9,6 +9,7 @@ pub mod report_page;
 pub mod score;
 pub mod stability;
 pub mod train;
+pub mod tune;
 
 use crate::args::{Cli, Command};
 use crate::error::{CliError, CliResult};
@@ -34,6 +35,7 @@ pub fn run(cli: Cli) -> CliResult<()> {
         Command::Evaluate(a) => evaluate::run(&a, &ui),
         Command::Importance(a) => importance::run(&a, &ui),
         Command::Stability(a) => stability::run(&a, &ui),
+        Command::Tune(a) => tune::run(&a, &ui),
         Command::Inspect(a) => inspect::run(&a, &ui),
         Command::Demo(a) => demo::run(&a, &ui),
         Command::MakeDemoData(a) => make_demo_data::run(&a, &ui),
