@@ -290,7 +290,7 @@ fn train_binned(
                     let mut sample_rng = task_rng(settings.seed, Purpose::Sample, t as u64, 0);
                     sampler.draw(&mut sample_rng, weights, scratch);
                     let grow_seed = task_seed(settings.seed, Purpose::Grow, t as u64, 0);
-                    let tree = grower.grow(&data, &target, weights, grow_seed)?;
+                    let tree = grower.grow(data, &target, weights, grow_seed)?;
                     let bag_weight = weights.iter().sum();
                     let oob = OobMask::from_weights(weights);
                     let draws = options.keep_draws.then(|| Draws::column(weights));
