@@ -57,7 +57,11 @@ pub fn section(cfg: &Config, data: &copse_forest::synth::Synthetic, table: &mut 
     let runs = [
         ("best cuts, bootstrap", CutChoice::Best, Sampling::Bootstrap),
         ("random cuts, every row", CutChoice::Random, Sampling::Whole),
-        ("random cuts, bootstrap", CutChoice::Random, Sampling::Bootstrap),
+        (
+            "random cuts, bootstrap",
+            CutChoice::Random,
+            Sampling::Bootstrap,
+        ),
     ];
     let mut base = None;
     for (label, cuts, sampling) in runs {
