@@ -75,8 +75,9 @@ fn imbalanced(n: usize, base: u64) -> Synthetic {
 
 /// The model's randomness comes only from per-tree generators seeded by (seed, tree),
 /// and results are combined in tree order, so the model file is the same bytes on 1,
-/// 2, 3 or 8 threads: for regression, with the draw counts kept, with class-balanced
-/// samples and with subsamples (each its own code path in sampling and training).
+/// 2, 3 or 8 threads: for regression, with randomized cut points, with the draw counts
+/// kept, with class-balanced samples and with subsamples (each its own code path in
+/// sampling and training).
 /// Out-of-bag predictions match bit for bit as well.
 #[test]
 fn model_bytes_are_the_same_on_1_2_3_and_8_threads() {
@@ -100,7 +101,21 @@ fn model_bytes_are_the_same_on_1_2_3_and_8_threads() {
     };
     let friedman = with_missing(synth::friedman1(300, seed(13)), 14);
     let twonorm = imbalanced(400, 15);
-    let cases: [(&str, &Synthetic, ForestSettings, TrainOptions<'_>); 4] = [
+    let random_cuts = ForestSettings {
+        sampling: Sampling::Bootstrap,
+        tree: TreeRules {
+            cuts: copse_forest::CutChoice::Random,
+            ..regression.tree.clone()
+        },
+        ..regression.clone()
+    };
+    let cases: [(&str, &Synthetic, ForestSettings, TrainOptions<'_>); 5] = [
+        (
+            "randomized cut points",
+            &friedman,
+            random_cuts,
+            TrainOptions::default(),
+        ),
         (
             "regression",
             &friedman,

@@ -11,7 +11,7 @@
 //! Environment:
 //! - `COPSE_BENCH_SCALE=0.1` multiplies every row count (quick run; default 1).
 //! - `COPSE_BENCH_THREADS=N` sets "all threads" (default: the machine's core count).
-//! - `COPSE_BENCH_SKIP=e2e,t1m,scaling,importance,explain,ranges` skips workloads by name.
+//! - `COPSE_BENCH_SKIP=e2e,t1m,scaling,importance,explain,ranges,cuts` skips workloads by name.
 //! - `COPSE_BENCH_REPEAT=3` runs each T100k training and each end-to-end scoring that
 //!   many times and keeps the fastest (default 1; use it on a machine shared with other
 //!   work).
@@ -42,6 +42,7 @@
 //! the scaling fit needs T100k and T1M); each module adds its section to the table.
 
 mod config;
+mod cuts;
 mod end_to_end;
 mod explain;
 mod fit;
@@ -82,6 +83,7 @@ fn main() {
         let rows = synth::twonorm(explain::T100K_ROWS, SCORE_SEED);
         explain::section(&ta.forest, rows.x.view(), &mut table);
     }
+    cuts::section(&cfg, &train, &mut table);
 
     let n1m = cfg.rows(1_000_000);
     eprintln!("S1M: scoring {n1m} rows ...");

@@ -22,6 +22,7 @@ mod reliability;
 mod shapes;
 #[path = "../support/mod.rs"]
 mod support;
+mod tune;
 mod unfamiliar;
 mod weights;
 

@@ -5,13 +5,14 @@
 //!
 //! One test binary; its modules: checks against published examples and open data
 //! (`published`), facts of the trade on small data sets of our own (`practice`), the
-//! grower's documented rules (`rules`), typed errors and robustness (`errors`),
+//! grower's documented rules (`rules`), randomized cut points (`random_cuts`), typed errors and robustness (`errors`),
 //! property tests (`properties`), and the slow reference they compare the grower with
 //! (`reference`).
 mod errors;
 mod practice;
 mod properties;
 mod published;
+mod random_cuts;
 mod reference;
 mod rules;
 #[path = "../support/mod.rs"]

@@ -57,6 +57,15 @@ Examples:
   copse stability --data demo-data/water_mains.csv --target failed_within_year \\
       --ignore segment_id --seeds 10 --trees 200 --plot stability.svg";
 
+/// Examples of `copse tune`.
+pub const TUNE_EXAMPLES: &str = "\
+Examples:
+  copse tune --data demo-data/water_mains.csv --target failed_within_year \\
+      --ignore segment_id
+  copse tune --data demo-data/water_mains.csv --target failed_within_year \\
+      --ignore segment_id --trees 100 --try-min-leaf 1,10 --plot tune.svg
+  copse tune --data prices.csv --target price --try-features 2,4,every --json > tune.json";
+
 /// Examples of `copse inspect`.
 pub const INSPECT_EXAMPLES: &str = "\
 Examples:

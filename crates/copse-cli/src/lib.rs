@@ -23,5 +23,6 @@ pub mod output;
 pub mod plots;
 pub mod plots_decision;
 pub mod plots_effect;
+pub mod plots_tune;
 pub mod report;
 pub mod ui;

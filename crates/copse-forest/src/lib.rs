@@ -27,6 +27,7 @@
 //!   regression forests) and their out-of-bag check ([`IntervalCheck`]);
 //! - [`significance`]: p-values for permutation importance;
 //! - [`stability`]: how one tree, bagged trees and a forest vary over seeds;
+//! - [`tune`]: settings chosen by out-of-bag error over a small grid ([`tune::tune`]);
 //! - [`uncertainty`]: standard errors of predictions (infinitesimal jackknife);
 //! - [`unfamiliar`]: rows outside the training ranges ([`Unfamiliar`]);
 //! - `synth` (feature `synth`): seeded generators of published synthetic problems.
@@ -92,13 +93,14 @@ pub mod stability;
 pub mod synth;
 pub mod task;
 pub mod train;
+pub mod tune;
 pub mod uncertainty;
 pub mod unfamiliar;
 
 pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
 pub use contributions::{ContributionRanking, ContributionWalk, Contributions, RANKING_ROWS};
 pub use case_weights::{GroupsRecord, WeightsRecord};
-pub use copse_tree::{FeatureKind, FeatureMeta, Impurity, TreeSettings};
+pub use copse_tree::{CutChoice, FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
 pub use effect_surface::{EffectSurface, SurfaceSettings};
 pub use effects::{EffectCurve, EffectGrid, EffectSettings};
@@ -126,6 +128,6 @@ pub use stability::{
     StabilitySettings,
 };
 pub use task::Task;
-pub use train::TrainOptions;
+pub use train::{Prepared, TrainOptions};
 pub use uncertainty::Uncertainty;
 pub use unfamiliar::{Familiar, Unfamiliar};

@@ -1,7 +1,7 @@
 //! What a forest is: number of trees, inputs tried per split, resampling, value bins,
 //! and the rules every tree grows by.
 use crate::error::{bad_setting, Error, ErrorKind, Result};
-use copse_tree::{Impurity, TreeSettings};
+use copse_tree::{CutChoice, Impurity, TreeSettings};
 use serde::{Deserialize, Serialize};
 use std::fmt;
 use std::str::FromStr;
@@ -172,6 +172,20 @@ pub enum Sampling {
     Whole,
 }
 
+impl Sampling {
+    /// The usual scheme for trees cut as `cuts` says: a bootstrap for the best cut
+    /// (Breiman 2001), every row in every tree for randomized cut points, as Geurts,
+    /// Ernst & Wehenkel (2006) grow them (the random cuts alone make the trees
+    /// differ). Without resampling no row is out of bag, so there is no out-of-bag
+    /// estimate; judge such a forest on held-out rows.
+    pub fn usual_for(cuts: CutChoice) -> Sampling {
+        match cuts {
+            CutChoice::Best => Sampling::Bootstrap,
+            CutChoice::Random => Sampling::Whole,
+        }
+    }
+}
+
 impl FromStr for Sampling {
     type Err = Error;
 
@@ -209,6 +223,10 @@ pub struct TreeRules {
     pub min_split: f64,
     /// Smallest impurity decrease worth a split (default 0: any strict decrease).
     pub min_decrease: f64,
+    /// How the cut point is chosen on each input tried: the best one (default), or one
+    /// drawn at random ([`CutChoice::Random`], usually with [`Sampling::Whole`]; see
+    /// [`Sampling::usual_for`]).
+    pub cuts: CutChoice,
 }
 
 impl Default for TreeRules {
@@ -220,6 +238,7 @@ impl Default for TreeRules {
             min_leaf: t.min_leaf,
             min_split: t.min_split,
             min_decrease: t.min_decrease,
+            cuts: t.cuts,
         }
     }
 }
@@ -235,6 +254,7 @@ impl TreeRules {
             min_split: self.min_split,
             min_decrease: self.min_decrease,
             features_per_split,
+            cuts: self.cuts,
         }
     }
 }

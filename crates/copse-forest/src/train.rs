@@ -140,9 +140,8 @@ impl Forest {
         settings: &ForestSettings,
         options: &TrainOptions<'_>,
     ) -> Result<Trained> {
-        let progress: &(dyn Fn(Progress) + Sync) = options.progress.unwrap_or(&|_| {});
         settings.validate()?;
-        let (n, p) = x.dim();
+        let n = x.nrows();
         if outcome.len() != n {
             return Err(Error::new(
                 ErrorKind::LengthMismatch,
@@ -159,6 +158,150 @@ impl Forest {
             );
         }
         let data = BinnedData::new(x, meta, settings.bin_limit())?;
+        train_binned(x, meta, outcome, Held::Owned(data), settings, options)
+    }
+
+    /// Trains a forest on data binned once by [`Prepared::new`], so that several
+    /// settings can be tried on one copy (as [`crate::tune`] does). The result is the
+    /// one [`Forest::train`] gives for the same data and settings, bit for bit.
+    ///
+    /// # Errors
+    /// As for [`Forest::train`], and `InvalidSetting` when `settings.bins` is not the
+    /// bin count the data was prepared with.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_forest::{synth, Forest, ForestSettings, Prepared, TrainOptions};
+    ///
+    /// let d = synth::twonorm(200, 1);
+    /// let settings = ForestSettings { trees: 20, ..Default::default() };
+    /// let prepared = Prepared::new(d.x.view(), &d.meta, &d.outcome, settings.bins)?;
+    /// let once = Forest::train_prepared(&prepared, &settings, &TrainOptions::default())?;
+    /// let plain = Forest::train(d.x.view(), &d.meta, &d.outcome, &settings, &TrainOptions::default())?;
+    /// assert_eq!(once.forest, plain.forest);
+    /// # Ok::<(), copse_forest::Error>(())
+    /// ```
+    pub fn train_prepared(
+        prepared: &Prepared<'_>,
+        settings: &ForestSettings,
+        options: &TrainOptions<'_>,
+    ) -> Result<Trained> {
+        settings.validate()?;
+        if settings.bins != prepared.bins {
+            return bad_setting(format!(
+                "the data were binned with at most {} value bins per input, but the settings ask \
+                 for {}; prepare the data again with the settings' bins",
+                prepared.bins, settings.bins
+            ));
+        }
+        let outcome = prepared.outcome;
+        if settings.balanced && !outcome.is_classes() {
+            return bad_setting(
+                "balanced sampling draws cases per class; it needs a class outcome",
+            );
+        }
+        train_binned(
+            prepared.x,
+            prepared.meta,
+            outcome,
+            Held::Borrowed(&prepared.data),
+            settings,
+            options,
+        )
+    }
+}
+
+/// Data made ready once for training several forests ([`Forest::train_prepared`]): the
+/// rows, their outcome, and the inputs binned.
+#[derive(Debug)]
+pub struct Prepared<'a> {
+    x: ArrayView2<'a, f64>,
+    meta: &'a [FeatureMeta],
+    outcome: &'a Outcome,
+    data: BinnedData,
+    bins: usize,
+}
+
+impl<'a> Prepared<'a> {
+    /// Bins `x` (as [`Forest::train`] takes it) with at most `bins` value bins per
+    /// numeric input ([`ForestSettings::bins`]).
+    ///
+    /// # Errors
+    /// `LengthMismatch` when `outcome` and `x` differ in rows; the errors of an outcome
+    /// that cannot be modelled and of data that cannot be binned, as for
+    /// [`Forest::train`]; `InvalidSetting` for a bin count outside 2 to 65535.
+    pub fn new(
+        x: ArrayView2<'a, f64>,
+        meta: &'a [FeatureMeta],
+        outcome: &'a Outcome,
+        bins: usize,
+    ) -> Result<Self> {
+        let n = x.nrows();
+        if outcome.len() != n {
+            return Err(Error::new(
+                ErrorKind::LengthMismatch,
+                format!(
+                    "{n} data rows but {} outcomes; they must match",
+                    outcome.len()
+                ),
+            ));
+        }
+        outcome.validate()?;
+        let check = ForestSettings {
+            bins,
+            ..ForestSettings::default()
+        };
+        check.validate()?;
+        let data = BinnedData::new(x, meta, check.bin_limit())?;
+        Ok(Prepared {
+            x,
+            meta,
+            outcome,
+            data,
+            bins,
+        })
+    }
+
+    /// The outcome the data were prepared with.
+    pub fn outcome(&self) -> &Outcome {
+        self.outcome
+    }
+
+    /// Number of inputs.
+    pub fn n_features(&self) -> usize {
+        self.meta.len()
+    }
+}
+
+/// The binned data of one training run: its own (freed once the trees are grown) or
+/// a prepared copy shared between runs.
+enum Held<'d> {
+    Owned(BinnedData),
+    Borrowed(&'d BinnedData),
+}
+
+impl Held<'_> {
+    fn get(&self) -> &BinnedData {
+        match self {
+            Held::Owned(d) => d,
+            Held::Borrowed(d) => d,
+        }
+    }
+}
+
+/// Everything of training after the binning.
+fn train_binned(
+    x: ArrayView2<'_, f64>,
+    meta: &[FeatureMeta],
+    outcome: &Outcome,
+    held: Held<'_>,
+    settings: &ForestSettings,
+    options: &TrainOptions<'_>,
+) -> Result<Trained> {
+    {
+        let progress: &(dyn Fn(Progress) + Sync) = options.progress.unwrap_or(&|_| {});
+        let (n, p) = x.dim();
+        let data = held.get();
         let k = settings
             .features_per_split
             .resolve(p, outcome.is_classes())?;
@@ -213,7 +356,7 @@ impl Forest {
                     sampler.draw(&mut sample_rng, counts, scratch);
                     let case = sampler.case_weights(counts, case_buf);
                     let grow_seed = task_seed(settings.seed, Purpose::Grow, t as u64, 0);
-                    let tree = grower.grow(&data, &target, case, grow_seed)?;
+                    let tree = grower.grow(data, &target, case, grow_seed)?;
                     let bag_weight = case.iter().sum();
                     // Out of bag: never drawn (with row groups: no row of its group
                     // drawn), whatever its case weight.
@@ -239,7 +382,7 @@ impl Forest {
             )
             .collect::<Result<Vec<_>>>()?;
         let bins = data.bins().to_vec();
-        drop(data);
+        drop(held);
 
         let mut trees = Vec::with_capacity(n_trees);
         let mut masks = Vec::with_capacity(n_trees);

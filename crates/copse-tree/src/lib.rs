@@ -47,5 +47,5 @@ pub use error::{Error, ErrorKind, Result};
 pub use grow::Grower;
 pub use impurity::Impurity;
 pub use outcome::OutcomeView;
-pub use settings::TreeSettings;
+pub use settings::{CutChoice, TreeSettings};
 pub use tree::{LeafValue, Node, Tree};

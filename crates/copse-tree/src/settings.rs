@@ -20,6 +20,36 @@ pub struct TreeSettings {
     pub min_decrease: f64,
     /// Number of inputs drawn at random at each node; `None` tries every input.
     pub features_per_split: Option<usize>,
+    /// How the cut point is chosen on each input tried (default: the best one).
+    pub cuts: CutChoice,
+}
+
+/// How the grower chooses the cut point on each input it tries at a node.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, Default)]
+pub enum CutChoice {
+    /// Every cut of the input is scored and the best is kept (the usual search).
+    #[default]
+    Best,
+    /// One cut is drawn at random per input and only that one is scored; the best of
+    /// the drawn cuts over the inputs tried is kept (Geurts, Ernst & Wehenkel 2006,
+    /// "Extremely randomized trees", Machine Learning 63:3-42). Numeric input: a value
+    /// drawn uniformly between the centres of the node's lowest and highest occupied
+    /// bins (a bin's centre is the midpoint of its lowest and highest training value,
+    /// so with one value per bin this is the paper's draw between the node's minimum
+    /// and maximum); bins whose centre lies below the draw go left. Categorical input:
+    /// each category present in the node goes left or right by a fair coin, drawn
+    /// again until both sides have one (a uniformly random non-trivial subset).
+    Random,
+}
+
+impl CutChoice {
+    /// The word copse uses for the choice: `best` or `random`.
+    pub fn word(self) -> &'static str {
+        match self {
+            CutChoice::Best => "best",
+            CutChoice::Random => "random",
+        }
+    }
 }
 
 impl Default for TreeSettings {
@@ -31,6 +61,7 @@ impl Default for TreeSettings {
             min_split: 2.0,
             min_decrease: 0.0,
             features_per_split: None,
+            cuts: CutChoice::Best,
         }
     }
 }

@@ -3,8 +3,8 @@
 //! error (exit 2) before any work starts.
 use crate::help::{
     DEMO_EXAMPLES, EFFECT_EXAMPLES, EVALUATE_EXAMPLES, EXPLAIN_EXAMPLES, IMPORTANCE_EXAMPLES,
-    INSPECT_EXAMPLES,
-    MAKE_DEMO_DATA_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES,
+    INSPECT_EXAMPLES, MAKE_DEMO_DATA_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES,
+    TUNE_EXAMPLES,
 };
 use clap::{Args, Parser, Subcommand};
 use copse_data::Roles;
@@ -13,9 +13,11 @@ use copse_forest::{FeaturesPerSplit, Sampling};
 use std::path::PathBuf;
 
 mod effect;
+mod tune;
 mod values;
 pub use effect::EffectArgs;
-pub use values::{DecimalArg, DelimiterArg, ImpurityArg, TaskArg};
+pub use tune::TuneArgs;
+pub use values::{CutsArg, DecimalArg, DelimiterArg, ImpurityArg, TaskArg};
 
 /// copse: grow an ensemble of decision trees from a CSV table, check how well it
 /// predicts without a holdout (out-of-bag), rank which inputs matter, and score new
@@ -72,6 +74,10 @@ pub enum Command {
     /// their error, answers and importance ranking move.
     #[command(after_help = STABILITY_EXAMPLES)]
     Stability(StabilityArgs),
+    /// Try a small grid of settings (inputs per split, smallest leaf, cut points) judged
+    /// by out-of-bag error against the default, and say which 'copse train' line to use.
+    #[command(after_help = TUNE_EXAMPLES)]
+    Tune(TuneArgs),
     /// Describe a model file: inputs, settings, sizes, out-of-bag accuracy, tree rules.
     #[command(after_help = INSPECT_EXAMPLES)]
     Inspect(InspectArgs),
@@ -192,9 +198,10 @@ pub struct TrainArgs {
     #[arg(long)]
     pub bagging: bool,
 
-    /// How each tree's rows are drawn: bootstrap, subsample:F (F in (0,1]) or none.
-    #[arg(long, default_value = "bootstrap", value_name = "SCHEME", value_parser = parse_sampling)]
-    pub sampling: Sampling,
+    /// How each tree's rows are drawn: bootstrap, subsample:F (F in (0,1]) or none
+    /// [default: bootstrap; none with --cuts random].
+    #[arg(long, value_name = "SCHEME", value_parser = parse_sampling)]
+    pub sampling: Option<Sampling>,
 
     /// Draw the same number of rows from every class for each tree (for rare classes).
     #[arg(long)]
@@ -203,6 +210,12 @@ pub struct TrainArgs {
     /// Impurity measure for classification splits.
     #[arg(long, value_enum, default_value = "gini")]
     pub impurity: ImpurityArg,
+
+    /// Cut point on each input tried: the best one, or one drawn at random (randomized
+    /// cut points: faster, smoother; every row in every tree unless --sampling is given,
+    /// so no out-of-bag check).
+    #[arg(long, value_enum, default_value = "best", value_name = "CHOICE")]
+    pub cuts: CutsArg,
 
     /// Deepest level a leaf may sit at (the root is level 0, so 1 allows a single split)
     /// [default: no limit].

@@ -1,8 +1,8 @@
-//! The words some options take (delimiter, decimal mark, task, impurity), each turned
+//! The words some options take (delimiter, decimal mark, task, impurity, cuts), each turned
 //! into the library's own type.
 use clap::ValueEnum;
 use copse_data::Delimiter;
-use copse_forest::{Impurity, Task};
+use copse_forest::{CutChoice, Impurity, Task};
 
 /// Field separators.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
@@ -75,6 +75,25 @@ impl From<ImpurityArg> for Impurity {
         match i {
             ImpurityArg::Gini => Impurity::Gini,
             ImpurityArg::Entropy => Impurity::Entropy,
+        }
+    }
+}
+
+/// How the cut point is chosen on each input tried.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CutsArg {
+    /// The best cut of each input (the usual search).
+    Best,
+    /// One cut drawn at random per input; the best of those is kept (randomized cut
+    /// points).
+    Random,
+}
+
+impl From<CutsArg> for CutChoice {
+    fn from(c: CutsArg) -> Self {
+        match c {
+            CutsArg::Best => CutChoice::Best,
+            CutsArg::Random => CutChoice::Random,
         }
     }
 }

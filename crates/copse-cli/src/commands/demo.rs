@@ -2,7 +2,7 @@
 //! the data, train with plots and out-of-bag predictions, save the report, score a
 //! batch of further segments, and say where every output went.
 use crate::args::{
-    ColumnRoles, CsvArgs, DelimiterArg, DemoArgs, ImpurityArg, ScoreArgs, TrainArgs,
+    ColumnRoles, CsvArgs, CutsArg, DelimiterArg, DemoArgs, ImpurityArg, ScoreArgs, TrainArgs,
 };
 use crate::commands::make_demo_data::write_demo_files;
 use crate::commands::report_page::{CATCH_SVG, RELIABILITY_SVG};
@@ -62,9 +62,10 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         trees: TREES,
         features_per_split: None,
         bagging: false,
-        sampling: Sampling::Bootstrap,
+        sampling: Some(Sampling::Bootstrap),
         balanced: false,
         impurity: ImpurityArg::Gini,
+        cuts: CutsArg::Best,
         max_depth: None,
         min_leaf: 1,
         bins: 255,

@@ -11,6 +11,7 @@ pub mod report_page;
 pub mod score;
 pub mod stability;
 pub mod train;
+pub mod tune;
 
 use crate::args::{Cli, Command};
 use crate::error::{CliError, CliResult};
@@ -38,6 +39,7 @@ pub fn run(cli: Cli) -> CliResult<()> {
         Command::Importance(a) => importance::run(&a, &ui),
         Command::Effect(a) => effect::run(&a, &ui),
         Command::Stability(a) => stability::run(&a, &ui),
+        Command::Tune(a) => tune::run(&a, &ui),
         Command::Inspect(a) => inspect::run(&a, &ui),
         Command::Demo(a) => demo::run(&a, &ui),
         Command::MakeDemoData(a) => make_demo_data::run(&a, &ui),

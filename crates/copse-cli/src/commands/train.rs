@@ -84,7 +84,8 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
 
     let data = read_training(&a.data, &a.roles, &a.csv, ui)?;
     check_positive(&a.decision, &data)?;
-    if a.keep_draws && (a.sampling != Sampling::Bootstrap || a.balanced) {
+    let sampling = chosen_sampling(a, ui);
+    if a.keep_draws && (sampling != Sampling::Bootstrap || a.balanced) {
         return Err(CliError::input(
             "--keep-draws is for standard errors, which assume plain bootstrap samples; use \
              --sampling bootstrap without --balanced, or drop --keep-draws",
@@ -124,14 +125,14 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     }
     if a.roles.weights.is_some()
         && a.roles.group.is_none()
-        && matches!(a.sampling, Sampling::Subsample(_))
+        && matches!(sampling, Sampling::Subsample(_))
     {
         return Err(CliError::input(
             "--sampling subsample:F draws rows without replacement, which case weights do not \
              define; use --sampling bootstrap or none with --weights (or add --group)",
         ));
     }
-    if a.shuffled_target_runs.is_some() && a.sampling == Sampling::Whole {
+    if a.shuffled_target_runs.is_some() && sampling == Sampling::Whole {
         return Err(CliError::input(
             "--shuffled-target-runs compares out-of-bag importances, and --sampling none leaves no \
              row out of bag; use bootstrap or subsample:F",
@@ -152,9 +153,12 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     let settings = ForestSettings {
         trees: a.trees as usize,
         features_per_split: fps,
-        sampling: a.sampling,
+        sampling,
         balanced: a.balanced,
-        tree: tree_settings(a.impurity, a.max_depth, a.min_leaf),
+        tree: copse_forest::TreeRules {
+            cuts: a.cuts.into(),
+            ..tree_settings(a.impurity, a.max_depth, a.min_leaf)
+        },
         bins: a.bins as usize,
         seed: a.seed,
     };
@@ -285,6 +289,28 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         json,
         outputs,
     })
+}
+
+/// The sampling asked for, or else the usual one for the cut choice (every row in
+/// every tree for randomized cut points, said in a note since it leaves no out-of-bag
+/// check).
+fn chosen_sampling(a: &TrainArgs, ui: &Ui) -> Sampling {
+    let cuts = a.cuts.into();
+    match a.sampling {
+        Some(s) => s,
+        None if a.balanced => Sampling::Bootstrap,
+        None => {
+            let s = Sampling::usual_for(cuts);
+            if s == Sampling::Whole {
+                ui.note(
+                    "--cuts random grows every tree on every row unless --sampling is given, so \
+                     there is no out-of-bag check; judge the model with 'copse evaluate' on \
+                     held-out rows, or add --sampling bootstrap",
+                );
+            }
+            s
+        }
+    }
 }
 
 /// Refuses, before growing anything, a `--positive` that names no class of the data.

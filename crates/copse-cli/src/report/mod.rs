@@ -28,6 +28,7 @@ pub mod ranking;
 pub mod sections;
 pub mod stability;
 pub mod train;
+pub mod tune;
 
 use crate::error::{CliError, CliResult};
 use copse_forest::{ImportanceMeasure, Task};

@@ -213,6 +213,13 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
         Task::Regress => format!("{} (squared error)", impurity_name(model)),
     };
     line(out, "split measure", &measure);
+    if s.tree.cuts == copse_forest::CutChoice::Random {
+        line(
+            out,
+            "cut points",
+            "one drawn at random per input tried, the best of those kept (randomized cut points)",
+        );
+    }
     line(
         out,
         "depth limit",
@@ -281,6 +288,13 @@ pub fn oob_section(out: &mut String, st: Style, model: &Model) {
                 "  no row was left out of any tree, so there is no out-of-bag estimate;\n  \
                  use --sampling bootstrap or subsample:F, or check the model with 'copse evaluate'"
             );
+            if f.settings().tree.cuts == copse_forest::CutChoice::Random {
+                let _ = writeln!(
+                    out,
+                    "  (randomized cut points grow every tree on every row unless told otherwise;\n   \
+                     'copse tune' judges them with bootstrap samples)"
+                );
+            }
         }
         Some(Metrics::Classes(m)) => {
             class_block(out, m, f.classes(), "rows judged");

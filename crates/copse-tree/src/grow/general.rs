@@ -3,9 +3,11 @@
 //! and weight in arrays permuted alongside.
 use super::candidate::{Best, Cut, Task, LEFT};
 use super::partition::partition;
+use super::random_cut::{cut_general, draw_position, draw_subset};
 use super::scan::scan_general;
 use super::{ascending, Frame, Grower, SPARSE_RATIO};
 use crate::data::{BinCode, BinnedData, FeatureBins, MISSING_BIN};
+use crate::settings::CutChoice;
 use crate::tree::Tree;
 use rand::RngExt;
 
@@ -82,9 +84,9 @@ impl Grower {
                 Task::Values(_) => lo == hi,
             };
             let best = if self.may_split(pure, w_t, frame.depth) {
-                self.search(rng, |g, f, best| {
+                self.search(rng, |g, rng, f, best| {
                     let col = &codes[f * n..(f + 1) * n];
-                    g.eval_general(col, &bins[f], f, task, frame, best)
+                    g.eval_general(col, &bins[f], f, task, frame, best, rng)
                 })
             } else {
                 None
@@ -98,7 +100,10 @@ impl Grower {
                 Task::Values(_) => 1e-12 * sse,
             };
             match best {
-                Some(b) if b.gain > tol && b.gain / w_t >= self.settings.min_decrease => {
+                Some(b)
+                    if b.gain > self.gain_floor(tol)
+                        && b.gain.max(0.0) / w_t >= self.settings.min_decrease =>
+                {
                     let col = &codes[b.feature * n..(b.feature + 1) * n];
                     let mid = self.split_general(col, task, frame, &b);
                     self.make_split(&mut tree, &bins[b.feature], frame, &b, (mid, 0, 0));
@@ -111,7 +116,8 @@ impl Grower {
 
     /// Evaluates every split of input `f` (bin codes `col`) in the node (general
     /// engine); returns false when the input is constant there.
-    fn eval_general<B: BinCode>(
+    #[allow(clippy::too_many_arguments)]
+    fn eval_general<B: BinCode, R: RngExt + ?Sized>(
         &mut self,
         col: &[B],
         fb: &FeatureBins,
@@ -119,6 +125,7 @@ impl Grower {
         task: Task,
         frame: Frame,
         best: &mut Option<Best>,
+        rng: &mut R,
     ) -> bool {
         let stride = task.stride();
         let nb = fb.n_bins;
@@ -167,7 +174,25 @@ impl Grower {
             }
         }
         let varies = len >= 2;
-        if varies {
+        if varies && self.settings.cuts == CutChoice::Random {
+            let pos = if fb.categorical {
+                draw_subset(rng, &mut seq[..len], &mut self.order)
+            } else {
+                draw_position(rng, fb, &seq[..len])
+            };
+            cut_general(
+                hist,
+                &seq[..len],
+                pos,
+                task,
+                &self.totals,
+                [&mut self.acc, &mut self.lbuf, &mut self.rbuf],
+                self.settings.min_leaf,
+                f,
+                fb.categorical.then(|| (&mut self.best_side[..=nb], nb)),
+                best,
+            );
+        } else if varies {
             let scratch = [&mut self.acc, &mut self.lbuf, &mut self.rbuf];
             if fb.categorical {
                 // Category orderings: by mean outcome, or one per class by that

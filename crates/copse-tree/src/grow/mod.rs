@@ -29,6 +29,13 @@
 //!   minimum decrease setting. The last rule means a node whose every split leaves the
 //!   class shares unchanged (for example four cases at the corners of a square labelled
 //!   by XOR) stays an impure leaf even though its cases differ.
+//! - Randomized cut points ([`crate::CutChoice::Random`]): on each input tried, one
+//!   cut is drawn (a value uniform between the centres of the node's lowest and
+//!   highest occupied bins, or a random non-trivial subset of the categories present)
+//!   and scored alone, missing values tried on both sides as above; the best drawn cut
+//!   over the inputs tried is kept, and it is kept even when it decreases impurity by
+//!   nothing (only the minimum decrease setting can refuse it), so trees grow until
+//!   their leaves are pure or too small, as in Geurts, Ernst & Wehenkel (2006).
 //! - Determinism: the only randomness is a generator seeded from the caller's seed, so
 //!   the same data, settings and seed give the same tree bit for bit.
 //!
@@ -49,13 +56,14 @@
 mod candidate;
 mod general;
 mod partition;
+mod random_cut;
 mod scan;
 mod two_class;
 
 use crate::data::{BinCodes, BinnedData, FeatureBins};
 use crate::error::{Error, ErrorKind, Result};
 use crate::outcome::OutcomeView;
-use crate::settings::TreeSettings;
+use crate::settings::{CutChoice, TreeSettings};
 use crate::tree::{weight_bits, Node, Tree, CATEGORICAL, LEAF, MISSING_LEFT};
 use candidate::{Best, Cut, Task, ABSENT, LEFT};
 use rand::{RngExt, SeedableRng};
@@ -179,10 +187,12 @@ impl Grower {
     /// (bootstrap counts, real weights, or 0 to leave a row out). Rows with a missing
     /// outcome are left out whatever their weight.
     ///
-    /// `seed` drives the only random choice, the inputs drawn at each node when
-    /// [`TreeSettings::features_per_split`] is set: it seeds a Xoshiro256++ generator
+    /// `seed` drives the only random choices, the inputs drawn at each node when
+    /// [`TreeSettings::features_per_split`] is set and the cut drawn on each with
+    /// randomized cut points ([`TreeSettings::cuts`]): it seeds a Xoshiro256++ generator
     /// (expanded by SplitMix64), so the same data, settings and seed give the same
-    /// tree bit for bit. With every input tried at every node the seed changes nothing.
+    /// tree bit for bit. With every input tried at every node and the best cut kept,
+    /// the seed changes nothing.
     ///
     /// # Errors
     /// `LengthMismatch` when lengths differ; `NoTargets` when every outcome is missing;
@@ -407,7 +417,9 @@ impl Grower {
             feature: b.feature as u16,
             flags,
         };
-        tree.decrease[b.feature] += b.gain;
+        // Randomized cuts may keep a split whose decrease is zero up to rounding; it
+        // adds nothing (the best-cut search only keeps positive decreases).
+        tree.decrease[b.feature] += b.gain.max(0.0);
         let depth = frame.depth + 1;
         self.stack.push(Frame {
             start: mid,
@@ -427,6 +439,18 @@ impl Grower {
         });
     }
 
+    /// The smallest decrease a kept split must exceed, given the rounding noise `tol`
+    /// of the node's scores. The best-cut search keeps only real decreases; with
+    /// randomized cuts a node is split whenever a drawn cut exists, even one that
+    /// leaves the class shares unchanged (the paper stops only at too few cases, a
+    /// constant outcome or inputs constant in the node).
+    fn gain_floor(&self, tol: f64) -> f64 {
+        match self.settings.cuts {
+            CutChoice::Best => tol,
+            CutChoice::Random => -tol,
+        }
+    }
+
     /// Whether a node of weight `w_t` at `depth` may be split at all.
     fn may_split(&self, pure: bool, w_t: f64, depth: usize) -> bool {
         let st = &self.settings;
@@ -443,7 +467,7 @@ impl Grower {
     fn search<R: RngExt + ?Sized>(
         &mut self,
         rng: &mut R,
-        mut eval: impl FnMut(&mut Self, usize, &mut Option<Best>) -> bool,
+        mut eval: impl FnMut(&mut Self, &mut R, usize, &mut Option<Best>) -> bool,
     ) -> Option<Best> {
         let mut best: Option<Best> = None;
         let k = self
@@ -454,7 +478,7 @@ impl Grower {
         if k >= self.pool.len() {
             for i in 0..self.pool.len() {
                 let f = self.pool[i] as usize;
-                eval(self, f, &mut best);
+                eval(self, rng, f, &mut best);
             }
         } else {
             let (mut i, mut tried) = (0, 0);
@@ -463,7 +487,7 @@ impl Grower {
                 self.pool.swap(i, j);
                 let f = self.pool[i] as usize;
                 i += 1;
-                if eval(self, f, &mut best) {
+                if eval(self, rng, f, &mut best) {
                     tried += 1;
                 }
             }

@@ -8,12 +8,12 @@ use crate::impurity::Impurity;
 /// `-w * impurity` of a two-class cell, equal bit for bit to [`Impurity::score`] on
 /// the same counts as `f64`. One type per measure, so that each scan loop holds only
 /// its own formula (the compiler would otherwise evaluate both and pick one).
-trait TwoClassScore {
+pub(super) trait TwoClassScore {
     fn score(cell: u64, xlogx: &[f64]) -> f64;
 }
 
-struct GiniScore;
-struct EntropyScore;
+pub(super) struct GiniScore;
+pub(super) struct EntropyScore;
 
 impl TwoClassScore for GiniScore {
     #[inline(always)]
@@ -250,7 +250,7 @@ fn scan_two_with<S: TwoClassScore>(
 
 /// The cut between positions `pos` and `pos + 1` of `order`: a category split, its
 /// sides recorded in `subset`, or else the threshold between those two bins.
-fn cut_after(subset: &mut Option<(&mut [u8], usize)>, order: &[u32], pos: usize) -> Cut {
+pub(super) fn cut_after(subset: &mut Option<(&mut [u8], usize)>, order: &[u32], pos: usize) -> Cut {
     match subset.as_mut() {
         Some((side, nb)) => {
             record_sides(side, *nb, order, pos);

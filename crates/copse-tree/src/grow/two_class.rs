@@ -3,10 +3,12 @@
 //! copied between two buffers at each split so every histogram pass reads in order.
 use super::candidate::{Best, Cut, Task, LEFT};
 use super::partition::move_records;
+use super::random_cut::{cut_two, draw_position, draw_subset};
 use super::scan::scan_two;
 use super::{ascending, Frame, Grower, LOW, SPARSE_RATIO, XLOGX_LIMIT};
 use crate::data::{BinnedData, FeatureBins, MISSING_BIN};
 use crate::impurity::Impurity;
+use crate::settings::CutChoice;
 use crate::tree::Tree;
 use rand::RngExt;
 
@@ -95,8 +97,8 @@ impl Grower {
             self.totals[1] = p as f64;
             let w_t = task.weight(&self.totals);
             let best = if self.may_split(p == 0 || p == w, w_t, frame.depth) {
-                self.search(rng, |g, f, best| {
-                    g.eval_two(&bins[f], f, layout, frame, best)
+                self.search(rng, |g, rng, f, best| {
+                    g.eval_two(&bins[f], f, layout, frame, best, rng)
                 })
             } else {
                 None
@@ -105,7 +107,10 @@ impl Grower {
             // differenced are of the order of the node weight.
             let tol = 1e-12 * (task.score(&self.totals).abs() + w_t);
             match best {
-                Some(b) if b.gain > tol && b.gain / w_t >= self.settings.min_decrease => {
+                Some(b)
+                    if b.gain > self.gain_floor(tol)
+                        && b.gain.max(0.0) / w_t >= self.settings.min_decrease =>
+                {
                     let moved = self.split_two(&bins[b.feature], layout, frame, &b);
                     self.make_split(&mut tree, &bins[b.feature], frame, &b, moved);
                 }
@@ -118,13 +123,14 @@ impl Grower {
     /// Evaluates every split of input `f` in the node (two-class engine); returns
     /// false when the input is constant there (fewer than two distinct non-missing
     /// values).
-    fn eval_two(
+    fn eval_two<R: RngExt + ?Sized>(
         &mut self,
         fb: &FeatureBins,
         f: usize,
         layout: Layout,
         frame: Frame,
         best: &mut Option<Best>,
+        rng: &mut R,
     ) -> bool {
         let nb = fb.n_bins;
         let (s, e) = (frame.start, frame.end);
@@ -149,7 +155,26 @@ impl Grower {
             len
         };
         let varies = len >= 2;
-        if varies {
+        if varies && self.settings.cuts == CutChoice::Random {
+            let pos = if fb.categorical {
+                draw_subset(rng, &mut seq[..len], &mut self.order)
+            } else {
+                draw_position(rng, fb, &seq[..len])
+            };
+            let sides = fb.categorical.then(|| (&mut self.best_side[..=nb], nb));
+            cut_two(
+                hist,
+                &seq[..len],
+                pos,
+                frame.tot,
+                self.settings.impurity,
+                &self.xlogx,
+                self.settings.min_leaf,
+                f,
+                sides,
+                best,
+            );
+        } else if varies {
             let imp = self.settings.impurity;
             let min_leaf = self.settings.min_leaf;
             let sides = if fb.categorical {
