@@ -288,25 +288,32 @@ mod tests {
             x12.interaction_share(0),
             x45.interaction_share(0)
         );
-        // Seen: 0.96. For an error uncorrelated with the surface, the correlation is
+        // Seen: 0.96 (0.95 to 0.96 on three other samples). For an error uncorrelated
+        // with the surface, the correlation is
         // 1 / sqrt(1 + (sd error / sd surface)^2); errors up to half the surface's
         // spread give 1 / sqrt(1.25) = 0.89.
         assert!(shape > 0.89, "correlation {shape}");
-        // Seen: x4,x5 about 1.1 times the noise level, x1,x2 about 6 times. The rms
-        // over 144 cells that share trees varies by some tens of percent between
-        // samples, so the additive pair may reach 1.5 times the noise level; the true
-        // interaction of x1,x2 on this grid has rms 1.25 (from the formula), which the
-        // forest flattens by half at most as it does one-input curves.
+        // If the additive pair's interaction is estimation error alone, its rms is
+        // about the noise level (ratio 1; seen 1.1 here, 0.8 to 1.6 on three other
+        // pairs of samples). The cells of a smooth surface move together: the 144
+        // count as about 10 independent values, so each rms is known to about
+        // 1 / sqrt(2 * 10) = 22% and the ratio of two to about 31%; 2 is more than
+        // three of those above 1.
         assert!(
-            i45 < 1.5 * noise,
+            i45 < 2.0 * noise,
             "x4,x5 interaction {i45} against noise {noise}"
         );
+        // The pair with a true interaction stands clear of the level the additive pair
+        // must stay under (seen 6.6 times the noise level; 3.2 to 7 on other samples).
         assert!(
-            i12 > 3.0 * noise,
+            i12 > 2.0 * noise,
             "x1,x2 interaction {i12} against noise {noise}"
         );
-        assert!(i12 > 0.5 * 1.25 * 0.5, "x1,x2 interaction {i12}");
-        assert!(x12.interaction_share(0) > 10.0 * x45.interaction_share(0));
+        // The true interaction of x1,x2 on this grid has rms 1.25 (from the formula);
+        // the forest flattens it as it flattens one-input curves (seen 0.43 to 0.51 of
+        // it over four samples); a third of it at least.
+        assert!(i12 > 1.25 / 3.0, "x1,x2 interaction {i12}");
+        assert!(x12.interaction_share(0) > x45.interaction_share(0));
         // Every row lies in one cell.
         assert_eq!(x12.counts.sum() + x12.missing, 1000);
     }

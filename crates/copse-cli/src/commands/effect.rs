@@ -77,7 +77,6 @@ pub fn run(a: &EffectArgs, ui: &Ui) -> CliResult<()> {
     } else {
         rows.x
     };
-    let context = format!("cannot draw effects on {source}");
     let mut names = FileNames::default();
     let mut effects = Vec::new();
     let mut written: Vec<PathBuf> = Vec::new();
@@ -87,6 +86,10 @@ pub fn run(a: &EffectArgs, ui: &Ui) -> CliResult<()> {
             row_curves: a.curves as usize,
             row_seed: Some(a.seed),
         };
+        let context = format!(
+            "cannot draw the effect of '{}' on {source}",
+            model.meta()[j].name
+        );
         let curve = model
             .effect_curve(x.view(), j, &settings)
             .map_err(|e| forest_error(&e, &context))?;
@@ -110,6 +113,11 @@ pub fn run(a: &EffectArgs, ui: &Ui) -> CliResult<()> {
             first: quantile_grid(points),
             second: quantile_grid(points),
         };
+        let context = format!(
+            "cannot draw the heat map of '{}' and '{}' on {source}",
+            model.meta()[p].name,
+            model.meta()[q].name
+        );
         let surface = model
             .effect_surface(x.view(), p, q, &settings)
             .map_err(|e| forest_error(&e, &context))?;
