@@ -1,8 +1,8 @@
 //! The model card: what a model file records about how the model was made, beside the
 //! trees (the outcome column's name, the missing-value tokens new files are read with,
 //! the training source and its row counts, the class counts or value range, the decimal
-//! mark of its numbers, the copse version). No clock times, so the same run gives the
-//! same file byte for byte.
+//! mark of its numbers, the case weights and row groups trained with, the copse
+//! version). No clock times, so the same run gives the same file byte for byte.
 use crate::case_weights::{GroupsRecord, WeightsRecord};
 use crate::error::{Error, ErrorKind, Result};
 use crate::metrics::Metrics;

@@ -61,6 +61,25 @@ impl Forest {
         repeats: usize,
         seed: u64,
     ) -> Result<PermutationImportance> {
+        self.permutation_importance_weighted(x, outcome, None, repeats, seed)
+    }
+
+    /// Permutation importance as [`Forest::permutation_importance`], each row's loss
+    /// counted with its case weight when `weights` are given (rows of weight 0 are left
+    /// out): the increases are in weighted mean error and Brier score.
+    ///
+    /// # Errors
+    /// As for [`Forest::permutation_importance`]; `LengthMismatch`, `BadValue` or
+    /// `NoTargets` for weights of the wrong length, a negative or non-finite one, or
+    /// rows that weigh nothing.
+    pub fn permutation_importance_weighted(
+        &self,
+        x: ArrayView2<'_, f64>,
+        outcome: &Outcome,
+        weights: Option<&[f64]>,
+        repeats: usize,
+        seed: u64,
+    ) -> Result<PermutationImportance> {
         if repeats == 0 {
             return Err(Error::new(
                 ErrorKind::InvalidSetting,
@@ -69,7 +88,10 @@ impl Forest {
         }
         self.check_columns(x)?;
         let outcome = self.align_rows(x, outcome)?;
-        let rows: Vec<usize> = (0..x.nrows()).filter(|&i| !outcome.is_missing(i)).collect();
+        let weights = crate::case_weights::checked_weights(weights, &outcome)?.map(|(w, _)| w);
+        let rows: Vec<usize> = (0..x.nrows())
+            .filter(|&i| !outcome.is_missing(i) && weights.is_none_or(|w| w[i] > 0.0))
+            .collect();
         if rows.len() < 2 {
             return Err(Error::new(
                 ErrorKind::NoTargets,
@@ -90,7 +112,14 @@ impl Forest {
             ));
             vals
         };
-        let inc = self.held_out_increases(x, &outcome, &rows, &tasks, &permuted, SHORTCUT_BYTES);
+        let inc = self.held_out_increases(
+            x,
+            &outcome,
+            (&rows, weights),
+            &tasks,
+            &permuted,
+            SHORTCUT_BYTES,
+        );
         let errs: Vec<Vec<f64>> = inc
             .chunks(p)
             .map(|c| c.iter().map(|l| l.error).collect())
@@ -122,23 +151,28 @@ impl Forest {
         &self,
         x: ArrayView2<'_, f64>,
         outcome: &Outcome,
-        rows: &[usize],
+        (rows, weights): (&[usize], Option<&[f64]>),
         tasks: &[(usize, usize)],
         permuted: &(dyn Fn(usize, usize) -> Vec<f64> + Sync),
         budget: usize,
     ) -> Vec<Loss> {
         let (m, nt, p) = (rows.len(), self.trees.len(), self.n_features());
+        // Without weights every row weighs exactly 1.0 and the total is the row count,
+        // so the figures are those of the unweighted means to the last bit.
+        let weight = |i: usize| weights.map_or(1.0, |w| w[i]);
+        let total_weight = weights.map_or(m as f64, |w| rows.iter().map(|&i| w[i]).sum());
         let scorers = self.scorers(m);
         // Per row and tree: its place in the tree's order (4 bytes) and at most one
         // group (8 bytes); per row its values.
         let need = m.saturating_mul(nt * 12 + p * 8);
         if need > budget || p == 0 {
-            let base = self.forest_loss(&scorers, x, outcome, rows, None);
+            let base = self.forest_loss(&scorers, x, outcome, (rows, weights), None);
             return tasks
                 .par_iter()
                 .map(|&(r, j)| {
                     let vals = permuted(r, j);
-                    let l = self.forest_loss(&scorers, x, outcome, rows, Some((j, &vals)));
+                    let l =
+                        self.forest_loss(&scorers, x, outcome, (rows, weights), Some((j, &vals)));
                     Loss {
                         error: l.error - base.error,
                         brier: l.brier - base.brier,
@@ -208,16 +242,17 @@ impl Forest {
             for (from, part) in pred.chunks(bs * k).enumerate() {
                 let mut total = Loss::default();
                 for (off, o) in part.chunks_exact(k).enumerate() {
-                    let l = row_loss(outcome, rows[from * bs + off], o);
-                    total.error += l.error;
-                    total.brier += l.brier;
+                    let i = rows[from * bs + off];
+                    let l = row_loss(outcome, i, o);
+                    total.error += weight(i) * l.error;
+                    total.brier += weight(i) * l.brier;
                 }
                 e += total.error;
                 b += total.brier;
             }
             Loss {
-                error: e / m as f64,
-                brier: b / m as f64,
+                error: e / total_weight,
+                brier: b / total_weight,
             }
         };
         let base = loss_with(None);
@@ -242,9 +277,10 @@ impl Forest {
         scorers: &[Scorer<'_>],
         x: ArrayView2<'_, f64>,
         outcome: &Outcome,
-        rows: &[usize],
+        (rows, weights): (&[usize], Option<&[f64]>),
         swap: Option<(usize, &[f64])>,
     ) -> Loss {
+        let weight = |i: usize| weights.map_or(1.0, |w| w[i]);
         let bs = block_rows(rows.len());
         let k = self.n_outputs();
         let parts: Vec<Loss> = rows
@@ -257,13 +293,13 @@ impl Forest {
                 let mut total = Loss::default();
                 for (off, &i) in chunk.iter().enumerate() {
                     let l = row_loss(outcome, i, &pred[off * k..(off + 1) * k]);
-                    total.error += l.error;
-                    total.brier += l.brier;
+                    total.error += weight(i) * l.error;
+                    total.brier += weight(i) * l.brier;
                 }
                 total
             })
             .collect();
-        let m = rows.len() as f64;
+        let m = weights.map_or(rows.len() as f64, |w| rows.iter().map(|&i| w[i]).sum());
         let (e, b) = parts
             .iter()
             .fold((0.0, 0.0), |(e, b), l| (e + l.error, b + l.brier));
@@ -319,12 +355,17 @@ mod tests {
                 ));
                 vals
             };
-            let fast = f.held_out_increases(x, &outcome, &rows, &tasks, &permuted, usize::MAX);
-            let full = f.held_out_increases(x, &outcome, &rows, &tasks, &permuted, 0);
-            assert!(fast.iter().any(|l| l.error != 0.0), "some input matters");
-            for (a, b) in fast.iter().zip(&full) {
-                assert_eq!(a.error.to_bits(), b.error.to_bits());
-                assert_eq!(a.brier.to_bits(), b.brier.to_bits());
+            // Also with case weights (whole and fractional).
+            let w: Vec<f64> = (0..200).map(|i| (i % 4) as f64 * 0.75).collect();
+            for weights in [None, Some(w.as_slice())] {
+                let set = (rows.as_slice(), weights);
+                let fast = f.held_out_increases(x, &outcome, set, &tasks, &permuted, usize::MAX);
+                let full = f.held_out_increases(x, &outcome, set, &tasks, &permuted, 0);
+                assert!(fast.iter().any(|l| l.error != 0.0), "some input matters");
+                for (a, b) in fast.iter().zip(&full) {
+                    assert_eq!(a.error.to_bits(), b.error.to_bits());
+                    assert_eq!(a.brier.to_bits(), b.brier.to_bits());
+                }
             }
         }
     }

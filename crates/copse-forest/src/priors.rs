@@ -20,15 +20,26 @@
 /// The factors a balanced forest's probabilities are multiplied by: each class's
 /// share of the training rows with a known outcome (classes present in equal numbers
 /// in every balanced sample, so their sampled priors cancel out).
-pub(crate) fn training_shares(codes: &[u32], n_classes: usize) -> Vec<f64> {
+pub(crate) fn training_shares(
+    codes: &[u32],
+    n_classes: usize,
+    weights: Option<&[f64]>,
+) -> Vec<f64> {
+    // With case weights, the class shares of the weights (each row counting as many
+    // cases as its weight); without, every row counts 1.0.
     let mut counts = vec![0.0; n_classes];
-    for &c in codes {
+    for (i, &c) in codes.iter().enumerate() {
         if let Some(n) = counts.get_mut(c as usize) {
-            *n += 1.0;
+            *n += weights.map_or(1.0, |w| w[i]);
         }
     }
     let total: f64 = counts.iter().sum();
-    counts.iter().map(|c| c / total.max(1.0)).collect()
+    let total = if weights.is_some() && total > 0.0 {
+        total
+    } else {
+        total.max(1.0)
+    };
+    counts.iter().map(|c| c / total).collect()
 }
 
 /// Factors that make the shifted probabilities of `raw` (rows by classes; rows without
@@ -110,7 +121,11 @@ mod tests {
     /// become (0.9, 0.1); (0.2, 0.8) becomes (0.18, 0.08) / 0.26 = (0.6923, 0.3077).
     #[test]
     fn shifted_probabilities_match_bayes_rule_by_hand() {
-        let shift = training_shares(&[0; 9].iter().chain(&[1]).copied().collect::<Vec<_>>(), 2);
+        let shift = training_shares(
+            &[0; 9].iter().chain(&[1]).copied().collect::<Vec<_>>(),
+            2,
+            None,
+        );
         assert_eq!(shift, vec![0.9, 0.1]);
         let mut p = [0.5, 0.5];
         shift_row(&shift, &mut p);

@@ -417,7 +417,7 @@ fn train_binned(
         // crate::priors); that takes one more out-of-bag pass.
         let prior_shift = match outcome {
             Outcome::Classes { codes, labels } if settings.balanced => {
-                let shares = crate::priors::training_shares(codes, labels.len());
+                let shares = crate::priors::training_shares(codes, labels.len(), weights);
                 let (raw, _) = out_of_bag(&trees, &masks, x, outcome, weights, None, &|_| {});
                 Some(crate::priors::fitted_shift(raw.predictions.view(), &shares))
             }

@@ -22,8 +22,22 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
         crate::commands::check_destination(plot)?;
     }
     let (model, source, data) = load_labelled(&a.model, &a.data, &a.csv, ui)?;
+    // With the model's case weights column in the file, rows count by their weight.
+    if let (Some(w), None) = (&model.card().weights, &data.weights) {
+        ui.note(&format!(
+            "the model was trained with case weights from '{}', which {source} lacks; every \
+             row counts once",
+            w.column
+        ));
+    }
     let imp = model
-        .permutation_importance(data.x.view(), &data.outcome, a.repeats as usize, a.seed)
+        .permutation_importance_weighted(
+            data.x.view(),
+            &data.outcome,
+            data.weights.as_deref(),
+            a.repeats as usize,
+            a.seed,
+        )
         .map_err(|e| forest_error(&e, &format!("cannot compute importance on {source}")))?;
 
     if let Some(path) = &a.plot {
