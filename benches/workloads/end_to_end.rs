@@ -43,13 +43,13 @@ pub fn section(
         &format!("rows per second, {threads} threads"),
         n1m as f64 / e.score_all.as_secs_f64(),
         n1m as f64 / e.csv_floor.as_secs_f64(),
-        ">= 150000 on 2 threads",
+        ">= 450000 on 2 threads (issue 19)",
     );
     table.ratio_row(
         &format!("end-to-end speed-up, {threads} threads over 1"),
         e.score1.as_secs_f64() / e.score_all.as_secs_f64(),
         threads as f64,
-        ">= 1.8",
+        ">= 1.9 (issue 19)",
     );
     table.row(
         "bytes per node on disk (model file)",
@@ -184,7 +184,7 @@ fn run(
 /// The `copse` binary: `COPSE_BIN` if set; else the one Cargo built beside this
 /// benchmark (`cargo bench -p copse-cli` builds it); else one in the same target
 /// directory (`target/release/copse`).
-fn copse_binary() -> Option<PathBuf> {
+pub fn copse_binary() -> Option<PathBuf> {
     if let Some(p) = std::env::var_os("COPSE_BIN") {
         return Some(PathBuf::from(p));
     }
@@ -197,13 +197,13 @@ fn copse_binary() -> Option<PathBuf> {
     bin.exists().then_some(bin)
 }
 
-fn path_str(p: &Path) -> Result<&str, String> {
+pub fn path_str(p: &Path) -> Result<&str, String> {
     p.to_str()
         .ok_or_else(|| format!("{} is not valid UTF-8", p.display()))
 }
 
 /// First number under `key` anywhere in a JSON value.
-fn find_number(v: &serde_json::Value, key: &str) -> Option<u64> {
+pub fn find_number(v: &serde_json::Value, key: &str) -> Option<u64> {
     match v {
         serde_json::Value::Object(m) => m
             .get(key)
@@ -214,7 +214,7 @@ fn find_number(v: &serde_json::Value, key: &str) -> Option<u64> {
     }
 }
 
-fn run_copse(exe: &Path, args: &[&str]) -> Result<String, String> {
+pub fn run_copse(exe: &Path, args: &[&str]) -> Result<String, String> {
     let out = Command::new(exe)
         .args(args)
         .output()
