@@ -8,6 +8,7 @@
 //! - [`csv_input`]: the CSV reader ([`CsvInput`]);
 //! - [`records`]: records and fields line by line, under the reader (size cap, blank
 //!   lines, restarting after a quote that never closes);
+//! - [`plain`]: lines without quotes taken in blocks and read in pieces in parallel;
 //! - [`cells`]: missing tokens and numbers ([`Missing`]);
 //! - [`roles`]: which column is the outcome, which are left out ([`Roles`]);
 //! - `infer` (private): column kinds, the task, category labels;
@@ -44,6 +45,7 @@ pub mod csv_input;
 pub mod encode;
 pub mod error;
 mod infer;
+pub mod plain;
 pub mod records;
 pub mod roles;
 pub mod training;
@@ -51,7 +53,9 @@ pub mod training;
 pub use cells::{clip, looks_decimal_comma, one_line, parse_number, read_number, Missing};
 pub use copse_forest::DecimalMark;
 pub use csv_input::{CsvInput, Delimiter, Row};
-pub use encode::{read_labelled, read_labelled_with_column, ColumnCells, Labelled, RowEncoder};
+pub use encode::{
+    read_labelled, read_labelled_with_column, ColumnCells, Labelled, RowEncoder, UnseenTally,
+};
 pub use error::{Error, ErrorKind, Result};
 pub use infer::MAX_TARGET_SIZE;
 pub use records::MAX_RECORD_BYTES;
