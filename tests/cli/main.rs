@@ -16,6 +16,7 @@ mod extras;
 mod html_check;
 mod library;
 mod reliability;
+mod score_parallel;
 mod shapes;
 #[path = "../support/mod.rs"]
 mod support;
