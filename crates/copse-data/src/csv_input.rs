@@ -56,7 +56,7 @@ pub enum Row {
 /// An open CSV input with its header read and checked.
 pub struct CsvInput {
     name: String,
-    records: Records,
+    pub(crate) records: Records,
     headers: Vec<String>,
     size: Option<u64>,
     delimiter: Delimiter,
@@ -317,18 +317,6 @@ impl CsvInput {
         self.delimiter
     }
 
-    /// Whole lines of plain text from the records (see [`Records::take_lines`]).
-    pub(crate) fn take_lines(
-        &mut self,
-        max_lines: usize,
-        max_bytes: usize,
-        out: &mut Vec<u8>,
-    ) -> Result<crate::records::Lines> {
-        self.records
-            .take_lines(max_lines, max_bytes, out)
-            .map_err(|e| self.read_failure(&e))
-    }
-
     /// Blank lines passed over so far (in a file of several columns): how many, and the
     /// first few line numbers.
     pub fn blank_lines(&self) -> (u64, &[u64]) {
@@ -374,7 +362,7 @@ impl CsvInput {
         self.headers.iter().position(|h| h == name)
     }
 
-    fn read_failure(&self, e: &io::Error) -> Error {
+    pub(crate) fn read_failure(&self, e: &io::Error) -> Error {
         Error::new(
             ErrorKind::Unreadable,
             format!(

@@ -79,7 +79,10 @@ impl CsvInput {
         max_bytes: usize,
         block: &mut LineBlock,
     ) -> Result<Taken> {
-        let found = self.take_lines(max_lines, max_bytes, &mut block.text)?;
+        let found = self
+            .records
+            .take_lines(max_lines, max_bytes, &mut block.text)
+            .map_err(|e| self.read_failure(&e))?;
         Ok(match found {
             crate::records::Lines::Taken { first_line } => {
                 block.first_line = first_line;
