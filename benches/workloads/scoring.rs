@@ -35,7 +35,7 @@ pub fn in_memory(
         "scoring ns per node visit per core, 1 thread",
         ns_per(s1, 1, visits),
         ns_per(k1, 1, kvisits),
-        "<= 3",
+        "<= 3.0 (issue 19)",
     );
     table.ratio_row(
         &format!("scoring ns per node visit per core, {threads} threads"),
@@ -78,7 +78,7 @@ fn predict_timed(forest: &Forest, x: ArrayView2<'_, f64>, threads: usize) -> Dur
 }
 
 /// Exact count of internal nodes passed, over every row and tree.
-fn count_visits(forest: &Forest, x: ArrayView2<'_, f64>) -> f64 {
+pub fn count_visits(forest: &Forest, x: ArrayView2<'_, f64>) -> f64 {
     let depths: Vec<Vec<u32>> = forest.trees().iter().map(leaf_depths).collect();
     let x = x.as_standard_layout();
     let p = x.ncols();

@@ -77,7 +77,7 @@ impl Table {
         let w = 58;
         let _ = writeln!(
             s,
-            "{:<w$} {:>12} {:>12} {:>10}  goal (issue 5)",
+            "{:<w$} {:>12} {:>12} {:>10}  goal (issue 5 unless marked)",
             "figure", "ours", "limit", "ours/limit"
         );
         for l in &self.lines {

@@ -119,13 +119,23 @@ pub const PROBABILITY_DECIMALS: usize = 6;
 /// [`value_decimals`]): NaN (no value) is an empty cell, and a value that rounds to
 /// zero is written `0` followed by its decimals, never with a minus sign.
 pub fn fixed(v: f64, decimals: usize) -> String {
+    let mut s = String::new();
+    fixed_into(&mut s, v, decimals);
+    s
+}
+
+/// [`fixed`] into `out` (cleared first), for writing many cells through one buffer.
+pub fn fixed_into(out: &mut String, v: f64, decimals: usize) {
+    use std::fmt::Write as _;
+    out.clear();
     if v.is_nan() {
-        return String::new();
+        return;
     }
-    let s = format!("{v:.decimals$}");
-    match s.strip_prefix('-') {
-        Some(rest) if rest.bytes().all(|b| b == b'0' || b == b'.') => rest.to_string(),
-        _ => s,
+    let _ = write!(out, "{v:.decimals$}");
+    if let Some(rest) = out.strip_prefix('-') {
+        if rest.bytes().all(|b| b == b'0' || b == b'.') {
+            out.remove(0);
+        }
     }
 }
 

@@ -56,7 +56,7 @@ pub enum Row {
 /// An open CSV input with its header read and checked.
 pub struct CsvInput {
     name: String,
-    records: Records,
+    pub(crate) records: Records,
     headers: Vec<String>,
     size: Option<u64>,
     delimiter: Delimiter,
@@ -306,6 +306,17 @@ impl CsvInput {
         }
     }
 
+    /// Counts a blank line passed over on file line `line` (one that
+    /// [`crate::plain::PlainLines`] found), as [`CsvInput::read_row`] counts its own.
+    pub fn pass_over_blank_line(&mut self, line: u64) {
+        self.blank.add(line);
+    }
+
+    /// The field separator.
+    pub fn delimiter_kind(&self) -> Delimiter {
+        self.delimiter
+    }
+
     /// Blank lines passed over so far (in a file of several columns): how many, and the
     /// first few line numbers.
     pub fn blank_lines(&self) -> (u64, &[u64]) {
@@ -335,27 +346,15 @@ impl CsvInput {
     /// Copies the fields of the record just framed into `record`, checking they are
     /// UTF-8, with its file line as position.
     fn fill(&self, record: &mut csv::StringRecord) -> Result<()> {
-        record.clear();
-        let line = self.records.first_line();
-        for i in 0..self.records.len() {
-            match std::str::from_utf8(self.records.field(i)) {
-                Ok(text) => record.push_field(text),
-                Err(_) => {
-                    let column = self
-                        .headers
-                        .get(i)
-                        .map_or(format!("column {}", i + 1), |h| {
-                            format!("column {} ('{}')", i + 1, clip(h))
-                        });
-                    return Err(Error::new(ErrorKind::Malformed, format!(
-                        "{} line {line}, {column}: the text is not valid UTF-8; save the file with UTF-8 encoding and try again",
-                        self.name
-                    )));
-                }
-            }
-        }
-        record.set_position(Some(position(line)));
-        Ok(())
+        let records = &self.records;
+        fill_record(
+            &self.name,
+            &self.headers,
+            records.first_line(),
+            records.len(),
+            |i| records.field(i),
+            record,
+        )
     }
 
     /// Index of column `name`, if present.
@@ -363,7 +362,7 @@ impl CsvInput {
         self.headers.iter().position(|h| h == name)
     }
 
-    fn read_failure(&self, e: &io::Error) -> Error {
+    pub(crate) fn read_failure(&self, e: &io::Error) -> Error {
         Error::new(
             ErrorKind::Unreadable,
             format!(
@@ -402,12 +401,7 @@ impl CsvInput {
                         self.records.last_line()
                     )
                 } else {
-                    format!(
-                        "{name} line {line}: found {len} fields but the header has {want}; \
-                         check that fields holding a {} are quoted and that no quote is missing \
-                         (to read another delimiter, use --delimiter comma|tab|semicolon)",
-                        self.delimiter.name()
-                    )
+                    return width_error(name, line, len, want, self.delimiter);
                 }
             }
         };
@@ -434,6 +428,54 @@ impl CsvInput {
     }
 }
 
+/// Copies `n` fields (`field(i)`) of the record that starts on file `line` into
+/// `record`, checking they are UTF-8, with `line` as position; an error names the first
+/// field that is not, by its column in `headers`.
+pub(crate) fn fill_record<'f>(
+    name: &str,
+    headers: &[String],
+    line: u64,
+    n: usize,
+    field: impl Fn(usize) -> &'f [u8],
+    record: &mut csv::StringRecord,
+) -> Result<()> {
+    record.clear();
+    for i in 0..n {
+        match std::str::from_utf8(field(i)) {
+            Ok(text) => record.push_field(text),
+            Err(_) => {
+                let column = headers.get(i).map_or(format!("column {}", i + 1), |h| {
+                    format!("column {} ('{}')", i + 1, clip(h))
+                });
+                return Err(Error::new(ErrorKind::Malformed, format!(
+                    "{name} line {line}, {column}: the text is not valid UTF-8; save the file with UTF-8 encoding and try again"
+                )));
+            }
+        }
+    }
+    record.set_position(Some(position(line)));
+    Ok(())
+}
+
+/// The message for a record on one line with `len` fields where the header has `want`.
+pub(crate) fn width_error(
+    name: &str,
+    line: u64,
+    len: usize,
+    want: usize,
+    delimiter: Delimiter,
+) -> Error {
+    Error::new(
+        ErrorKind::Malformed,
+        format!(
+            "{name} line {line}: found {len} fields but the header has {want}; \
+             check that fields holding a {} are quoted and that no quote is missing \
+             (to read another delimiter, use --delimiter comma|tab|semicolon)",
+            delimiter.name()
+        ),
+    )
+}
+
 /// The record size limit in words, for messages.
 const RECORD_LIMIT_WORDS: &str = "1 MiB";
 const _: () = assert!(
@@ -442,7 +484,7 @@ const _: () = assert!(
 );
 
 /// A position holding only a file line.
-fn position(line: u64) -> csv::Position {
+pub(crate) fn position(line: u64) -> csv::Position {
     let mut p = csv::Position::new();
     p.set_line(line);
     p

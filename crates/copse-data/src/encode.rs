@@ -20,8 +20,41 @@ pub struct RowEncoder {
     classes: Vec<String>,
     missing: Missing,
     decimal: DecimalMark,
-    unseen: Vec<u64>,
-    unseen_examples: Vec<Vec<String>>,
+    unseen: UnseenTally,
+}
+
+/// Cells holding a category the model never saw, per input: how many, and the first
+/// three distinct ones as a message shows them. A tally of rows read apart (on other
+/// threads) joins the encoder's own with [`RowEncoder::add_tally`], in file order,
+/// with the same result as reading those rows through the encoder itself.
+#[derive(Debug, Clone, Default)]
+pub struct UnseenTally {
+    counts: Vec<u64>,
+    examples: Vec<Vec<String>>,
+    total: u64,
+}
+
+impl UnseenTally {
+    /// Most examples kept per input.
+    const EXAMPLES: usize = 3;
+
+    /// Unseen cells over every input.
+    pub fn total(&self) -> u64 {
+        self.total
+    }
+
+    /// Counts an unseen `cell` of input `k`.
+    fn add(&mut self, k: usize, cell: &str) {
+        self.counts[k] += 1;
+        self.total += 1;
+        let ex = &mut self.examples[k];
+        if ex.len() < Self::EXAMPLES {
+            let shown = clip(cell);
+            if !ex.contains(&shown) {
+                ex.push(shown);
+            }
+        }
+    }
 }
 
 impl RowEncoder {
@@ -112,9 +145,38 @@ impl RowEncoder {
             classes,
             missing,
             decimal: input.decimal(),
-            unseen: vec![0; p],
-            unseen_examples: vec![Vec::new(); p],
+            unseen: UnseenTally {
+                counts: vec![0; p],
+                examples: vec![Vec::new(); p],
+                total: 0,
+            },
         })
+    }
+
+    /// An empty tally for rows encoded apart ([`RowEncoder::encode_tallied`]).
+    pub fn new_tally(&self) -> UnseenTally {
+        UnseenTally {
+            counts: vec![0; self.names.len()],
+            examples: vec![Vec::new(); self.names.len()],
+            total: 0,
+        }
+    }
+
+    /// Joins `tally` (rows read after every row counted so far) to the encoder's own
+    /// count of unseen categories.
+    pub fn add_tally(&mut self, tally: &UnseenTally) {
+        for (k, &n) in tally.counts.iter().enumerate() {
+            self.unseen.counts[k] += n;
+        }
+        self.unseen.total += tally.total;
+        for (k, more) in tally.examples.iter().enumerate() {
+            let ex = &mut self.unseen.examples[k];
+            for e in more {
+                if ex.len() < UnseenTally::EXAMPLES && !ex.contains(e) {
+                    ex.push(e.clone());
+                }
+            }
+        }
     }
 
     /// Encodes `record`'s inputs into `out` (one value per model input).
@@ -122,6 +184,23 @@ impl RowEncoder {
     /// # Errors
     /// An input error naming the line and column when a numeric input holds text.
     pub fn encode(&mut self, record: &csv::StringRecord, out: &mut [f64]) -> Result<()> {
+        let mut tally = std::mem::take(&mut self.unseen);
+        let result = self.encode_tallied(record, out, &mut tally);
+        self.unseen = tally;
+        result
+    }
+
+    /// Encodes like [`RowEncoder::encode`], counting unseen categories in `tally`
+    /// instead of the encoder (so that rows can be encoded on several threads).
+    ///
+    /// # Errors
+    /// As [`RowEncoder::encode`].
+    pub fn encode_tallied(
+        &self,
+        record: &csv::StringRecord,
+        out: &mut [f64],
+        tally: &mut UnseenTally,
+    ) -> Result<()> {
         for (k, o) in out.iter_mut().enumerate() {
             let cell = record.get(self.cols[k]).unwrap_or("").trim();
             if self.missing.is_missing(cell) {
@@ -132,11 +211,7 @@ impl RowEncoder {
                 Some(codes) => match codes.get(cell) {
                     Some(&c) => f64::from(c),
                     None => {
-                        self.unseen[k] += 1;
-                        let ex = &mut self.unseen_examples[k];
-                        if ex.len() < 3 && !ex.iter().any(|e| e == cell) {
-                            ex.push(clip(cell));
-                        }
+                        tally.add(k, cell);
                         f64::NAN
                     }
                 },
@@ -225,17 +300,18 @@ impl RowEncoder {
     /// Cells whose category the model never saw, per input, for a warning; `None` when
     /// there were none.
     pub fn unseen_warning(&self) -> Option<String> {
-        let total: u64 = self.unseen.iter().sum();
+        let total = self.unseen.total();
         if total == 0 {
             return None;
         }
         let parts: Vec<String> = self
             .unseen
+            .counts
             .iter()
             .enumerate()
             .filter(|(_, &n)| n > 0)
             .map(|(k, &n)| {
-                let ex: Vec<String> = self.unseen_examples[k]
+                let ex: Vec<String> = self.unseen.examples[k]
                     .iter()
                     .map(|e| format!("'{e}'"))
                     .collect();
@@ -256,7 +332,7 @@ impl RowEncoder {
 
     /// Unseen-category counts per input, in model order.
     pub fn unseen_counts(&self) -> &[u64] {
-        &self.unseen
+        &self.unseen.counts
     }
 }
 

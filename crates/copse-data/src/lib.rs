@@ -8,6 +8,7 @@
 //! - [`csv_input`]: the CSV reader ([`CsvInput`]);
 //! - [`records`]: records and fields line by line, under the reader (size cap, blank
 //!   lines, restarting after a quote that never closes);
+//! - [`plain`]: lines without quotes taken in blocks and read in pieces in parallel;
 //! - [`cells`]: missing tokens and numbers ([`Missing`]);
 //! - [`roles`]: which column is the outcome, which are left out ([`Roles`]);
 //! - [`row_roles`]: case weights and group labels of training rows;
@@ -45,6 +46,7 @@ pub mod csv_input;
 pub mod encode;
 pub mod error;
 mod infer;
+pub mod plain;
 pub mod records;
 pub mod roles;
 pub mod row_roles;
@@ -55,7 +57,7 @@ pub use copse_forest::DecimalMark;
 pub use csv_input::{CsvInput, Delimiter, Row};
 pub use encode::{
     read_inputs, read_labelled, read_labelled_with_column, ColumnCells, InputRows, Labelled,
-    RowEncoder,
+    RowEncoder, UnseenTally,
 };
 pub use error::{Error, ErrorKind, Result};
 pub use infer::MAX_TARGET_SIZE;

@@ -40,6 +40,41 @@ pub(crate) enum Framed {
     End,
 }
 
+/// What [`Records::take_lines`] found.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Lines {
+    /// Whole lines of plain text, the first on this file line.
+    Taken {
+        /// The file line of the first line taken.
+        first_line: u64,
+    },
+    /// The next lines are not plain (or cannot be taken now): read them record by
+    /// record.
+    Refused,
+    /// No more input.
+    End,
+}
+
+/// Whether `text` is plain ([`Records::take_lines`]): no quote, every CR followed by an
+/// LF, every line well below [`MAX_RECORD_BYTES`].
+fn plain(text: &[u8]) -> bool {
+    let mut line_start = 0;
+    for i in memchr::memchr3_iter(b'"', b'\r', b'\n', text) {
+        match text[i] {
+            b'"' => return false,
+            b'\r' if text.get(i + 1) != Some(&b'\n') => return false,
+            b'\n' => {
+                if i - line_start >= MAX_RECORD_BYTES / 2 {
+                    return false;
+                }
+                line_start = i + 1;
+            }
+            _ => {}
+        }
+    }
+    text.len() - line_start < MAX_RECORD_BYTES / 2
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 enum State {
     StartRecord,
@@ -312,6 +347,73 @@ impl Records {
         // An LF has already moved the line count on.
         self.last_line = self.line - u64::from(terminator == b'\n');
         Framed::Fields
+    }
+
+    /// Takes whole lines of plain text into `out`, for reading in parallel: up to
+    /// `max_lines` lines, and no more once `out` holds `max_bytes` and ends a line.
+    /// Plain means every record is one line: no quote character, every CR followed by
+    /// an LF, no line near [`MAX_RECORD_BYTES`]; then each line is a record or blank,
+    /// and its fields are its text split at the delimiter, as [`Records::next`] would
+    /// read them. Text that is not plain is given back, to be read record by record
+    /// (`Lines::Refused`), as is everything while bytes wait to be read again after a
+    /// restart or before the header's byte-order mark is checked.
+    ///
+    /// # Errors
+    /// A read failure of the source.
+    pub(crate) fn take_lines(
+        &mut self,
+        max_lines: usize,
+        max_bytes: usize,
+        out: &mut Vec<u8>,
+    ) -> io::Result<Lines> {
+        out.clear();
+        if !self.bom_checked || self.replay_pos < self.replay.len() || max_lines == 0 {
+            return Ok(Lines::Refused);
+        }
+        if self.skip_lf {
+            self.skip_lf = false;
+            if self.peek()? == Some(b'\n') {
+                self.take(b'\n');
+            }
+        }
+        let mut lines = 0;
+        loop {
+            if !self.fill()? {
+                break;
+            }
+            let avail = &self.buf[self.start..self.end];
+            let mut taken = avail.len();
+            for i in memchr::memchr_iter(b'\n', avail) {
+                lines += 1;
+                if lines == max_lines || out.len() + i + 1 >= max_bytes {
+                    taken = i + 1;
+                    break;
+                }
+            }
+            out.extend_from_slice(&avail[..taken]);
+            self.start += taken;
+            if out.last() == Some(&b'\n') && (lines == max_lines || out.len() >= max_bytes) {
+                break;
+            }
+            if out.len() > max_bytes.max(MAX_RECORD_BYTES) + MAX_RECORD_BYTES {
+                // A line far longer than the bytes asked for: read it record by record.
+                break;
+            }
+        }
+        if out.is_empty() {
+            return Ok(Lines::End);
+        }
+        let complete = out.last() == Some(&b'\n') || self.eof;
+        if !complete || !plain(out) {
+            self.replay.clear();
+            self.replay.extend_from_slice(out);
+            self.replay_pos = 0;
+            out.clear();
+            return Ok(Lines::Refused);
+        }
+        let first_line = self.line;
+        self.line += lines as u64;
+        Ok(Lines::Taken { first_line })
     }
 
     /// Goes back to the start of the line after the first line of the last record

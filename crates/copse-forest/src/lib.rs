@@ -98,8 +98,8 @@ pub mod uncertainty;
 pub mod unfamiliar;
 
 pub use card::{DecimalMark, ModelCard, STANDARD_MISSING_TOKENS};
-pub use contributions::{ContributionRanking, ContributionWalk, Contributions, RANKING_ROWS};
 pub use case_weights::{GroupsRecord, WeightsRecord};
+pub use contributions::{ContributionRanking, ContributionWalk, Contributions, RANKING_ROWS};
 pub use copse_tree::{CutChoice, FeatureKind, FeatureMeta, Impurity, TreeSettings};
 pub use draws::Draws;
 pub use effect_surface::{EffectSurface, SurfaceSettings};

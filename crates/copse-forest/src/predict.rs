@@ -269,12 +269,7 @@ impl Forest {
         out.iter_mut().for_each(|o| *o = 0.0);
         for scorer in scorers {
             scorer.leaf_indices(&block, p, &mut leaves);
-            let tree = scorer.tree();
-            for (o, &leaf) in out.chunks_mut(k).zip(&leaves) {
-                o.iter_mut()
-                    .zip(&tree.leaf_value(leaf as usize))
-                    .for_each(|(o, v)| *o += v);
-            }
+            add_leaf_values(scorer.tree(), &leaves, k, out);
         }
         let m = self.trees.len().max(1) as f64;
         out.iter_mut().for_each(|o| *o /= m);
@@ -314,6 +309,36 @@ impl Forest {
             ));
         }
         Ok(())
+    }
+}
+
+/// Adds the outputs of `leaves` (one leaf of `tree` per row) to `out` (`k` per row).
+/// Two classes and one value, the usual cases, are added straight from the leaf's own
+/// number, with the same operations as [`Tree::leaf_value`] (class 0 gets `1 - p`), so
+/// the sums are the same to the bit.
+#[inline]
+fn add_leaf_values(tree: &Tree, leaves: &[u32], k: usize, out: &mut [f64]) {
+    let nodes = tree.nodes();
+    match (k, tree.n_outputs()) {
+        (1, 1) => {
+            for (o, &leaf) in out.iter_mut().zip(leaves) {
+                *o += nodes[leaf as usize].leaf_output();
+            }
+        }
+        (2, 2) => {
+            for (o, &leaf) in out.chunks_exact_mut(2).zip(leaves) {
+                let v = nodes[leaf as usize].leaf_output();
+                o[0] += 1.0 - v;
+                o[1] += v;
+            }
+        }
+        _ => {
+            for (o, &leaf) in out.chunks_mut(k).zip(leaves) {
+                o.iter_mut()
+                    .zip(&tree.leaf_value(leaf as usize))
+                    .for_each(|(o, v)| *o += v);
+            }
+        }
     }
 }
 

@@ -179,6 +179,11 @@ pub(super) trait Walk {
     fn next(&self, i: usize, rows: &[f64], base: usize) -> usize;
     /// `i` if node `i` is a leaf.
     fn leaf(&self, i: usize) -> Option<u32>;
+    /// Whether node `i` is a leaf (whose leaf id is `i` itself).
+    #[inline(always)]
+    fn is_leaf(&self, i: usize) -> bool {
+        self.leaf(i).is_some()
+    }
     /// The row-by-row descent from node `start`, for small blocks.
     fn one(&self, start: usize, row: &[f64]) -> u32;
 }
@@ -218,6 +223,12 @@ pub(super) fn numeric_left(v: f64, threshold: f64, flags: u16) -> bool {
 /// a row is; then rows at their leaves are recorded and their lanes take new rows. A
 /// descent row by row stalls at the end of every row (the last comparison decides
 /// whether to go on, and cannot be foreseen); here the descents overlap instead.
+///
+/// While rows remain for every lane, a lane's row is recorded and replaced without a
+/// branch either: every lane writes the node it stands at into its row's place (a leaf
+/// is known by its node index, so the last write is the leaf), and a lane at a leaf
+/// takes the next row by conditional moves. Whether a lane has arrived cannot be
+/// foreseen, so a branch on it would be mispredicted about as often as rows end.
 #[inline]
 pub(super) fn descend_lanes<W: Walk>(
     walk: &W,
@@ -245,7 +256,26 @@ pub(super) fn descend_lanes<W: Walk>(
         (base[l], at[l]) = pick(l);
         base[l] *= width;
     }
-    let (mut next, mut alive) = (LANES, LANES);
+    let mut next = LANES;
+    // Branch-free refills while every lane is sure to find a row.
+    while next + LANES <= m {
+        for _ in 0..STEPS {
+            for l in 0..LANES {
+                at[l] = walk.next(at[l], rows, base[l]);
+            }
+        }
+        for l in 0..LANES {
+            leaves[slot[l]] = at[l] as u32;
+            let done = walk.is_leaf(at[l]);
+            let (r, start) = pick(next);
+            slot[l] = if done { next } else { slot[l] };
+            base[l] = if done { r * width } else { base[l] };
+            at[l] = if done { start } else { at[l] };
+            next += usize::from(done);
+        }
+    }
+    // The last rows: lanes that finish go idle.
+    let mut alive = LANES;
     while alive > 0 {
         for _ in 0..STEPS {
             for l in 0..LANES {

@@ -52,6 +52,16 @@ impl Node {
     pub fn is_categorical(&self) -> bool {
         !self.is_leaf() && self.flags & CATEGORICAL != 0
     }
+    /// A leaf's own number as [`Tree::leaf_value`](super::Tree::leaf_value) reads
+    /// it: the mean in regression, class 1's probability with two classes, the one
+    /// class's share with one. Meaningless for an internal node and with three or more
+    /// classes (whose leaves hold an offset into the tree's table).
+    // The forest engine's summation kernel; not part of the stable API.
+    #[doc(hidden)]
+    #[inline(always)]
+    pub fn leaf_output(&self) -> f64 {
+        f64::from_bits(self.split)
+    }
     /// Index of the left child (the right child follows it); meaningless for a leaf
     /// (whose `child` field holds its weight: see [`Tree::leaf_weight`](super::Tree::leaf_weight)).
     pub fn child(&self) -> usize {

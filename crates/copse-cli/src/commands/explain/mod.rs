@@ -107,6 +107,7 @@ fn write_blocks(
         p,
         keep,
         record: csv::StringRecord::new(),
+        lines: copse_data::plain::LineBlock::new(),
     };
     let mut rows = 0u64;
     let put = |out: &mut Output, text: &[u8]| {

@@ -7,6 +7,7 @@
 //! 20,000 columns costs one row of text, not a block of them.
 use crate::error::{CliError, CliResult};
 use crate::numbers::count;
+use copse_data::plain::{LineBlock, Taken};
 use copse_data::{CsvInput, Row, RowEncoder};
 
 /// Most bytes of kept cells one block gathers: a block ends early when its `--keep`
@@ -53,64 +54,113 @@ pub(crate) struct BlockReader<'a> {
     pub(crate) keep: &'a [usize],
     /// The row being read (all its fields).
     pub(crate) record: csv::StringRecord,
+    /// Lines of plain text taken to be read in parallel (reused from block to block).
+    pub(crate) lines: LineBlock,
 }
 
 impl BlockReader<'_> {
     /// Fills `b` with the next rows, as many as it holds unless the input ends first
-    /// or its kept cells reach [`KEPT_BYTES`].
+    /// or its kept cells reach [`KEPT_BYTES`]. Lines without quotes are read in pieces
+    /// on the threads of the current pool ([`super::plain_rows`]); other lines row by
+    /// row, with the same rows, faults and counts either way.
     ///
     /// # Errors
     /// A row that cannot be read or encoded, unless `--blank-unscorable` keeps it as a
     /// blank row.
     pub(crate) fn fill(&mut self, b: &mut Block) -> CliResult<()> {
-        let p = self.p;
-        let record = &mut self.record;
         b.m = 0;
         b.last = false;
         let mut kept_bytes = 0;
         while b.m < b.blank.len() && kept_bytes < KEPT_BYTES {
-            let m = b.m;
-            let x = &mut b.x[m * p..(m + 1) * p];
-            let unseen_before: u64 = self.enc.unseen_counts().iter().sum();
-            let fault = match self.input.read_row(record)? {
-                Row::End => {
+            let room = b.blank.len() - b.m;
+            let bytes = (KEPT_BYTES - kept_bytes).min(PLAIN_BYTES);
+            match self.input.take_plain_lines(room, bytes, &mut self.lines)? {
+                Taken::Lines => kept_bytes += self.read_plain(b)?,
+                Taken::End => {
                     b.last = true;
                     break;
                 }
-                Row::Record => match self.enc.encode(record, x) {
-                    Ok(()) => None,
-                    Err(e) => Some((record.position().map_or(0, |p| p.line()), e)),
-                },
-                Row::Fault(line, e) => {
-                    // The fields of a malformed row may be shifted: keep none of them.
-                    record.clear();
-                    Some((line, e))
+                Taken::NotPlain => {
+                    if !self.read_one(b, &mut kept_bytes)? {
+                        b.last = true;
+                        break;
+                    }
                 }
-            };
-            let kept = &mut b.kept[m];
-            kept.clear();
-            for &c in self.keep {
-                kept.push_field(record.get(c).unwrap_or(""));
             }
-            kept_bytes += kept.as_byte_record().as_slice().len();
-            b.blank[m] = fault.is_some();
-            b.unseen[m] = self.enc.unseen_counts().iter().sum::<u64>() > unseen_before;
-            if let Some((line, e)) = fault {
-                if !self.blank_unscorable {
-                    return Err(CliError::input(format!(
-                        "{}; or add --blank-unscorable to write such rows with an empty prediction \
-                         (they are counted on standard error)",
-                        e.message()
-                    )));
-                }
-                x.fill(f64::NAN);
-                self.skipped.add(line, e);
-            }
-            b.m += 1;
         }
         b.bytes = self.input.bytes_read();
         Ok(())
     }
+
+    /// Reads the next row into place `b.m` of `b`; false at the end of the input.
+    fn read_one(&mut self, b: &mut Block, kept_bytes: &mut usize) -> CliResult<bool> {
+        let (p, m) = (self.p, b.m);
+        let record = &mut self.record;
+        let x = &mut b.x[m * p..(m + 1) * p];
+        let unseen_before: u64 = self.enc.unseen_counts().iter().sum();
+        let fault = match self.input.read_row(record)? {
+            Row::End => return Ok(false),
+            Row::Record => match self.enc.encode(record, x) {
+                Ok(()) => None,
+                Err(e) => Some((record.position().map_or(0, |p| p.line()), e)),
+            },
+            Row::Fault(line, e) => {
+                // The fields of a malformed row may be shifted: keep none of them.
+                record.clear();
+                Some((line, e))
+            }
+        };
+        *kept_bytes += keep_cells(&mut b.kept[m], record, self.keep);
+        b.blank[m] = fault.is_some();
+        b.unseen[m] = self.enc.unseen_counts().iter().sum::<u64>() > unseen_before;
+        if let Some((line, e)) = fault {
+            self.fault(line, e, x)?;
+        }
+        b.m += 1;
+        Ok(true)
+    }
+
+    /// A row that cannot be scored: the error, or with `--blank-unscorable` a blank
+    /// row (its inputs missing) counted for the warning.
+    pub(crate) fn fault(
+        &mut self,
+        line: u64,
+        e: copse_data::Error,
+        x: &mut [f64],
+    ) -> CliResult<()> {
+        if !self.blank_unscorable {
+            return Err(unscorable(&e));
+        }
+        x.fill(f64::NAN);
+        self.skipped.add(line, e);
+        Ok(())
+    }
+}
+
+/// Most bytes of plain text taken at a time to be read in parallel: enough for every
+/// thread to get pieces of some hundreds of kilobytes, few enough to stay in cache.
+const PLAIN_BYTES: usize = 4 << 20;
+
+/// The error for a row that cannot be scored, with the way to keep going.
+pub(crate) fn unscorable(e: &copse_data::Error) -> CliError {
+    CliError::input(format!(
+        "{}; or add --blank-unscorable to write such rows with an empty prediction \
+         (they are counted on standard error)",
+        e.message()
+    ))
+}
+
+/// Copies the `keep` cells of `record` into `kept`; returns their bytes.
+pub(crate) fn keep_cells(
+    kept: &mut csv::StringRecord,
+    record: &csv::StringRecord,
+    keep: &[usize],
+) -> usize {
+    kept.clear();
+    for &c in keep {
+        kept.push_field(record.get(c).unwrap_or(""));
+    }
+    kept.as_byte_record().as_slice().len()
 }
 
 /// Passes blocks filled by `fill` (each like `first`, whose row count is the block
@@ -183,7 +233,7 @@ pub(crate) struct Unscorable {
 impl Unscorable {
     const SHOWN: usize = 10;
 
-    fn add(&mut self, line: u64, e: copse_data::Error) {
+    pub(crate) fn add(&mut self, line: u64, e: copse_data::Error) {
         self.count += 1;
         if self.lines.len() < Self::SHOWN {
             self.lines.push(line);

@@ -11,6 +11,7 @@
 //! inputs and the kept cells of each row, so the width of the input does not matter
 //! either.
 pub(crate) mod blocks;
+mod plain_rows;
 pub(crate) mod rows;
 mod unfamiliar;
 
@@ -278,6 +279,7 @@ fn write_blocks(
         p,
         keep,
         record: csv::StringRecord::new(),
+        lines: copse_data::plain::LineBlock::new(),
     };
     let (mut rows, mut clamped) = (0u64, 0usize);
     let (ranges, unfamiliar_rows) = (&mut written.unfamiliar, &mut written.unfamiliar_rows);

@@ -2,7 +2,7 @@
 //! outcome ranges) from the model, written as CSV text in parallel pieces that go out in order.
 use super::blocks::Block;
 use crate::error::{forest_error, CliError, CliResult};
-use crate::numbers::{fixed, value_decimals, PROBABILITY_DECIMALS};
+use crate::numbers::{fixed_into, value_decimals, PROBABILITY_DECIMALS};
 use copse_forest::Forest;
 use ndarray::ArrayView2;
 use rayon::prelude::*;
@@ -79,60 +79,61 @@ impl RowWriter<'_> {
             .map(|c| {
                 let part = c * TEXT_ROWS..((c + 1) * TEXT_ROWS).min(m);
                 csv_text(self.delimiter, part.len() * 64, |w| {
-                    let mut fields = csv::StringRecord::new();
+                    // Fields go to the writer one by one, numbers through one reused
+                    // buffer: no text is allocated per cell.
+                    let mut cell = String::with_capacity(32);
                     let mut probs: Vec<f64> = Vec::with_capacity(classes.len());
                     for i in part {
-                        fields.clear();
                         for c in 0..self.keep.len() {
-                            fields.push_field(b.kept[i].get(c).unwrap_or(""));
+                            w.write_field(b.kept[i].get(c).unwrap_or(""))?;
                         }
                         if b.blank[i] {
                             // An empty prediction and empty probabilities: the row is
                             // kept in its place, never dropped.
                             for _ in 0..out_fields {
-                                fields.push_field("");
+                                w.write_field("")?;
                             }
                         } else if classes.is_empty() {
-                            fields.push_field(&fixed(preds[[i, 0]], d));
+                            fixed_into(&mut cell, preds[[i, 0]], d);
+                            w.write_field(&cell)?;
                         } else {
                             probs.clear();
                             probs.extend(preds.row(i).iter());
-                            fields.push_field(forest.class_label(&probs).unwrap_or(""));
+                            w.write_field(forest.class_label(&probs).unwrap_or(""))?;
                             for &v in &probs {
-                                fields.push_field(&fixed(v, d));
+                                fixed_into(&mut cell, v, d);
+                                w.write_field(&cell)?;
                             }
                         }
                         if let Some(se) = &se {
                             for &v in se.row(i) {
                                 // An unscorable row gets no standard error either.
-                                let cell = if b.blank[i] {
-                                    String::new()
-                                } else {
-                                    fixed(v, d)
-                                };
-                                fields.push_field(&cell);
+                                cell.clear();
+                                if !b.blank[i] {
+                                    fixed_into(&mut cell, v, d);
+                                }
+                                w.write_field(&cell)?;
                             }
                         }
                         if let Some(ranges) = &ranges {
                             for &v in ranges.row(i) {
                                 // An unscorable row gets no range either.
-                                let cell = if b.blank[i] {
-                                    String::new()
-                                } else {
-                                    fixed(v, d)
-                                };
-                                fields.push_field(&cell);
+                                cell.clear();
+                                if !b.blank[i] {
+                                    fixed_into(&mut cell, v, d);
+                                }
+                                w.write_field(&cell)?;
                             }
                         }
                         if let Some(flags) = unfamiliar {
                             // An unscorable row was not judged: its cell stays empty.
-                            fields.push_field(match (b.blank[i], flags[i]) {
+                            w.write_field(match (b.blank[i], flags[i]) {
                                 (true, _) => "",
                                 (false, true) => "1",
                                 (false, false) => "0",
-                            });
+                            })?;
                         }
-                        w.write_record(&fields)?;
+                        w.write_record(None::<&[u8]>)?;
                     }
                     Ok(())
                 })
