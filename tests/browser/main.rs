@@ -130,8 +130,8 @@ fn run_for_a_while(cmd: &mut Command) -> Option<std::process::Output> {
 }
 
 /// The page in a real headless browser (Debian's chromium): it loads from disk with
-/// networking off, its rendered document has every section (and the effect curves the
-/// page adds), the console reports no
+/// networking off, its rendered document has every section (and the contribution
+/// ranking and effect curves the page adds), the console reports no
 /// error, and a screenshot is saved as `target/report.png` for a person to look at.
 /// Skipped, saying so, when chromium is not installed (CI installs it).
 #[test]
@@ -190,13 +190,22 @@ fn the_html_report_renders_in_a_headless_browser() {
         );
     }
     assert!(dom.contains("<svg"), "charts rendered");
-    // The page's own section: effect curves of the top three inputs, after the
-    // printed report's sections and before the caution.
+    // The page's own sections: the contribution ranking (a table and one bar chart),
+    // then the effect curves of the top three inputs, after the printed report's
+    // sections and before the caution.
+    let ranking = dom
+        .find(">HOW FAR EACH INPUT MOVES A PREDICTION</h2>")
+        .expect("the contribution ranking renders");
     let effects = dom
         .find(">HOW THE PREDICTIONS MOVE WITH THE TOP INPUTS</h2>")
         .expect("the effect-curve section renders");
     let caution = dom.find(">CAUTION</h2>").expect("the caution");
-    assert!(effects < caution);
+    assert!(ranking < effects && effects < caution);
+    assert_eq!(
+        dom[ranking..effects].matches("<svg").count(),
+        1,
+        "one contribution chart"
+    );
     assert_eq!(
         dom[effects..caution].matches("<svg").count(),
         3,

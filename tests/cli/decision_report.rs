@@ -22,7 +22,7 @@ const TARGET: &str = "failed_within_year";
 
 /// Writes `train.csv` (the first 1,400 rows) and `held_out.csv` (the other 600, with
 /// an extra column `district` that is not an input) into `dir`.
-fn split_demo(dir: &Path) {
+pub(super) fn split_demo(dir: &Path) {
     let text = std::fs::read_to_string(repo("demo-data/water_mains.csv")).expect("demo data");
     let mut lines = text.lines();
     let header = lines.next().expect("a header");
@@ -42,7 +42,7 @@ fn split_demo(dir: &Path) {
 }
 
 /// Trains the split demo model in `dir` with `extra` options; returns stdout.
-fn train_demo(dir: &Path, extra: &[&str]) -> String {
+pub(super) fn train_demo(dir: &Path, extra: &[&str]) -> String {
     let mut args = vec![
         "train",
         "--data",
@@ -467,6 +467,9 @@ fn class_importance_leads_with_the_brier_rise() {
 
 /// The heading of the page's effect curves, which the printed report does not have.
 const EFFECTS: &str = "HOW THE PREDICTIONS MOVE WITH THE TOP INPUTS";
+/// The heading of the page's contribution ranking, which the printed report does not
+/// have either.
+pub(super) const CONTRIBUTIONS: &str = "HOW FAR EACH INPUT MOVES A PREDICTION";
 
 /// The section headings of a printed report (unindented lines after the title).
 fn printed_headings(text: &str) -> Vec<String> {
@@ -477,7 +480,7 @@ fn printed_headings(text: &str) -> Vec<String> {
         .collect()
 }
 
-fn evaluate_with_page(dir: &Path) -> (String, String) {
+pub(super) fn evaluate_with_page(dir: &Path) -> (String, String) {
     let args = [
         "evaluate",
         "--model",
@@ -512,12 +515,14 @@ fn the_html_report_is_well_formed_and_has_every_section() {
             .iter()
             .map(|h| h.replace('\'', "&#39;"))
             .collect();
-        // The page adds the effect curves of the top inputs before the caution.
+        // The page adds the contribution ranking and the effect curves of the top
+        // inputs before the caution.
         let caution = printed
             .iter()
             .position(|h| h == "CAUTION")
             .expect("caution");
         printed.insert(caution, EFFECTS.to_string());
+        printed.insert(caution, CONTRIBUTIONS.to_string());
         assert_eq!(heads, printed);
         // Three curves (the top three inputs), each with the data's rows under it.
         assert_eq!(

@@ -19,6 +19,7 @@ mod html_check;
 mod intervals;
 mod library;
 mod reliability;
+mod report_contributions;
 mod score_parallel;
 mod shapes;
 #[path = "../support/mod.rs"]

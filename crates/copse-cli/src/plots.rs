@@ -2,6 +2,7 @@
 //! subtitle, thin light grid lines, teal marks and dark whiskers.
 //! - importance: one horizontal bar per input, most important on top, a whisker of
 //!   plus and minus one standard error, and a dark line at zero;
+//! - contributions: the same bars for the mean absolute contribution, without whiskers;
 //! - out-of-bag error against the number of trees, with the final value marked;
 //! - stability: three small panels side by side (error per seed, share of answers that
 //!   change between seeds, agreement of importance rankings), one column per kind of
@@ -118,6 +119,68 @@ pub fn importance_svg(
             draw_rise(&mut chart, slot, f.mean, f.std_error, TEAL, true)?;
         }
         // The zero line: bars left of it are inputs whose shuffling helped.
+        draw_zero_line(&mut chart, n)?;
+        root.present().map_err(err)?;
+    }
+    Ok(svg)
+}
+
+/// The mean-absolute-contribution chart as SVG text: one bar per `(name, mean)` in the
+/// order given (the largest first, drawn on top), in the importance chart's look.
+///
+/// # Errors
+/// A message when drawing fails.
+pub fn contribution_svg(
+    ranked: &[(&str, f64)],
+    measure: &str,
+    title: &str,
+    subtitle: &str,
+) -> PlotResult<String> {
+    let n = ranked.len().max(1);
+    let longest = ranked
+        .iter()
+        .map(|(s, _)| s.chars().count())
+        .max()
+        .unwrap_or(5);
+    let top = ranked.iter().map(|r| r.1).fold(0.0f64, f64::max);
+    let hi = if top > 0.0 { 1.06 * top } else { 1e-6 };
+    let height = 150 + 30 * n as u32;
+    let mut svg = String::new();
+    {
+        let root = SVGBackend::with_string(&mut svg, (860, height)).into_drawing_area();
+        let area = titled(&root, title, subtitle)?;
+        let mut chart = ChartBuilder::on(&area)
+            .margin_left(18)
+            .margin_right(28)
+            .margin_bottom(10)
+            .x_label_area_size(40)
+            .y_label_area_size((longest as u32 * 8 + 24).min(320))
+            .build_cartesian_2d(0.0..hi, (0..n as i32 - 1).into_segmented())
+            .map_err(err)?;
+        chart
+            .configure_mesh()
+            .disable_y_mesh()
+            .light_line_style(WHITE)
+            .bold_line_style(GRID)
+            .axis_style(GREY)
+            .y_labels(n)
+            .y_label_formatter(&|v| match v {
+                // Segment 0 is drawn at the bottom; the top one is rank 1.
+                SegmentValue::CenterOf(i) if (*i as usize) < n => ranked
+                    .get(n - 1 - *i as usize)
+                    .map(|r| r.0.to_string())
+                    .unwrap_or_default(),
+                _ => String::new(),
+            })
+            .x_desc(measure)
+            .x_label_formatter(&|v| plain(*v))
+            .label_style(("sans-serif", 13).into_font().color(&INK))
+            .axis_desc_style(("sans-serif", 13).into_font().color(&GREY))
+            .draw()
+            .map_err(err)?;
+        for (pos, r) in ranked.iter().enumerate() {
+            draw_rise(&mut chart, (n - 1 - pos) as i32, r.1, None, TEAL, false)?;
+        }
         draw_zero_line(&mut chart, n)?;
         root.present().map_err(err)?;
     }

@@ -117,8 +117,7 @@ pub fn run(a: &EvaluateArgs, ui: &Ui) -> CliResult<()> {
     }
     if let Some(page) = &a.report {
         let class = report_page::page_class(&model, judged.decision.as_ref());
-        let (section, effects) =
-            report_page::effect_section(&model, data.x.view(), &source, class)?;
+        let (section, effects) = report_page::page_sections(&model, data.x.view(), &source, class)?;
         let plain = report_page::with_section(&view.text(Style::new(false)), &section);
         let mut page_charts: Vec<_> = charts.into_iter().map(|(_, c)| c).collect();
         page_charts.extend(effects);

@@ -1,6 +1,6 @@
 //! The files of the decision layer that `train` and `evaluate` share: the catch-by-rank
 //! and reliability charts (`--plots DIR`) and the HTML page (`--report FILE.html`),
-//! with the page's effect curves of the top inputs.
+//! with the page's contribution ranking and effect curves of the top inputs.
 use crate::error::{CliError, CliResult};
 use crate::output::write_file;
 use crate::plots_decision;
@@ -107,6 +107,127 @@ const PAGE_GRID: usize = 12;
 /// Single rows' curves drawn faint on the page.
 const PAGE_CURVES: usize = 20;
 
+/// The heading of the page's contribution ranking.
+pub const CONTRIBUTIONS_HEADING: &str = "HOW FAR EACH INPUT MOVES A PREDICTION";
+
+/// The rows of `n` that the page's own sections work on: all when there are at most
+/// [`PAGE_ROWS`], else that many drawn at random with a fixed seed (so the page is the
+/// same on every run, and its tests can draw the same rows).
+pub fn page_rows(n: usize) -> Vec<usize> {
+    copse_forest::effects::sample_rows(n, PAGE_ROWS, 1)
+}
+
+/// The page's own sections for the rows `x` of `source`, to go before the caution (see
+/// [`with_section`]): the contribution ranking, then the effect curves; as the
+/// printed text and the charts.
+///
+/// # Errors
+/// A failure when a figure cannot be computed or drawn.
+pub fn page_sections(
+    model: &copse_forest::Forest,
+    x: ndarray::ArrayView2<'_, f64>,
+    source: &str,
+    class: usize,
+) -> CliResult<(String, Vec<Chart>)> {
+    let (mut text, mut charts) = contribution_section(model, x, source)?;
+    let (effects, curves) = effect_section(model, x, source, class)?;
+    text.push_str(&effects);
+    charts.extend(curves);
+    Ok((text, charts))
+}
+
+/// The page's ranking by mean absolute contribution over the page's rows of `x`
+/// (see [`page_rows`]): the printed text and its bar chart. A model trained with class
+/// balancing has no contributions; the section then says why.
+///
+/// # Errors
+/// A failure when the ranking cannot be computed or drawn.
+pub fn contribution_section(
+    model: &copse_forest::Forest,
+    x: ndarray::ArrayView2<'_, f64>,
+    source: &str,
+) -> CliResult<(String, Vec<Chart>)> {
+    use crate::report::contribution::ContributionView;
+    use crate::report::{paragraph, wrap, WIDTH};
+    use std::fmt::Write as _;
+    let n = x.nrows();
+    let rows = page_rows(n);
+    let mut text = format!(
+        "{CONTRIBUTIONS_HEADING}
+"
+    );
+    let ranking =
+        match model.contribution_ranking(x.select(ndarray::Axis(0), &rows).view(), PAGE_ROWS) {
+            Ok(r) => r,
+            Err(e) if e.kind() == copse_forest::ErrorKind::InvalidSetting => {
+                for l in wrap(&format!("Not shown: {}.", e.message()), WIDTH) {
+                    let _ = writeln!(text, "  {l}");
+                }
+                text.push('\n');
+                return Ok((text, Vec::new()));
+            }
+            Err(e) => {
+                return Err(crate::error::forest_error(
+                    &e,
+                    &format!("cannot explain {source}"),
+                ))
+            }
+        };
+    let classes = model.classes();
+    let moved = match classes.len() {
+        0 => "the prediction".to_string(),
+        2 => format!("the chance of '{}'", classes[1]),
+        _ => "the class probabilities (half the sum over classes: the share of probability \
+              moved between classes)"
+            .to_string(),
+    };
+    let drawn = if rows.len() < n {
+        " (drawn at random; the same rows as the effect curves)"
+    } else {
+        ""
+    };
+    paragraph(
+        &mut text,
+        &format!(
+            "Mean absolute contribution (exact Shapley values of the forest) over {} of the \
+             {n} rows of {source}{drawn}: how far, on average, each input moves {moved} away \
+             from the model's base value. It needs no outcomes and does not shuffle inputs \
+             apart, so it can differ from a permutation ranking where inputs go together. It \
+             describes the model, not causes.",
+            rows.len()
+        ),
+    );
+    text.push('\n');
+    let view = ContributionView::new(model, &ranking);
+    view.table(&mut text);
+    let meta = model.meta();
+    let bars: Vec<(&str, f64)> = ranking
+        .order
+        .iter()
+        .map(|&j| (meta[j].name.as_str(), ranking.mean_abs[j]))
+        .collect();
+    let measure = if classes.is_empty() {
+        "mean absolute contribution to the prediction"
+    } else {
+        "mean absolute contribution (share of probability)"
+    };
+    let svg = crate::plots::contribution_svg(
+        &bars,
+        measure,
+        "How far each input moves a prediction",
+        &format!("{} rows of {source}; exact Shapley values", rows.len()),
+    )
+    .map_err(|e| CliError::failure(format!("could not draw a chart: {e}")))?;
+    let chart = Chart {
+        after: CONTRIBUTIONS_HEADING.into(),
+        caption: "Each input's mean absolute contribution on these rows, the largest on top; \
+                  it describes the model, not causes."
+            .into(),
+        svg,
+    };
+    Ok((text, vec![chart]))
+}
+
 /// The page's effect-curve section for the rows `x` of `source`: its printed text (to
 /// go before the caution, see [`with_section`]) and its charts. The inputs are the top
 /// three by out-of-bag importance (by impurity decrease when the model has
@@ -132,7 +253,7 @@ pub fn effect_section(
     .map(|f| (f.feature, f.name.clone()))
     .collect();
     let n = x.nrows();
-    let rows = copse_forest::effects::sample_rows(n, PAGE_ROWS, 1);
+    let rows = page_rows(n);
     let sample = x.select(ndarray::Axis(0), &rows);
     let words = output_words(model, class);
     let mut text = format!("{EFFECTS_HEADING}\n");

@@ -270,7 +270,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
     if let Some(page) = &a.report {
         let class = report_page::page_class(&model, judged.decision.as_ref());
         let (section, effects) =
-            report_page::effect_section(&model, data.x.view(), &data.source, class)?;
+            report_page::page_sections(&model, data.x.view(), &data.source, class)?;
         let plain = report_page::with_section(&view.text(Style::new(false)), &section);
         let mut charts: Vec<Chart> = charts.into_iter().map(|(_, c)| c).collect();
         charts.extend(effects);

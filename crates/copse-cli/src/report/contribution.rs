@@ -87,6 +87,12 @@ impl<'a> ContributionView<'a> {
             ),
         );
         let _ = writeln!(out);
+        self.table(out);
+    }
+
+    /// The ranked table alone, each input with a bar as long as its share of the
+    /// largest mean, and a blank line after it.
+    pub fn table(&self, out: &mut String) {
         let w = self
             .ranking
             .iter()
