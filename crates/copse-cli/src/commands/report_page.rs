@@ -111,7 +111,7 @@ const PAGE_CURVES: usize = 20;
 pub const CONTRIBUTIONS_HEADING: &str = "HOW FAR EACH INPUT MOVES A PREDICTION";
 
 /// The rows of `n` that the page's own sections work on: all when there are at most
-/// [`PAGE_ROWS`], else that many drawn at random with a fixed seed (so the page is the
+/// 300 (`PAGE_ROWS`), else that many drawn at random with a fixed seed (so the page is the
 /// same on every run, and its tests can draw the same rows).
 pub fn page_rows(n: usize) -> Vec<usize> {
     copse_forest::effects::sample_rows(n, PAGE_ROWS, 1)
