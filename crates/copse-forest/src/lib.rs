@@ -7,6 +7,8 @@
 //! - [`settings`]: how the forest is trained ([`ForestSettings`]);
 //! - [`train`]: parallel training ([`Forest::train`]) and progress reports;
 //! - [`forest`]: the model ([`Forest`]) and what training returns ([`Trained`]);
+//! - [`part`], [`merge`]: trees `a..b` of a forest grown apart ([`ForestPart`]) and
+//!   merged into the model of one run, byte for byte ([`Forest::merge_parts`]);
 //! - [`oob`]: out-of-bag predictions, error curve and summary;
 //! - [`predict`]: batch prediction and evaluation on labelled data;
 //! - [`metrics`]: error, confusion matrix, log loss, Brier score, ROC AUC, MSE;
@@ -63,12 +65,14 @@ pub mod held_out;
 pub mod importance;
 mod leaf_paths;
 mod loss;
+pub mod merge;
 pub mod metrics;
 pub mod model_file;
 pub mod oob;
 pub mod oob_importance;
 pub mod oob_summary;
 pub mod outcome;
+pub mod part;
 pub mod predict;
 mod priors;
 pub mod progress;
@@ -100,6 +104,7 @@ pub use importance::{
 pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics};
 pub use oob_summary::{OobReport, OobSummary};
 pub use outcome::{natural_order, Outcome, MISSING};
+pub use part::{ForestPart, PART_FORMAT_VERSION, PART_MAGIC};
 pub use predict::{Evaluation, SCORING_BLOCK_BYTES};
 pub use progress::{Progress, Stage};
 pub use settings::{FeaturesPerSplit, ForestSettings, Sampling, TreeRules};

@@ -15,9 +15,10 @@ use crate::rng::{task_rng, task_seed, Purpose};
 use crate::sample::Sampler;
 use crate::settings::ForestSettings;
 use crate::task::Task;
-use copse_tree::{BinnedData, FeatureMeta, Grower, Tree};
+use copse_tree::{BinnedData, FeatureBins, FeatureMeta, Grower, OutcomeView, Tree, TreeSettings};
 use ndarray::ArrayView2;
 use rayon::prelude::*;
+use std::ops::Range;
 use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// What a training run does beyond growing the trees, with what every model holds:
@@ -55,13 +56,171 @@ impl std::fmt::Debug for TrainOptions<'_> {
     }
 }
 
-/// One tree and what training needs to remember about its sample.
-struct Grown {
-    tree: Tree,
+/// What training needs to remember about one tree's sample.
+pub(crate) struct Sample {
     bag_weight: f64,
     oob: OobMask,
     /// Draw counts and how many saturated, when asked for.
     draws: Option<(Vec<u8>, usize)>,
+}
+
+impl Sample {
+    /// The sample of a tree whose case weights are `weights`.
+    fn of(weights: &[f64], keep_draws: bool) -> Sample {
+        Sample {
+            bag_weight: weights.iter().sum(),
+            oob: OobMask::from_weights(weights),
+            draws: keep_draws.then(|| Draws::column(weights)),
+        }
+    }
+}
+
+/// The data made ready for growing: binned once, with the resolved inputs per split,
+/// each tree's settings and the row sampler.
+pub(crate) struct Ground<'o> {
+    data: BinnedData,
+    /// Inputs tried per split, resolved for this data.
+    pub(crate) k: usize,
+    tree_settings: TreeSettings,
+    pub(crate) sampler: Sampler,
+    target: OutcomeView<'o>,
+}
+
+impl<'o> Ground<'o> {
+    /// Checks the settings and data and bins the data.
+    pub(crate) fn new(
+        x: ArrayView2<'_, f64>,
+        meta: &[FeatureMeta],
+        outcome: &'o Outcome,
+        settings: &ForestSettings,
+    ) -> Result<Ground<'o>> {
+        settings.validate()?;
+        let (n, p) = x.dim();
+        if outcome.len() != n {
+            return Err(Error::new(
+                ErrorKind::LengthMismatch,
+                format!(
+                    "{n} data rows but {} outcomes; they must match",
+                    outcome.len()
+                ),
+            ));
+        }
+        outcome.validate()?;
+        if settings.balanced && !outcome.is_classes() {
+            return bad_setting(
+                "balanced sampling draws cases per class; it needs a class outcome",
+            );
+        }
+        let data = BinnedData::new(x, meta, settings.bin_limit())?;
+        let k = settings
+            .features_per_split
+            .resolve(p, outcome.is_classes())?;
+        let tree_settings = settings.tree.tree_settings((k < p).then_some(k));
+        tree_settings.validate()?;
+        let target = outcome.view()?;
+        let sampler = Sampler::new(outcome, settings.sampling, settings.balanced)?;
+        Ok(Ground {
+            data,
+            k,
+            tree_settings,
+            sampler,
+            target,
+        })
+    }
+
+    /// Each input's bin layout.
+    pub(crate) fn bins(&self) -> Vec<FeatureBins> {
+        self.data.bins().to_vec()
+    }
+
+    /// Grows trees `range` in parallel, each from its own generators (seed, tree
+    /// index), and returns them in index order with their samples.
+    pub(crate) fn grow(
+        &self,
+        range: Range<usize>,
+        seed: u64,
+        keep_draws: bool,
+        progress: &(dyn Fn(Progress) + Sync),
+    ) -> Result<Vec<(Tree, Sample)>> {
+        let n = self.target.len();
+        let total = range.len();
+        let done = AtomicUsize::new(0);
+        range
+            .into_par_iter()
+            .map_init(
+                || {
+                    (
+                        Grower::new(self.tree_settings.clone()),
+                        vec![0.0; n],
+                        Vec::new(),
+                    )
+                },
+                |(grower, weights, scratch), t| -> Result<(Tree, Sample)> {
+                    let mut sample_rng = task_rng(seed, Purpose::Sample, t as u64, 0);
+                    self.sampler.draw(&mut sample_rng, weights, scratch);
+                    let grow_seed = task_seed(seed, Purpose::Grow, t as u64, 0);
+                    let tree = grower.grow(&self.data, &self.target, weights, grow_seed)?;
+                    let d = done.fetch_add(1, Ordering::Relaxed) + 1;
+                    progress(Progress {
+                        stage: Stage::Growing,
+                        done: d,
+                        total,
+                    });
+                    Ok((tree, Sample::of(weights, keep_draws)))
+                },
+            )
+            .collect()
+    }
+}
+
+/// Draws again the samples of trees `range` (the same draws growing made: each comes
+/// only from the seed and the tree's index), without growing anything.
+pub(crate) fn resample(
+    sampler: &Sampler,
+    n: usize,
+    range: Range<usize>,
+    seed: u64,
+    keep_draws: bool,
+) -> Vec<Sample> {
+    range
+        .into_par_iter()
+        .map_init(
+            || (vec![0.0; n], Vec::new()),
+            |(weights, scratch), t| {
+                let mut sample_rng = task_rng(seed, Purpose::Sample, t as u64, 0);
+                sampler.draw(&mut sample_rng, weights, scratch);
+                Sample::of(weights, keep_draws)
+            },
+        )
+        .collect()
+}
+
+/// The fingerprint of the rows of `x` that have an outcome.
+pub(crate) fn training_fingerprint(x: ArrayView2<'_, f64>, outcome: &Outcome) -> RowFingerprint {
+    RowFingerprint::of_rows(
+        outcome.n_labelled(),
+        x.rows()
+            .into_iter()
+            .enumerate()
+            .filter(|(i, _)| !outcome.is_missing(*i))
+            .map(|(_, r)| r.into_iter().copied()),
+    )
+}
+
+/// Everything of a model that is not its trees, with the trees: what [`Forest::train`]
+/// and the merge of parts ([`crate::part`]) both end with, so that they give the same
+/// model byte for byte.
+pub(crate) struct Finish<'a> {
+    pub(crate) x: ArrayView2<'a, f64>,
+    pub(crate) meta: &'a [FeatureMeta],
+    pub(crate) outcome: &'a Outcome,
+    pub(crate) settings: &'a ForestSettings,
+    pub(crate) k: usize,
+    pub(crate) bins: Vec<FeatureBins>,
+    pub(crate) oob_importance: bool,
+    pub(crate) keep_draws: bool,
+    /// The card to store; the engine's own for the outcome when `None`.
+    pub(crate) card: Option<ModelCard>,
 }
 
 impl Forest {
@@ -111,90 +270,69 @@ impl Forest {
         options: &TrainOptions<'_>,
     ) -> Result<Trained> {
         let progress: &(dyn Fn(Progress) + Sync) = options.progress.unwrap_or(&|_| {});
-        settings.validate()?;
-        let (n, p) = x.dim();
-        if outcome.len() != n {
-            return Err(Error::new(
-                ErrorKind::LengthMismatch,
-                format!(
-                    "{n} data rows but {} outcomes; they must match",
-                    outcome.len()
-                ),
-            ));
+        let ground = Ground::new(x, meta, outcome, settings)?;
+        let grown = ground.grow(
+            0..settings.trees,
+            settings.seed,
+            options.keep_draws,
+            progress,
+        )?;
+        let (k, bins) = (ground.k, ground.bins());
+        drop(ground);
+        let (trees, samples) = grown.into_iter().unzip();
+        Ok(Finish {
+            x,
+            meta,
+            outcome,
+            settings,
+            k,
+            bins,
+            oob_importance: options.oob_importance,
+            keep_draws: options.keep_draws,
+            card: None,
         }
-        outcome.validate()?;
-        if settings.balanced && !outcome.is_classes() {
-            return bad_setting(
-                "balanced sampling draws cases per class; it needs a class outcome",
-            );
-        }
-        let data = BinnedData::new(x, meta, settings.bin_limit())?;
-        let k = settings
-            .features_per_split
-            .resolve(p, outcome.is_classes())?;
-        let tree_settings = settings.tree.tree_settings((k < p).then_some(k));
-        tree_settings.validate()?;
-        let target = outcome.view()?;
-        let sampler = Sampler::new(outcome, settings.sampling, settings.balanced)?;
+        .run(trees, samples, progress))
+    }
+}
 
-        let n_trees = settings.trees;
-        let done = AtomicUsize::new(0);
-        let grown: Vec<Grown> = (0..n_trees)
-            .into_par_iter()
-            .map_init(
-                || (Grower::new(tree_settings.clone()), vec![0.0; n], Vec::new()),
-                |(grower, weights, scratch), t| -> Result<Grown> {
-                    let mut sample_rng = task_rng(settings.seed, Purpose::Sample, t as u64, 0);
-                    sampler.draw(&mut sample_rng, weights, scratch);
-                    let grow_seed = task_seed(settings.seed, Purpose::Grow, t as u64, 0);
-                    let tree = grower.grow(&data, &target, weights, grow_seed)?;
-                    let bag_weight = weights.iter().sum();
-                    let oob = OobMask::from_weights(weights);
-                    let draws = options.keep_draws.then(|| Draws::column(weights));
-                    let d = done.fetch_add(1, Ordering::Relaxed) + 1;
-                    progress(Progress {
-                        stage: Stage::Growing,
-                        done: d,
-                        total: n_trees,
-                    });
-                    Ok(Grown {
-                        tree,
-                        bag_weight,
-                        oob,
-                        draws,
-                    })
-                },
-            )
-            .collect::<Result<Vec<_>>>()?;
-        let bins = data.bins().to_vec();
-        drop(data);
-
-        let mut trees = Vec::with_capacity(n_trees);
+impl Finish<'_> {
+    /// Computes the out-of-bag results, importance and fingerprint of `trees`, whose
+    /// samples are `samples`, and makes the model.
+    pub(crate) fn run(
+        self,
+        trees: Vec<Tree>,
+        samples: Vec<Sample>,
+        progress: &(dyn Fn(Progress) + Sync),
+    ) -> Trained {
+        let Finish {
+            x,
+            meta,
+            outcome,
+            settings,
+            k,
+            bins,
+            oob_importance,
+            keep_draws,
+            card,
+        } = self;
+        let n = x.nrows();
+        let n_trees = trees.len();
         let mut masks = Vec::with_capacity(n_trees);
         let mut bag_weights = Vec::with_capacity(n_trees);
         let mut draw_columns = Vec::new();
         let mut saturated = 0;
-        for g in grown {
-            trees.push(g.tree);
-            masks.push(g.oob);
-            bag_weights.push(g.bag_weight);
-            if let Some((col, sat)) = g.draws {
+        for s in samples {
+            masks.push(s.oob);
+            bag_weights.push(s.bag_weight);
+            if let Some((col, sat)) = s.draws {
                 draw_columns.push(col);
                 saturated += sat;
             }
         }
-        let draws = options
-            .keep_draws
+        let draws = keep_draws
             .then(|| Draws::from_tree_columns(&draw_columns, n, outcome.n_labelled(), saturated));
         drop(draw_columns);
-        let fingerprint = RowFingerprint::of_rows(
-            outcome.n_labelled(),
-            x.rows()
-                .into_iter()
-                .enumerate()
-                .filter(|(i, _)| !outcome.is_missing(*i))
-                .map(|(_, r)| r.into_iter().copied()),
-        );
+        let fingerprint = training_fingerprint(x, outcome);
         // A balanced model's probabilities are shifted back to the training class
         // shares, with factors fitted on its raw out-of-bag probabilities (see
         // crate::priors); that takes one more out-of-bag pass.
@@ -208,7 +346,7 @@ impl Forest {
         };
         let (report, summary) =
             out_of_bag(&trees, &masks, x, outcome, prior_shift.as_deref(), progress);
-        let oob_importance = if options.oob_importance {
+        let oob_importance = if oob_importance {
             oob_permutation(&trees, &masks, x, outcome, meta, settings.seed, progress)
         } else {
             None
@@ -219,7 +357,9 @@ impl Forest {
             Outcome::Classes { labels, .. } => (Task::Classify, labels.clone()),
             Outcome::Values(_) => (Task::Regress, Vec::new()),
         };
-        let card = ModelCard::for_outcome(outcome, settings.features_per_split.to_string());
+        let card = card.unwrap_or_else(|| {
+            ModelCard::for_outcome(outcome, settings.features_per_split.to_string())
+        });
         let forest = Forest {
             meta: meta.to_vec(),
             task,
@@ -237,9 +377,9 @@ impl Forest {
             prior_shift,
             fingerprint,
         };
-        Ok(Trained {
+        Trained {
             forest,
             oob: report,
-        })
+        }
     }
 }
