@@ -15,6 +15,7 @@ mod decisions;
 mod extras;
 mod html_check;
 mod library;
+mod parts;
 mod reliability;
 mod shapes;
 #[path = "../support/mod.rs"]

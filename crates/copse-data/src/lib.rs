@@ -12,6 +12,7 @@
 //! - [`roles`]: which column is the outcome, which are left out ([`Roles`]);
 //! - `infer` (private): column kinds, the task, category labels;
 //! - [`training`]: the training table ([`TrainingTable`]) and training on it;
+//! - [`parts`]: trees `a..b` grown on a table, and parts merged into one model;
 //! - [`encode`]: new rows read the way a model's training rows were ([`RowEncoder`]).
 //!
 //! # Example
@@ -44,6 +45,7 @@ pub mod csv_input;
 pub mod encode;
 pub mod error;
 mod infer;
+pub mod parts;
 pub mod records;
 pub mod roles;
 pub mod training;

@@ -194,6 +194,11 @@ impl TrainingTable {
     /// recorded: file name, outcome column, missing tokens, decimal mark, rows read
     /// and left out, ignored columns, and the remarks about the data.
     pub fn card_for(&self, forest: &Forest) -> ModelCard {
+        self.card_over(forest.card())
+    }
+
+    /// `base` (the engine's card) with this table's source recorded.
+    pub(crate) fn card_over(&self, base: &ModelCard) -> ModelCard {
         ModelCard {
             target: self.target.clone(),
             missing_tokens: self.missing.tokens().to_vec(),
@@ -203,7 +208,7 @@ impl TrainingTable {
             ignored: self.ignored.clone(),
             notes: self.notes.clone(),
             decimal_mark: self.decimal,
-            ..forest.card().clone()
+            ..base.clone()
         }
     }
 

@@ -202,6 +202,16 @@ impl ForestPart {
         self.from_model
     }
 
+    /// Descriptions of the inputs, in column order.
+    pub fn meta(&self) -> &[FeatureMeta] {
+        &self.meta
+    }
+
+    /// What the forest predicts.
+    pub fn task(&self) -> Task {
+        self.task
+    }
+
     /// The settings of the whole forest.
     pub fn settings(&self) -> &ForestSettings {
         &self.settings

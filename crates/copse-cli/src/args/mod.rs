@@ -3,7 +3,7 @@
 //! error (exit 2) before any work starts.
 use crate::help::{
     DEMO_EXAMPLES, EVALUATE_EXAMPLES, IMPORTANCE_EXAMPLES, INSPECT_EXAMPLES,
-    MAKE_DEMO_DATA_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES,
+    MAKE_DEMO_DATA_EXAMPLES, MERGE_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES,
 };
 use clap::{Args, Parser, Subcommand};
 use copse_data::Roles;
@@ -63,6 +63,10 @@ pub enum Command {
     /// Describe a model file: inputs, settings, sizes, out-of-bag accuracy, tree rules.
     #[command(after_help = INSPECT_EXAMPLES)]
     Inspect(InspectArgs),
+    /// Merge part files (from 'copse train --tree-range') into the model one run of all
+    /// their trees makes, byte for byte; a model file among them is grown by the parts.
+    #[command(after_help = MERGE_EXAMPLES)]
+    Merge(MergeArgs),
     /// Run the whole job on the bundled, invented water-main register.
     #[command(after_help = DEMO_EXAMPLES)]
     Demo(DemoArgs),
@@ -233,6 +237,38 @@ pub struct TrainArgs {
     /// Train even when the model would obviously not fit in the memory available.
     #[arg(long)]
     pub allow_large: bool,
+
+    /// Grow only trees A..B of the --trees in all (counting from 0, B left out) and
+    /// write them to --out as a part file, to merge with the other parts by 'copse
+    /// merge' (one task of a job array each).
+    #[arg(long, value_name = "A..B", value_parser = parse_tree_range)]
+    pub tree_range: Option<std::ops::Range<usize>>,
+}
+
+/// `copse merge`.
+#[derive(Debug, Args)]
+pub struct MergeArgs {
+    /// Part files from 'copse train --tree-range', in any order, and at most one model
+    /// file whose trees come first (to grow it).
+    #[arg(required = true, value_name = "PART")]
+    pub parts: Vec<PathBuf>,
+
+    /// Where to write the merged model file.
+    #[arg(long, value_name = "MODEL")]
+    pub out: PathBuf,
+
+    /// The training data the parts were grown on (the out-of-bag figures and importance
+    /// are computed from it again) [default: the file the parts name].
+    #[arg(long, value_name = "FILE")]
+    pub data: Option<String>,
+
+    /// Field separator of the training data.
+    #[arg(long, value_enum, default_value = "comma", value_name = "SEP")]
+    pub delimiter: DelimiterArg,
+
+    /// Print the report as one JSON object instead of text.
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// `copse score`.
@@ -456,6 +492,22 @@ pub struct MakeDemoDataArgs {
 fn parse_features_per_split(s: &str) -> Result<FeaturesPerSplit, String> {
     s.parse::<FeaturesPerSplit>()
         .map_err(|e| e.message().to_string())
+}
+
+/// Reads `A..B` (tree indices counting from 0, B left out, A < B).
+fn parse_tree_range(s: &str) -> Result<std::ops::Range<usize>, String> {
+    let bad = || {
+        format!(
+            "'{s}' is not a range of trees; write A..B with whole numbers A < B, for example \
+             0..100 for the first hundred trees"
+        )
+    };
+    let (a, b) = s.trim().split_once("..").ok_or_else(bad)?;
+    let (a, b) = (a.trim().parse::<usize>(), b.trim().parse::<usize>());
+    match (a, b) {
+        (Ok(a), Ok(b)) if a < b => Ok(a..b),
+        _ => Err(bad()),
+    }
 }
 
 fn renamed_shuffled_target_runs(_: &str) -> Result<u32, String> {

@@ -79,6 +79,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
             ..DecisionArgs::default()
         },
         allow_large: false,
+        tree_range: None,
     };
     let mut text = String::new();
     let _ = writeln!(

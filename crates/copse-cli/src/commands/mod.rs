@@ -5,10 +5,12 @@ pub mod evaluate;
 pub mod importance;
 pub mod inspect;
 pub mod make_demo_data;
+pub mod merge;
 pub mod report_page;
 pub mod score;
 pub mod stability;
 pub mod train;
+pub mod train_part;
 
 use crate::args::{Cli, Command};
 use crate::error::{CliError, CliResult};
@@ -35,6 +37,7 @@ pub fn run(cli: Cli) -> CliResult<()> {
         Command::Importance(a) => importance::run(&a, &ui),
         Command::Stability(a) => stability::run(&a, &ui),
         Command::Inspect(a) => inspect::run(&a, &ui),
+        Command::Merge(a) => merge::run(&a, &ui),
         Command::Demo(a) => demo::run(&a, &ui),
         Command::MakeDemoData(a) => make_demo_data::run(&a, &ui),
     })

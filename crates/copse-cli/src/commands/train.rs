@@ -42,6 +42,9 @@ pub struct TrainRun {
 /// # Errors
 /// Input errors for bad data or settings, failures when writing.
 pub fn run(a: &TrainArgs, ui: &Ui) -> CliResult<()> {
+    if let Some(range) = &a.tree_range {
+        return crate::commands::train_part::run(a, range.clone(), ui);
+    }
     let r = train(a, ui)?;
     crate::output::commit_all()?;
     for (what, path) in &r.outputs {
@@ -84,40 +87,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
 
     let data = read_training(&a.data, &a.roles, &a.csv, ui)?;
     check_positive(&a.decision, &data)?;
-    if a.keep_draws && (a.sampling != Sampling::Bootstrap || a.balanced) {
-        return Err(CliError::input(
-            "--keep-draws is for standard errors, which assume plain bootstrap samples; use \
-             --sampling bootstrap without --balanced, or drop --keep-draws",
-        ));
-    }
-    if a.shuffled_target_runs.is_some() && a.sampling == Sampling::Whole {
-        return Err(CliError::input(
-            "--shuffled-target-runs compares out-of-bag importances, and --sampling none leaves no \
-             row out of bag; use bootstrap or subsample:F",
-        ));
-    }
-    if a.balanced && data.task == Task::Regress {
-        return Err(CliError::input(
-            "--balanced draws the same number of rows from each class, so it needs a class target; \
-             drop --balanced or use --task classify",
-        ));
-    }
-
-    let fps = if a.bagging {
-        FeaturesPerSplit::Every
-    } else {
-        a.features_per_split.unwrap_or_default()
-    };
-    let settings = ForestSettings {
-        trees: a.trees as usize,
-        features_per_split: fps,
-        sampling: a.sampling,
-        balanced: a.balanced,
-        tree: tree_settings(a.impurity, a.max_depth, a.min_leaf),
-        bins: a.bins as usize,
-        seed: a.seed,
-    };
-    check_features_per_split(fps, &data)?;
+    let settings = resolve_settings(a, &data)?;
 
     if !a.allow_large {
         check_memory(&data, &settings, a)?;
@@ -238,6 +208,46 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         json,
         outputs,
     })
+}
+
+/// The forest's settings from the options, refusing combinations that cannot work
+/// with this data.
+pub(crate) fn resolve_settings(a: &TrainArgs, data: &TrainingData) -> CliResult<ForestSettings> {
+    if a.keep_draws && (a.sampling != Sampling::Bootstrap || a.balanced) {
+        return Err(CliError::input(
+            "--keep-draws is for standard errors, which assume plain bootstrap samples; use \
+             --sampling bootstrap without --balanced, or drop --keep-draws",
+        ));
+    }
+    if a.shuffled_target_runs.is_some() && a.sampling == Sampling::Whole {
+        return Err(CliError::input(
+            "--shuffled-target-runs compares out-of-bag importances, and --sampling none leaves no \
+             row out of bag; use bootstrap or subsample:F",
+        ));
+    }
+    if a.balanced && data.task == Task::Regress {
+        return Err(CliError::input(
+            "--balanced draws the same number of rows from each class, so it needs a class target; \
+             drop --balanced or use --task classify",
+        ));
+    }
+
+    let fps = if a.bagging {
+        FeaturesPerSplit::Every
+    } else {
+        a.features_per_split.unwrap_or_default()
+    };
+    let settings = ForestSettings {
+        trees: a.trees as usize,
+        features_per_split: fps,
+        sampling: a.sampling,
+        balanced: a.balanced,
+        tree: tree_settings(a.impurity, a.max_depth, a.min_leaf),
+        bins: a.bins as usize,
+        seed: a.seed,
+    };
+    check_features_per_split(fps, data)?;
+    Ok(settings)
 }
 
 /// Refuses, before growing anything, a `--positive` that names no class of the data.
