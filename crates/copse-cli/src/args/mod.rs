@@ -242,7 +242,7 @@ pub struct TrainArgs {
     /// write them to --out as a part file, to merge with the other parts by 'copse
     /// merge' (one task of a job array each).
     #[arg(long, value_name = "A..B", value_parser = parse_tree_range)]
-    pub tree_range: Option<std::ops::Range<usize>>,
+    pub tree_range: Option<TreeRange>,
 }
 
 /// `copse merge`.
@@ -494,8 +494,26 @@ fn parse_features_per_split(s: &str) -> Result<FeaturesPerSplit, String> {
         .map_err(|e| e.message().to_string())
 }
 
+/// Trees `start..end` of a forest (counting from 0, `end` left out), as
+/// `--tree-range` gives them (kept small: the arguments of every command share one
+/// enum).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct TreeRange {
+    /// The first tree.
+    pub start: u32,
+    /// One past the last tree.
+    pub end: u32,
+}
+
+impl TreeRange {
+    /// As a range of indices.
+    pub fn indices(self) -> std::ops::Range<usize> {
+        self.start as usize..self.end as usize
+    }
+}
+
 /// Reads `A..B` (tree indices counting from 0, B left out, A < B).
-fn parse_tree_range(s: &str) -> Result<std::ops::Range<usize>, String> {
+fn parse_tree_range(s: &str) -> Result<TreeRange, String> {
     let bad = || {
         format!(
             "'{s}' is not a range of trees; write A..B with whole numbers A < B, for example \
@@ -503,9 +521,9 @@ fn parse_tree_range(s: &str) -> Result<std::ops::Range<usize>, String> {
         )
     };
     let (a, b) = s.trim().split_once("..").ok_or_else(bad)?;
-    let (a, b) = (a.trim().parse::<usize>(), b.trim().parse::<usize>());
+    let (a, b) = (a.trim().parse::<u32>(), b.trim().parse::<u32>());
     match (a, b) {
-        (Ok(a), Ok(b)) if a < b => Ok(a..b),
+        (Ok(start), Ok(end)) if start < end => Ok(TreeRange { start, end }),
         _ => Err(bad()),
     }
 }

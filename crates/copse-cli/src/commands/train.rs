@@ -43,7 +43,7 @@ pub struct TrainRun {
 /// Input errors for bad data or settings, failures when writing.
 pub fn run(a: &TrainArgs, ui: &Ui) -> CliResult<()> {
     if let Some(range) = &a.tree_range {
-        return crate::commands::train_part::run(a, range.clone(), ui);
+        return crate::commands::train_part::run(a, range.indices(), ui);
     }
     let r = train(a, ui)?;
     crate::output::commit_all()?;
