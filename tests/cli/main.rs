@@ -16,6 +16,7 @@ mod extras;
 mod html_check;
 mod library;
 mod parts;
+mod pipeline;
 mod reliability;
 mod shapes;
 #[path = "../support/mod.rs"]

@@ -12,7 +12,7 @@ use copse_forest::{FeaturesPerSplit, Sampling};
 use std::path::PathBuf;
 
 mod values;
-pub use values::{DecimalArg, DelimiterArg, ImpurityArg, TaskArg};
+pub use values::{DecimalArg, DelimiterArg, ImpurityArg, OutFormat, TaskArg};
 
 /// copse: grow an ensemble of decision trees from a CSV table, check how well it
 /// predicts without a holdout (out-of-bag), rank which inputs matter, and score new
@@ -310,6 +310,20 @@ pub struct ScoreArgs {
     /// error, instead of stopping with an error.
     #[arg(long)]
     pub blank_unscorable: bool,
+
+    /// The input has no header row: these names its columns, in order, and its first
+    /// line is a row (for pieces of a larger file in a pipeline).
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub columns: Vec<String>,
+
+    /// Leave the header row out of the CSV output (for pieces joined later).
+    #[arg(long)]
+    pub omit_header: bool,
+
+    /// Output format: csv, or json-lines (one JSON object per row, numbers as numbers,
+    /// empty cells as null).
+    #[arg(long, value_enum, default_value = "csv", value_name = "FORMAT")]
+    pub out_format: OutFormat,
 
     /// Rows read and scored together (memory use grows with it); by default sized
     /// from the model (see `copse_forest::Forest::scoring_block_rows`).

@@ -78,3 +78,12 @@ impl From<ImpurityArg> for Impurity {
         }
     }
 }
+
+/// How `copse score` writes its rows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum OutFormat {
+    /// Comma-separated values with a header row (unless --omit-header).
+    Csv,
+    /// One JSON object per line.
+    JsonLines,
+}

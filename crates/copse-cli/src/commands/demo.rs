@@ -102,6 +102,9 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         flag_unfamiliar: false,
         csv,
         blank_unscorable: false,
+        columns: Vec::new(),
+        omit_header: false,
+        out_format: crate::args::OutFormat::Csv,
         block_rows: None,
     };
     let scored = score::score(&sargs, ui)?;

@@ -12,7 +12,7 @@ mod blocks;
 mod rows;
 mod unfamiliar;
 
-use crate::args::ScoreArgs;
+use crate::args::{OutFormat, ScoreArgs};
 use crate::error::{CliError, CliResult};
 use crate::numbers::count;
 use crate::output::{refuse_overwrite, Output};
@@ -21,7 +21,7 @@ use blocks::{each_block, Block, BlockReader, Unscorable};
 use copse_data::{CsvInput, Missing, RowEncoder};
 use copse_forest::{Forest, Unfamiliar};
 pub(crate) use rows::target_size;
-use rows::{csv_text, RowWriter};
+use rows::{csv_text, Cell, RowWriter};
 use std::io::Write;
 
 /// What a scoring run did.
@@ -113,7 +113,12 @@ struct Source {
 /// # Errors
 /// Input errors for a file that cannot be read or lacks the model's columns.
 fn open_input(a: &ScoreArgs, model: &Forest) -> CliResult<Source> {
-    let input = crate::commands::open_for_model(&a.data, &a.csv, model)?;
+    let input = if a.columns.is_empty() {
+        crate::commands::open_for_model(&a.data, &a.csv, model)?
+    } else {
+        let mark = a.csv.decimal.map_or(model.card().decimal_mark, Into::into);
+        CsvInput::open_headerless(&a.data, a.csv.delimiter.into(), &a.columns)?.with_decimal(mark)
+    };
     let missing = a
         .csv
         .missing
@@ -172,6 +177,34 @@ fn output_header(a: &ScoreArgs, classes: &[String]) -> CliResult<Vec<String>> {
     Ok(header)
 }
 
+/// With JSON lines, each output column's name as JSON text and what it holds.
+fn json_columns(
+    a: &ScoreArgs,
+    classes: &[String],
+    header: &[String],
+) -> Option<Vec<(String, Cell)>> {
+    if a.out_format != OutFormat::JsonLines {
+        return None;
+    }
+    let kept = a.keep.len();
+    Some(
+        header
+            .iter()
+            .enumerate()
+            .map(|(j, h)| {
+                let kind = if j < kept || (j == kept && !classes.is_empty()) {
+                    Cell::Text
+                } else if a.flag_unfamiliar && j == header.len() - 1 {
+                    Cell::Flag
+                } else {
+                    Cell::Number
+                };
+                (serde_json::Value::from(h.as_str()).to_string(), kind)
+            })
+            .collect(),
+    )
+}
+
 /// What writing the rows did.
 struct Written {
     /// Rows written, one per row read.
@@ -203,7 +236,12 @@ fn write_blocks(
     let out_name = out.name().to_string();
     let to_stdout = matches!(out, Output::Stdout(_));
     let delimiter = copse_data::Delimiter::from(a.csv.delimiter).byte();
-    let header_text = csv_text(delimiter, 256, |w| w.write_record(header))?;
+    let json = json_columns(a, forest.classes(), header);
+    let header_text = if a.omit_header || json.is_some() {
+        Vec::new()
+    } else {
+        csv_text(delimiter, 256, |w| w.write_record(header))?
+    };
     // The header goes out with the first block, so a fault in the first rows leaves
     // standard output empty.
     let mut header_written = false;
@@ -219,6 +257,7 @@ fn write_blocks(
         keep,
         uncertainty: a.uncertainty,
         delimiter,
+        json: json.as_deref(),
     };
     let mut written = Written {
         rows: 0,
