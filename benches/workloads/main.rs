@@ -49,6 +49,7 @@ mod kernels;
 mod machine;
 mod merge;
 mod model;
+mod parquet_rows;
 mod scoring;
 mod t1m;
 mod table;

@@ -15,6 +15,7 @@ mod decisions;
 mod extras;
 mod html_check;
 mod library;
+mod parquet;
 mod parts;
 mod pipeline;
 mod reliability;

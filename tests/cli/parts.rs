@@ -270,3 +270,82 @@ fn parts_that_cannot_make_one_forest_are_refused_with_the_reason() {
     let (_, err) = expect_code(&copse_in(d, &args, None), 2);
     assert!(err.contains("--oob-out needs the whole forest"), "{err}");
 }
+
+/// The two shell blocks after the README's job-array marker: one task, and the merge.
+fn readme_recipe() -> (String, String) {
+    let readme = std::fs::read_to_string(repo("README.md")).expect("README.md");
+    let at = readme
+        .find("<!-- job-array recipe")
+        .expect("the README marks its job-array recipe");
+    let mut blocks = readme[at..].split("```sh\n").skip(1).map(|b| {
+        b.split("```")
+            .next()
+            .expect("a closed code block")
+            .to_string()
+    });
+    let task = blocks.next().expect("the task block");
+    let merge = blocks.next().expect("the merge block");
+    (task, merge)
+}
+
+#[test]
+fn the_readme_job_array_recipe_runs_as_written() {
+    let dir = tmp();
+    let d = dir.path();
+    std::fs::create_dir(d.join("demo-data")).expect("folder");
+    std::fs::copy(
+        repo("demo-data/water_mains.csv"),
+        d.join("demo-data/water_mains.csv"),
+    )
+    .expect("demo data copied");
+    let bin = Path::new(env!("CARGO_BIN_EXE_copse"))
+        .parent()
+        .expect("the binary's folder");
+    let path = format!(
+        "{}:{}",
+        bin.display(),
+        std::env::var("PATH").unwrap_or_default()
+    );
+    let sh = |script: &str, task: Option<usize>| {
+        let mut cmd = std::process::Command::new("bash");
+        cmd.args(["-euc", script])
+            .current_dir(d)
+            .env("PATH", &path)
+            .env("NO_COLOR", "1");
+        if let Some(t) = task {
+            cmd.env("TASK_ID", t.to_string());
+        }
+        let out = cmd.output().expect("bash runs");
+        assert!(
+            out.status.success(),
+            "{script}\n{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+    };
+    let (task, merge) = readme_recipe();
+    for t in 0..10 {
+        sh(&task, Some(t));
+    }
+    sh(&merge, None);
+    // One run of the same forest, as the README says it equals.
+    let mut args = vec!["train"];
+    args.extend_from_slice(&[
+        "--data",
+        "demo-data/water_mains.csv",
+        "--target",
+        "failed_within_year",
+        "--ignore",
+        "segment_id",
+    ]);
+    args.extend_from_slice(&[
+        "--trees",
+        "1000",
+        "--seed",
+        "7",
+        "--out",
+        "whole.copse",
+        "-q",
+    ]);
+    run_ok(d, &args);
+    assert!(bytes(d, "mains.copse") == bytes(d, "whole.copse"));
+}

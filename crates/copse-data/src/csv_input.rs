@@ -65,6 +65,8 @@ pub struct CsvInput {
     blank: BlankLines,
     /// True when the columns were named by the caller, the input having no header.
     named: bool,
+    /// Columns stored as text by a typed source (Parquet).
+    text_columns: Vec<String>,
 }
 
 /// Blank lines passed over in a file of several columns: how many, and the first few.
@@ -101,8 +103,26 @@ impl CsvInput {
     /// An input error when the file cannot be opened, is empty, or its header is not
     /// valid UTF-8, has an empty name or a name used twice.
     pub fn open(path: &str, delimiter: Delimiter) -> Result<Self> {
+        #[cfg(feature = "parquet")]
+        if crate::parquet_input::is_parquet(path) {
+            // Read as the text a CSV file of the same data holds (see
+            // crate::parquet_input), one row group at a time.
+            let name = display_name(path);
+            let (text, text_columns) =
+                crate::parquet_input::ParquetText::open(path, &name, delimiter.byte())?;
+            let mut input = Self::from_reader(name, Box::new(text), None, delimiter)?;
+            input.text_columns = text_columns;
+            return Ok(input);
+        }
         let (name, source, size) = Self::source(path)?;
         Self::from_reader(name, source, size, delimiter)
+    }
+
+    /// Columns the file stores as text or true/false values (a Parquet file's string,
+    /// dictionary and boolean columns), read as categories whatever they hold; empty
+    /// for CSV, whose cells are all text.
+    pub fn text_columns(&self) -> &[String] {
+        &self.text_columns
     }
 
     /// Opens `path` (`-` for standard input), a file without a header row: `names`
@@ -197,6 +217,7 @@ impl CsvInput {
             consumed,
             blank: BlankLines::default(),
             named: false,
+            text_columns: Vec::new(),
         }
     }
 

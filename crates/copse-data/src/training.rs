@@ -101,6 +101,15 @@ impl TrainingTable {
     /// missing; `BadValue` for a `--numeric` column holding text or a regression
     /// outcome holding text or huge values; each names the file, line and column.
     pub fn from_csv(mut input: CsvInput, roles: &Roles, missing: Missing) -> Result<TrainingTable> {
+        // A typed source's text columns are categories, whatever their values look like.
+        let mut typed = roles.clone();
+        for c in input.text_columns() {
+            let named = |list: &[String]| list.iter().any(|n| n == c);
+            if *c != roles.target && !named(&roles.numeric) && !named(&roles.ignore) {
+                typed.categorical.push(c.clone());
+            }
+        }
+        let roles = &typed;
         let layout = lay_out(&input, roles)?;
         let name = input.name().to_string();
         let headers = input.headers().to_vec();

@@ -6,6 +6,7 @@
 use crate::error::{Error, ErrorKind, Result};
 use crate::fingerprint::rows_digest;
 use crate::forest::{Forest, Trained};
+use crate::oob_importance::oob_tree_increases;
 use crate::outcome::Outcome;
 use crate::part::ForestPart;
 use crate::progress::Progress;
@@ -257,6 +258,32 @@ impl Forest {
         };
         let sampler = crate::sample::Sampler::new(outcome, settings.sampling, settings.balanced)?;
         let samples = resample(&sampler, x.nrows(), 0..n, settings.seed, first.keep_draws);
+        // Each part brings its trees' importance pieces; a model taken as a part has
+        // none, so its trees' pieces are computed here from their samples.
+        let importance_pieces = first.oob_importance.then(|| {
+            let mut pieces = Vec::with_capacity(n);
+            for &i in &order {
+                let p = &parts[i];
+                match &p.importance {
+                    Some(own) => pieces.extend(own.iter().cloned()),
+                    None => {
+                        let r = p.tree_range();
+                        let masks: Vec<_> =
+                            samples[r.clone()].iter().map(|s| s.oob().clone()).collect();
+                        pieces.extend(oob_tree_increases(
+                            &p.trees,
+                            &masks,
+                            r.start,
+                            x,
+                            outcome,
+                            settings.seed,
+                            progress,
+                        ));
+                    }
+                }
+            }
+            pieces
+        });
         let trees = order
             .iter()
             .flat_map(|&i| parts[i].trees.iter().cloned())
@@ -271,6 +298,7 @@ impl Forest {
             oob_importance: first.oob_importance,
             keep_draws: first.keep_draws,
             card: Some(first.card.clone()),
+            importance_pieces,
         }
         .run(trees, samples, progress))
     }

@@ -4,20 +4,25 @@
 //!
 //! This works because every random draw of tree `t` comes only from the seed and `t`
 //! (its sample, its inputs per split, its out-of-bag permutations: [`crate::rng`]), and
-//! because everything a model holds besides its trees (out-of-bag predictions, the
-//! error curve, importance, the class-share shift of a balanced model, draw counts) is
-//! computed after growing, from the trees, their samples and the data, summed in tree
-//! order. A part therefore keeps only its trees and what identifies the forest they
-//! belong to (settings, seed, the data's digest and fingerprint, inputs, bins, card);
-//! the merge draws every tree's sample again from the seed and recomputes the rest from
-//! the data, by the very code that ends [`Forest::train`].
+//! because everything a model holds besides its trees is computed after growing, from
+//! the trees, their samples and the data, combined in tree order. What each part keeps,
+//! and what the merge recomputes:
+//! - each tree's out-of-bag importance increases depend on that tree alone, so a part
+//!   computes them where it grows (a few numbers per tree and input) and the merge only
+//!   adds them up in tree order: this, the costliest step after growing, is spread over
+//!   the machines;
+//! - the out-of-bag predictions, the error curve and (with class-balanced sampling) the
+//!   class-share shift are per-row running sums over all trees in tree order; an exact
+//!   combination would need every tree's output for every out-of-bag row (about a
+//!   third of rows times trees numbers, far more than the data), so the merge reads the
+//!   training data again, draws every tree's sample again from the seed, and runs the
+//!   out-of-bag pass by the very code that ends [`Forest::train`] (one pass of scoring);
+//! - draw counts and bag weights are drawn again from the seed.
 //!
-//! Why not keep per-tree pieces in each part instead of reading the data again: the
-//! out-of-bag sums and the error curve are per-row running sums in tree order, so an
-//! exact combination would need every tree's output for every out-of-bag row (about a
-//! third of rows times trees numbers, far more than the data); and any existing model
-//! file can then serve as the first part of a larger forest (growing 200 trees to
-//! 500), with no change to the model format.
+//! A part also keeps what identifies the forest it belongs to (settings, seed, the
+//! data's digest and fingerprint, inputs, bins, card). Any model file can serve as the
+//! first part of a larger forest (growing 200 trees to 500), with no change to the
+//! model format: its trees' importance pieces are then computed at the merge.
 //!
 //! A part file uses the model file's container ([`crate::model_file`]) with its own
 //! marker ([`PART_MAGIC`]) and format version ([`PART_FORMAT_VERSION`]).
@@ -26,6 +31,8 @@ use crate::error::{Error, ErrorKind, Result};
 use crate::fingerprint::{rows_digest, RowFingerprint};
 use crate::forest::Forest;
 use crate::model_file::{decode_as, encode_as, read_as, Kind};
+use crate::oob::OobMask;
+use crate::oob_importance::{oob_tree_increases, TreeIncreases};
 use crate::outcome::Outcome;
 use crate::progress::Progress;
 use crate::settings::ForestSettings;
@@ -77,6 +84,10 @@ pub struct ForestPart {
     pub(crate) keep_draws: bool,
     /// Whether the model has out-of-bag permutation importance.
     pub(crate) oob_importance: bool,
+    /// Each tree's out-of-bag importance increases (they depend on the tree alone, so
+    /// the part computes them where it grows, and the merge only adds them up in tree
+    /// order); `None` without importance, or for a model taken as a part.
+    pub(crate) importance: Option<Vec<TreeIncreases>>,
     pub(crate) trees: Vec<Tree>,
 }
 
@@ -129,7 +140,11 @@ impl Forest {
             Outcome::Classes { labels, .. } => (Task::Classify, labels.clone()),
             Outcome::Values(_) => (Task::Regress, Vec::new()),
         };
-        let trees: Vec<Tree> = grown.into_iter().map(|(t, _)| t).collect();
+        let (trees, samples): (Vec<Tree>, Vec<_>) = grown.into_iter().unzip();
+        let importance = options.oob_importance.then(|| {
+            let masks: Vec<OobMask> = samples.iter().map(|s| s.oob().clone()).collect();
+            oob_tree_increases(&trees, &masks, first, x, outcome, settings.seed, progress)
+        });
         Ok(ForestPart {
             name: format!("the part of trees {first}..{}", first + trees.len()),
             first,
@@ -146,6 +161,7 @@ impl Forest {
             digest: Some(rows_digest(x, outcome)),
             keep_draws: options.keep_draws,
             oob_importance: options.oob_importance,
+            importance,
             trees,
         })
     }
@@ -165,6 +181,7 @@ impl ForestPart {
             digest: None,
             keep_draws: model.draws.is_some(),
             oob_importance: model.oob_importance.is_some(),
+            importance: None,
             settings: model.settings,
             meta: model.meta,
             task: model.task,
@@ -323,6 +340,15 @@ impl ForestPart {
             Task::Classify => self.classes.len(),
             Task::Regress => 1,
         };
+        let pieces_fit = self.importance.as_ref().is_none_or(|p| {
+            p.len() == self.trees.len()
+                && p.iter()
+                    .flatten()
+                    .all(|(e, b)| e.len() == self.meta.len() && b.len() == self.meta.len())
+        });
+        if !pieces_fit {
+            return bad("its importance pieces do not fit its trees and inputs".to_string());
+        }
         if self.bins.len() != self.meta.len() || (self.task == Task::Classify && k == 0) {
             return bad("its inputs, bins and classes do not fit together".to_string());
         }

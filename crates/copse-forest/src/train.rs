@@ -8,7 +8,7 @@ use crate::fingerprint::RowFingerprint;
 use crate::forest::{Forest, Trained};
 use crate::importance::impurity_importance;
 use crate::oob::{out_of_bag, OobMask};
-use crate::oob_importance::oob_permutation;
+use crate::oob_importance::{oob_permutation, oob_tables, TreeIncreases};
 use crate::outcome::Outcome;
 use crate::progress::{Progress, Stage};
 use crate::rng::{task_rng, task_seed, Purpose};
@@ -65,6 +65,11 @@ pub(crate) struct Sample {
 }
 
 impl Sample {
+    /// The tree's out-of-bag rows.
+    pub(crate) fn oob(&self) -> &OobMask {
+        &self.oob
+    }
+
     /// The sample of a tree whose case weights are `weights`.
     fn of(weights: &[f64], keep_draws: bool) -> Sample {
         Sample {
@@ -221,6 +226,9 @@ pub(crate) struct Finish<'a> {
     pub(crate) keep_draws: bool,
     /// The card to store; the engine's own for the outcome when `None`.
     pub(crate) card: Option<ModelCard>,
+    /// Every tree's out-of-bag importance increases, when already computed (by the
+    /// parts of a forest); computed here when `None`.
+    pub(crate) importance_pieces: Option<Vec<TreeIncreases>>,
 }
 
 impl Forest {
@@ -290,6 +298,7 @@ impl Forest {
             oob_importance: options.oob_importance,
             keep_draws: options.keep_draws,
             card: None,
+            importance_pieces: None,
         }
         .run(trees, samples, progress))
     }
@@ -314,6 +323,7 @@ impl Finish<'_> {
             oob_importance,
             keep_draws,
             card,
+            importance_pieces,
         } = self;
         let n = x.nrows();
         let n_trees = trees.len();
@@ -346,10 +356,12 @@ impl Finish<'_> {
         };
         let (report, summary) =
             out_of_bag(&trees, &masks, x, outcome, prior_shift.as_deref(), progress);
-        let oob_importance = if oob_importance {
-            oob_permutation(&trees, &masks, x, outcome, meta, settings.seed, progress)
-        } else {
-            None
+        let oob_importance = match (oob_importance, importance_pieces) {
+            (false, _) => None,
+            (true, Some(pieces)) => oob_tables(pieces, outcome, meta),
+            (true, None) => {
+                oob_permutation(&trees, &masks, x, outcome, meta, settings.seed, progress)
+            }
         };
         let impurity =
             impurity_importance(&trees, &bag_weights, meta, outcome, settings.tree.impurity);

@@ -320,8 +320,9 @@ pub struct ScoreArgs {
     #[arg(long)]
     pub omit_header: bool,
 
-    /// Output format: csv, or json-lines (one JSON object per row, numbers as numbers,
-    /// empty cells as null).
+    /// Output format: csv, json-lines (one JSON object per row, numbers as numbers,
+    /// empty cells as null) or parquet (a file: text, 64-bit float and boolean
+    /// columns, empty cells null).
     #[arg(long, value_enum, default_value = "csv", value_name = "FORMAT")]
     pub out_format: OutFormat,
 

@@ -86,4 +86,6 @@ pub enum OutFormat {
     Csv,
     /// One JSON object per line.
     JsonLines,
+    /// A Parquet file (needs --out FILE), one row group per block of rows.
+    Parquet,
 }

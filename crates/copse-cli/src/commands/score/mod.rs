@@ -84,6 +84,11 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
 /// Input errors for an output over an input, a bad model file or a model without draws.
 fn open_model(a: &ScoreArgs) -> CliResult<Forest> {
     refuse_overwrite(&a.data, a.out.as_deref(), "output file")?;
+    if a.out_format == OutFormat::Parquet && a.out.as_deref().is_none_or(|o| o == "-") {
+        return Err(CliError::input(
+            "--out-format parquet writes a file, not standard output; give --out FILE",
+        ));
+    }
     if let Some(out) = &a.out {
         if out != "-" && std::path::Path::new(out) == a.model.as_path() {
             return Err(CliError::input(
@@ -177,32 +182,65 @@ fn output_header(a: &ScoreArgs, classes: &[String]) -> CliResult<Vec<String>> {
     Ok(header)
 }
 
+/// What each output column holds: text (kept cells, class labels), a number, or the
+/// unfamiliar flag.
+fn cell_kinds(a: &ScoreArgs, classes: &[String], header: &[String]) -> Vec<Cell> {
+    let kept = a.keep.len();
+    (0..header.len())
+        .map(|j| {
+            if j < kept || (j == kept && !classes.is_empty()) {
+                Cell::Text
+            } else if a.flag_unfamiliar && j == header.len() - 1 {
+                Cell::Flag
+            } else {
+                Cell::Number
+            }
+        })
+        .collect()
+}
+
 /// With JSON lines, each output column's name as JSON text and what it holds.
 fn json_columns(
     a: &ScoreArgs,
     classes: &[String],
     header: &[String],
 ) -> Option<Vec<(String, Cell)>> {
-    if a.out_format != OutFormat::JsonLines {
-        return None;
-    }
-    let kept = a.keep.len();
-    Some(
+    (a.out_format == OutFormat::JsonLines).then(|| {
         header
             .iter()
-            .enumerate()
-            .map(|(j, h)| {
-                let kind = if j < kept || (j == kept && !classes.is_empty()) {
-                    Cell::Text
-                } else if a.flag_unfamiliar && j == header.len() - 1 {
-                    Cell::Flag
-                } else {
-                    Cell::Number
-                };
-                (serde_json::Value::from(h.as_str()).to_string(), kind)
-            })
-            .collect(),
-    )
+            .zip(cell_kinds(a, classes, header))
+            .map(|(h, k)| (serde_json::Value::from(h.as_str()).to_string(), k))
+            .collect()
+    })
+}
+
+/// With Parquet output, the writer of its row groups.
+///
+/// # Errors
+/// When the writer cannot start.
+fn parquet_sink(
+    a: &ScoreArgs,
+    classes: &[String],
+    header: &[String],
+    name: &str,
+) -> CliResult<Option<copse_data::parquet_output::ScoredWriter>> {
+    use copse_data::parquet_output::{ColumnKind, ScoredWriter};
+    if a.out_format != OutFormat::Parquet {
+        return Ok(None);
+    }
+    let columns: Vec<(String, ColumnKind)> = header
+        .iter()
+        .zip(cell_kinds(a, classes, header))
+        .map(|(h, k)| {
+            let kind = match k {
+                Cell::Text => ColumnKind::Text,
+                Cell::Number => ColumnKind::Number,
+                Cell::Flag => ColumnKind::Flag,
+            };
+            (h.clone(), kind)
+        })
+        .collect();
+    Ok(Some(ScoredWriter::new(name, &columns)?))
 }
 
 /// What writing the rows did.
@@ -237,7 +275,7 @@ fn write_blocks(
     let to_stdout = matches!(out, Output::Stdout(_));
     let delimiter = copse_data::Delimiter::from(a.csv.delimiter).byte();
     let json = json_columns(a, forest.classes(), header);
-    let header_text = if a.omit_header || json.is_some() {
+    let header_text = if a.omit_header || json.is_some() || a.out_format == OutFormat::Parquet {
         Vec::new()
     } else {
         csv_text(delimiter, 256, |w| w.write_record(header))?
@@ -283,10 +321,22 @@ fn write_blocks(
         out.write_all(text)
             .map_err(|e| CliError::write(&out_name, &e))
     };
+    let mut parquet = parquet_sink(a, forest.classes(), header, &out_name)?;
     let mut emit = |b: &Block| -> CliResult<()> {
         *unfamiliar_rows += unfamiliar::flag_block(ranges, b, p, &mut flags)?;
         let (texts, c) = writer.block_text(b, a.flag_unfamiliar.then_some(&flags[..]))?;
         clamped += c;
+        if let Some(sink) = parquet.as_mut() {
+            let mut text = Vec::new();
+            for t in texts {
+                text.extend(t?);
+            }
+            sink.write_csv_block(&text, delimiter)?;
+            put(out, &sink.take_bytes())?;
+            rows += b.m as u64;
+            bar.advance_to(b.bytes as usize);
+            return Ok(());
+        }
         if !header_written {
             put(out, &header_text)?;
             header_written = true;
@@ -310,7 +360,9 @@ fn write_blocks(
         &mut emit,
     )?;
     bar.finish();
-    if !header_written {
+    if let Some(sink) = parquet {
+        put(out, &sink.finish()?)?;
+    } else if !header_written {
         put(out, &header_text)?;
     }
     written.rows = rows;
