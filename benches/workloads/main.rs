@@ -11,7 +11,7 @@
 //! Environment:
 //! - `COPSE_BENCH_SCALE=0.1` multiplies every row count (quick run; default 1).
 //! - `COPSE_BENCH_THREADS=N` sets "all threads" (default: the machine's core count).
-//! - `COPSE_BENCH_SKIP=e2e,t1m,scaling,importance,explain,ranges,cuts` skips workloads by name.
+//! - `COPSE_BENCH_SKIP=e2e,t1m,scaling,importance,explain,ranges,cuts,merge` skips workloads by name.
 //! - `COPSE_BENCH_REPEAT=3` runs each T100k training and each end-to-end scoring that
 //!   many times and keeps the fastest (default 1; use it on a machine shared with other
 //!   work).
@@ -49,7 +49,9 @@ mod fit;
 mod importance;
 mod kernels;
 mod machine;
+mod merge;
 mod model;
+mod parquet_rows;
 mod ranges;
 mod scoring;
 mod t1m;
@@ -93,6 +95,7 @@ fn main() {
     importance::section(&cfg, &ta, kernel_ns_per_visit, &mut table);
     end_to_end::section(&cfg, &train, &score, &mut table);
     ranges::section(&cfg, &mut table);
+    merge::section(&cfg, &train, &mut table);
 
     let t1m_grow = t1m::section(&cfg, n1m, &mut table);
     training::scaling(

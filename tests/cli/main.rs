@@ -18,6 +18,9 @@ mod extras;
 mod html_check;
 mod intervals;
 mod library;
+mod parquet;
+mod parts;
+mod pipeline;
 mod reliability;
 mod shapes;
 #[path = "../support/mod.rs"]
