@@ -12,7 +12,9 @@
 //! - [`roles`]: which column is the outcome, which are left out ([`Roles`]);
 //! - `infer` (private): column kinds, the task, category labels;
 //! - [`training`]: the training table ([`TrainingTable`]) and training on it;
-//! - [`encode`]: new rows read the way a model's training rows were ([`RowEncoder`]).
+//! - [`encode`]: new rows read the way a model's training rows were ([`RowEncoder`]);
+//! - [`frame`]: columns held in memory, read as the CSV file they would make
+//!   ([`frame::Frame`]).
 //!
 //! # Example
 //! ```
@@ -43,6 +45,7 @@ pub mod cells;
 pub mod csv_input;
 pub mod encode;
 pub mod error;
+pub mod frame;
 mod infer;
 pub mod records;
 pub mod roles;

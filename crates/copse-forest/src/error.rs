@@ -40,6 +40,8 @@ pub enum ErrorKind {
     Undecodable,
     /// A model file larger than copse agrees to read.
     FileTooLarge,
+    /// Training was stopped on request ([`crate::TrainOptions::stop`]).
+    Stopped,
 }
 
 /// An error from the forest engine.

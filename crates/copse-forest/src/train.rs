@@ -18,7 +18,7 @@ use crate::task::Task;
 use copse_tree::{BinnedData, FeatureMeta, Grower, Tree};
 use ndarray::ArrayView2;
 use rayon::prelude::*;
-use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
 
 /// What a training run does beyond growing the trees, with what every model holds:
 /// the extras that cost time or memory, and a progress callback.
@@ -33,6 +33,10 @@ pub struct TrainOptions<'a> {
     /// Told about progress (for a progress bar); reports may come from several threads
     /// at once. Default none.
     pub progress: Option<&'a (dyn Fn(Progress) + Sync)>,
+    /// Checked before each tree and between the stages: once it is set, training ends
+    /// with a `Stopped` error, typically within the time of one tree per thread (so an
+    /// interactive caller can honour an interruption). Default none.
+    pub stop: Option<&'a AtomicBool>,
 }
 
 impl Default for TrainOptions<'_> {
@@ -41,6 +45,7 @@ impl Default for TrainOptions<'_> {
             oob_importance: true,
             keep_draws: false,
             progress: None,
+            stop: None,
         }
     }
 }
@@ -51,6 +56,7 @@ impl std::fmt::Debug for TrainOptions<'_> {
             .field("oob_importance", &self.oob_importance)
             .field("keep_draws", &self.keep_draws)
             .field("progress", &self.progress.map(|_| "callback"))
+            .field("stop", &self.stop)
             .finish()
     }
 }
@@ -82,7 +88,7 @@ impl Forest {
     /// # Example
     /// ```
     /// use copse_forest::{synth, Forest, ForestSettings, Progress, TrainOptions};
-    /// use std::sync::atomic::{AtomicUsize, Ordering};
+    /// use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
     ///
     /// let data = synth::friedman1(200, 1);
     /// let settings = ForestSettings { trees: 40, ..Default::default() };
@@ -144,6 +150,7 @@ impl Forest {
             .map_init(
                 || (Grower::new(tree_settings.clone()), vec![0.0; n], Vec::new()),
                 |(grower, weights, scratch), t| -> Result<Grown> {
+                    check_stop(options)?;
                     let mut sample_rng = task_rng(settings.seed, Purpose::Sample, t as u64, 0);
                     sampler.draw(&mut sample_rng, weights, scratch);
                     let grow_seed = task_seed(settings.seed, Purpose::Grow, t as u64, 0);
@@ -168,6 +175,7 @@ impl Forest {
             .collect::<Result<Vec<_>>>()?;
         let bins = data.bins().to_vec();
         drop(data);
+        check_stop(options)?;
 
         let mut trees = Vec::with_capacity(n_trees);
         let mut masks = Vec::with_capacity(n_trees);
@@ -208,11 +216,13 @@ impl Forest {
         };
         let (report, summary) =
             out_of_bag(&trees, &masks, x, outcome, prior_shift.as_deref(), progress);
+        check_stop(options)?;
         let oob_importance = if options.oob_importance {
             oob_permutation(&trees, &masks, x, outcome, meta, settings.seed, progress)
         } else {
             None
         };
+        check_stop(options)?;
         let impurity =
             impurity_importance(&trees, &bag_weights, meta, outcome, settings.tree.impurity);
         let (task, classes) = match outcome {
@@ -241,5 +251,74 @@ impl Forest {
             forest,
             oob: report,
         })
+    }
+}
+
+/// A `Stopped` error once the caller has asked training to stop.
+fn check_stop(options: &TrainOptions<'_>) -> Result<()> {
+    match options.stop {
+        Some(flag) if flag.load(Ordering::Relaxed) => Err(Error::new(
+            ErrorKind::Stopped,
+            "training was stopped before it finished; nothing was kept",
+        )),
+        _ => Ok(()),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::synth;
+
+    /// A stop asked for before training ends it with `Stopped`; one asked for from
+    /// the progress reports ends it after the tree that reported.
+    #[test]
+    fn a_stop_ends_training_with_stopped() {
+        let data = synth::twonorm(100, 1);
+        let settings = ForestSettings {
+            trees: 50,
+            ..Default::default()
+        };
+        let stop = AtomicBool::new(true);
+        let options = TrainOptions {
+            stop: Some(&stop),
+            ..TrainOptions::default()
+        };
+        let e = Forest::train(
+            data.x.view(),
+            &data.meta,
+            &data.outcome,
+            &settings,
+            &options,
+        )
+        .err()
+        .map(|e| e.kind());
+        assert_eq!(e, Some(ErrorKind::Stopped));
+
+        let stop = AtomicBool::new(false);
+        let grown = AtomicUsize::new(0);
+        let progress = |p: Progress| {
+            if p.stage == Stage::Growing {
+                grown.fetch_add(1, Ordering::Relaxed);
+                stop.store(true, Ordering::Relaxed);
+            }
+        };
+        let options = TrainOptions {
+            stop: Some(&stop),
+            progress: Some(&progress),
+            ..TrainOptions::default()
+        };
+        let e = Forest::train(
+            data.x.view(),
+            &data.meta,
+            &data.outcome,
+            &settings,
+            &options,
+        )
+        .err()
+        .map(|e| e.kind());
+        assert_eq!(e, Some(ErrorKind::Stopped));
+        // At most one tree in flight per thread finishes after the stop.
+        assert!(grown.load(Ordering::Relaxed) <= rayon::current_num_threads());
     }
 }

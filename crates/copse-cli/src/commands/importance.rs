@@ -59,16 +59,7 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
         ui.wrote(&format!("importance chart: {}", path.display()));
     }
 
-    // For numbers, the rises are printed as shares of the forest's error on these rows.
-    let baseline = match model.task() {
-        copse_forest::Task::Regress => model
-            .evaluate(data.x.view(), &data.outcome)
-            .ok()
-            .map(|e| e.metrics.error())
-            .filter(|&b| b > 0.0),
-        copse_forest::Task::Classify => None,
-    };
-    let training_rows = TrainingRowsView::new(&model, data.x.view(), "importance");
+    let (baseline, training_rows) = held_out_context(&model, &data);
     if let Some(w) = &training_rows.warning {
         ui.warn(w);
     }
@@ -88,4 +79,25 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
         return report::print_json(&view);
     }
     emit(&view.text(Style::new(ui.stdout_colour())))
+}
+
+/// What a held-out importance report shows beside the rises, for `model` on the
+/// labelled rows `data`: for numbers, the forest's error on those rows (the rises are
+/// printed as shares of it), and the check of the rows against the training rows.
+pub fn held_out_context(
+    model: &copse_forest::Forest,
+    data: &copse_data::Labelled,
+) -> (Option<f64>, TrainingRowsView) {
+    let baseline = match model.task() {
+        copse_forest::Task::Regress => model
+            .evaluate(data.x.view(), &data.outcome)
+            .ok()
+            .map(|e| e.metrics.error())
+            .filter(|&b| b > 0.0),
+        copse_forest::Task::Classify => None,
+    };
+    (
+        baseline,
+        TrainingRowsView::new(model, data.x.view(), "importance"),
+    )
 }
