@@ -34,7 +34,11 @@ pub fn pool(threads: Option<usize>) -> PyResult<Arc<ThreadPool>> {
     if let Some(p) = pools.get(&key) {
         return Ok(p.clone());
     }
-    let mut builder = rayon::ThreadPoolBuilder::new().thread_name(|i| format!("copse-{i}"));
+    // Named by pool, so a process listing shows which pool a thread belongs to.
+    let mut builder = rayon::ThreadPoolBuilder::new().thread_name(move |i| match threads {
+        Some(n) => format!("copse-t{n}-{i}"),
+        None => format!("copse-all-{i}"),
+    });
     if let Some(n) = threads {
         builder = builder.num_threads(n);
     }
