@@ -80,3 +80,27 @@ def test_the_same_seed_gives_the_same_model(mains):
     b = copse.train(mains, target="failed_within_year", ignore="segment_id", trees=10, seed=5, threads=2)
     c = copse.train(mains, target="failed_within_year", ignore="segment_id", trees=10, seed=6)
     assert a.to_bytes() == b.to_bytes() != c.to_bytes()
+
+
+def test_every_public_name_has_a_docstring_and_a_stub():
+    import ast
+    from pathlib import Path
+
+    stub = ast.parse(Path(copse.__file__).with_name("__init__.pyi").read_text())
+    top = {}
+    for node in stub.body:
+        if isinstance(node, (ast.FunctionDef, ast.ClassDef)):
+            top[node.name] = node
+        elif isinstance(node, ast.AnnAssign):
+            top[node.target.id] = node
+    for name in copse.__all__:
+        assert name in top, f"{name} has no stub"
+        obj = getattr(copse, name)
+        if callable(obj):
+            assert obj.__doc__ and obj.__doc__.strip(), f"{name} has no docstring"
+    stubbed = {n.name for n in top["Model"].body if isinstance(n, ast.FunctionDef)}
+    for name in dir(copse.Model):
+        if name.startswith("_"):
+            continue
+        assert name in stubbed, f"Model.{name} has no stub"
+        assert getattr(copse.Model, name).__doc__, f"Model.{name} has no docstring"
