@@ -57,15 +57,16 @@ pub fn run<T: Send>(py: Python<'_>, pool: &ThreadPool, work: impl FnOnce() -> T 
 
 /// Runs `work` on `pool` with the interpreter let go, handing it a stop flag that is
 /// set when Python has a pending signal whose handler raises (Ctrl-C raises
-/// `KeyboardInterrupt`); the exception is raised once `work` has returned.
+/// `KeyboardInterrupt`). Returns what `work` returned and, if a handler raised, the
+/// exception (for the caller to raise once it has seen how `work` ended).
 ///
 /// # Errors
-/// The exception a signal handler raised; `CopseError` if `work` panicked.
+/// `CopseError` if `work` panicked.
 pub fn run_stoppable<T: Send>(
     py: Python<'_>,
     pool: &ThreadPool,
     work: impl FnOnce(&AtomicBool) -> T + Send,
-) -> PyResult<T> {
+) -> PyResult<(T, Option<PyErr>)> {
     let stop = AtomicBool::new(false);
     let finished = AtomicBool::new(false);
     let caller = std::thread::current();
@@ -95,10 +96,7 @@ pub fn run_stoppable<T: Send>(
         }
         worker.join()
     });
-    if let Some(e) = raised {
-        return Err(e);
-    }
-    outcome.map_err(|_| {
+    outcome.map(|value| (value, raised)).map_err(|_| {
         errors::raise(
             Kind::Other,
             "copse stopped on an internal fault; please report it with the data and settings used",

@@ -51,6 +51,8 @@ pub struct TrainSettings {
     keep_draws: bool,
     #[pyo3(item)]
     threads: Option<usize>,
+    #[pyo3(item)]
+    allow_large: bool,
 }
 
 fn usage(message: impl Into<String>) -> PyErr {
@@ -173,15 +175,25 @@ pub fn train(
     copse_cli::commands::check_features_per_split(forest_settings.features_per_split, &table)
         .map_err(|e| usage(e.message()))?;
     let keep_draws = settings.keep_draws;
-    let trained = pool::run_stoppable(py, &pool, |stop| {
+    if !settings.allow_large {
+        check_memory(&table, &forest_settings, &settings)?;
+    }
+    let (trained, raised) = pool::run_stoppable(py, &pool, |stop| {
         let options = TrainOptions {
             keep_draws,
             stop: Some(stop),
             ..TrainOptions::default()
         };
         table.train(&forest_settings, &options)
-    })?
-    .map_err(|e| errors::forest(&e))?;
+    })?;
+    if let Some(interruption) = raised {
+        // The exception says, through its cause, that training stopped unfinished.
+        if let Err(e) = &trained {
+            interruption.set_cause(py, Some(errors::forest(e)));
+        }
+        return Err(interruption);
+    }
+    let trained = trained.map_err(|e| errors::forest(&e))?;
     let training_seconds = started.elapsed().as_secs_f64();
     let model = trained.forest;
     let model_bytes = model.to_bytes().map_err(|e| errors::forest(&e))?.len() as u64;
@@ -216,4 +228,33 @@ pub fn train(
     drop(view);
     drop(judged);
     Ok((NativeModel::new(model), table.notes.clone(), json))
+}
+
+/// Refuses, before growing anything, a model that obviously would not fit in the
+/// memory available, by the command's estimate (`copse_cli::memory`).
+fn check_memory(
+    table: &TrainingTable,
+    forest: &ForestSettings,
+    settings: &TrainSettings,
+) -> PyResult<()> {
+    use copse_cli::memory;
+    let Some(available) = memory::available_bytes() else {
+        return Ok(());
+    };
+    let request = memory::Request::new(table, forest, settings.keep_draws);
+    let need = memory::peak_bytes(&request);
+    if need > available as f64 {
+        return Err(usage(format!(
+            "training {} trees on the {} rows of {} with min_leaf={} could need about {} of \
+             memory at its peak, but only {} is available; use fewer trees, a larger min_leaf \
+             or a max_depth (or allow_large=True to try anyway)",
+            settings.trees,
+            request.rows,
+            table.source,
+            settings.min_leaf,
+            copse_cli::numbers::binary_bytes(need),
+            copse_cli::numbers::binary_bytes(available as f64)
+        )));
+    }
+    Ok(())
 }

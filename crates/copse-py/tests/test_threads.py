@@ -42,10 +42,10 @@ def test_another_python_thread_runs_during_training():
     done.set()
     t.join()
     during = [s for s in ticks if start < s < end]
-    # The thread sleeps 1 ms a tick; training takes well over 0.2 s, so a free thread
-    # ticks dozens of times. Ten ticks is far above what a held interpreter allows (0).
-    assert end - start > 0.2
-    assert len(during) >= 10, (len(during), end - start)
+    # With the interpreter held for the whole call, the counting thread could not run
+    # between its start and its end: no tick at all. Let go, it ticks about once a
+    # millisecond of a training that grows 150 trees on 4,000 rows.
+    assert len(during) >= 5, (len(during), end - start)
 
 
 def pool_threads(n):
@@ -68,15 +68,16 @@ def test_threads_are_honoured(iris):
 
 def test_ctrl_c_stops_training_cleanly():
     data = big(rows=6000, seed=1)
-    started = time.perf_counter()
     timer = threading.Timer(0.3, _thread.interrupt_main)
     timer.start()
-    with pytest.raises(KeyboardInterrupt):
+    with pytest.raises(KeyboardInterrupt) as caught:
         # Thousands of trees: minutes on one thread, unless interrupted.
         copse.train(data, target="y", trees=20000, threads=1)
-    took = time.perf_counter() - started
     timer.join()
-    # Stopped soon after the signal, not at the end of the training.
-    assert took < 30, took
+    # The engine stopped unfinished (an interruption noticed only after the call
+    # would come without this cause, at the end of the whole training).
+    cause = caught.value.__cause__
+    assert isinstance(cause, copse.CopseError), cause
+    assert "training was stopped before it finished" in str(cause)
     # The package is still usable afterwards.
     assert copse.train(data, target="y", trees=3, threads=1).trees == 3

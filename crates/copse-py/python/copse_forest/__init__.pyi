@@ -135,6 +135,7 @@ def train(
     impurity: str = "gini",
     bins: int = 255,
     keep_draws: bool = False,
+    allow_large: bool = False,
     names: Optional[Sequence[str]] = None,
     source: str = ...,
 ) -> Model:

@@ -301,6 +301,7 @@ def train(
     impurity: str = "gini",
     bins: int = 255,
     keep_draws: bool = False,
+    allow_large: bool = False,
     names: Optional[Sequence[str]] = None,
     source: str = DEFAULT_SOURCE,
 ) -> Model:
@@ -321,7 +322,9 @@ def train(
     every class for each tree); ``min_leaf``; ``max_depth`` (None: no limit);
     ``seed`` (the same seed, data and settings give the same model); ``impurity``
     (``"gini"`` or ``"entropy"``); ``bins`` (most value bins per numeric input);
-    ``keep_draws`` (keep each tree's row draws, for standard errors). Roles:
+    ``keep_draws`` (keep each tree's row draws, for standard errors);
+    ``allow_large`` (train even when the command's estimate says the model would not
+    fit in the memory available; else that is a :class:`UsageError`). Roles:
     ``ignore``, ``categorical`` and ``numeric`` name columns; ``task`` is
     ``"classify"``, ``"regress"`` or None (read from the target).
 
@@ -361,6 +364,7 @@ def train(
         "seed": int(seed),
         "keep_draws": bool(keep_draws),
         "threads": None if threads is None else int(threads),
+        "allow_large": bool(allow_large),
     }
     native, notes, report = _native.train(source, cols.names, cols.values, settings)
     _warn(notes)
