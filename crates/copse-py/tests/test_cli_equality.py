@@ -54,7 +54,8 @@ def test_a_model_saved_by_either_loads_in_the_other(copse_cmd, folder, mains, ma
     ours.save(folder / "py.copse")
     copse_cmd(["score", "--model", "py.copse", "--data", "water_mains_to_score.csv", "--keep", "segment_id", "--out", "scores.csv", "--quiet"], folder)
     cli_scores = pd.read_csv(folder / "scores.csv")
-    py_scores = from_cli.score(mains_new, keep="segment_id")
+    with pytest.warns(copse.CopseWarning, match="1 of 500 rows holds values outside what the model was trained on"):
+        py_scores = from_cli.score(mains_new, keep="segment_id")
     assert list(py_scores.columns) == list(cli_scores.columns)
     assert (py_scores["prediction"].astype(str) == cli_scores["prediction"]).all()
     # The command writes probabilities to a fixed number of decimals.
@@ -98,3 +99,29 @@ def test_reports_have_the_command_keys_and_values(copse_cmd, folder, mains):
     inspected = json.loads(copse_cmd(["inspect", "--model", "cli.copse", "--json", "--quiet"], folder).stdout)
     same_report(loaded.inspect(), inspected)
     assert loaded.inspect()["model_file"] == str(folder / "cli.copse")
+
+
+def test_rows_outside_the_training_data_are_flagged_as_the_command_flags_them(copse_cmd, folder, mains, mains_new):
+    rows = mains_new.copy()
+    rows.loc[[3, 10, 11], "install_year"] = 2150  # past the newest pipe of training
+    rows.loc[[10, 20], "material"] = "bamboo"  # a material the model never saw
+    rows.to_csv(folder / "odd.csv", index=False)
+    model = copse.train(mains, **MAINS, trees=30, source="water_mains.csv")
+    model.save(folder / "py.copse")
+    p = copse_cmd(["score", "--model", "py.copse", "--data", "odd.csv", "--flag-unfamiliar", "--out", "odd_scores.csv", "--quiet"], folder)
+    cli = pd.read_csv(folder / "odd_scores.csv")
+    with pytest.warns(copse.CopseWarning) as caught:
+        ours = model.score(rows, flag_unfamiliar=True)
+    assert list(ours.columns) == list(cli.columns)
+    assert list(ours["unfamiliar"]) == list(cli["unfamiliar"])
+    # The demo's rows to score already hold one pipe beyond the training ranges.
+    with pytest.warns(copse.CopseWarning, match="1 of 500 rows holds values outside"):
+        before = set(np.flatnonzero(model.score(mains_new, flag_unfamiliar=True)["unfamiliar"]))
+    assert set(np.flatnonzero(ours["unfamiliar"])) == before | {3, 10, 11, 20} != before
+    # The same warnings as the command's, but for the data's name.
+    messages = [str(w.message).replace("data frame", "odd.csv") for w in caught]
+    for m in messages:
+        assert m in p.stderr
+    flagged = len(before | {3, 10, 11, 20})
+    assert any(f"{flagged} of 500 rows hold values outside what the model was trained on" in m for m in messages)
+    assert any("2 cells of odd.csv hold categories the model never saw" in m for m in messages)

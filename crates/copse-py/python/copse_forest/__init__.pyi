@@ -87,6 +87,7 @@ class Model:
         data: Data,
         keep: Names = None,
         *,
+        flag_unfamiliar: bool = False,
         names: Optional[Sequence[str]] = None,
         threads: Optional[int] = None,
         source: str = ...,

@@ -11,7 +11,7 @@ from typing import Any, Dict, List, Optional, Sequence, Union
 import numpy as np
 
 from . import _native
-from ._columns import Columns, named_columns, numeric_matrix
+from ._columns import named_columns, numeric_matrix
 from ._errors import CopseWarning, UsageError
 from ._tables import scores_table
 
@@ -170,6 +170,7 @@ class Model:
         data: Any,
         keep: Union[None, str, Sequence[str]] = None,
         *,
+        flag_unfamiliar: bool = False,
         names: Optional[Sequence[str]] = None,
         threads: Optional[int] = None,
         source: str = DEFAULT_SOURCE,
@@ -183,7 +184,9 @@ class Model:
 
         Inputs are matched by name (any order; extra columns are ignored); a 2-D array
         without ``names`` is taken to hold the model's inputs in order. Categories
-        the model never saw are scored as missing, with a :class:`CopseWarning`.
+        the model never saw are scored as missing, with a :class:`CopseWarning`; rows
+        holding values outside what the model was trained on get a warning too, and
+        with ``flag_unfamiliar`` a last column ``unfamiliar`` (1 for such a row, else 0).
         Runs on ``threads`` of copse's own threads (None: one per core) with the
         interpreter released.
         """
@@ -192,23 +195,22 @@ class Model:
         matrix = None
         if not any(self._native.categorical):
             matrix = numeric_matrix(data, names, inputs)
-        scored = None
+        result = None
         if matrix is not None:
-            scored = _native.score_matrix(self._native, matrix, threads)
-        cols: Optional[Columns] = None
-        if scored is None:
+            result = _native.score_matrix(self._native, matrix, threads)
+        if result is None:
             if names is None and isinstance(data, np.ndarray):
                 names = inputs
-            cols = named_columns(data, names)
-            needed = cols.subset(inputs)
-            scored, notes = _native.score_columns(self._native, source, needed.names, needed.values, threads)
-            _warn(notes)
-        outputs, codes = scored
+            needed = named_columns(data, names).subset(inputs)
+            result = _native.score_columns(self._native, source, needed.names, needed.values, threads)
+        (outputs, codes, unfamiliar), notes = result
+        _warn(notes)
         kept: Dict[str, Any] = {}
         index = getattr(data, "index", None) if type(data).__module__.startswith("pandas") else None
         if kept_names:
             kept = _kept(data, kept_names, names if names is not None else inputs)
-        return scores_table(kept, outputs, codes, self.classes, index)
+        flags = unfamiliar.astype(np.int64) if flag_unfamiliar else None
+        return scores_table(kept, outputs, codes, self.classes, index, flags)
 
     def evaluate(self, data: Any, *, names: Optional[Sequence[str]] = None, threads: Optional[int] = None, source: str = DEFAULT_SOURCE) -> dict:
         """Measures the model on labelled rows it has not seen (``data`` must hold the

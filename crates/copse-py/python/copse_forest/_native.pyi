@@ -9,7 +9,8 @@ COPSE_VERSION: str
 
 #: A column handed to the engine: float64 numbers (NaN: missing) or optional texts.
 Column = Union[np.ndarray, List[Optional[str]]]
-Scored = Tuple[np.ndarray, Optional[np.ndarray]]
+#: Outputs, predicted class indexes (classes only), and rows outside the training data.
+Scored = Tuple[np.ndarray, Optional[np.ndarray], np.ndarray]
 
 class NativeModel:
     """A trained forest held by the engine."""
@@ -40,8 +41,8 @@ def load(path: str) -> NativeModel:
 def from_bytes(data: bytes, name: str) -> NativeModel:
     """Reads model file bytes."""
 
-def score_matrix(model: NativeModel, x: np.ndarray, threads: Optional[int] = None) -> Optional[Scored]:
-    """Scores a matrix of the model's numeric inputs in order (None: infinite cells)."""
+def score_matrix(model: NativeModel, x: np.ndarray, threads: Optional[int] = None) -> Optional[Tuple[Scored, List[str]]]:
+    """Scores a matrix of the model's numeric inputs in order, with the warnings (None: infinite cells)."""
 
 def score_columns(model: NativeModel, source: str, names: Sequence[str], columns: Sequence[Column], threads: Optional[int] = None) -> Tuple[Scored, List[str]]:
     """Scores named columns; returns the scores and the warnings."""

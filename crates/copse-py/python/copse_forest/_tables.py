@@ -25,9 +25,11 @@ def scores_table(
     codes: Optional[np.ndarray],
     classes: Sequence[str],
     index: Any,
+    unfamiliar: Optional[np.ndarray] = None,
 ) -> Any:
-    """The scored rows: the kept columns, ``prediction``, and for classes one
-    ``prob_<class>`` column per class (the columns of ``copse score``)."""
+    """The scored rows: the kept columns, ``prediction``, for classes one
+    ``prob_<class>`` column per class, and ``unfamiliar`` when given (the columns of
+    ``copse score``)."""
     columns: Dict[str, Any] = dict(kept)
     pandas = have_pandas()
     if codes is not None:
@@ -42,6 +44,8 @@ def scores_table(
             columns[f"prob_{c}"] = outputs[:, j]
     else:
         columns["prediction"] = outputs[:, 0]
+    if unfamiliar is not None:
+        columns["unfamiliar"] = unfamiliar
     if pandas:
         import pandas as pd
 

@@ -10,7 +10,7 @@
 //! either.
 mod blocks;
 mod rows;
-mod unfamiliar;
+pub mod unfamiliar;
 
 use crate::args::ScoreArgs;
 use crate::error::{CliError, CliResult};
@@ -64,7 +64,7 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     if let Some(warning) = unfamiliar::warning(
         &model,
         &written.unfamiliar,
-        &src.enc,
+        src.enc.unseen_counts().iter().sum(),
         written.unfamiliar_rows,
         written.rows,
     ) {
