@@ -249,6 +249,16 @@ def numeric_matrix(data: Any, names: Optional[Sequence[str]], inputs: Sequence[s
             if isinstance(d, pd.CategoricalDtype) or pt.is_bool_dtype(d) or not pt.is_numeric_dtype(d) or pt.is_complex_dtype(d):
                 return None
         return data[[label[n] for n in inputs]].to_numpy(dtype=np.float64, na_value=np.nan)
+    if module.startswith("pyarrow"):
+        import pyarrow as pa
+
+        if not isinstance(data, pa.Table) or not all(n in data.column_names for n in inputs):
+            return None
+        cols = [data.column(n) for n in inputs]
+        if not all(pa.types.is_integer(c.type) or pa.types.is_floating(c.type) for c in cols):
+            return None
+        # Nulls become NaN, the engine's missing number.
+        return np.column_stack([c.cast(pa.float64()).to_numpy(zero_copy_only=False) for c in cols])
     if isinstance(data, dict):
         keyed = {str(k): v for k, v in data.items()}
         if not all(n in keyed for n in inputs):
