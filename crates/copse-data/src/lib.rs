@@ -17,7 +17,9 @@
 //!   of the same data, row group by row group, and the type mapping; `parquet_output`:
 //!   scored rows written as Parquet, a row group per block;
 //! - [`parts`]: trees `a..b` grown on a table, and parts merged into one model;
-//! - [`encode`]: new rows read the way a model's training rows were ([`RowEncoder`]).
+//! - [`encode`]: new rows read the way a model's training rows were ([`RowEncoder`]);
+//! - [`frame`]: columns held in memory, read as the CSV file they would make
+//!   ([`frame::Frame`]).
 //!
 //! # Example
 //! ```
@@ -48,6 +50,7 @@ pub mod cells;
 pub mod csv_input;
 pub mod encode;
 pub mod error;
+pub mod frame;
 mod infer;
 #[cfg(feature = "parquet")]
 pub mod parquet_input;

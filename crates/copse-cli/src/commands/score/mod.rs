@@ -12,7 +12,7 @@
 //! either.
 pub(crate) mod blocks;
 pub(crate) mod rows;
-mod unfamiliar;
+pub mod unfamiliar;
 
 use crate::args::{OutFormat, ScoreArgs};
 use crate::error::{CliError, CliResult};
@@ -67,7 +67,7 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     if let Some(warning) = unfamiliar::warning(
         &model,
         &written.unfamiliar,
-        &src.enc,
+        src.enc.unseen_counts().iter().sum(),
         written.unfamiliar_rows,
         written.rows,
     ) {
