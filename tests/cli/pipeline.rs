@@ -65,7 +65,7 @@ fn headerless_pieces_scored_without_headers_join_into_the_whole_output() {
     let out = copse_in(d, &args, Some(b"1,2,3\n"));
     let (_, err) = expect_code(&out, 2);
     assert!(
-        err.contains("line 1: found 3 fields but --columns names 10"),
+        err.contains("line 1: found 3 fields but --columns names 9"),
         "{err}"
     );
 }

@@ -189,8 +189,15 @@ impl ParquetText {
 
     /// A read failure naming the file, the row group and the first row not read.
     fn fault(&self, row: u64, what: &str) -> io::Error {
+        // copse is built with the pure-Rust codecs only (Snappy, LZ4).
+        let hint = if what.contains("Disabled feature") {
+            "; copse reads Snappy, LZ4 and uncompressed Parquet: write the file again with \
+             Snappy"
+        } else {
+            ""
+        };
         io::Error::other(format!(
-            "{}, row group {} (from row {}): {what}",
+            "{}, row group {} (from row {}): {what}{hint}",
             self.name,
             self.group + 1,
             row + 1

@@ -3,10 +3,10 @@
 //! would have made, byte for byte ([`Forest::merge_parts`], in [`crate::merge`]).
 //!
 //! This works because every random draw of tree `t` comes only from the seed and `t`
-//! (its sample, its inputs per split, its out-of-bag permutations: [`crate::rng`]), and
-//! because everything a model holds besides its trees is computed after growing, from
-//! the trees, their samples and the data, combined in tree order. What each part keeps,
-//! and what the merge recomputes:
+//! (its sample, its inputs per split, its out-of-bag permutations: the generators of
+//! `rng.rs`), and because everything a model holds besides its trees is computed after
+//! growing, from the trees, their samples and the data, combined in tree order. What
+//! each part keeps, and what the merge recomputes:
 //! - each tree's out-of-bag importance increases depend on that tree alone, so a part
 //!   computes them where it grows (a few numbers per tree and input) and the merge only
 //!   adds them up in tree order: this, the costliest step after growing, is spread over
