@@ -13,7 +13,8 @@
 //! - `model`: the trained model (`NativeModel`): file bytes, reports, properties;
 //! - `training`: `train` on named columns, and `train_part` for trees a..b;
 //! - `parts`: parts of a forest (`NativePart`: file bytes) and their merge;
-//! - `scoring`: scores from a matrix (no copy when the layout allows) or from columns;
+//! - `scoring`: scores from a matrix (no copy when the layout allows) or from columns,
+//!   and outcome ranges (`score(interval=...)`);
 //! - `judging`: `evaluate` and held-out `importance` on labelled columns.
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
@@ -44,6 +45,7 @@ fn _native(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(model::from_bytes, m)?)?;
     m.add_function(wrap_pyfunction!(scoring::score_matrix, m)?)?;
     m.add_function(wrap_pyfunction!(scoring::score_columns, m)?)?;
+    m.add_function(wrap_pyfunction!(scoring::outcome_ranges, m)?)?;
     m.add_function(wrap_pyfunction!(judging::evaluate_json, m)?)?;
     m.add_function(wrap_pyfunction!(judging::importance_json, m)?)?;
     m.add("COPSE_VERSION", env!("CARGO_PKG_VERSION"))?;

@@ -172,3 +172,58 @@ fn encode_rows(forest: &Forest, frame: copse_data::frame::Frame) -> copse_data::
         warning: enc.unseen_warning(),
     })
 }
+
+/// The outcome ranges of the rows of the columns `columns` named `names` (the whole
+/// called `source`) that cover a share `coverage` of outcomes, as `copse score
+/// --interval` gives them: one row per row, the low end then the high end. Needs a
+/// model of numbers trained with its leaf rows kept.
+///
+/// # Errors
+/// `UsageError` for a class model, a model without its leaf rows or a coverage outside
+/// (0, 1); `BadInputError` for rows that cannot be read.
+#[pyfunction]
+#[pyo3(signature = (model, source, names, columns, coverage, threads=None))]
+pub fn outcome_ranges<'py>(
+    model: &Bound<'py, NativeModel>,
+    py: Python<'py>,
+    source: String,
+    names: Vec<String>,
+    columns: Vec<PyColumn<'py>>,
+    coverage: f64,
+    threads: Option<usize>,
+) -> PyResult<Bound<'py, PyArray2<f64>>> {
+    let forest = &*model.get().forest;
+    if forest.task() == Task::Classify {
+        return Err(errors::raise(
+            errors::Kind::Usage,
+            format!(
+                "interval= gives ranges of a numeric target, but this model predicts classes of \
+                 '{}'; its class probabilities already say how sure it is: drop interval=",
+                forest.card().target
+            ),
+        ));
+    }
+    if forest.leaf_rows().is_none() {
+        return Err(errors::raise(
+            errors::Kind::Usage,
+            "the model did not keep the rows of its leaves, which interval= needs; train it \
+             again with keep_leaf_rows=True",
+        ));
+    }
+    if !(coverage > 0.0 && coverage < 1.0) {
+        return Err(errors::raise(
+            errors::Kind::Usage,
+            format!("interval={coverage} is not a coverage strictly between 0 and 1; give one such as 0.9"),
+        ));
+    }
+    let pool = pool::pool(threads)?;
+    let frame = frame(&source, names, columns)?;
+    let rows = py
+        .detach(|| encode_rows(forest, frame))
+        .map_err(|e| errors::data(&e))?;
+    let ranges = pool::run(py, &pool, || {
+        forest.outcome_intervals(rows.x.view(), coverage)
+    })
+    .map_err(|e| errors::forest(&e))?;
+    Ok(ranges.into_pyarray(py))
+}

@@ -88,6 +88,7 @@ class Model:
         keep: Names = None,
         *,
         flag_unfamiliar: bool = False,
+        interval: Optional[float] = None,
         names: Optional[Sequence[str]] = None,
         threads: Optional[int] = None,
         source: str = ...,

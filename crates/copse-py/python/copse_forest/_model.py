@@ -171,6 +171,7 @@ class Model:
         keep: Union[None, str, Sequence[str]] = None,
         *,
         flag_unfamiliar: bool = False,
+        interval: Optional[float] = None,
         names: Optional[Sequence[str]] = None,
         threads: Optional[int] = None,
         source: str = DEFAULT_SOURCE,
@@ -187,6 +188,10 @@ class Model:
         the model never saw are scored as missing, with a :class:`CopseWarning`; rows
         holding values outside what the model was trained on get a warning too, and
         with ``flag_unfamiliar`` a last column ``unfamiliar`` (1 for such a row, else 0).
+        With ``interval=C`` (a coverage such as 0.9), a model of numbers trained with
+        ``keep_leaf_rows=True`` adds ``low_<C>`` and ``high_<C>`` (``low_90``,
+        ``high_90``): the range expected to hold that share of outcomes, as ``copse
+        score --interval``.
         Runs on ``threads`` of copse's own threads (None: one per core) with the
         interpreter released.
         """
@@ -210,7 +215,25 @@ class Model:
         if kept_names:
             kept = _kept(data, kept_names, names if names is not None else inputs)
         flags = unfamiliar.astype(np.int64) if flag_unfamiliar else None
-        return scores_table(kept, outputs, codes, self.classes, index, flags)
+        table = scores_table(kept, outputs, codes, self.classes, index, flags)
+        if interval is None:
+            return table
+        if isinstance(interval, bool) or not isinstance(interval, (int, float, np.floating)):
+            raise UsageError(f"interval={interval!r} must be a coverage strictly between 0 and 1, such as 0.9")
+        if names is None and isinstance(data, np.ndarray):
+            names = inputs
+        needed = named_columns(data, names).subset(inputs)
+        ranges = _native.outcome_ranges(self._native, source, needed.names, needed.values, float(interval), threads)
+        percent = f"{100 * float(interval):.6f}".rstrip("0").rstrip(".")
+        width = len(table.columns) if hasattr(table, "columns") else len(table)
+        at = width - 1 if flag_unfamiliar else width
+        if hasattr(table, "insert"):
+            table.insert(at, f"low_{percent}", ranges[:, 0])
+            table.insert(at + 1, f"high_{percent}", ranges[:, 1])
+            return table
+        items = list(table.items())
+        items[at:at] = [(f"low_{percent}", ranges[:, 0]), (f"high_{percent}", ranges[:, 1])]
+        return dict(items)
 
     def evaluate(self, data: Any, *, names: Optional[Sequence[str]] = None, threads: Optional[int] = None, source: str = DEFAULT_SOURCE) -> dict:
         """Measures the model on labelled rows it has not seen (``data`` must hold the

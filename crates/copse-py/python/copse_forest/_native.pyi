@@ -79,3 +79,6 @@ def part_from_bytes(data: bytes, name: str) -> NativePart:
 
 def part_of_model(model: NativeModel, name: str) -> NativePart:
     """A model taken as the first trees of a larger forest."""
+
+def outcome_ranges(model: NativeModel, source: str, names: Sequence[str], columns: Sequence[Column], coverage: float, threads: Optional[int] = None) -> np.ndarray:
+    """Each row's outcome range (low, high) covering ``coverage`` of outcomes."""
