@@ -1,5 +1,6 @@
 //! S1M end to end: the `copse` binary trains on a CSV file and scores a CSV file on 1
-//! and all threads, set beside a CSV pass alone (read, parse, write) on one thread.
+//! and all threads, set beside a CSV pass alone (read, parse, write) on one thread; and
+//! scores the same rows from a Parquet file, to CSV and to Parquet.
 use crate::config::{Config, K, TREES};
 use crate::table::Table;
 use copse_forest::{synth, Outcome};
@@ -46,6 +47,18 @@ pub fn section(
         ">= 450000 on 2 threads (issue 19)",
     );
     table.ratio_row(
+        &format!("rows per second, Parquet to CSV, {threads} threads"),
+        n1m as f64 / e.parquet_in.as_secs_f64(),
+        n1m as f64 / e.score_all.as_secs_f64(),
+        "",
+    );
+    table.ratio_row(
+        &format!("rows per second, Parquet to Parquet, {threads} threads"),
+        n1m as f64 / e.parquet_both.as_secs_f64(),
+        n1m as f64 / e.score_all.as_secs_f64(),
+        "",
+    );
+    table.ratio_row(
         &format!("end-to-end speed-up, {threads} threads over 1"),
         e.score1.as_secs_f64() / e.score_all.as_secs_f64(),
         threads as f64,
@@ -68,11 +81,13 @@ pub fn section(
     table.note(&format!(
         "input CSV {:.1} MB; copse train on the {n100k}-row CSV took {:.2} s \
          ({threads} threads, with report and importance); model file {} bytes, \
-         {} nodes; rows/s limit = one-thread CSV pass alone",
+         {} nodes; rows/s limit = one-thread CSV pass alone (for the Parquet rows: CSV to \
+         CSV on as many threads); Parquet input {:.1} MB",
         e.csv_bytes as f64 / 1e6,
         e.train.as_secs_f64(),
         e.file_bytes,
-        e.file_nodes
+        e.file_nodes,
+        e.parquet_bytes as f64 / 1e6
     ));
 }
 
@@ -86,6 +101,9 @@ struct EndToEnd {
     cpu_all: f64,
     csv_floor: Duration,
     csv_bytes: u64,
+    parquet_in: Duration,
+    parquet_both: Duration,
+    parquet_bytes: u64,
     file_bytes: u64,
     file_nodes: u64,
 }
@@ -140,6 +158,34 @@ fn run(
         let json: serde_json::Value =
             serde_json::from_str(&info).map_err(|e| format!("inspect --json: {e}"))?;
         let find = |key: &str| find_number(&json, key).unwrap_or(0);
+        let score_parquet = dir.join("score.parquet");
+        crate::parquet_rows::write(&score_parquet, score)?;
+        let parquet_bytes = std::fs::metadata(&score_parquet).map_or(0, |m| m.len());
+        let score_from = |t: usize, data: &Path, parquet_out: bool| -> Result<Duration, String> {
+            let out = dir.join(format!("scored-{t}.out"));
+            let _ = std::fs::remove_file(&out);
+            let start = Instant::now();
+            let mut args = vec![
+                "--quiet".to_string(),
+                "--threads".to_string(),
+                t.to_string(),
+                "score".to_string(),
+                "--model".to_string(),
+                path_str(&model)?.to_string(),
+                "--data".to_string(),
+                path_str(data)?.to_string(),
+                "--out".to_string(),
+                path_str(&out)?.to_string(),
+            ];
+            if parquet_out {
+                args.extend(["--out-format".to_string(), "parquet".to_string()]);
+            }
+            let args: Vec<&str> = args.iter().map(String::as_str).collect();
+            run_copse(&exe, &args)?;
+            let wall = start.elapsed();
+            let _ = std::fs::remove_file(&out);
+            Ok(wall)
+        };
         let score_with = |t: usize| -> Result<(Duration, f64), String> {
             let out = dir.join(format!("scored-{t}.csv"));
             let _ = std::fs::remove_file(&out);
@@ -175,6 +221,7 @@ fn run(
             Ok((wall, cpu))
         };
         let (mut score1, mut score_all) = (Duration::MAX, Duration::MAX);
+        let (mut parquet_in, mut parquet_both) = (Duration::MAX, Duration::MAX);
         let (mut cpu1, mut cpu_all) = (f64::INFINITY, f64::INFINITY);
         for _ in 0..repeat {
             let (w, c) = score_with(1)?;
@@ -183,6 +230,8 @@ fn run(
             let (w, c) = score_with(threads)?;
             score_all = score_all.min(w);
             cpu_all = cpu_all.min(c);
+            parquet_in = parquet_in.min(score_from(threads, &score_parquet, false)?);
+            parquet_both = parquet_both.min(score_from(threads, &score_parquet, true)?);
         }
         let csv_floor = csv_pass(&score_csv, &dir.join("floor.csv"), train.x.ncols())?;
         Ok(EndToEnd {
@@ -193,6 +242,9 @@ fn run(
             cpu_all,
             csv_floor,
             csv_bytes,
+            parquet_in,
+            parquet_both,
+            parquet_bytes,
             file_bytes: find("file_bytes"),
             file_nodes: find("nodes"),
         })

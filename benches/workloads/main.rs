@@ -11,8 +11,8 @@
 //! Environment:
 //! - `COPSE_BENCH_SCALE=0.1` multiplies every row count (quick run; default 1).
 //! - `COPSE_BENCH_THREADS=N` sets "all threads" (default: the machine's core count).
-//! - `COPSE_BENCH_SKIP=e2e,demo,t1m,scaling,importance,wide,explain,ranges,cuts` skips
-//!   workloads by name.
+//! - `COPSE_BENCH_SKIP=e2e,demo,t1m,scaling,importance,wide,explain,ranges,cuts,merge`
+//!   skips workloads by name.
 //! - `COPSE_BENCH_DEMO_ROWS=N` sets the rows D2M scores (default 400,000 x scale; the
 //!   issue's figure is for 2,000,000).
 //! - `COPSE_BENCH_REPEAT=3` runs each T100k training and each end-to-end scoring that
@@ -55,7 +55,9 @@ mod fit;
 mod importance;
 mod kernels;
 mod machine;
+mod merge;
 mod model;
+mod parquet_rows;
 mod ranges;
 mod scoring;
 mod t1m;
@@ -101,6 +103,7 @@ fn main() {
     end_to_end::section(&cfg, &train, &score, &mut table);
     ranges::section(&cfg, &mut table);
     demo_model::section(&cfg, &mut table);
+    merge::section(&cfg, &train, &mut table);
 
     let t1m_grow = t1m::section(&cfg, n1m, &mut table);
     training::scaling(

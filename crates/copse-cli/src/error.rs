@@ -124,7 +124,9 @@ pub fn forest_error(e: &copse_forest::Error, context: &str) -> CliError {
         | K::OlderFormat
         | K::Damaged
         | K::Undecodable
-        | K::FileTooLarge => CliError::input(text),
+        | K::FileTooLarge
+        | K::PartsDisagree
+        | K::DataMismatch => CliError::input(text),
         _ => CliError::failure(text),
     }
 }

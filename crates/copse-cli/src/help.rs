@@ -73,6 +73,14 @@ Examples:
   copse inspect --model mains.copse --tree 0
   copse inspect --model mains.copse --tree 3 --json > tree3.json";
 
+/// Examples of `copse merge`.
+pub const MERGE_EXAMPLES: &str = "\
+Examples:
+  copse train --data demo-data/water_mains.csv --target failed_within_year \\
+      --ignore segment_id --trees 500 --tree-range 0..250 --out part0.copsepart
+  copse merge part0.copsepart part1.copsepart --out mains.copse
+  copse merge mains.copse more.copsepart --out mains_500.copse    # grow a model";
+
 /// Examples of `copse demo`.
 pub const DEMO_EXAMPLES: &str = "\
 Examples:

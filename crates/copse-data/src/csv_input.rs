@@ -63,6 +63,10 @@ pub struct CsvInput {
     decimal: DecimalMark,
     consumed: Arc<AtomicU64>,
     blank: BlankLines,
+    /// True when the columns were named by the caller, the input having no header.
+    named: bool,
+    /// Columns stored as text by a typed source (Parquet).
+    text_columns: Vec<String>,
 }
 
 /// Blank lines passed over in a file of several columns: how many, and the first few.
@@ -99,6 +103,59 @@ impl CsvInput {
     /// An input error when the file cannot be opened, is empty, or its header is not
     /// valid UTF-8, has an empty name or a name used twice.
     pub fn open(path: &str, delimiter: Delimiter) -> Result<Self> {
+        #[cfg(feature = "parquet")]
+        if crate::parquet_input::is_parquet(path) {
+            // Read as the text a CSV file of the same data holds (see
+            // crate::parquet_input), one row group at a time.
+            let name = display_name(path);
+            let (text, text_columns) =
+                crate::parquet_input::ParquetText::open(path, &name, delimiter.byte())?;
+            let mut input = Self::from_reader(name, Box::new(text), None, delimiter)?;
+            input.text_columns = text_columns;
+            return Ok(input);
+        }
+        let (name, source, size) = Self::source(path)?;
+        Self::from_reader(name, source, size, delimiter)
+    }
+
+    /// Columns the file stores as text or true/false values (a Parquet file's string,
+    /// dictionary and boolean columns), read as categories whatever they hold; empty
+    /// for CSV, whose cells are all text.
+    pub fn text_columns(&self) -> &[String] {
+        &self.text_columns
+    }
+
+    /// Opens `path` (`-` for standard input), a file without a header row: `names`
+    /// name its columns in order, and its first line is a row (for pieces of a larger
+    /// file, as a pipeline's stages pass them on).
+    ///
+    /// # Errors
+    /// As for [`CsvInput::open`]; `Malformed` for an empty name or a name given twice.
+    ///
+    /// # Example
+    /// ```
+    /// use copse_data::{CsvInput, Delimiter};
+    /// # let path = std::env::temp_dir().join("copse-doc-headerless.csv");
+    /// # std::fs::write(&path, "1,red\n2,blue\n").unwrap();
+    /// let names = ["size".to_string(), "colour".to_string()];
+    /// let mut input = CsvInput::open_headerless(&path.to_string_lossy(), Delimiter::Comma, &names)?;
+    /// let mut record = csv::StringRecord::new();
+    /// assert!(input.read(&mut record)?);
+    /// assert_eq!(&record[1], "red");
+    /// # Ok::<(), copse_data::Error>(())
+    /// ```
+    pub fn open_headerless(path: &str, delimiter: Delimiter, names: &[String]) -> Result<Self> {
+        let (name, source, size) = Self::source(path)?;
+        let mut input = Self::unread(name, source, size, delimiter);
+        let record = csv::StringRecord::from(names.to_vec());
+        input.headers = input.check_names(&record, "--columns")?;
+        input.named = true;
+        Ok(input)
+    }
+
+    /// The bytes of `path` (`-` for standard input), its name in messages and its
+    /// size when known.
+    fn source(path: &str) -> Result<(String, Box<dyn Read + Send>, Option<u64>)> {
         let name = display_name(path);
         let (source, size): (Box<dyn Read + Send>, Option<u64>) = if path == "-" {
             (Box::new(io::stdin()), None)
@@ -122,7 +179,7 @@ impl CsvInput {
             let size = f.metadata().ok().map(|m| m.len());
             (Box::new(f), size)
         };
-        Self::from_reader(name, source, size, delimiter)
+        Ok((name, source, size))
     }
 
     /// Reads CSV from any source; `name` names it in messages, `size` (if known) drives
@@ -136,9 +193,21 @@ impl CsvInput {
         size: Option<u64>,
         delimiter: Delimiter,
     ) -> Result<Self> {
+        let mut input = Self::unread(name, source, size, delimiter);
+        input.read_headers()?;
+        Ok(input)
+    }
+
+    /// The input before anything is read.
+    fn unread(
+        name: String,
+        source: Box<dyn Read + Send>,
+        size: Option<u64>,
+        delimiter: Delimiter,
+    ) -> Self {
         let consumed = Arc::new(AtomicU64::new(0));
         let records = Records::new(source, delimiter.byte(), consumed.clone());
-        let mut input = CsvInput {
+        CsvInput {
             name,
             records,
             headers: Vec::new(),
@@ -147,9 +216,9 @@ impl CsvInput {
             decimal: DecimalMark::Point,
             consumed,
             blank: BlankLines::default(),
-        };
-        input.read_headers()?;
-        Ok(input)
+            named: false,
+            text_columns: Vec::new(),
+        }
     }
 
     fn read_headers(&mut self) -> Result<()> {
@@ -175,6 +244,18 @@ impl CsvInput {
             ),
             ));
         }
+        self.headers = self.check_names(&record, "line 1")?;
+        Ok(())
+    }
+
+    /// The column names of `record`, trimmed, each present and used once; `place`
+    /// says where they were given ("line 1", or an option).
+    fn check_names(&self, record: &csv::StringRecord, place: &str) -> Result<Vec<String>> {
+        let what = if place == "line 1" {
+            "the header"
+        } else {
+            place
+        };
         let mut headers: Vec<String> = Vec::with_capacity(record.len());
         for (i, h) in record.iter().enumerate() {
             let h = h.trim();
@@ -182,15 +263,15 @@ impl CsvInput {
                 return Err(Error::new(
                     ErrorKind::Malformed,
                     format!(
-                    "{} line 1, column {}: the header gives this column no name; name every column",
-                    self.name,
-                    i + 1
-                ),
+                        "{} {place}, column {}: {what} gives this column no name; name every column",
+                        self.name,
+                        i + 1
+                    ),
                 ));
             }
             if let Some(first) = headers.iter().position(|x| x == h) {
                 return Err(Error::new(ErrorKind::Malformed, format!(
-                    "{} line 1: the name '{h}' is used by column {} and column {}; give each column its own name",
+                    "{} {place}: the name '{h}' is used by column {} and column {}; give each column its own name",
                     self.name,
                     first + 1,
                     i + 1
@@ -198,8 +279,16 @@ impl CsvInput {
             }
             headers.push(h.to_string());
         }
-        self.headers = headers;
-        Ok(())
+        if headers.is_empty() {
+            return Err(Error::new(
+                ErrorKind::Malformed,
+                format!(
+                    "{} {place}: no column names given; name every column",
+                    self.name
+                ),
+            ));
+        }
+        Ok(headers)
     }
 
     /// The same input, its numbers read with the decimal mark `mark` (a point unless
@@ -394,14 +483,15 @@ impl CsvInput {
             ),
             _ => {
                 let (len, want) = (self.records.len(), self.headers.len());
+                let header = self.header_words();
                 if self.records.spans_lines() {
                     format!(
-                        "{name} line {line}: found {len} fields but the header has {want}, with a quoted \
+                        "{name} line {line}: found {len} fields but {header} {want}, with a quoted \
                          field that starts on this line and runs on to line {}; {quote}",
                         self.records.last_line()
                     )
                 } else {
-                    return width_error(name, line, len, want, self.delimiter);
+                    return width_error(name, line, len, want, header, self.delimiter);
                 }
             }
         };
@@ -463,17 +553,30 @@ pub(crate) fn width_error(
     line: u64,
     len: usize,
     want: usize,
+    header: &str,
     delimiter: Delimiter,
 ) -> Error {
     Error::new(
         ErrorKind::Malformed,
         format!(
-            "{name} line {line}: found {len} fields but the header has {want}; \
+            "{name} line {line}: found {len} fields but {header} {want}; \
              check that fields holding a {} are quoted and that no quote is missing \
              (to read another delimiter, use --delimiter comma|tab|semicolon)",
             delimiter.name()
         ),
     )
+}
+
+impl CsvInput {
+    /// How messages name the expected width: the header's, or `--columns`' for a
+    /// headerless input whose columns the caller named.
+    pub(crate) fn header_words(&self) -> &'static str {
+        if self.named {
+            "--columns names"
+        } else {
+            "the header has"
+        }
+    }
 }
 
 /// The record size limit in words, for messages.

@@ -14,7 +14,13 @@
 //! - [`row_roles`]: case weights and group labels of training rows;
 //! - `infer` (private): column kinds, the task, category labels;
 //! - [`training`]: the training table ([`TrainingTable`]) and training on it;
-//! - [`encode`]: new rows read the way a model's training rows were ([`RowEncoder`]).
+//! - `parquet_input` (feature `parquet`, default): Parquet files read as the CSV text
+//!   of the same data, row group by row group, and the type mapping; `parquet_output`:
+//!   scored rows written as Parquet, a row group per block;
+//! - [`parts`]: trees `a..b` grown on a table, and parts merged into one model;
+//! - [`encode`]: new rows read the way a model's training rows were ([`RowEncoder`]);
+//! - [`frame`]: columns held in memory, read as the CSV file they would make
+//!   ([`frame::Frame`]).
 //!
 //! # Example
 //! ```
@@ -45,8 +51,14 @@ pub mod cells;
 pub mod csv_input;
 pub mod encode;
 pub mod error;
+pub mod frame;
 mod infer;
 pub mod plain;
+#[cfg(feature = "parquet")]
+pub mod parquet_input;
+#[cfg(feature = "parquet")]
+pub mod parquet_output;
+pub mod parts;
 pub mod records;
 pub mod roles;
 pub mod row_roles;

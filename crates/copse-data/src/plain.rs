@@ -64,6 +64,8 @@ pub struct Shape {
     headers: Vec<String>,
     delimiter: u8,
     delimiter_kind: Delimiter,
+    /// How width errors name the expected width (`CsvInput::header_words`).
+    header_words: &'static str,
 }
 
 impl CsvInput {
@@ -100,6 +102,7 @@ impl CsvInput {
             headers: self.headers().to_vec(),
             delimiter: self.delimiter_kind().byte(),
             delimiter_kind: self.delimiter_kind(),
+            header_words: self.header_words(),
         }
     }
 }
@@ -244,7 +247,14 @@ impl PlainLines<'_> {
         if n != width {
             return Some(PlainLine::Fault(
                 line,
-                width_error(&shape.name, line, n, width, shape.delimiter_kind),
+                width_error(
+                    &shape.name,
+                    line,
+                    n,
+                    width,
+                    shape.header_words,
+                    shape.delimiter_kind,
+                ),
             ));
         }
         let ends = &self.ends;

@@ -107,6 +107,15 @@ impl TrainingTable {
     /// missing; `BadValue` for a `--numeric` column holding text or a regression
     /// outcome holding text or huge values; each names the file, line and column.
     pub fn from_csv(mut input: CsvInput, roles: &Roles, missing: Missing) -> Result<TrainingTable> {
+        // A typed source's text columns are categories, whatever their values look like.
+        let mut typed = roles.clone();
+        for c in input.text_columns() {
+            let named = |list: &[String]| list.iter().any(|n| n == c);
+            if *c != roles.target && !named(&roles.numeric) && !named(&roles.ignore) {
+                typed.categorical.push(c.clone());
+            }
+        }
+        let roles = &typed;
         let layout = lay_out(&input, roles)?;
         let name = input.name().to_string();
         let headers = input.headers().to_vec();
@@ -221,6 +230,11 @@ impl TrainingTable {
     /// recorded: file name, outcome column, missing tokens, decimal mark, rows read
     /// and left out, ignored columns, and the remarks about the data.
     pub fn card_for(&self, forest: &Forest) -> ModelCard {
+        self.card_over(forest.card())
+    }
+
+    /// `base` (the engine's card) with this table's source recorded.
+    pub(crate) fn card_over(&self, base: &ModelCard) -> ModelCard {
         ModelCard {
             target: self.target.clone(),
             missing_tokens: self.missing.tokens().to_vec(),
@@ -235,11 +249,11 @@ impl TrainingTable {
                 total: w.iter().sum(),
                 zero_rows: w.iter().filter(|&&v| v == 0.0).count(),
             }),
-            groups: forest.card().groups.clone().map(|g| GroupsRecord {
+            groups: base.groups.clone().map(|g| GroupsRecord {
                 column: self.groups.as_ref().map_or(g.column, |(c, _)| c.clone()),
                 ..g
             }),
-            ..forest.card().clone()
+            ..base.clone()
         }
     }
 

@@ -40,6 +40,13 @@ pub enum ErrorKind {
     Undecodable,
     /// A model file larger than copse agrees to read.
     FileTooLarge,
+    /// Parts that do not make one forest: different settings, seeds, data or kept
+    /// extras, or tree ranges that overlap, leave a gap or fall short.
+    PartsDisagree,
+    /// Training was stopped on request ([`crate::TrainOptions::stop`]).
+    Stopped,
+    /// Data given to complete a model (the merge of parts) is not its training data.
+    DataMismatch,
 }
 
 /// An error from the forest engine.

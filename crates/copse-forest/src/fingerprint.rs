@@ -32,18 +32,44 @@ fn mix(mut z: u64) -> u64 {
     z ^ (z >> 31)
 }
 
+/// A value's bits for hashing: every NaN alike, -0 as 0.
+#[inline]
+fn canonical(v: f64) -> u64 {
+    if v.is_nan() {
+        u64::MAX
+    } else if v == 0.0 {
+        0
+    } else {
+        v.to_bits()
+    }
+}
+
+/// A 64-bit digest of a whole training set in row order: every input value of every
+/// row, then the outcome (class code or value). Unlike the fingerprint it changes when
+/// rows are reordered, since tree samples are drawn by row index; the parts of one
+/// forest ([`crate::part`]) carry it so a merge can tell they saw the same rows.
+pub(crate) fn rows_digest(x: ndarray::ArrayView2<'_, f64>, outcome: &crate::Outcome) -> u64 {
+    let (n, p) = x.dim();
+    let mut h = mix(0x452821e638d01377 ^ n as u64) ^ mix(p as u64);
+    for (i, row) in x.rows().into_iter().enumerate() {
+        for &v in row {
+            h = mix(h ^ canonical(v)).wrapping_add(0x9e37_79b9_7f4a_7c15);
+        }
+        let y = match outcome {
+            crate::Outcome::Classes { codes, .. } => u64::from(codes[i]),
+            crate::Outcome::Values(v) => canonical(v[i]),
+        };
+        h = mix(h.rotate_left(29) ^ y ^ 0xbe54_66cf_34e9_0c6c);
+    }
+    h
+}
+
 /// Two independent 64-bit hashes of a row's values (every NaN hashes alike, as does
 /// -0 with 0, since both read the same).
 fn hashes(row: impl Iterator<Item = f64>) -> (u64, u64) {
     let (mut a, mut b) = (0x243f_6a88_85a3_08d3u64, 0x1319_8a2e_0370_7344u64);
     for v in row {
-        let bits = if v.is_nan() {
-            u64::MAX
-        } else if v == 0.0 {
-            0
-        } else {
-            v.to_bits()
-        };
+        let bits = canonical(v);
         a = mix(a ^ bits).wrapping_add(0x9e37_79b9_7f4a_7c15);
         b = mix(b.rotate_left(17) ^ bits ^ 0xa076_1d64_78bd_642f);
     }

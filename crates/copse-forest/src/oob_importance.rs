@@ -141,6 +141,10 @@ pub(crate) fn tree_permutation_increase(
     (inc_err, inc_brier)
 }
 
+/// One tree's increases in (error, Brier) per input, or `None` for a tree with no
+/// out-of-bag row with a known outcome.
+pub(crate) type TreeIncreases = Option<(Vec<f64>, Vec<f64>)>;
+
 /// Out-of-bag permutation importance (Breiman 2001, section 10): for tree `t` and
 /// input `j`, the values of `j` are permuted among the tree's out-of-bag rows with
 /// the generator for (seed, t, j), and the increase in the tree's error on those rows
@@ -159,6 +163,26 @@ pub(crate) fn oob_permutation(
     seed: u64,
     progress: &(dyn Fn(Progress) + Sync),
 ) -> Option<PermutationImportance> {
+    let pieces = oob_tree_increases(trees, masks, 0, x, outcome, weights, seed, progress);
+    oob_tables(pieces, outcome, meta)
+}
+
+/// Each tree's out-of-bag increases, in tree order; `trees[t]` is tree `first + t` of
+/// its forest (its permutations come from that index), with out-of-bag rows
+/// `masks[t]`. A tree's increases depend on nothing but the tree, its sample and the
+/// data, so parts of a forest compute them apart ([`crate::part`]). With case
+/// `weights`, rows of weight 0 are left out and the others count with their weights.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn oob_tree_increases(
+    trees: &[Tree],
+    masks: &[OobMask],
+    first: usize,
+    x: ArrayView2<'_, f64>,
+    outcome: &Outcome,
+    weights: Option<&[f64]>,
+    seed: u64,
+    progress: &(dyn Fn(Progress) + Sync),
+) -> Vec<TreeIncreases> {
     let n = x.nrows();
     let rows_of = |t: usize| -> Vec<usize> {
         (0..n)
@@ -167,9 +191,19 @@ pub(crate) fn oob_permutation(
             })
             .collect()
     };
-    let rng_of = |t: usize, j: usize| task_rng(seed, Purpose::OobPermute, t as u64, j as u64);
-    let (errs, briers) =
-        per_tree_increases(trees, x, outcome, weights, &rows_of, &rng_of, progress);
+    let rng_of =
+        |t: usize, j: usize| task_rng(seed, Purpose::OobPermute, (first + t) as u64, j as u64);
+    per_tree_increases(trees, x, outcome, weights, &rows_of, &rng_of, progress)
+}
+
+/// The importance tables from every tree's increases, in tree order; `None` when no
+/// tree had out-of-bag rows.
+pub(crate) fn oob_tables(
+    pieces: Vec<TreeIncreases>,
+    outcome: &Outcome,
+    meta: &[FeatureMeta],
+) -> Option<PermutationImportance> {
+    let (errs, briers): (Vec<_>, Vec<_>) = pieces.into_iter().flatten().unzip();
     if errs.is_empty() {
         return None;
     }
@@ -183,8 +217,8 @@ pub(crate) fn oob_permutation(
 }
 
 /// Every tree's increases in (error, Brier) per input when each input is permuted
-/// among the rows `rows_of(t)` with the generator `rng_of(t, j)`, in tree order; trees
-/// with no rows are left out. Shared by the out-of-bag importance (each tree's own
+/// among the rows `rows_of(t)` with the generator `rng_of(t, j)`, in tree order (`None`
+/// for a tree with no rows). Shared by the out-of-bag importance (each tree's own
 /// out-of-bag rows) and the hold-out importance (every tree the same held-out rows).
 pub(crate) fn per_tree_increases(
     trees: &[Tree],
@@ -194,10 +228,10 @@ pub(crate) fn per_tree_increases(
     rows_of: &(dyn Fn(usize) -> Vec<usize> + Sync),
     rng_of: &(dyn Fn(usize, usize) -> rand_xoshiro::Xoshiro256PlusPlus + Sync),
     progress: &(dyn Fn(Progress) + Sync),
-) -> (Vec<Vec<f64>>, Vec<Vec<f64>>) {
+) -> Vec<TreeIncreases> {
     let nt = trees.len();
     let done = AtomicUsize::new(0);
-    let per_tree: Vec<Option<(Vec<f64>, Vec<f64>)>> = (0..nt)
+    (0..nt)
         .into_par_iter()
         .map(|t| {
             let rows = rows_of(t);
@@ -212,8 +246,7 @@ pub(crate) fn per_tree_increases(
             });
             result
         })
-        .collect();
-    per_tree.into_iter().flatten().unzip()
+        .collect()
 }
 
 #[cfg(test)]

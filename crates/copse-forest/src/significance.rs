@@ -346,7 +346,7 @@ pub fn holdout_importance(
         let yh = forest.align(&yh)?;
         let held: Vec<usize> = (0..test.len()).collect();
         let permute_seed = rng.next_u64();
-        let (e, b) = per_tree_increases(
+        let (e, b): (Vec<_>, Vec<_>) = per_tree_increases(
             forest.trees(),
             xh.view(),
             &yh,
@@ -354,7 +354,10 @@ pub fn holdout_importance(
             &|_| held.clone(),
             &|t, j| task_rng(permute_seed, Purpose::HalfPermute, t as u64, j as u64),
             &|_| {},
-        );
+        )
+        .into_iter()
+        .flatten()
+        .unzip();
         errs.extend(e);
         briers.extend(b);
     }

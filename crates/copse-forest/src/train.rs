@@ -2,26 +2,23 @@
 //! compute the out-of-bag estimates and importance, all combined in tree-index order
 //! so the model is the same for any number of threads.
 use crate::card::ModelCard;
-use crate::case_weights::{checked_groups, checked_weights};
 use crate::draws::Draws;
 use crate::error::{bad_setting, Error, ErrorKind, Result};
 use crate::fingerprint::RowFingerprint;
 use crate::forest::{Forest, Trained};
 use crate::importance::impurity_importance;
 use crate::intervals::{oob_check, OOB_CHECK_LEVEL};
-use crate::leaf_rows::{outcome_ranks, LeafRows, TreeRows};
-use crate::oob::{out_of_bag, OobMask};
-use crate::oob_importance::oob_permutation;
+use crate::leaf_rows::LeafRows;
+use crate::oob::out_of_bag;
+use crate::oob_importance::{oob_permutation, oob_tables, TreeIncreases};
 use crate::outcome::Outcome;
-use crate::progress::{Progress, Stage};
-use crate::rng::{task_rng, task_seed, Purpose};
-use crate::sample::Sampler;
+use crate::plan::{check_stop, checked_binned, Plan, Sample};
+use crate::progress::Progress;
 use crate::settings::ForestSettings;
 use crate::task::Task;
-use copse_tree::{BinnedData, FeatureMeta, Grower, Tree};
+use copse_tree::{BinnedData, FeatureBins, FeatureMeta, Tree};
 use ndarray::ArrayView2;
-use rayon::prelude::*;
-use std::sync::atomic::{AtomicUsize, Ordering};
+use std::sync::atomic::AtomicBool;
 
 /// What a training run does beyond growing the trees, with what every model holds:
 /// the extras that cost time or memory, and a progress callback.
@@ -53,6 +50,10 @@ pub struct TrainOptions<'a> {
     /// only for trees that drew no row of its group (see [`crate::case_weights`]).
     /// Default none.
     pub groups: Option<&'a [u32]>,
+    /// Checked before each tree and between the stages: once it is set, training ends
+    /// with a `Stopped` error, typically within the time of one tree per thread (so an
+    /// interactive caller can honour an interruption). Default none.
+    pub stop: Option<&'a AtomicBool>,
 }
 
 impl Default for TrainOptions<'_> {
@@ -64,6 +65,7 @@ impl Default for TrainOptions<'_> {
             progress: None,
             case_weights: None,
             groups: None,
+            stop: None,
         }
     }
 }
@@ -77,19 +79,9 @@ impl std::fmt::Debug for TrainOptions<'_> {
             .field("progress", &self.progress.map(|_| "callback"))
             .field("case_weights", &self.case_weights.map(<[f64]>::len))
             .field("groups", &self.groups.map(<[u32]>::len))
+            .field("stop", &self.stop)
             .finish()
     }
-}
-
-/// One tree and what training needs to remember about its sample.
-struct Grown {
-    tree: Tree,
-    bag_weight: f64,
-    oob: OobMask,
-    /// Draw counts and how many saturated, when asked for.
-    draws: Option<(Vec<u8>, usize)>,
-    /// The rows of each leaf, when asked for.
-    leaf_rows: Option<TreeRows>,
 }
 
 impl Forest {
@@ -140,24 +132,7 @@ impl Forest {
         settings: &ForestSettings,
         options: &TrainOptions<'_>,
     ) -> Result<Trained> {
-        settings.validate()?;
-        let n = x.nrows();
-        if outcome.len() != n {
-            return Err(Error::new(
-                ErrorKind::LengthMismatch,
-                format!(
-                    "{n} data rows but {} outcomes; they must match",
-                    outcome.len()
-                ),
-            ));
-        }
-        outcome.validate()?;
-        if settings.balanced && !outcome.is_classes() {
-            return bad_setting(
-                "balanced sampling draws cases per class; it needs a class outcome",
-            );
-        }
-        let data = BinnedData::new(x, meta, settings.bin_limit())?;
+        let data = checked_binned(x, meta, outcome, settings)?;
         train_binned(x, meta, outcome, Held::Owned(data), settings, options)
     }
 
@@ -298,120 +273,101 @@ fn train_binned(
     settings: &ForestSettings,
     options: &TrainOptions<'_>,
 ) -> Result<Trained> {
-    {
-        let progress: &(dyn Fn(Progress) + Sync) = options.progress.unwrap_or(&|_| {});
-        let (n, p) = x.dim();
-        let data = held.get();
-        let k = settings
-            .features_per_split
-            .resolve(p, outcome.is_classes())?;
-        let tree_settings = settings.tree.tree_settings((k < p).then_some(k));
-        tree_settings.validate()?;
-        let target = outcome.view()?;
-        let weighted = checked_weights(options.case_weights, outcome)?;
-        let grouped = checked_groups(options.groups, outcome)?;
-        if options.keep_draws && (weighted.is_some() || grouped.is_some()) {
-            return bad_setting(
-                "standard errors of predictions assume plain bootstrap draws of rows; draw \
-                 counts cannot be kept with case weights or row groups",
-            );
-        }
-        if options.keep_leaf_rows && weighted.is_some() {
-            return bad_setting(
-                "outcome ranges weight the training outcomes by whole draws; leaf rows cannot \
-                 be kept with case weights yet, so drop keep_leaf_rows or the case weights",
-            );
-        }
-        let (weights, weights_record) = weighted.map_or((None, None), |(w, r)| (Some(w), Some(r)));
-        let (clusters, groups_record) = grouped.map_or((None, None), |(c, r)| (Some(c), Some(r)));
-        let sampler = Sampler::new(
+    let plan = Plan::new(x.ncols(), outcome, settings, options)?;
+    let grown = plan.grow(held.get(), x, 0..settings.trees, settings.seed, options)?;
+    let bins = held.get().bins().to_vec();
+    drop(held);
+    check_stop(options.stop)?;
+    let (trees, samples) = grown.into_iter().unzip();
+    Finish {
+        x,
+        meta,
+        outcome,
+        settings,
+        plan,
+        bins,
+        oob_importance: options.oob_importance,
+        card: None,
+        importance_pieces: None,
+        stop: options.stop,
+    }
+    .run(trees, samples, options.progress.unwrap_or(&|_| {}))
+}
+
+/// The fingerprint of the rows of `x` that have an outcome.
+pub(crate) fn training_fingerprint(x: ArrayView2<'_, f64>, outcome: &Outcome) -> RowFingerprint {
+    RowFingerprint::of_rows(
+        outcome.n_labelled(),
+        x.rows()
+            .into_iter()
+            .enumerate()
+            .filter(|(i, _)| !outcome.is_missing(*i))
+            .map(|(_, r)| r.into_iter().copied()),
+    )
+}
+
+/// Everything of a model that is not its trees, with the trees: what [`Forest::train`]
+/// and the merge of parts ([`crate::merge`]) both end with, so that they give the same
+/// model byte for byte.
+pub(crate) struct Finish<'a> {
+    pub(crate) x: ArrayView2<'a, f64>,
+    pub(crate) meta: &'a [FeatureMeta],
+    pub(crate) outcome: &'a Outcome,
+    pub(crate) settings: &'a ForestSettings,
+    pub(crate) plan: Plan<'a>,
+    pub(crate) bins: Vec<FeatureBins>,
+    pub(crate) oob_importance: bool,
+    /// The card to store; the engine's own for the outcome when `None`.
+    pub(crate) card: Option<ModelCard>,
+    /// Every tree's out-of-bag importance increases, when already computed (by the
+    /// parts of a forest); computed here when `None`.
+    pub(crate) importance_pieces: Option<Vec<TreeIncreases>>,
+    pub(crate) stop: Option<&'a AtomicBool>,
+}
+
+impl Finish<'_> {
+    /// Computes the out-of-bag results, importance and fingerprint of `trees`, whose
+    /// samples are `samples`, and makes the model.
+    pub(crate) fn run(
+        self,
+        trees: Vec<Tree>,
+        samples: Vec<Sample>,
+        progress: &(dyn Fn(Progress) + Sync),
+    ) -> Result<Trained> {
+        let Finish {
+            x,
+            meta,
             outcome,
-            settings.sampling,
-            settings.balanced,
-            weights,
-            clusters,
-        )?;
-        let ranks = match (options.keep_leaf_rows, outcome) {
-            (false, _) => None,
-            (true, Outcome::Values(y)) => Some(outcome_ranks(y)),
-            (true, Outcome::Classes { .. }) => {
-                return bad_setting(
-                    "leaf rows are kept for quantiles of a numeric outcome; this outcome is \
-                     classes, so drop keep_leaf_rows",
-                )
-            }
-        };
-
-        let n_trees = settings.trees;
-        let done = AtomicUsize::new(0);
-        let grown: Vec<Grown> = (0..n_trees)
-            .into_par_iter()
-            .map_init(
-                || {
-                    let buffers = (vec![0.0; n], Vec::new(), Vec::new());
-                    (Grower::new(tree_settings.clone()), buffers)
-                },
-                |(grower, (counts, scratch, case_buf)), t| -> Result<Grown> {
-                    let mut sample_rng = task_rng(settings.seed, Purpose::Sample, t as u64, 0);
-                    sampler.draw(&mut sample_rng, counts, scratch);
-                    let case = sampler.case_weights(counts, case_buf);
-                    let grow_seed = task_seed(settings.seed, Purpose::Grow, t as u64, 0);
-                    let tree = grower.grow(data, &target, case, grow_seed)?;
-                    let bag_weight = case.iter().sum();
-                    // Out of bag: never drawn (with row groups: no row of its group
-                    // drawn), whatever its case weight.
-                    let oob = OobMask::from_weights(counts);
-                    let draws = options.keep_draws.then(|| Draws::column(counts));
-                    let leaf_rows = ranks
-                        .as_ref()
-                        .map(|(rank, _)| TreeRows::collect(&tree, x, counts, rank));
-                    let d = done.fetch_add(1, Ordering::Relaxed) + 1;
-                    progress(Progress {
-                        stage: Stage::Growing,
-                        done: d,
-                        total: n_trees,
-                    });
-                    Ok(Grown {
-                        tree,
-                        bag_weight,
-                        oob,
-                        draws,
-                        leaf_rows,
-                    })
-                },
-            )
-            .collect::<Result<Vec<_>>>()?;
-        let bins = data.bins().to_vec();
-        drop(held);
-
-        let mut trees = Vec::with_capacity(n_trees);
+            settings,
+            plan,
+            bins,
+            oob_importance,
+            card,
+            importance_pieces,
+            stop,
+        } = self;
+        let n = x.nrows();
+        let n_trees = trees.len();
+        let weights = plan.weights;
         let mut masks = Vec::with_capacity(n_trees);
         let mut bag_weights = Vec::with_capacity(n_trees);
         let mut draw_columns = Vec::new();
         let mut saturated = 0;
         let mut tree_rows = Vec::new();
-        for g in grown {
-            trees.push(g.tree);
-            masks.push(g.oob);
-            bag_weights.push(g.bag_weight);
-            if let Some((col, sat)) = g.draws {
+        for s in samples {
+            masks.push(s.oob);
+            bag_weights.push(s.bag_weight);
+            if let Some((col, sat)) = s.draws {
                 draw_columns.push(col);
                 saturated += sat;
             }
-            tree_rows.extend(g.leaf_rows);
+            tree_rows.extend(s.leaf_rows);
         }
-        let draws = options
+        let draws = plan
             .keep_draws
             .then(|| Draws::from_tree_columns(&draw_columns, n, outcome.n_labelled(), saturated));
         drop(draw_columns);
-        let fingerprint = RowFingerprint::of_rows(
-            outcome.n_labelled(),
-            x.rows()
-                .into_iter()
-                .enumerate()
-                .filter(|(i, _)| !outcome.is_missing(*i))
-                .map(|(_, r)| r.into_iter().copied()),
-        );
+        let fingerprint = training_fingerprint(x, outcome);
         // A balanced model's probabilities are shifted back to the training class
         // shares, with factors fitted on its raw out-of-bag probabilities (see
         // crate::priors); that takes one more out-of-bag pass.
@@ -432,8 +388,11 @@ fn train_binned(
             prior_shift.as_deref(),
             progress,
         );
-        let oob_importance = if options.oob_importance {
-            oob_permutation(
+        check_stop(stop)?;
+        let oob_importance = match (oob_importance, importance_pieces) {
+            (false, _) => None,
+            (true, Some(pieces)) => oob_tables(pieces, outcome, meta),
+            (true, None) => oob_permutation(
                 &trees,
                 &masks,
                 x,
@@ -442,13 +401,12 @@ fn train_binned(
                 meta,
                 settings.seed,
                 progress,
-            )
-        } else {
-            None
+            ),
         };
-        let leaf_rows = match (ranks, outcome) {
+        check_stop(stop)?;
+        let leaf_rows = match (&plan.ranks, outcome) {
             (Some((_, sorted)), Outcome::Values(y)) => {
-                let mut rows = LeafRows::new(sorted, tree_rows);
+                let mut rows = LeafRows::new(sorted.clone(), tree_rows);
                 rows.oob_check = oob_check(&trees, &masks, x, y, &rows, OOB_CHECK_LEVEL);
                 Some(rows)
             }
@@ -460,16 +418,18 @@ fn train_binned(
             Outcome::Classes { labels, .. } => (Task::Classify, labels.clone()),
             Outcome::Values(_) => (Task::Regress, Vec::new()),
         };
-        let mut card = ModelCard::for_outcome(outcome, settings.features_per_split.to_string());
-        card.weights = weights_record;
-        card.groups = groups_record;
+        let card = card.unwrap_or_else(|| {
+            let mut card = ModelCard::for_outcome(outcome, settings.features_per_split.to_string());
+            (card.weights, card.groups) = plan.records();
+            card
+        });
         let forest = Forest {
             meta: meta.to_vec(),
             task,
             classes,
             trees,
             settings: settings.clone(),
-            features_per_split: k,
+            features_per_split: plan.k,
             training_rows: n,
             oob: summary,
             oob_importance,
@@ -485,5 +445,66 @@ fn train_binned(
             forest,
             oob: report,
         })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::progress::Stage;
+    use crate::synth;
+    use crate::ErrorKind;
+    use std::sync::atomic::{AtomicUsize, Ordering};
+
+    /// A stop asked for before training ends it with `Stopped`; one asked for from
+    /// the progress reports ends it after the tree that reported.
+    #[test]
+    fn a_stop_ends_training_with_stopped() {
+        let data = synth::twonorm(100, 1);
+        let settings = ForestSettings {
+            trees: 50,
+            ..Default::default()
+        };
+        let stop = AtomicBool::new(true);
+        let options = TrainOptions {
+            stop: Some(&stop),
+            ..TrainOptions::default()
+        };
+        let e = Forest::train(
+            data.x.view(),
+            &data.meta,
+            &data.outcome,
+            &settings,
+            &options,
+        )
+        .err()
+        .map(|e| e.kind());
+        assert_eq!(e, Some(ErrorKind::Stopped));
+
+        let stop = AtomicBool::new(false);
+        let grown = AtomicUsize::new(0);
+        let progress = |p: Progress| {
+            if p.stage == Stage::Growing {
+                grown.fetch_add(1, Ordering::Relaxed);
+                stop.store(true, Ordering::Relaxed);
+            }
+        };
+        let options = TrainOptions {
+            stop: Some(&stop),
+            progress: Some(&progress),
+            ..TrainOptions::default()
+        };
+        let e = Forest::train(
+            data.x.view(),
+            &data.meta,
+            &data.outcome,
+            &settings,
+            &options,
+        )
+        .err()
+        .map(|e| e.kind());
+        assert_eq!(e, Some(ErrorKind::Stopped));
+        // At most one tree in flight per thread finishes after the stop.
+        assert!(grown.load(Ordering::Relaxed) <= rayon::current_num_threads());
     }
 }

@@ -3,8 +3,8 @@
 //! error (exit 2) before any work starts.
 use crate::help::{
     DEMO_EXAMPLES, EFFECT_EXAMPLES, EVALUATE_EXAMPLES, EXPLAIN_EXAMPLES, IMPORTANCE_EXAMPLES,
-    INSPECT_EXAMPLES, MAKE_DEMO_DATA_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES, TRAIN_EXAMPLES,
-    TUNE_EXAMPLES,
+    INSPECT_EXAMPLES, MAKE_DEMO_DATA_EXAMPLES, MERGE_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES,
+    TRAIN_EXAMPLES, TUNE_EXAMPLES,
 };
 use clap::{Args, Parser, Subcommand};
 use copse_data::Roles;
@@ -17,7 +17,7 @@ mod tune;
 mod values;
 pub use effect::EffectArgs;
 pub use tune::TuneArgs;
-pub use values::{CutsArg, DecimalArg, DelimiterArg, ImpurityArg, TaskArg};
+pub use values::{CutsArg, DecimalArg, DelimiterArg, ImpurityArg, OutFormat, TaskArg};
 
 /// copse: grow an ensemble of decision trees from a CSV table, check how well it
 /// predicts without a holdout (out-of-bag), rank which inputs matter, and score new
@@ -81,6 +81,10 @@ pub enum Command {
     /// Describe a model file: inputs, settings, sizes, out-of-bag accuracy, tree rules.
     #[command(after_help = INSPECT_EXAMPLES)]
     Inspect(InspectArgs),
+    /// Merge part files (from 'copse train --tree-range') into the model one run of all
+    /// their trees makes, byte for byte; a model file among them is grown by the parts.
+    #[command(after_help = MERGE_EXAMPLES)]
+    Merge(MergeArgs),
     /// Run the whole job on the bundled, invented water-main register.
     #[command(after_help = DEMO_EXAMPLES)]
     Demo(DemoArgs),
@@ -279,6 +283,38 @@ pub struct TrainArgs {
     /// Train even when the model would obviously not fit in the memory available.
     #[arg(long)]
     pub allow_large: bool,
+
+    /// Grow only trees A..B of the --trees in all (counting from 0, B left out) and
+    /// write them to --out as a part file, to merge with the other parts by 'copse
+    /// merge' (one task of a job array each).
+    #[arg(long, value_name = "A..B", value_parser = parse_tree_range)]
+    pub tree_range: Option<TreeRange>,
+}
+
+/// `copse merge`.
+#[derive(Debug, Args)]
+pub struct MergeArgs {
+    /// Part files from 'copse train --tree-range', in any order, and at most one model
+    /// file whose trees come first (to grow it).
+    #[arg(required = true, value_name = "PART")]
+    pub parts: Vec<PathBuf>,
+
+    /// Where to write the merged model file.
+    #[arg(long, value_name = "MODEL")]
+    pub out: PathBuf,
+
+    /// The training data the parts were grown on (the out-of-bag figures and importance
+    /// are computed from it again) [default: the file the parts name].
+    #[arg(long, value_name = "FILE")]
+    pub data: Option<String>,
+
+    /// Field separator of the training data.
+    #[arg(long, value_enum, default_value = "comma", value_name = "SEP")]
+    pub delimiter: DelimiterArg,
+
+    /// Print the report as one JSON object instead of text.
+    #[arg(long)]
+    pub json: bool,
 }
 
 /// `copse score`.
@@ -327,6 +363,21 @@ pub struct ScoreArgs {
     /// error, instead of stopping with an error.
     #[arg(long)]
     pub blank_unscorable: bool,
+
+    /// The input has no header row: these names its columns, in order, and its first
+    /// line is a row (for pieces of a larger file in a pipeline).
+    #[arg(long, value_name = "COL,...", value_delimiter = ',')]
+    pub columns: Vec<String>,
+
+    /// Leave the header row out of the CSV output (for pieces joined later).
+    #[arg(long)]
+    pub omit_header: bool,
+
+    /// Output format: csv, json-lines (one JSON object per row, numbers as numbers,
+    /// empty cells as null) or parquet (a file: text, 64-bit float and boolean
+    /// columns, empty cells null).
+    #[arg(long, value_enum, default_value = "csv", value_name = "FORMAT")]
+    pub out_format: OutFormat,
 
     /// Rows read and scored together (memory use grows with it); by default sized
     /// from the model (see `copse_forest::Forest::scoring_block_rows`).
@@ -557,6 +608,40 @@ fn parse_coverage(s: &str) -> Result<f64, String> {
             "'{s}' is not a coverage strictly between 0 and 1; give one such as 0.9 (for a range \
              from the 5% to the 95% quantile)"
         )),
+    }
+}
+
+/// Trees `start..end` of a forest (counting from 0, `end` left out), as
+/// `--tree-range` gives them (kept small: the arguments of every command share one
+/// enum).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct TreeRange {
+    /// The first tree.
+    pub start: u32,
+    /// One past the last tree.
+    pub end: u32,
+}
+
+impl TreeRange {
+    /// As a range of indices.
+    pub fn indices(self) -> std::ops::Range<usize> {
+        self.start as usize..self.end as usize
+    }
+}
+
+/// Reads `A..B` (tree indices counting from 0, B left out, A < B).
+fn parse_tree_range(s: &str) -> Result<TreeRange, String> {
+    let bad = || {
+        format!(
+            "'{s}' is not a range of trees; write A..B with whole numbers A < B, for example \
+             0..100 for the first hundred trees"
+        )
+    };
+    let (a, b) = s.trim().split_once("..").ok_or_else(bad)?;
+    let (a, b) = (a.trim().parse::<u32>(), b.trim().parse::<u32>());
+    match (a, b) {
+        (Ok(start), Ok(end)) if start < end => Ok(TreeRange { start, end }),
+        _ => Err(bad()),
     }
 }
 

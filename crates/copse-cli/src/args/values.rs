@@ -97,3 +97,14 @@ impl From<CutsArg> for CutChoice {
         }
     }
 }
+
+/// How `copse score` writes its rows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum OutFormat {
+    /// Comma-separated values with a header row (unless --omit-header).
+    Csv,
+    /// One JSON object per line.
+    JsonLines,
+    /// A Parquet file (needs --out FILE), one row group per block of rows.
+    Parquet,
+}

@@ -83,6 +83,7 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
             ..DecisionArgs::default()
         },
         allow_large: false,
+        tree_range: None,
     };
     let mut text = String::new();
     let _ = writeln!(
@@ -106,6 +107,9 @@ pub fn run(a: &DemoArgs, ui: &Ui) -> CliResult<()> {
         flag_unfamiliar: false,
         csv,
         blank_unscorable: false,
+        columns: Vec::new(),
+        omit_header: false,
+        out_format: crate::args::OutFormat::Csv,
         block_rows: None,
     };
     let scored = score::score(&sargs, ui)?;

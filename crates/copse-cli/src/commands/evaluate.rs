@@ -12,8 +12,9 @@ use crate::report::judged::{Judged, Scores};
 use crate::report::notices::TrainingRowsView;
 use crate::report::{self, Style};
 use crate::ui::Ui;
+use copse_data::Labelled;
 use copse_forest::metrics::{class_metrics_weighted, value_metrics_weighted};
-use copse_forest::{Evaluation, Metrics, Outcome, Task};
+use copse_forest::{Evaluation, Forest, Metrics, Outcome, Task};
 
 /// Runs `copse evaluate`.
 ///
@@ -44,49 +45,22 @@ pub fn run(a: &EvaluateArgs, ui: &Ui) -> CliResult<()> {
             )));
         }
     }
-    let context = format!("cannot evaluate on {source}");
-    // One prediction serves the measures and the decision tables; the measures are the
-    // engine's own (`Forest::evaluate` computes them the same way), and when none can
-    // be computed the engine's evaluation says why.
-    let preds = model
-        .predict(data.x.view())
-        .map_err(|e| forest_error(&e, &context))?;
-    // With the model's case weights column in the file, every figure weighs rows by it.
-    let weights = data.weights.as_deref();
-    if let (Some(w), None) = (&model.card().weights, weights) {
+    if let (Some(w), None) = (&model.card().weights, &data.weights) {
         ui.note(&format!(
             "the model was trained with case weights from '{}', which {source} lacks; the \
              figures count every row once",
             w.column
         ));
     }
-    let metrics = match &data.outcome {
-        Outcome::Classes { codes, .. } => {
-            class_metrics_weighted(codes, preds.view(), weights).map(Metrics::Classes)
-        }
-        Outcome::Values(y) => {
-            value_metrics_weighted(y, &preds.column(0).to_vec(), weights).map(Metrics::Values)
-        }
-    };
-    let eval = match metrics {
-        Some(metrics) => Evaluation {
-            metrics,
-            rows_missing_outcome: data.rows - data.outcome.n_labelled(),
-        },
-        None => model
-            .evaluate_weighted(data.x.view(), &data.outcome, weights)
-            .map_err(|e| forest_error(&e, &context))?,
-    };
-    let unseen: u64 = data.encoder.unseen_counts().iter().sum();
-    let judged = Judged::new(
+    let Measured {
+        eval,
+        judged,
+        unseen,
+    } = measure(
         &model,
-        Scores {
-            preds: preds.view(),
-            outcome: &data.outcome,
-            kind: "held-out",
-            training_rows: Some(TrainingRowsView::new(&model, data.x.view(), "evaluation")),
-            by: a.by.as_deref().zip(by_cells.as_deref()),
-        },
+        &data,
+        &source,
+        a.by.as_deref().zip(by_cells.as_deref()),
         &a.decision,
     )?;
     if let Some(w) = judged
@@ -140,4 +114,72 @@ pub fn run(a: &EvaluateArgs, ui: &Ui) -> CliResult<()> {
         return report::print_json(&view);
     }
     emit(&view.text(Style::new(ui.stdout_colour())))
+}
+
+/// What `copse evaluate` measures on labelled rows, from one prediction.
+pub struct Measured<'a> {
+    /// The engine's measures.
+    pub eval: Evaluation,
+    /// The decision layer on the same predictions, with the training-row check.
+    pub judged: Judged<'a>,
+    /// Cells holding categories the model never saw.
+    pub unseen: u64,
+}
+
+/// Measures `model` on the labelled rows `data` read from `source`, grouped by the
+/// column `by` (its name and each row's cell) when given, with the decision options
+/// `decision`.
+///
+/// # Errors
+/// Input errors for rows the model cannot judge or decision options that do not fit.
+pub fn measure<'a>(
+    model: &'a Forest,
+    data: &Labelled,
+    source: &str,
+    by: Option<(&str, &[Option<String>])>,
+    decision: &crate::decision_args::DecisionArgs,
+) -> CliResult<Measured<'a>> {
+    let context = format!("cannot evaluate on {source}");
+    // One prediction serves the measures and the decision tables; the measures are the
+    // engine's own (`Forest::evaluate` computes them the same way), and when none can
+    // be computed the engine's evaluation says why.
+    let preds = model
+        .predict(data.x.view())
+        .map_err(|e| forest_error(&e, &context))?;
+    // With the model's case weights column in the file, every figure weighs rows by it.
+    let weights = data.weights.as_deref();
+    let metrics = match &data.outcome {
+        Outcome::Classes { codes, .. } => {
+            class_metrics_weighted(codes, preds.view(), weights).map(Metrics::Classes)
+        }
+        Outcome::Values(y) => {
+            value_metrics_weighted(y, &preds.column(0).to_vec(), weights).map(Metrics::Values)
+        }
+    };
+    let eval = match metrics {
+        Some(metrics) => Evaluation {
+            metrics,
+            rows_missing_outcome: data.rows - data.outcome.n_labelled(),
+        },
+        None => model
+            .evaluate_weighted(data.x.view(), &data.outcome, weights)
+            .map_err(|e| forest_error(&e, &context))?,
+    };
+    let unseen: u64 = data.encoder.unseen_counts().iter().sum();
+    let judged = Judged::new(
+        model,
+        Scores {
+            preds: preds.view(),
+            outcome: &data.outcome,
+            kind: "held-out",
+            training_rows: Some(TrainingRowsView::new(model, data.x.view(), "evaluation")),
+            by,
+        },
+        decision,
+    )?;
+    Ok(Measured {
+        eval,
+        judged,
+        unseen,
+    })
 }

@@ -73,15 +73,7 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
         ui.wrote(&format!("importance chart: {}", path.display()));
     }
 
-    // For numbers, the rises are printed as shares of the forest's error on these rows.
-    let baseline = match model.task() {
-        copse_forest::Task::Regress => model
-            .evaluate(data.x.view(), &data.outcome)
-            .ok()
-            .map(|e| e.metrics.error())
-            .filter(|&b| b > 0.0),
-        copse_forest::Task::Classify => None,
-    };
+    let (baseline, training_rows) = held_out_context(&model, &data);
     // Beside the permutation ranking: how far each input moves a prediction on the
     // same rows (capped for cost; a model trained with class balancing has none).
     let contributions = match model.contribution_ranking(data.x.view(), copse_forest::RANKING_ROWS)
@@ -90,7 +82,6 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
         Err(e) if e.kind() == copse_forest::ErrorKind::InvalidSetting => None,
         Err(e) => return Err(forest_error(&e, &format!("cannot explain {source}"))),
     };
-    let training_rows = TrainingRowsView::new(&model, data.x.view(), "importance");
     if let Some(w) = &training_rows.warning {
         ui.warn(w);
     }
@@ -111,4 +102,25 @@ pub fn run(a: &ImportanceArgs, ui: &Ui) -> CliResult<()> {
         return report::print_json(&view);
     }
     emit(&view.text(Style::new(ui.stdout_colour())))
+}
+
+/// What a held-out importance report shows beside the rises, for `model` on the
+/// labelled rows `data`: for numbers, the forest's error on those rows (the rises are
+/// printed as shares of it), and the check of the rows against the training rows.
+pub fn held_out_context(
+    model: &copse_forest::Forest,
+    data: &copse_data::Labelled,
+) -> (Option<f64>, TrainingRowsView) {
+    let baseline = match model.task() {
+        copse_forest::Task::Regress => model
+            .evaluate(data.x.view(), &data.outcome)
+            .ok()
+            .map(|e| e.metrics.error())
+            .filter(|&b| b > 0.0),
+        copse_forest::Task::Classify => None,
+    };
+    (
+        baseline,
+        TrainingRowsView::new(model, data.x.view(), "importance"),
+    )
 }

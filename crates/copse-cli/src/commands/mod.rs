@@ -7,10 +7,12 @@ pub mod explain;
 pub mod importance;
 pub mod inspect;
 pub mod make_demo_data;
+pub mod merge;
 pub mod report_page;
 pub mod score;
 pub mod stability;
 pub mod train;
+pub mod train_part;
 pub mod tune;
 
 use crate::args::{Cli, Command};
@@ -41,6 +43,7 @@ pub fn run(cli: Cli) -> CliResult<()> {
         Command::Stability(a) => stability::run(&a, &ui),
         Command::Tune(a) => tune::run(&a, &ui),
         Command::Inspect(a) => inspect::run(&a, &ui),
+        Command::Merge(a) => merge::run(&a, &ui),
         Command::Demo(a) => demo::run(&a, &ui),
         Command::MakeDemoData(a) => make_demo_data::run(&a, &ui),
     })

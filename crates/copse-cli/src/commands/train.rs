@@ -42,6 +42,9 @@ pub struct TrainRun {
 /// # Errors
 /// Input errors for bad data or settings, failures when writing.
 pub fn run(a: &TrainArgs, ui: &Ui) -> CliResult<()> {
+    if let Some(range) = &a.tree_range {
+        return crate::commands::train_part::run(a, range.indices(), ui);
+    }
     let r = train(a, ui)?;
     crate::output::commit_all()?;
     for (what, path) in &r.outputs {
@@ -84,85 +87,7 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
 
     let data = read_training(&a.data, &a.roles, &a.csv, ui)?;
     check_positive(&a.decision, &data)?;
-    let sampling = chosen_sampling(a, ui);
-    if a.keep_draws && (sampling != Sampling::Bootstrap || a.balanced) {
-        return Err(CliError::input(
-            "--keep-draws is for standard errors, which assume plain bootstrap samples; use \
-             --sampling bootstrap without --balanced, or drop --keep-draws",
-        ));
-    }
-    if a.keep_leaf_rows && data.task != Task::Regress {
-        return Err(CliError::input(format!(
-            "--keep-leaf-rows keeps the training outcomes for ranges of a numeric target, but the \
-             target '{}' is read as classes; drop --keep-leaf-rows (class probabilities already \
-             say how sure the model is), or use --task regress if the target holds numbers",
-            data.target
-        )));
-    }
-    if a.keep_leaf_rows && a.roles.weights.is_some() {
-        return Err(CliError::input(
-            "--keep-leaf-rows weights the training outcomes by whole draws and does not take \
-             case weights yet; drop --keep-leaf-rows or --weights",
-        ));
-    }
-    if a.keep_draws && (a.roles.weights.is_some() || a.roles.group.is_some()) {
-        return Err(CliError::input(
-            "--keep-draws is for standard errors, which assume plain bootstrap draws of rows; \
-             drop --keep-draws, or --weights and --group",
-        ));
-    }
-    if a.shuffled_target_runs.is_some() && (a.roles.weights.is_some() || a.roles.group.is_some()) {
-        return Err(CliError::input(
-            "--shuffled-target-runs trains its forests on plain rows; it does not take case \
-             weights or groups yet: drop it, or --weights and --group",
-        ));
-    }
-    if a.balanced && a.roles.group.is_some() {
-        return Err(CliError::input(
-            "--balanced draws rows by class, and the groups of --group may mix classes; use one \
-             or the other",
-        ));
-    }
-    if a.roles.weights.is_some()
-        && a.roles.group.is_none()
-        && matches!(sampling, Sampling::Subsample(_))
-    {
-        return Err(CliError::input(
-            "--sampling subsample:F draws rows without replacement, which case weights do not \
-             define; use --sampling bootstrap or none with --weights (or add --group)",
-        ));
-    }
-    if a.shuffled_target_runs.is_some() && sampling == Sampling::Whole {
-        return Err(CliError::input(
-            "--shuffled-target-runs compares out-of-bag importances, and --sampling none leaves no \
-             row out of bag; use bootstrap or subsample:F",
-        ));
-    }
-    if a.balanced && data.task == Task::Regress {
-        return Err(CliError::input(
-            "--balanced draws the same number of rows from each class, so it needs a class target; \
-             drop --balanced or use --task classify",
-        ));
-    }
-
-    let fps = if a.bagging {
-        FeaturesPerSplit::Every
-    } else {
-        a.features_per_split.unwrap_or_default()
-    };
-    let settings = ForestSettings {
-        trees: a.trees as usize,
-        features_per_split: fps,
-        sampling,
-        balanced: a.balanced,
-        tree: copse_forest::TreeRules {
-            cuts: a.cuts.into(),
-            ..tree_settings(a.impurity, a.max_depth, a.min_leaf)
-        },
-        bins: a.bins as usize,
-        seed: a.seed,
-    };
-    check_features_per_split(fps, &data)?;
+    let settings = resolve_settings(a, &data, ui)?;
 
     if !a.allow_large {
         check_memory(&data, &settings, a)?;
@@ -289,6 +214,95 @@ pub fn train(a: &TrainArgs, ui: &Ui) -> CliResult<TrainRun> {
         json,
         outputs,
     })
+}
+
+/// The forest's settings from the options, refusing combinations that cannot work
+/// with this data.
+pub(crate) fn resolve_settings(
+    a: &TrainArgs,
+    data: &TrainingData,
+    ui: &Ui,
+) -> CliResult<ForestSettings> {
+    let sampling = chosen_sampling(a, ui);
+    if a.keep_draws && (sampling != Sampling::Bootstrap || a.balanced) {
+        return Err(CliError::input(
+            "--keep-draws is for standard errors, which assume plain bootstrap samples; use \
+             --sampling bootstrap without --balanced, or drop --keep-draws",
+        ));
+    }
+    if a.keep_leaf_rows && data.task != Task::Regress {
+        return Err(CliError::input(format!(
+            "--keep-leaf-rows keeps the training outcomes for ranges of a numeric target, but the \
+             target '{}' is read as classes; drop --keep-leaf-rows (class probabilities already \
+             say how sure the model is), or use --task regress if the target holds numbers",
+            data.target
+        )));
+    }
+    if a.keep_leaf_rows && a.roles.weights.is_some() {
+        return Err(CliError::input(
+            "--keep-leaf-rows weights the training outcomes by whole draws and does not take \
+             case weights yet; drop --keep-leaf-rows or --weights",
+        ));
+    }
+    if a.keep_draws && (a.roles.weights.is_some() || a.roles.group.is_some()) {
+        return Err(CliError::input(
+            "--keep-draws is for standard errors, which assume plain bootstrap draws of rows; \
+             drop --keep-draws, or --weights and --group",
+        ));
+    }
+    if a.shuffled_target_runs.is_some() && (a.roles.weights.is_some() || a.roles.group.is_some()) {
+        return Err(CliError::input(
+            "--shuffled-target-runs trains its forests on plain rows; it does not take case \
+             weights or groups yet: drop it, or --weights and --group",
+        ));
+    }
+    if a.balanced && a.roles.group.is_some() {
+        return Err(CliError::input(
+            "--balanced draws rows by class, and the groups of --group may mix classes; use one \
+             or the other",
+        ));
+    }
+    if a.roles.weights.is_some()
+        && a.roles.group.is_none()
+        && matches!(sampling, Sampling::Subsample(_))
+    {
+        return Err(CliError::input(
+            "--sampling subsample:F draws rows without replacement, which case weights do not \
+             define; use --sampling bootstrap or none with --weights (or add --group)",
+        ));
+    }
+    if a.shuffled_target_runs.is_some() && sampling == Sampling::Whole {
+        return Err(CliError::input(
+            "--shuffled-target-runs compares out-of-bag importances, and --sampling none leaves no \
+             row out of bag; use bootstrap or subsample:F",
+        ));
+    }
+    if a.balanced && data.task == Task::Regress {
+        return Err(CliError::input(
+            "--balanced draws the same number of rows from each class, so it needs a class target; \
+             drop --balanced or use --task classify",
+        ));
+    }
+
+    let fps = if a.bagging {
+        FeaturesPerSplit::Every
+    } else {
+        a.features_per_split.unwrap_or_default()
+    };
+    let settings = ForestSettings {
+        trees: a.trees as usize,
+        features_per_split: fps,
+        sampling,
+        balanced: a.balanced,
+        tree: copse_forest::TreeRules {
+            cuts: a.cuts.into(),
+            ..tree_settings(a.impurity, a.max_depth, a.min_leaf)
+        },
+        bins: a.bins as usize,
+        seed: a.seed,
+    };
+    check_features_per_split(fps, data)?;
+    Ok(settings)
 }
 
 /// The sampling asked for, or else the usual one for the cut choice (every row in

@@ -1,7 +1,7 @@
 //! Saving and loading a [`Forest`]: its file bytes through the container, written
 //! through a temporary file and a rename, read back with every check. Files of format
 //! 3 (before leaf rows could be kept) are read as models without leaf rows.
-use super::{decode_payload, encode, open, read_file};
+use super::{decode_as, encode, read_file_as, MODEL};
 use crate::error::{io_reason, Error, ErrorKind, Result};
 use crate::forest::Forest;
 use std::io::{self, Write};
@@ -45,7 +45,7 @@ impl Forest {
     /// # Errors
     /// As for [`Forest::load`], without `Io`.
     pub fn from_bytes(bytes: &[u8], name: &str) -> Result<Forest> {
-        let forest: Forest = decode_payload(open(bytes, name)?.1, name)?;
+        let forest: Forest = decode_as(&MODEL, bytes, name)?;
         forest.checked(name)
     }
 
@@ -104,7 +104,7 @@ impl Forest {
     /// `FileTooLarge` or `InvalidModel`, each naming the file and saying what to do.
     pub fn load(path: impl AsRef<Path>) -> Result<Forest> {
         let path = path.as_ref();
-        Forest::from_bytes(&read_file(path)?, &path.display().to_string())
+        Forest::from_bytes(&read_file_as(&MODEL, path)?, &path.display().to_string())
     }
 
     fn checked(self, name: &str) -> Result<Forest> {

@@ -10,6 +10,9 @@
 //! | n | payload: the model, encoded with bincode 2 through serde |
 //! | 4 | CRC-32 (IEEE) of every byte before it |
 //!
+//! A part file ([`crate::part`]: some trees of a forest, to be merged) uses the same
+//! container under its own marker and format version.
+//!
 //! The marker's high first byte and CR LF pair show up damage from text-mode copies.
 //! The codec lives only in this file, so it can change behind a new format version.
 //! Reading never trusts the file: the length must match the file's size before any
@@ -41,6 +44,28 @@ pub const TRAILER_LEN: usize = 4;
 /// Largest model file copse agrees to read (64 GiB).
 pub const MAX_FILE_BYTES: u64 = 64 << 30;
 
+/// One kind of file in the container: its marker, the format version this build
+/// writes and reads, and the words its messages use.
+pub(crate) struct Kind {
+    pub(crate) magic: [u8; 8],
+    pub(crate) version: u16,
+    /// The oldest format version this build reads.
+    pub(crate) oldest: u16,
+    /// What the file holds, as in "not a copse model".
+    pub(crate) noun: &'static str,
+    /// The command that makes one, quoted.
+    pub(crate) tool: &'static str,
+}
+
+/// The model file.
+pub(crate) const MODEL: Kind = Kind {
+    magic: MAGIC,
+    version: FORMAT_VERSION,
+    oldest: OLDEST_READ_VERSION,
+    noun: "model",
+    tool: "'copse train'",
+};
+
 fn fault(kind: ErrorKind, message: String) -> Error {
     Error::new(kind, message)
 }
@@ -54,6 +79,11 @@ fn config() -> bincode::config::Configuration {
 /// # Errors
 /// `InvalidModel` when the value cannot be encoded.
 pub fn encode<T: Serialize>(value: &T) -> Result<Vec<u8>> {
+    encode_as(&MODEL, value)
+}
+
+/// Encodes `value` into the complete bytes of a file of kind `kind`.
+pub(crate) fn encode_as<T: Serialize>(kind: &Kind, value: &T) -> Result<Vec<u8>> {
     // The payload is measured first (encoded into a counter), then encoded straight
     // after the header into a buffer of exactly the file's size: a model of several
     // gigabytes is held once more as bytes, not two or three times (a growing payload
@@ -62,19 +92,19 @@ pub fn encode<T: Serialize>(value: &T) -> Result<Vec<u8>> {
     bincode::serde::encode_into_std_write(value, &mut counter, config()).map_err(|e| {
         Error::new(
             ErrorKind::InvalidModel,
-            format!("could not encode the model: {e}"),
+            format!("could not encode the {}: {e}", kind.noun),
         )
     })?;
     let mut bytes = Vec::with_capacity(HEADER_LEN + counter.0 + TRAILER_LEN);
-    bytes.extend_from_slice(&MAGIC);
-    bytes.extend_from_slice(&FORMAT_VERSION.to_le_bytes());
+    bytes.extend_from_slice(&kind.magic);
+    bytes.extend_from_slice(&kind.version.to_le_bytes());
     bytes.extend_from_slice(&0u16.to_le_bytes());
     bytes.extend_from_slice(&0u64.to_le_bytes());
     debug_assert_eq!(bytes.len(), HEADER_LEN);
     let len = bincode::serde::encode_into_std_write(value, &mut bytes, config()).map_err(|e| {
         Error::new(
             ErrorKind::InvalidModel,
-            format!("could not encode the model: {e}"),
+            format!("could not encode the {}: {e}", kind.noun),
         )
     })?;
     bytes[HEADER_LEN - 8..HEADER_LEN].copy_from_slice(&(len as u64).to_le_bytes());
@@ -97,20 +127,21 @@ impl Write for Counter {
 }
 
 /// Checks the header of a model file and returns the payload length it claims.
-fn check_header(header: &[u8], file_len: u64, name: &str) -> Result<u64> {
+fn check_header(kind: &Kind, header: &[u8], file_len: u64, name: &str) -> Result<u64> {
+    let (noun, tool, current) = (kind.noun, kind.tool, kind.version);
     use ErrorKind::*;
     if file_len == 0 {
         return Err(fault(
             NotAModel,
-            format!("{name} is empty, not a copse model; make one with 'copse train'"),
+            format!("{name} is empty, not a copse {noun}; make one with {tool}"),
         ));
     }
-    if header.len() < MAGIC.len() || header[..MAGIC.len()] != MAGIC {
+    if header.len() < kind.magic.len() || header[..kind.magic.len()] != kind.magic {
         return Err(fault(
             NotAModel,
             format!(
-                "{name} is not a copse model file (it lacks the model marker at its start); \
-                 check the path, or make a model with 'copse train'"
+                "{name} is not a copse {noun} file (it lacks the {noun} marker at its start); \
+                 check the path, or make a {noun} with {tool}"
             ),
         ));
     }
@@ -123,22 +154,22 @@ fn check_header(header: &[u8], file_len: u64, name: &str) -> Result<u64> {
         ));
     }
     let version = u16::from_le_bytes([header[8], header[9]]);
-    if version > FORMAT_VERSION {
+    if version > current {
         return Err(fault(
             NewerFormat,
             format!(
-                "{name} was written by a newer copse (model format {version}; this copse reads format \
-                 {FORMAT_VERSION} and older); upgrade copse to use it"
+                "{name} was written by a newer copse ({noun} format {version}; this copse reads format \
+                 {current} and older); upgrade copse to use it"
             ),
         ));
     }
-    if (1..OLDEST_READ_VERSION).contains(&version) {
+    if (1..kind.oldest).contains(&version) {
         return Err(fault(
             OlderFormat,
             format!(
-                "{name} was written by an earlier copse (model format {version}; this copse reads \
-                 format {FORMAT_VERSION} only); the model must be trained again with this copse \
-                 ('copse train')"
+                "{name} was written by an earlier copse ({noun} format {version}; this copse reads \
+                 format {current} only); the {noun} must be trained again with this copse \
+                 ({tool})"
             ),
         ));
     }
@@ -180,14 +211,19 @@ fn check_header(header: &[u8], file_len: u64, name: &str) -> Result<u64> {
 /// `Undecodable`, each
 /// with a message saying what to do.
 pub fn decode<T: DeserializeOwned>(bytes: &[u8], name: &str) -> Result<T> {
-    decode_payload(open(bytes, name)?.1, name)
+    decode_as(&MODEL, bytes, name)
 }
 
-/// Checks the container of a model file (marker, version, length, checksum) and
-/// returns its format version and payload; `name` names it in messages.
-pub(crate) fn open<'a>(bytes: &'a [u8], name: &str) -> Result<(u16, &'a [u8])> {
+/// Decodes the complete bytes of a file of kind `kind`.
+pub(crate) fn decode_as<T: DeserializeOwned>(kind: &Kind, bytes: &[u8], name: &str) -> Result<T> {
+    decode_payload(kind, open_as(kind, bytes, name)?, name)
+}
+
+/// Checks the container of a file of kind `kind` (marker, version, length, checksum)
+/// and returns its payload; `name` names it in messages.
+pub(crate) fn open_as<'a>(kind: &Kind, bytes: &'a [u8], name: &str) -> Result<&'a [u8]> {
     let head = &bytes[..bytes.len().min(HEADER_LEN)];
-    let claimed = check_header(head, bytes.len() as u64, name)?;
+    let claimed = check_header(kind, head, bytes.len() as u64, name)?;
     let body_end = HEADER_LEN + claimed as usize;
     let mut stored = [0u8; 4];
     stored.copy_from_slice(&bytes[body_end..body_end + TRAILER_LEN]);
@@ -202,10 +238,7 @@ pub(crate) fn open<'a>(bytes: &'a [u8], name: &str) -> Result<(u16, &'a [u8])> {
             ),
         ));
     }
-    Ok((
-        u16::from_le_bytes([bytes[8], bytes[9]]),
-        &bytes[HEADER_LEN..body_end],
-    ))
+    Ok(&bytes[HEADER_LEN..body_end])
 }
 
 /// Runs the decoder with a byte limit of `$bits` bits, the first that covers the payload.
@@ -226,7 +259,8 @@ macro_rules! decode_with_limit {
     }};
 }
 
-pub(crate) fn decode_payload<T: DeserializeOwned>(payload: &[u8], name: &str) -> Result<T> {
+fn decode_payload<T: DeserializeOwned>(kind: &Kind, payload: &[u8], name: &str) -> Result<T> {
+    let noun = kind.noun;
     // The limit bounds what the decoder may claim, and so allocate, to at most eight
     // times the payload's size (and at least 128 KiB).
     let result: std::result::Result<(T, usize), bincode::error::DecodeError> =
@@ -236,16 +270,16 @@ pub(crate) fn decode_payload<T: DeserializeOwned>(payload: &[u8], name: &str) ->
         Ok((_, used)) => Err(fault(
             ErrorKind::Undecodable,
             format!(
-                "{name} could not be read: {} unexpected bytes follow the model; it was not written by this \
-                 copse; retrain the model",
+                "{name} could not be read: {} unexpected bytes follow the {noun}; it was not written by this \
+                 copse; retrain the {noun}",
                 payload.len() - used
             ),
         )),
         Err(e) => Err(fault(
             ErrorKind::Undecodable,
             format!(
-                "{name} passed its checksum but its contents could not be read as a model ({e}); \
-                 it was not written by this copse; retrain the model"
+                "{name} passed its checksum but its contents could not be read as a {noun} ({e}); \
+                 it was not written by this copse; retrain the {noun}"
             ),
         )),
     }
@@ -256,20 +290,31 @@ pub(crate) fn decode_payload<T: DeserializeOwned>(payload: &[u8], name: &str) ->
 /// # Errors
 /// As for [`decode`], plus [`ErrorKind::Io`] and `FileTooLarge`.
 pub fn read<T: DeserializeOwned>(path: &Path) -> Result<T> {
-    decode(&read_file(path)?, &path.display().to_string())
+    read_as(&MODEL, path)
 }
 
-/// The bytes of the model file at `path`, its header checked before the rest is read.
+/// Reads and decodes the file of kind `kind` at `path`.
+pub(crate) fn read_as<T: DeserializeOwned>(kind: &Kind, path: &Path) -> Result<T> {
+    decode_as(
+        kind,
+        &read_file_as(kind, path)?,
+        &path.display().to_string(),
+    )
+}
+
+/// The bytes of the file of kind `kind` at `path`, its header checked before the rest
+/// is read.
 ///
 /// # Errors
 /// `Io`, `FileTooLarge`, and the header's faults as for [`decode`].
-pub(crate) fn read_file(path: &Path) -> Result<Vec<u8>> {
+pub(crate) fn read_file_as(kind: &Kind, path: &Path) -> Result<Vec<u8>> {
+    let noun = kind.noun;
     let name = path.display().to_string();
     let io_err = |e: io::Error| {
         fault(
             ErrorKind::Io,
             format!(
-                "cannot read the model {name}: {}; check the path",
+                "cannot read the {noun} {name}: {}; check the path",
                 io_reason(&e)
             ),
         )
@@ -277,7 +322,7 @@ pub(crate) fn read_file(path: &Path) -> Result<Vec<u8>> {
     if path.is_dir() {
         return Err(fault(
             ErrorKind::Io,
-            format!("{name} is a folder, not a model file; give the path of a model file"),
+            format!("{name} is a folder, not a {noun} file; give the path of a {noun} file"),
         ));
     }
     let mut f = File::open(path).map_err(io_err)?;
@@ -286,7 +331,7 @@ pub(crate) fn read_file(path: &Path) -> Result<Vec<u8>> {
         return Err(fault(
             ErrorKind::FileTooLarge,
             format!(
-                "{name} is {file_len} bytes, more than the {MAX_FILE_BYTES} copse reads; it is not a model copse wrote"
+                "{name} is {file_len} bytes, more than the {MAX_FILE_BYTES} copse reads; it is not a {noun} copse wrote"
             ),
         ));
     }
@@ -297,7 +342,7 @@ pub(crate) fn read_file(path: &Path) -> Result<Vec<u8>> {
         .take(HEADER_LEN as u64)
         .read_to_end(&mut head)
         .map_err(io_err)?;
-    check_header(&head, file_len, &name)?;
+    check_header(kind, &head, file_len, &name)?;
     let mut bytes = Vec::with_capacity(file_len as usize);
     bytes.extend_from_slice(&head);
     f.take(file_len - HEADER_LEN as u64)

@@ -45,7 +45,7 @@ pub fn run(a: &ExplainArgs, ui: &Ui) -> CliResult<()> {
     model
         .contributions(Array2::zeros((0, model.n_features())).view())
         .map_err(|e| forest_error(&e, &format!("cannot explain with {}", a.model.display())))?;
-    let mut src = open_input(&a.data, &a.csv, &model)?;
+    let mut src = open_input(&a.data, &a.csv, &[], &model)?;
     let keep = kept_columns(&a.keep, &src.input)?;
     let layout = Layout::new(&model, &a.keep, usize::from(a.top))?;
     let mut out = Output::create(a.out.as_deref())?;

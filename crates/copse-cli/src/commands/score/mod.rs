@@ -13,9 +13,9 @@
 pub(crate) mod blocks;
 mod plain_rows;
 pub(crate) mod rows;
-mod unfamiliar;
+pub mod unfamiliar;
 
-use crate::args::ScoreArgs;
+use crate::args::{OutFormat, ScoreArgs};
 use crate::error::{CliError, CliResult};
 use crate::numbers::count;
 use crate::output::{refuse_overwrite, Output};
@@ -24,7 +24,7 @@ use blocks::{each_block, Block, BlockReader, Unscorable};
 use copse_data::{CsvInput, Missing, RowEncoder};
 use copse_forest::{Forest, Unfamiliar};
 pub(crate) use rows::target_size;
-use rows::{csv_text, RowWriter};
+use rows::{csv_text, Cell, RowWriter};
 use std::io::Write;
 
 /// What a scoring run did.
@@ -56,7 +56,7 @@ pub fn run(a: &ScoreArgs, ui: &Ui) -> CliResult<()> {
 /// As for [`run`].
 pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     let model = open_model(a)?;
-    let mut src = open_input(&a.data, &a.csv, &model)?;
+    let mut src = open_input(&a.data, &a.csv, &a.columns, &model)?;
     let keep = kept_columns(&a.keep, &src.input)?;
     let header = output_header(a, model.classes())?;
     check_interval(a, &model)?;
@@ -68,7 +68,7 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
     if let Some(warning) = unfamiliar::warning(
         &model,
         &written.unfamiliar,
-        &src.enc,
+        src.enc.unseen_counts().iter().sum(),
         written.unfamiliar_rows,
         written.rows,
     ) {
@@ -88,6 +88,11 @@ pub fn score(a: &ScoreArgs, ui: &Ui) -> CliResult<ScoreRun> {
 /// Input errors for an output over an input, a bad model file or a model without draws.
 fn open_model(a: &ScoreArgs) -> CliResult<Forest> {
     refuse_overwrite(&a.data, a.out.as_deref(), "output file")?;
+    if a.out_format == OutFormat::Parquet && a.out.as_deref().is_none_or(|o| o == "-") {
+        return Err(CliError::input(
+            "--out-format parquet writes a file, not standard output; give --out FILE",
+        ));
+    }
     if let Some(out) = &a.out {
         if out != "-" && std::path::Path::new(out) == a.model.as_path() {
             return Err(CliError::input(
@@ -144,16 +149,23 @@ pub(crate) struct Source {
     pub(crate) enc: RowEncoder,
 }
 
-/// Opens the rows to score, with missing tokens as given or else the model's.
+/// Opens the rows to score (a headerless input when `columns` names its columns), with
+/// missing tokens as given or else the model's.
 ///
 /// # Errors
 /// Input errors for a file that cannot be read or lacks the model's columns.
 pub(crate) fn open_input(
     data: &str,
     csv: &crate::args::CsvArgs,
+    columns: &[String],
     model: &Forest,
 ) -> CliResult<Source> {
-    let input = crate::commands::open_for_model(data, csv, model)?;
+    let input = if columns.is_empty() {
+        crate::commands::open_for_model(data, csv, model)?
+    } else {
+        let mark = csv.decimal.map_or(model.card().decimal_mark, Into::into);
+        CsvInput::open_headerless(data, csv.delimiter.into(), columns)?.with_decimal(mark)
+    };
     let missing = csv
         .missing
         .as_deref()
@@ -214,6 +226,67 @@ fn output_header(a: &ScoreArgs, classes: &[String]) -> CliResult<Vec<String>> {
     Ok(header)
 }
 
+/// What each output column holds: text (kept cells, class labels), a number, or the
+/// unfamiliar flag.
+fn cell_kinds(a: &ScoreArgs, classes: &[String], header: &[String]) -> Vec<Cell> {
+    let kept = a.keep.len();
+    (0..header.len())
+        .map(|j| {
+            if j < kept || (j == kept && !classes.is_empty()) {
+                Cell::Text
+            } else if a.flag_unfamiliar && j == header.len() - 1 {
+                Cell::Flag
+            } else {
+                Cell::Number
+            }
+        })
+        .collect()
+}
+
+/// With JSON lines, each output column's name as JSON text and what it holds.
+fn json_columns(
+    a: &ScoreArgs,
+    classes: &[String],
+    header: &[String],
+) -> Option<Vec<(String, Cell)>> {
+    (a.out_format == OutFormat::JsonLines).then(|| {
+        header
+            .iter()
+            .zip(cell_kinds(a, classes, header))
+            .map(|(h, k)| (serde_json::Value::from(h.as_str()).to_string(), k))
+            .collect()
+    })
+}
+
+/// With Parquet output, the writer of its row groups.
+///
+/// # Errors
+/// When the writer cannot start.
+fn parquet_sink(
+    a: &ScoreArgs,
+    classes: &[String],
+    header: &[String],
+    name: &str,
+) -> CliResult<Option<copse_data::parquet_output::ScoredWriter>> {
+    use copse_data::parquet_output::{ColumnKind, ScoredWriter};
+    if a.out_format != OutFormat::Parquet {
+        return Ok(None);
+    }
+    let columns: Vec<(String, ColumnKind)> = header
+        .iter()
+        .zip(cell_kinds(a, classes, header))
+        .map(|(h, k)| {
+            let kind = match k {
+                Cell::Text => ColumnKind::Text,
+                Cell::Number => ColumnKind::Number,
+                Cell::Flag => ColumnKind::Flag,
+            };
+            (h.clone(), kind)
+        })
+        .collect();
+    Ok(Some(ScoredWriter::new(name, &columns)?))
+}
+
 /// What writing the rows did.
 struct Written {
     /// Rows written, one per row read.
@@ -245,7 +318,12 @@ fn write_blocks(
     let out_name = out.name().to_string();
     let to_stdout = matches!(out, Output::Stdout(_));
     let delimiter = copse_data::Delimiter::from(a.csv.delimiter).byte();
-    let header_text = csv_text(delimiter, 256, |w| w.write_record(header))?;
+    let json = json_columns(a, forest.classes(), header);
+    let header_text = if a.omit_header || json.is_some() || a.out_format == OutFormat::Parquet {
+        Vec::new()
+    } else {
+        csv_text(delimiter, 256, |w| w.write_record(header))?
+    };
     // The header goes out with the first block, so a fault in the first rows leaves
     // standard output empty.
     let mut header_written = false;
@@ -262,6 +340,7 @@ fn write_blocks(
         uncertainty: a.uncertainty,
         interval: a.interval,
         delimiter,
+        json: json.as_deref(),
     };
     let mut written = Written {
         rows: 0,
@@ -288,10 +367,22 @@ fn write_blocks(
         out.write_all(text)
             .map_err(|e| CliError::write(&out_name, &e))
     };
+    let mut parquet = parquet_sink(a, forest.classes(), header, &out_name)?;
     let mut emit = |b: &Block| -> CliResult<()> {
         *unfamiliar_rows += unfamiliar::flag_block(ranges, b, p, &mut flags)?;
         let (texts, c) = writer.block_text(b, a.flag_unfamiliar.then_some(&flags[..]))?;
         clamped += c;
+        if let Some(sink) = parquet.as_mut() {
+            let mut text = Vec::new();
+            for t in texts {
+                text.extend(t?);
+            }
+            sink.write_csv_block(&text, delimiter)?;
+            put(out, &sink.take_bytes())?;
+            rows += b.m as u64;
+            bar.advance_to(b.bytes as usize);
+            return Ok(());
+        }
         if !header_written {
             put(out, &header_text)?;
             header_written = true;
@@ -315,7 +406,9 @@ fn write_blocks(
         &mut emit,
     )?;
     bar.finish();
-    if !header_written {
+    if let Some(sink) = parquet {
+        put(out, &sink.finish()?)?;
+    } else if !header_written {
         put(out, &header_text)?;
     }
     written.rows = rows;

@@ -24,6 +24,43 @@ pub(crate) struct RowWriter<'a> {
     pub(crate) interval: Option<f64>,
     /// The CSV delimiter.
     pub(crate) delimiter: u8,
+    /// With JSON lines, each output column's name (as JSON text) and kind; `None`
+    /// for CSV.
+    pub(crate) json: Option<&'a [(String, Cell)]>,
+}
+
+/// What an output column holds, for JSON lines: text (kept cells, class labels), a
+/// number, or a yes/no flag. An empty cell is `null`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum Cell {
+    /// A string.
+    Text,
+    /// A number, written as in the CSV output.
+    Number,
+    /// `true` for 1, `false` for 0.
+    Flag,
+}
+
+/// One JSON object on one line from the row's cells.
+fn json_line(out: &mut Vec<u8>, columns: &[(String, Cell)], fields: &csv::StringRecord) {
+    out.push(b'{');
+    for (j, ((name, kind), cell)) in columns.iter().zip(fields.iter()).enumerate() {
+        if j > 0 {
+            out.push(b',');
+        }
+        out.extend_from_slice(name.as_bytes());
+        out.push(b':');
+        match kind {
+            _ if cell.is_empty() => out.extend_from_slice(b"null"),
+            Cell::Text => {
+                let quoted = serde_json::to_string(cell).unwrap_or_else(|_| "null".into());
+                out.extend_from_slice(quoted.as_bytes());
+            }
+            Cell::Number => out.extend_from_slice(cell.as_bytes()),
+            Cell::Flag => out.extend_from_slice(if cell == "1" { b"true" } else { b"false" }),
+        }
+    }
+    out.extend_from_slice(b"}\n");
 }
 
 impl RowWriter<'_> {
@@ -78,31 +115,34 @@ impl RowWriter<'_> {
             .into_par_iter()
             .map(|c| {
                 let part = c * TEXT_ROWS..((c + 1) * TEXT_ROWS).min(m);
-                csv_text(self.delimiter, part.len() * 64, |w| {
-                    // Fields go to the writer one by one, numbers through one reused
+                let mut lines = Vec::new();
+                let text = csv_text(self.delimiter, part.len() * 64, |w| {
+                    // Fields gather in one reused record, numbers through one reused
                     // buffer: no text is allocated per cell.
+                    let mut fields = csv::StringRecord::new();
                     let mut cell = String::with_capacity(32);
                     let mut probs: Vec<f64> = Vec::with_capacity(classes.len());
                     for i in part {
+                        fields.clear();
                         for c in 0..self.keep.len() {
-                            w.write_field(b.kept[i].get(c).unwrap_or(""))?;
+                            fields.push_field(b.kept[i].get(c).unwrap_or(""));
                         }
                         if b.blank[i] {
                             // An empty prediction and empty probabilities: the row is
                             // kept in its place, never dropped.
                             for _ in 0..out_fields {
-                                w.write_field("")?;
+                                fields.push_field("");
                             }
                         } else if classes.is_empty() {
                             fixed_into(&mut cell, preds[[i, 0]], d);
-                            w.write_field(&cell)?;
+                            fields.push_field(&cell);
                         } else {
                             probs.clear();
                             probs.extend(preds.row(i).iter());
-                            w.write_field(forest.class_label(&probs).unwrap_or(""))?;
+                            fields.push_field(forest.class_label(&probs).unwrap_or(""));
                             for &v in &probs {
                                 fixed_into(&mut cell, v, d);
-                                w.write_field(&cell)?;
+                                fields.push_field(&cell);
                             }
                         }
                         if let Some(se) = &se {
@@ -112,7 +152,7 @@ impl RowWriter<'_> {
                                 if !b.blank[i] {
                                     fixed_into(&mut cell, v, d);
                                 }
-                                w.write_field(&cell)?;
+                                fields.push_field(&cell);
                             }
                         }
                         if let Some(ranges) = &ranges {
@@ -122,21 +162,29 @@ impl RowWriter<'_> {
                                 if !b.blank[i] {
                                     fixed_into(&mut cell, v, d);
                                 }
-                                w.write_field(&cell)?;
+                                fields.push_field(&cell);
                             }
                         }
                         if let Some(flags) = unfamiliar {
                             // An unscorable row was not judged: its cell stays empty.
-                            w.write_field(match (b.blank[i], flags[i]) {
+                            fields.push_field(match (b.blank[i], flags[i]) {
                                 (true, _) => "",
                                 (false, true) => "1",
                                 (false, false) => "0",
-                            })?;
+                            });
                         }
-                        w.write_record(None::<&[u8]>)?;
+                        match self.json {
+                            Some(columns) => json_line(&mut lines, columns, &fields),
+                            None => w.write_record(&fields)?,
+                        }
                     }
                     Ok(())
-                })
+                });
+                if self.json.is_some() {
+                    text.map(|_| lines)
+                } else {
+                    text
+                }
             })
             .collect();
         Ok((texts, clamped))

@@ -4,7 +4,6 @@
 use super::blocks::Block;
 use crate::error::{CliError, CliResult};
 use crate::numbers::count;
-use copse_data::RowEncoder;
 use copse_forest::{Familiar, Forest, Unfamiliar};
 use ndarray::ArrayView2;
 
@@ -36,13 +35,13 @@ pub(super) fn flag_block(
 }
 
 /// The warning for a run that met `rows` flagged rows out of `scored`: the cells of
-/// each numeric input outside its training range, with examples, and the rows with
-/// unseen categories (named in the encoder's own warning); `None` when no row was
-/// flagged.
-pub(super) fn warning(
+/// each numeric input outside its training range, with examples, and the `unseen`
+/// cells with unseen categories (named in the encoder's own warning); `None` when no
+/// row was flagged.
+pub fn warning(
     forest: &Forest,
     ranges: &Unfamiliar,
-    enc: &RowEncoder,
+    unseen: u64,
     rows: u64,
     scored: u64,
 ) -> Option<String> {
@@ -70,7 +69,6 @@ pub(super) fn warning(
             )
         })
         .collect();
-    let unseen: u64 = enc.unseen_counts().iter().sum();
     if unseen > 0 {
         parts.push(format!(
             "{} holding a category never seen in training (named above)",
