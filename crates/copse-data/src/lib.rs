@@ -53,12 +53,12 @@ pub mod encode;
 pub mod error;
 pub mod frame;
 mod infer;
-pub mod plain;
 #[cfg(feature = "parquet")]
 pub mod parquet_input;
 #[cfg(feature = "parquet")]
 pub mod parquet_output;
 pub mod parts;
+pub mod plain;
 pub mod records;
 pub mod roles;
 pub mod row_roles;
