@@ -23,13 +23,13 @@
 //! outcome.
 use crate::error::{Error, ErrorKind, Result};
 use crate::forest::Forest;
+pub use crate::leaf_rows::IntervalCheck;
 use crate::leaf_rows::{LeafRows, TreeRows};
 use crate::oob::OobMask;
 use crate::task::Task;
 use copse_tree::Tree;
 use ndarray::{Array2, ArrayView2};
 use rayon::prelude::*;
-use serde::{Deserialize, Serialize};
 
 /// Rows scored together: each tree descends the block's rows in one pass, and the
 /// block's leaves (`rows x trees` numbers) stay in cache while the rows gather their
@@ -41,36 +41,6 @@ const SLACK: f64 = 1e-12;
 
 /// Coverage of the out-of-bag ranges measured at training.
 pub const OOB_CHECK_LEVEL: f64 = 0.9;
-
-/// How often outcomes fell inside their ranges: the out-of-bag check made at training
-/// ([`LeafRows::oob_check`]).
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct IntervalCheck {
-    /// The coverage the ranges were made for (0.9: from the 5% to the 95% quantile).
-    pub level: f64,
-    /// Rows judged: rows with a known outcome that at least one tree left out.
-    pub rows: usize,
-    /// Rows whose outcome lay inside its range (ends included).
-    pub inside: usize,
-    /// Mean width of the ranges (high end minus low end), in outcome units.
-    pub mean_width: f64,
-}
-
-impl IntervalCheck {
-    /// Share of the rows judged whose outcome lay inside its range (NaN with no row).
-    pub fn share_inside(&self) -> f64 {
-        self.inside as f64 / self.rows as f64
-    }
-
-    pub(crate) fn is_sound(&self) -> bool {
-        self.level > 0.0
-            && self.level < 1.0
-            && self.inside <= self.rows
-            && self.rows > 0
-            && self.mean_width.is_finite()
-            && self.mean_width >= 0.0
-    }
-}
 
 /// Quantiles of weighted values at `levels` (each in `[0, 1]`): for each level `a`,
 /// the smallest value whose cumulative weight, values taken in ascending order,

@@ -16,7 +16,6 @@
 //! A draw count above 255 is stored as 255; with bootstrap samples that needs one row
 //! drawn 255 times out of `n` draws, which has probability below `1 / 255!`.
 use crate::error::{Error, ErrorKind, Result};
-use crate::intervals::IntervalCheck;
 use copse_tree::Tree;
 use ndarray::ArrayView2;
 use serde::{Deserialize, Serialize};
@@ -222,5 +221,35 @@ mod tests {
         let (rank, sorted) = outcome_ranks(&[3.0, f64::NAN, -1.0, 3.0, 0.5]);
         assert_eq!(sorted, vec![-1.0, 0.5, 3.0, 3.0]);
         assert_eq!(rank, vec![2, u32::MAX, 0, 3, 1]);
+    }
+}
+
+/// How often outcomes fell inside their ranges: the out-of-bag check made at training
+/// ([`LeafRows::oob_check`]).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct IntervalCheck {
+    /// The coverage the ranges were made for (0.9: from the 5% to the 95% quantile).
+    pub level: f64,
+    /// Rows judged: rows with a known outcome that at least one tree left out.
+    pub rows: usize,
+    /// Rows whose outcome lay inside its range (ends included).
+    pub inside: usize,
+    /// Mean width of the ranges (high end minus low end), in outcome units.
+    pub mean_width: f64,
+}
+
+impl IntervalCheck {
+    /// Share of the rows judged whose outcome lay inside its range (NaN with no row).
+    pub fn share_inside(&self) -> f64 {
+        self.inside as f64 / self.rows as f64
+    }
+
+    pub(crate) fn is_sound(&self) -> bool {
+        self.level > 0.0
+            && self.level < 1.0
+            && self.inside <= self.rows
+            && self.rows > 0
+            && self.mean_width.is_finite()
+            && self.mean_width >= 0.0
     }
 }

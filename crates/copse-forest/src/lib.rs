@@ -98,6 +98,7 @@ pub mod stability;
 pub mod synth;
 pub mod task;
 pub mod train;
+mod train_options;
 pub mod tune;
 pub mod uncertainty;
 pub mod unfamiliar;

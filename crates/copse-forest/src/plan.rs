@@ -13,7 +13,7 @@ use crate::progress::{Progress, Stage};
 use crate::rng::{task_rng, task_seed, Purpose};
 use crate::sample::Sampler;
 use crate::settings::ForestSettings;
-use crate::train::TrainOptions;
+use crate::train_options::TrainOptions;
 use copse_tree::{BinnedData, FeatureMeta, Grower, OutcomeView, Tree, TreeSettings};
 use ndarray::ArrayView2;
 use rayon::prelude::*;

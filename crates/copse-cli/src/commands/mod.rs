@@ -34,7 +34,10 @@ pub fn run(cli: Cli) -> CliResult<()> {
         .build()
         .map_err(|e| CliError::failure(format!("could not start worker threads: {e}")))?;
     pool.install(|| match cli.command {
-        Command::Train(a) => train::run(&a, &ui),
+        Command::Train(a) => match &a.tree_range {
+            Some(range) => train_part::run(&a, range.indices(), &ui),
+            None => train::run(&a, &ui),
+        },
         Command::Score(a) => score::run(&a, &ui),
         Command::Explain(a) => explain::run(&a, &ui),
         Command::Evaluate(a) => evaluate::run(&a, &ui),

@@ -37,14 +37,12 @@ pub struct TrainRun {
     pub outputs: Vec<(String, PathBuf)>,
 }
 
-/// Runs `copse train` and prints its report.
+/// Runs `copse train` (without `--tree-range`, which `train_part` runs) and prints
+/// its report.
 ///
 /// # Errors
 /// Input errors for bad data or settings, failures when writing.
 pub fn run(a: &TrainArgs, ui: &Ui) -> CliResult<()> {
-    if let Some(range) = &a.tree_range {
-        return crate::commands::train_part::run(a, range.indices(), ui);
-    }
     let r = train(a, ui)?;
     crate::output::commit_all()?;
     for (what, path) in &r.outputs {

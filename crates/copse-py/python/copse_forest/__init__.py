@@ -24,8 +24,8 @@ decisions about people or safety.
 
 from . import _native
 from ._errors import BadInputError, CopseError, CopseWarning, DamagedModelError, UsageError
-from ._model import DEFAULT_SOURCE, Model, load, train
-from ._parts import Part, load_part, merge
+from ._model import DEFAULT_SOURCE, Model, load, merge, train
+from ._parts import Part, load_part
 
 __version__: str = _native.COPSE_VERSION
 

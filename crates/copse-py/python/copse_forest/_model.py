@@ -6,16 +6,17 @@ from __future__ import annotations
 import json
 import os
 import warnings
-from typing import Any, Dict, List, Optional, Sequence, Tuple, Union
+from typing import Any, Dict, Iterable, List, Optional, Sequence, Tuple, Union
 
 import numpy as np
 
 from . import _native
 from ._columns import named_columns, numeric_matrix
 from ._errors import CopseWarning, UsageError
+from ._parts import Part
 from ._tables import scores_table
 
-__all__ = ["Model", "train", "load", "DEFAULT_SOURCE"]
+__all__ = ["Model", "train", "load", "merge", "DEFAULT_SOURCE"]
 
 #: The name in-memory data go by in messages and in the model card, unless a
 #: ``source=`` is given.
@@ -413,8 +414,6 @@ def train(
         "group": None if group is None else str(group),
     }
     if tree_range is not None:
-        from ._parts import Part
-
         try:
             start, end = (int(v) for v in tree_range)
         except (TypeError, ValueError):
@@ -427,3 +426,30 @@ def train(
     native, notes, report = _native.train(source, cols.names, cols.values, settings)
     _warn(notes)
     return Model(native, training_report=json.loads(report))
+
+
+def merge(
+    parts: Iterable[Part],
+    data: Any,
+    *,
+    names: Optional[Sequence[str]] = None,
+    threads: Optional[int] = None,
+) -> Any:
+    """Merges parts of one forest, in any order, into the model one run of all its
+    trees makes, byte for byte (as ``copse merge``). ``data`` is the training data the
+    parts were grown on (as given to :func:`train`): the out-of-bag figures are
+    computed from it again, and the parts' settings, seed, rows and ranges are checked
+    against each other and against it.
+
+    Raises :class:`UsageError` for parts of different forests, ranges that overlap or
+    leave gaps, and :class:`BadInputError` for data that are not the parts' data."""
+    natives = []
+    for p in parts:
+        if not isinstance(p, Part):
+            raise UsageError(f"merge() takes Part objects (from train(..., tree_range=...)); got {type(p).__name__}")
+        natives.append(p._native)
+    if not natives:
+        raise UsageError("no parts to merge; give one or more")
+    cols = named_columns(data, names)
+    native = _native.merge(natives, DEFAULT_SOURCE, cols.names, cols.values, threads)
+    return Model(native)

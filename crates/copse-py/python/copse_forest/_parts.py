@@ -1,19 +1,17 @@
 """Parts of a forest (:class:`Part`), with the words of the command: ``train(...,
 tree_range=(a, b))`` grows trees ``a..b`` of a forest as ``copse train --tree-range``
-does, and :func:`merge` joins parts into the model one run of all the trees makes,
+does, and ``merge`` (in ``_model``) joins parts into the model one run of all the trees makes,
 byte for byte, as ``copse merge`` does. A part is the part file's bytes, so it is
 saved, loaded, pickled and shipped between processes like a model."""
 
 from __future__ import annotations
 
 import os
-from typing import Any, Iterable, Optional, Sequence, Tuple, Union
+from typing import Any, Tuple, Union
 
 from . import _native
-from ._columns import named_columns
-from ._errors import UsageError
 
-__all__ = ["Part", "merge", "load_part"]
+__all__ = ["Part", "load_part"]
 
 PathLike = Union[str, "os.PathLike[str]"]
 
@@ -79,32 +77,3 @@ def load_part(path: PathLike) -> Part:
     """Reads the part file at ``path`` (written by :meth:`Part.save` or by ``copse
     train --tree-range``)."""
     return Part(_native.load_part(os.fspath(path)))
-
-
-def merge(
-    parts: Iterable[Part],
-    data: Any,
-    *,
-    names: Optional[Sequence[str]] = None,
-    threads: Optional[int] = None,
-) -> Any:
-    """Merges parts of one forest, in any order, into the model one run of all its
-    trees makes, byte for byte (as ``copse merge``). ``data`` is the training data the
-    parts were grown on (as given to :func:`train`): the out-of-bag figures are
-    computed from it again, and the parts' settings, seed, rows and ranges are checked
-    against each other and against it.
-
-    Raises :class:`UsageError` for parts of different forests, ranges that overlap or
-    leave gaps, and :class:`BadInputError` for data that are not the parts' data."""
-    from ._model import DEFAULT_SOURCE, Model
-
-    natives = []
-    for p in parts:
-        if not isinstance(p, Part):
-            raise UsageError(f"merge() takes Part objects (from train(..., tree_range=...)); got {type(p).__name__}")
-        natives.append(p._native)
-    if not natives:
-        raise UsageError("no parts to merge; give one or more")
-    cols = named_columns(data, names)
-    native = _native.merge(natives, DEFAULT_SOURCE, cols.names, cols.values, threads)
-    return Model(native)
