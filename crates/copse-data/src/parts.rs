@@ -41,20 +41,7 @@ impl TrainingTable {
         trees: Range<usize>,
         options: &TrainOptions<'_>,
     ) -> copse_forest::Result<ForestPart> {
-        // The table's weights and groups, when it has them, are the ones trained with.
-        let options = TrainOptions {
-            case_weights: self
-                .weights
-                .as_ref()
-                .map(|(_, w)| w.as_slice())
-                .or(options.case_weights),
-            groups: self
-                .groups
-                .as_ref()
-                .map(|(_, g)| g.as_slice())
-                .or(options.groups),
-            ..*options
-        };
+        let options = self.row_options(options);
         let mut part = Forest::train_part(
             self.x.view(),
             &self.features,

@@ -257,6 +257,24 @@ impl TrainingTable {
         }
     }
 
+    /// `options` with the table's case weights and row groups, when it has them: the
+    /// ones a model of this table is trained with.
+    pub(crate) fn row_options<'a>(&'a self, options: &TrainOptions<'a>) -> TrainOptions<'a> {
+        TrainOptions {
+            case_weights: self
+                .weights
+                .as_ref()
+                .map(|(_, w)| w.as_slice())
+                .or(options.case_weights),
+            groups: self
+                .groups
+                .as_ref()
+                .map(|(_, g)| g.as_slice())
+                .or(options.groups),
+            ..*options
+        }
+    }
+
     /// Trains a forest on this table and records the table in its model card; the
     /// model file it saves is the one `copse train` writes for the same file and
     /// settings.
@@ -285,20 +303,7 @@ impl TrainingTable {
         settings: &ForestSettings,
         options: &TrainOptions<'_>,
     ) -> copse_forest::Result<Trained> {
-        // The table's weights and groups, when it has them, are the ones trained with.
-        let options = TrainOptions {
-            case_weights: self
-                .weights
-                .as_ref()
-                .map(|(_, w)| w.as_slice())
-                .or(options.case_weights),
-            groups: self
-                .groups
-                .as_ref()
-                .map(|(_, g)| g.as_slice())
-                .or(options.groups),
-            ..*options
-        };
+        let options = self.row_options(options);
         let mut trained = Forest::train(
             self.x.view(),
             &self.features,
