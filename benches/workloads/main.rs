@@ -103,7 +103,7 @@ fn main() {
     end_to_end::section(&cfg, &train, &score, &mut table);
     ranges::section(&cfg, &mut table);
     demo_model::section(&cfg, &mut table);
-    merge::section(&cfg, &train, &mut table);
+    merge::section(&cfg, n1m, &mut table);
 
     let t1m_grow = t1m::section(&cfg, n1m, &mut table);
     training::scaling(

@@ -1,10 +1,9 @@
-//! M10: a forest grown as 10 parts (`Forest::train_part`, as 10 tasks of a job array
-//! would) and merged (`Forest::merge_parts`), beside one run of the same forest. The
-//! stand-in for the T1M model is the T100k data and settings: the merge re-reads the
-//! data for the out-of-bag pass and importance, which on T1M costs that phase of a
-//! whole T1M run again (about as long as T1M's train call beyond growing), more than
-//! this benchmark's budget on a 2-core machine; the ratio merge / one run carries over.
-use crate::config::{pool, settings, Config};
+//! M10: the T1M forest (1,000,000 twonorm rows at scale 1, the T1M settings) grown as 10
+//! parts (`Forest::train_part`, as 10 tasks of a job array would) and merged
+//! (`Forest::merge_parts`), beside one run of the same forest. The merge re-reads the
+//! data: it re-draws every tree's sample and computes the out-of-bag pass and the
+//! importance, so it costs about what a whole run costs beyond growing.
+use crate::config::{pool, settings, Config, TRAIN_SEED};
 use crate::table::{fmt_s, Table};
 use copse_forest::{synth, Forest, ForestPart, TrainOptions};
 use std::time::{Duration, Instant};
@@ -12,12 +11,11 @@ use std::time::{Duration, Instant};
 /// Parts the forest is grown in.
 const PARTS: usize = 10;
 
-pub fn section(cfg: &Config, train: &synth::Synthetic, table: &mut Table) {
-    let n = train.x.nrows();
+pub fn section(cfg: &Config, n: usize, table: &mut Table) {
     let threads = cfg.threads;
     let s = settings();
     table.section(&format!(
-        "M10: {} trees in {PARTS} parts, merged; T100k stand-in for T1M, {n} rows, {threads} threads",
+        "M10: the T1M forest, {} trees in {PARTS} parts, merged; {n} rows, {threads} threads",
         s.trees
     ));
     if cfg.skip("merge") {
@@ -28,6 +26,7 @@ pub fn section(cfg: &Config, train: &synth::Synthetic, table: &mut Table) {
         "M10: {PARTS} parts of {} trees on {n} rows, then the merge ...",
         s.trees
     );
+    let train = synth::twonorm(n, TRAIN_SEED);
     let options = TrainOptions::default();
     let (x, meta, outcome) = (train.x.view(), &train.meta, &train.outcome);
     let p = pool(threads);
