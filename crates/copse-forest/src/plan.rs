@@ -10,6 +10,7 @@ use crate::leaf_rows::{outcome_ranks, TreeRows};
 use crate::oob::OobMask;
 use crate::outcome::Outcome;
 use crate::progress::{Progress, Stage};
+use crate::reuse::Shelf;
 use crate::rng::{task_rng, task_seed, Purpose};
 use crate::sample::Sampler;
 use crate::settings::ForestSettings;
@@ -182,14 +183,18 @@ impl<'a> Plan<'a> {
         let n = x.nrows();
         let total = range.len();
         let done = AtomicUsize::new(0);
+        let shelf = Shelf::new();
         range
             .into_par_iter()
             .map_init(
                 || {
-                    let buffers = (vec![0.0; n], Vec::new(), Vec::new());
-                    (Grower::new(self.tree_settings.clone()), buffers)
+                    shelf.take(|| {
+                        let buffers = (vec![0.0; n], Vec::new(), Vec::new());
+                        (Grower::new(self.tree_settings.clone()), buffers)
+                    })
                 },
-                |(grower, (counts, scratch, case_buf)), t| -> Result<(Tree, Sample)> {
+                |lent, t| -> Result<(Tree, Sample)> {
+                    let (grower, (counts, scratch, case_buf)) = lent.get();
                     check_stop(options.stop)?;
                     let mut sample_rng = task_rng(seed, Purpose::Sample, t as u64, 0);
                     self.sampler.draw(&mut sample_rng, counts, scratch);
@@ -219,11 +224,13 @@ impl<'a> Plan<'a> {
         seed: u64,
     ) -> Vec<Sample> {
         let n = x.nrows();
+        let shelf = Shelf::new();
         (0..trees.len())
             .into_par_iter()
             .map_init(
-                || (vec![0.0; n], Vec::new(), Vec::new()),
-                |(counts, scratch, case_buf), t| {
+                || shelf.take(|| (vec![0.0; n], Vec::new(), Vec::new())),
+                |lent, t| {
+                    let (counts, scratch, case_buf) = lent.get();
                     let mut sample_rng = task_rng(seed, Purpose::Sample, t as u64, 0);
                     self.sampler.draw(&mut sample_rng, counts, scratch);
                     self.sample(&trees[t], x, counts, case_buf)
