@@ -142,6 +142,20 @@ impl<'a> Plan<'a> {
         })
     }
 
+    /// `data` laid out for the grower this plan's trees take: two classes without
+    /// case weights (whole-number draw counts) take the two-class grower, which reads
+    /// the codes row by row only, so the column-major copy is dropped
+    /// ([`BinnedData::into_row_major`]); other outcomes keep the columns. Either way
+    /// the trees are the same.
+    pub(crate) fn fit_layout(&self, data: BinnedData) -> BinnedData {
+        match self.target {
+            OutcomeView::Classes { n_classes: 2, .. } if self.weights.is_none() => {
+                data.into_row_major()
+            }
+            _ => data,
+        }
+    }
+
     /// The records of the case weights and row groups, for the model card.
     pub(crate) fn records(&self) -> (Option<WeightsRecord>, Option<GroupsRecord>) {
         (self.weights_record.clone(), self.groups_record.clone())

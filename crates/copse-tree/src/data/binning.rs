@@ -176,7 +176,7 @@ impl BinnedData {
             meta: meta.to_vec(),
             bins,
             occupied,
-            codes,
+            codes: OnceLock::from(codes),
             row_words: OnceLock::new(),
         })
     }
