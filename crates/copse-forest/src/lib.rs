@@ -88,6 +88,7 @@ mod plan;
 pub mod predict;
 mod priors;
 pub mod progress;
+mod reuse;
 mod rng;
 mod row_block;
 mod sample;

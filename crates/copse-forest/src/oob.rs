@@ -60,6 +60,12 @@ pub(crate) fn block_rows(n: usize) -> usize {
 /// has nodes. Grouping does not change any result: every block keeps its own sums.
 const GROUP_ROWS: usize = 16384;
 
+/// Most nodes laid out for scoring at once: the trees are scored in runs of whole
+/// trees holding at most this many nodes (or one tree), so the pass holds one run's
+/// layout (16 bytes a node) rather than a second copy of the whole forest. A million
+/// nodes is 16 MB, and a run of trees still serves every group of rows.
+const RUN_NODES: usize = 1 << 20;
+
 /// Computes out-of-bag predictions, the error curve and the summary measures.
 ///
 /// With `shift` (class-balanced models, [`crate::priors`]) every row's class
@@ -81,7 +87,6 @@ pub(crate) fn out_of_bag(
     let nt = trees.len();
     let per_tree = trees.iter().map(|t| t.nodes().len()).sum::<usize>() / nt.max(1);
     let pass = Pass {
-        scorers: scorers(trees, n, per_tree),
         masks,
         x,
         outcome,
@@ -92,24 +97,53 @@ pub(crate) fn out_of_bag(
     };
     let n_blocks = n.div_ceil(pass.bs);
     let group = group_blocks(n, per_tree, pass.bs);
+    let mut groups: Vec<Group> = (0..n_blocks.div_ceil(group))
+        .map(|g| pass.group(g * group, ((g + 1) * group).min(n_blocks), nt))
+        .collect();
+    // Runs of trees in tree order, each laid out, scored over every group and
+    // dropped before the next: every row still meets its trees in tree order.
+    let runs = tree_runs(trees, RUN_NODES);
+    let total = n_blocks * runs.len();
     let done = AtomicUsize::new(0);
-    let groups: Vec<Vec<Block>> = (0..n_blocks.div_ceil(group))
-        .into_par_iter()
-        .map(|g| {
-            let (first, last) = (g * group, ((g + 1) * group).min(n_blocks));
-            let blocks = pass.score_group(first, last);
-            let d = done.fetch_add(last - first, Ordering::Relaxed) + (last - first);
+    for run in runs {
+        let scorers = scorers(&trees[run.clone()], n, per_tree);
+        groups.par_iter_mut().for_each(|g| {
+            pass.score_group(g, run.start, &scorers);
+            let d = done.fetch_add(g.blocks.len(), Ordering::Relaxed) + g.blocks.len();
             progress(Progress {
                 stage: Stage::OutOfBag,
                 done: d,
-                total: n_blocks,
+                total,
             });
-            blocks
+        });
+    }
+    let blocks: Vec<Block> = groups
+        .into_iter()
+        .flat_map(|g| g.blocks)
+        .map(|mut out| {
+            mean_of_sums(&mut out, pass.k, shift);
+            out
         })
         .collect();
-    let blocks: Vec<Block> = groups.into_iter().flatten().collect();
     let curve = error_curve(&blocks, nt, outcome);
-    summarize(&blocks, n, pass.k, outcome, weights, curve)
+    summarize(blocks, n, pass.k, outcome, weights, curve)
+}
+
+/// Consecutive runs of whole trees of at most `limit` nodes each (a larger tree alone),
+/// covering all of `trees`; one empty run when there are none.
+fn tree_runs(trees: &[Tree], limit: usize) -> Vec<std::ops::Range<usize>> {
+    let mut runs = Vec::new();
+    let (mut start, mut nodes) = (0, 0);
+    for (t, tree) in trees.iter().enumerate() {
+        let size = tree.nodes().len();
+        if t > start && nodes + size > limit {
+            runs.push(start..t);
+            (start, nodes) = (t, 0);
+        }
+        nodes += size;
+    }
+    runs.push(start..trees.len());
+    runs
 }
 
 /// Each tree laid out for scoring once, when there are rows enough to pay for it.
@@ -138,7 +172,6 @@ fn group_blocks(n: usize, per_tree: usize, bs: usize) -> usize {
 
 /// What every group of the out-of-bag pass reads.
 struct Pass<'a, 'x> {
-    scorers: Vec<Scorer<'a>>,
     masks: &'a [OobMask],
     x: ArrayView2<'x, f64>,
     outcome: &'a Outcome,
@@ -153,27 +186,29 @@ struct Pass<'a, 'x> {
 }
 
 /// Where a group's rows stand in the running error measures: whether each row's
-/// out-of-bag prediction so far is wrong (classes), or its squared error (values).
+/// out-of-bag prediction so far is wrong (classes), or its squared error (values);
+/// only the one the outcome needs is kept.
 struct Running {
     was_wrong: Vec<bool>,
     prev_sq: Vec<f64>,
 }
 
+/// A group of blocks of rows that pass through the trees together, with what it
+/// carries from one run of trees to the next.
+struct Group {
+    /// Data row of the group's first row.
+    start: usize,
+    /// Rows in the group.
+    len: usize,
+    blocks: Vec<Block>,
+    running: Running,
+}
+
 impl Pass<'_, '_> {
-    /// Blocks `first..last` of rows, each row's out-of-bag prediction summed over its
-    /// trees and the per-tree changes of the error measures recorded.
-    ///
-    /// Trees in the outer loop keep each tree in cache for the whole group of rows,
-    /// copied once into a contiguous buffer, whose out-of-bag rows descend several at
-    /// a time. Each row still meets its trees in tree order (the error curve needs
-    /// it), and each tree the rows of a block in row order, so every sum is taken in
-    /// the same order as row by row.
-    fn score_group(&self, first: usize, last: usize) -> Vec<Block> {
+    /// Blocks `first..last` of rows, for a forest of `nt` trees, before any tree.
+    fn group(&self, first: usize, last: usize, nt: usize) -> Group {
         let (n, bs, k) = (self.x.nrows(), self.bs, self.k);
-        let nt = self.scorers.len();
-        let start = first * bs;
-        let end = (last * bs).min(n);
-        let mut blocks: Vec<Block> = (first..last)
+        let blocks: Vec<Block> = (first..last)
             .map(|b| {
                 let len = ((b + 1) * bs).min(n) - b * bs;
                 Block {
@@ -185,16 +220,38 @@ impl Pass<'_, '_> {
                 }
             })
             .collect();
-        let len = end - start;
-        let p = self.x.ncols();
-        let rows = self.copy_rows(start, end);
-        let mut running = Running {
-            was_wrong: vec![false; len],
-            prev_sq: vec![0.0; len],
+        let start = first * bs;
+        let len = (last * bs).min(n) - start;
+        let classes = self.outcome.is_classes();
+        let running = Running {
+            was_wrong: vec![false; if classes { len } else { 0 }],
+            prev_sq: vec![0.0; if classes { 0 } else { len }],
         };
+        Group {
+            start,
+            len,
+            blocks,
+            running,
+        }
+    }
+
+    /// Each row of group `g` predicted by the trees of `scorers` (trees `first..` of
+    /// the forest) that left it out, summed onto its blocks' sums, and the per-tree
+    /// changes of the error measures recorded.
+    ///
+    /// Trees in the outer loop keep each tree in cache for the whole group of rows,
+    /// copied once into a contiguous buffer, whose out-of-bag rows descend several at
+    /// a time. Each row still meets its trees in tree order (the error curve needs
+    /// it), and each tree the rows of a block in row order, so every sum is taken in
+    /// the same order as row by row.
+    fn score_group(&self, g: &mut Group, first: usize, scorers: &[Scorer<'_>]) {
+        let (start, len) = (g.start, g.len);
+        let p = self.x.ncols();
+        let rows = self.copy_rows(start, start + len);
         let mut picks: Vec<u32> = Vec::with_capacity(len);
         let mut leaves = vec![0u32; len];
-        for (t, scorer) in self.scorers.iter().enumerate() {
+        for (i, scorer) in scorers.iter().enumerate() {
+            let t = first + i;
             picks.clear();
             picks.extend(
                 (0..len)
@@ -203,16 +260,12 @@ impl Pass<'_, '_> {
             );
             scorer.leaf_indices_of(&rows, p, &picks, &mut leaves);
             for (&r, &leaf) in picks.iter().zip(&leaves) {
-                self.add_leaf(&mut blocks, &mut running, t, start, r as usize, leaf);
+                self.add_leaf(g, scorer.tree(), t, r as usize, leaf);
             }
         }
-        for out in &mut blocks {
-            mean_of_sums(out, k, self.shift);
-        }
-        blocks
     }
 
-    /// Rows `start..end` of the data, row-major in one buffer.
+/// Rows `start..end` of the data, row-major in one buffer.
     fn copy_rows(&self, start: usize, end: usize) -> Vec<f64> {
         let p = self.x.ncols();
         let mut rows = vec![0.0; (end - start) * p];
@@ -228,21 +281,13 @@ impl Pass<'_, '_> {
         rows
     }
 
-    /// Adds tree `t`'s leaf `leaf` to row `r` of the group that starts at data row
-    /// `start`, and records how the error measures change with it.
-    fn add_leaf(
-        &self,
-        blocks: &mut [Block],
-        running: &mut Running,
-        t: usize,
-        start: usize,
-        r: usize,
-        leaf: u32,
-    ) {
+    /// Adds leaf `leaf` of `tree` (tree `t` of the forest) to row `r` of group `g`,
+    /// and records how the error measures change with it.
+    fn add_leaf(&self, g: &mut Group, tree: &Tree, t: usize, r: usize, leaf: u32) {
         let (bs, k) = (self.bs, self.k);
-        let tree = self.scorers[t].tree();
-        let i = start + r;
-        let (out, rb) = (&mut blocks[r / bs], r % bs);
+        let i = g.start + r;
+        let running = &mut g.running;
+        let (out, rb) = (&mut g.blocks[r / bs], r % bs);
         let sums = &mut out.preds[rb * k..(rb + 1) * k];
         sums.iter_mut()
             .zip(&tree.leaf_value(leaf as usize))
@@ -315,7 +360,7 @@ fn error_curve(blocks: &[Block], nt: usize, outcome: &Outcome) -> Vec<Option<f64
 
 /// The per-row predictions of all blocks, and the summary measures over them.
 fn summarize(
-    blocks: &[Block],
+    blocks: Vec<Block>,
     n: usize,
     k: usize,
     outcome: &Outcome,
@@ -324,6 +369,7 @@ fn summarize(
 ) -> (OobReport, OobSummary) {
     let mut preds = Vec::with_capacity(n * k);
     let mut trees_out = Vec::with_capacity(n);
+    // Each block is freed as soon as it is copied.
     for b in blocks {
         preds.extend_from_slice(&b.preds);
         trees_out.extend_from_slice(&b.trees_out);

@@ -145,6 +145,7 @@ impl Forest {
         let progress: &(dyn Fn(Progress) + Sync) = options.progress.unwrap_or(&|_| {});
         let data = checked_binned(x, meta, outcome, settings)?;
         let plan = Plan::new(x.ncols(), outcome, settings, options)?;
+        let data = plan.fit_layout(data);
         let first = trees.start;
         let grown = plan.grow(&data, x, trees, settings.seed, options)?;
         let bins = data.bins().to_vec();

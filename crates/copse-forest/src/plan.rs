@@ -10,6 +10,7 @@ use crate::leaf_rows::{outcome_ranks, TreeRows};
 use crate::oob::OobMask;
 use crate::outcome::Outcome;
 use crate::progress::{Progress, Stage};
+use crate::reuse::Shelf;
 use crate::rng::{task_rng, task_seed, Purpose};
 use crate::sample::Sampler;
 use crate::settings::ForestSettings;
@@ -141,6 +142,20 @@ impl<'a> Plan<'a> {
         })
     }
 
+    /// `data` laid out for the grower this plan's trees take: two classes without
+    /// case weights (whole-number draw counts) take the two-class grower, which reads
+    /// the codes row by row only, so the column-major copy is dropped
+    /// ([`BinnedData::into_row_major`]); other outcomes keep the columns. Either way
+    /// the trees are the same.
+    pub(crate) fn fit_layout(&self, data: BinnedData) -> BinnedData {
+        match self.target {
+            OutcomeView::Classes { n_classes: 2, .. } if self.weights.is_none() => {
+                data.into_row_major()
+            }
+            _ => data,
+        }
+    }
+
     /// The records of the case weights and row groups, for the model card.
     pub(crate) fn records(&self) -> (Option<WeightsRecord>, Option<GroupsRecord>) {
         (self.weights_record.clone(), self.groups_record.clone())
@@ -182,14 +197,18 @@ impl<'a> Plan<'a> {
         let n = x.nrows();
         let total = range.len();
         let done = AtomicUsize::new(0);
+        let shelf = Shelf::new();
         range
             .into_par_iter()
             .map_init(
                 || {
-                    let buffers = (vec![0.0; n], Vec::new(), Vec::new());
-                    (Grower::new(self.tree_settings.clone()), buffers)
+                    shelf.take(|| {
+                        let buffers = (vec![0.0; n], Vec::new(), Vec::new());
+                        (Grower::new(self.tree_settings.clone()), buffers)
+                    })
                 },
-                |(grower, (counts, scratch, case_buf)), t| -> Result<(Tree, Sample)> {
+                |lent, t| -> Result<(Tree, Sample)> {
+                    let (grower, (counts, scratch, case_buf)) = lent.get();
                     check_stop(options.stop)?;
                     let mut sample_rng = task_rng(seed, Purpose::Sample, t as u64, 0);
                     self.sampler.draw(&mut sample_rng, counts, scratch);
@@ -219,11 +238,13 @@ impl<'a> Plan<'a> {
         seed: u64,
     ) -> Vec<Sample> {
         let n = x.nrows();
+        let shelf = Shelf::new();
         (0..trees.len())
             .into_par_iter()
             .map_init(
-                || (vec![0.0; n], Vec::new(), Vec::new()),
-                |(counts, scratch, case_buf), t| {
+                || shelf.take(|| (vec![0.0; n], Vec::new(), Vec::new())),
+                |lent, t| {
+                    let (counts, scratch, case_buf) = lent.get();
                     let mut sample_rng = task_rng(seed, Purpose::Sample, t as u64, 0);
                     self.sampler.draw(&mut sample_rng, counts, scratch);
                     self.sample(&trees[t], x, counts, case_buf)

@@ -211,6 +211,10 @@ fn train_binned(
     options: &TrainOptions<'_>,
 ) -> Result<Trained> {
     let plan = Plan::new(x.ncols(), outcome, settings, options)?;
+    let held = match held {
+        Held::Owned(data) => Held::Owned(plan.fit_layout(data)),
+        shared => shared,
+    };
     let grown = plan.grow(held.get(), x, 0..settings.trees, settings.seed, options)?;
     let bins = held.get().bins().to_vec();
     drop(held);

@@ -71,7 +71,9 @@ impl BinnedData {
         // Columns are read in groups of eight, one pass over the rows per group, so a
         // row-major matrix is not streamed through the cache once per column.
         const GROUP: usize = 8;
+        // One pair of spare buffers serves every column's sort in turn.
         let mut sorters: Vec<Sorter> = (0..GROUP.min(p)).map(|_| Sorter::default()).collect();
+        let mut spare = Spare::default();
         let mut bins = Vec::with_capacity(p);
         for j0 in (0..p).step_by(GROUP) {
             let j1 = (j0 + GROUP).min(p);
@@ -109,6 +111,7 @@ impl BinnedData {
                         }
                         numeric_bins(
                             &mut sorters[j - j0],
+                            &mut spare,
                             bin_limit - 1,
                             &mut all[j * n_rows..(j + 1) * n_rows],
                         )
@@ -136,6 +139,7 @@ impl BinnedData {
             }
         }
         drop(sorters);
+        drop(spare);
         let mut occupied = Vec::with_capacity(p);
         let mut seen: Vec<bool> = Vec::new();
         for (j, (m, b)) in meta.iter().zip(&bins).enumerate() {
@@ -172,7 +176,7 @@ impl BinnedData {
             meta: meta.to_vec(),
             bins,
             occupied,
-            codes,
+            codes: OnceLock::from(codes),
             row_words: OnceLock::new(),
         })
     }
@@ -215,8 +219,13 @@ fn from_order_key(k: u64) -> f64 {
 ///
 /// Also writes the code of every row into `codes` (0 for missing): the first bin whose
 /// highest value is at least the row's value.
-fn numeric_bins(sorter: &mut Sorter, max_value_bins: usize, codes: &mut [u16]) -> FeatureBins {
-    sorter.sort();
+fn numeric_bins(
+    sorter: &mut Sorter,
+    spare: &mut Spare,
+    max_value_bins: usize,
+    codes: &mut [u16],
+) -> FeatureBins {
+    sorter.sort(spare);
     let v: Vec<f64> = sorter.keys.iter().map(|&k| from_order_key(k)).collect();
     // Distinct values with their counts; -0.0 and 0.0 are one value.
     let mut distinct: Vec<(f64, usize)> = Vec::new();
@@ -287,8 +296,14 @@ fn numeric_bins(sorter: &mut Sorter, max_value_bins: usize, codes: &mut [u16]) -
 struct Sorter {
     keys: Vec<u64>,
     rows: Vec<u32>,
-    spare_keys: Vec<u64>,
-    spare_rows: Vec<u32>,
+}
+
+/// The second pair of buffers each distribution pass of a sort writes into; one pair
+/// serves every column, since columns are sorted one at a time.
+#[derive(Default)]
+struct Spare {
+    keys: Vec<u64>,
+    rows: Vec<u32>,
 }
 
 impl Sorter {
@@ -296,7 +311,7 @@ impl Sorter {
     /// the four high bytes (skipping bytes all keys share), then each run of keys that
     /// agree on those bytes is put in full order. Runs are short for continuous
     /// values and hold equal keys for discrete ones, so the second step costs little.
-    fn sort(&mut self) {
+    fn sort(&mut self, spare: &mut Spare) {
         let n = self.keys.len();
         let mut counts = vec![[0usize; 256]; 4];
         for &k in &self.keys {
@@ -304,8 +319,8 @@ impl Sorter {
                 c[(k >> (32 + 8 * d)) as usize & 255] += 1;
             }
         }
-        self.spare_keys.resize(n, 0);
-        self.spare_rows.resize(n, 0);
+        spare.keys.resize(n, 0);
+        spare.rows.resize(n, 0);
         for (d, c) in counts.iter().enumerate() {
             if c.contains(&n) {
                 continue;
@@ -320,12 +335,12 @@ impl Sorter {
             for (&k, &r) in self.keys.iter().zip(&self.rows) {
                 let digit = (k >> shift) as usize & 255;
                 let to = next[digit];
-                self.spare_keys[to] = k;
-                self.spare_rows[to] = r;
+                spare.keys[to] = k;
+                spare.rows[to] = r;
                 next[digit] = to + 1;
             }
-            std::mem::swap(&mut self.keys, &mut self.spare_keys);
-            std::mem::swap(&mut self.rows, &mut self.spare_rows);
+            std::mem::swap(&mut self.keys, &mut spare.keys);
+            std::mem::swap(&mut self.rows, &mut spare.rows);
         }
         let mut start = 0;
         while start < n {

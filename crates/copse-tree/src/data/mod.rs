@@ -124,7 +124,17 @@ pub(crate) struct RowWords {
     pub(crate) words: Vec<u64>,
 }
 
-/// The training matrix, binned once and stored column-major.
+impl RowWords {
+    /// Code of row `i` in input `j`.
+    fn code(&self, i: usize, j: usize) -> usize {
+        let per_word = 64 / self.bits;
+        let word = self.words[i * self.per_row + j / per_word];
+        ((word >> ((j % per_word) * self.bits)) & ((1 << self.bits) - 1)) as usize
+    }
+}
+
+/// The training matrix, binned once and stored column-major (or row by row only,
+/// after [`BinnedData::into_row_major`]).
 #[derive(Debug, Clone)]
 pub struct BinnedData {
     n_rows: usize,
@@ -132,7 +142,10 @@ pub struct BinnedData {
     bins: Vec<FeatureBins>,
     /// Number of value bins holding at least one row, per input.
     occupied: Vec<usize>,
-    codes: BinCodes,
+    /// Column-major codes: made by binning, or again from the rows when asked for
+    /// after [`BinnedData::into_row_major`] dropped them. At least one of `codes` and
+    /// `row_words` is always set.
+    codes: OnceLock<BinCodes>,
     /// Row-major copy, built on first use by a grower that wants it.
     row_words: OnceLock<RowWords>,
 }
@@ -197,21 +210,54 @@ impl BinnedData {
 
     /// Bin of row `i` in input `j`.
     pub fn bin(&self, i: usize, j: usize) -> usize {
-        match &self.codes {
-            BinCodes::Narrow(c) => c[j * self.n_rows + i] as usize,
-            BinCodes::Wide(c) => c[j * self.n_rows + i] as usize,
+        match self.codes.get() {
+            Some(BinCodes::Narrow(c)) => c[j * self.n_rows + i] as usize,
+            Some(BinCodes::Wide(c)) => c[j * self.n_rows + i] as usize,
+            None => self.row_words().code(i, j),
         }
     }
 
+    /// The same data keeping its codes row by row only, the layout the two-class
+    /// grower reads: the column-major copy is dropped, which saves one byte (two with
+    /// more than 255 bins) per row and input while trees grow. The columns are made
+    /// again from the rows if a grower asks for them (regression, several classes,
+    /// fractional case weights).
+    // For the forest engine, which knows which grower its outcome takes; not part of
+    // the stable API.
+    #[doc(hidden)]
+    pub fn into_row_major(mut self) -> Self {
+        self.row_words();
+        self.codes = OnceLock::new();
+        self
+    }
+
+    /// The column-major codes, made again from the rows (once) when they were dropped.
     pub(crate) fn codes(&self) -> &BinCodes {
-        &self.codes
+        self.codes.get_or_init(|| {
+            let words = self.row_words();
+            let (n, p) = (self.n_rows, self.meta.len());
+            if words.bits == 8 {
+                let mut c = Vec::with_capacity(n * p);
+                for j in 0..p {
+                    c.extend((0..n).map(|i| words.code(i, j) as u8));
+                }
+                BinCodes::Narrow(c)
+            } else {
+                let mut c = Vec::with_capacity(n * p);
+                for j in 0..p {
+                    c.extend((0..n).map(|i| words.code(i, j) as u16));
+                }
+                BinCodes::Wide(c)
+            }
+        })
     }
 
     /// The row-major packed codes, built once (by whichever thread asks first).
     pub(crate) fn row_words(&self) -> &RowWords {
         self.row_words.get_or_init(|| {
             let (n, p) = (self.n_rows, self.meta.len());
-            let bits = match self.codes {
+            let codes = self.codes();
+            let bits = match codes {
                 BinCodes::Narrow(_) => 8,
                 BinCodes::Wide(_) => 16,
             };
@@ -221,7 +267,7 @@ impl BinnedData {
             for j in 0..p {
                 let (w, shift) = (j / per_word, (j % per_word) * bits);
                 let dst = words.iter_mut().skip(w).step_by(per_row);
-                match &self.codes {
+                match codes {
                     BinCodes::Narrow(c) => {
                         for (d, &v) in dst.zip(&c[j * n..(j + 1) * n]) {
                             *d |= u64::from(v) << shift;
@@ -274,6 +320,20 @@ mod tests {
                     let code = (word >> ((j % per_word) * w.bits)) & ((1 << w.bits) - 1);
                     assert_eq!(code as usize, d.bin(i, j), "row {i}, input {j}");
                 }
+            }
+            // Rows only: every code read back from the rows, and the columns made
+            // again from them equal to the ones binning made.
+            let rows_only = d.clone().into_row_major();
+            assert!(rows_only.codes.get().is_none());
+            for i in 0..n {
+                for j in 0..p {
+                    assert_eq!(rows_only.bin(i, j), d.bin(i, j), "row {i}, input {j}");
+                }
+            }
+            match (rows_only.codes(), d.codes()) {
+                (BinCodes::Narrow(a), BinCodes::Narrow(b)) => assert_eq!(a, b),
+                (BinCodes::Wide(a), BinCodes::Wide(b)) => assert_eq!(a, b),
+                _ => panic!("the code width changed"),
             }
         }
     }

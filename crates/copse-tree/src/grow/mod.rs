@@ -119,6 +119,10 @@ pub struct Grower {
     pool: Vec<u16>,
     best_side: Vec<u8>,
     stack: Vec<Frame>,
+    /// The node array of the tree being grown, kept between trees: a tree takes an
+    /// exact-size copy when it is done, so a forest holds no spare capacity and no
+    /// trail of outgrown arrays.
+    nodes: Vec<Node>,
     /// `c log2 c` of whole numbers `c` (0 for 0), for entropy with counts.
     xlogx: Vec<f64>,
     scan: ScanScratch,
@@ -173,6 +177,7 @@ impl Grower {
             pool: Vec::new(),
             best_side: Vec::new(),
             stack: Vec::new(),
+            nodes: Vec::new(),
             xlogx: Vec::new(),
             scan: ScanScratch::default(),
         }
@@ -273,19 +278,26 @@ impl Grower {
             ));
         }
         let two = self.load_outcome(target, weights);
-        if two {
-            return Ok(self.grow_two(data, rng));
-        }
-        let task = match *target {
-            OutcomeView::Classes { n_classes, .. } => {
-                Task::Classes(n_classes, self.settings.impurity)
+        let mut tree = if two {
+            self.grow_two(data, rng)
+        } else {
+            let task = match *target {
+                OutcomeView::Classes { n_classes, .. } => {
+                    Task::Classes(n_classes, self.settings.impurity)
+                }
+                OutcomeView::Values(_) => Task::Values(0.0),
+            };
+            match data.codes() {
+                BinCodes::Narrow(c) => self.grow_general(c, data, task, target.n_outputs(), rng),
+                BinCodes::Wide(c) => self.grow_general(c, data, task, target.n_outputs(), rng),
             }
-            OutcomeView::Values(_) => Task::Values(0.0),
         };
-        match data.codes() {
-            BinCodes::Narrow(c) => Ok(self.grow_general(c, data, task, target.n_outputs(), rng)),
-            BinCodes::Wide(c) => Ok(self.grow_general(c, data, task, target.n_outputs(), rng)),
-        }
+        // The tree keeps an exact-size copy of its nodes; the grown array is kept for
+        // the next tree.
+        self.nodes = std::mem::take(&mut tree.nodes);
+        tree.nodes = self.nodes.to_vec();
+        tree.shrink_to_fit();
+        Ok(tree)
     }
 
     /// Fills the per-row outcome arrays; returns true when the two-class integer
@@ -349,8 +361,11 @@ impl Grower {
                 .map(|j| j as u16),
         );
         self.stack.clear();
+        let mut nodes = std::mem::take(&mut self.nodes);
+        nodes.clear();
+        nodes.push(leaf_placeholder());
         Tree {
-            nodes: vec![leaf_placeholder()],
+            nodes,
             n_outputs,
             leaf_values: Vec::new(),
             cat_sets: Vec::new(),

@@ -295,6 +295,14 @@ impl Tree {
             .collect()
     }
 
+    /// Frees the spare capacity of the tree's tables, which doubled as they grew (up
+    /// to half of each spare); a forest keeps many trees.
+    pub(crate) fn shrink_to_fit(&mut self) {
+        self.nodes.shrink_to_fit();
+        self.leaf_values.shrink_to_fit();
+        self.cat_sets.shrink_to_fit();
+    }
+
     /// Bytes the tree occupies in memory: nodes (leaves included, with their outputs
     /// and weights), the class probabilities of three or more classes, category sets,
     /// and the per-input impurity decreases.
