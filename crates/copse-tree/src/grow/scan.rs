@@ -116,36 +116,36 @@ fn scan_two_gini(
     let per = 1 + usize::from(has_missing);
     let m = order.len() - 1;
     let ScanScratch { cand, approx } = scratch;
+    // Filled by extending rather than zeroed and then written (no memset per scan).
     cand.clear();
-    cand.resize(m * per, 0);
     let mut acc = 0u64;
     if has_missing {
-        for (&b, c) in order[..m].iter().zip(cand.chunks_exact_mut(2)) {
+        cand.reserve(m * per);
+        for &b in &order[..m] {
             acc += hist[b as usize];
-            c[0] = acc;
-            c[1] = acc + miss;
+            cand.push(acc);
+            cand.push(acc + miss);
         }
     } else {
-        for (&b, c) in order[..m].iter().zip(cand.iter_mut()) {
+        cand.extend(order[..m].iter().map(|&b| {
             acc += hist[b as usize];
-            *c = acc;
-        }
+            acc
+        }));
     }
     approx.clear();
-    approx.resize(cand.len(), 0.0);
-    for (a, &l) in approx.iter_mut().zip(cand.iter()) {
+    approx.extend(cand.iter().map(|&l| {
         let r = tot - l;
         let (wl, l1) = (exact_f64(l >> 32), exact_f64(l & LOW));
         let (wr, r1) = (exact_f64(r >> 32), exact_f64(r & LOW));
         let (l0, r0) = (wl - l1, wr - r1);
         let (ql, qr) = (l0 * l0 + l1 * l1, r0 * r0 + r1 * r1);
         let v = (ql * wr + qr * wl) / (wl * wr);
-        *a = if wl >= min_leaf && wr >= min_leaf {
+        if wl >= min_leaf && wr >= min_leaf {
             v
         } else {
             f64::NEG_INFINITY
-        };
-    }
+        }
+    }));
     let top = approx
         .iter()
         .fold(f64::NEG_INFINITY, |m, &v| if v > m { v } else { m });
