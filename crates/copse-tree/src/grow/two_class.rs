@@ -217,7 +217,16 @@ impl Grower {
         let mut lens = [None; BATCH];
         if sparse {
             let mut got = [0usize; BATCH];
-            with_sizes!(rec, batch.len(), fill_sparse, records, &fields, hist, seq, &mut got);
+            with_sizes!(
+                rec,
+                batch.len(),
+                fill_sparse,
+                records,
+                &fields,
+                hist,
+                seq,
+                &mut got
+            );
             for (l, g) in lens.iter_mut().zip(got).take(batch.len()) {
                 *l = Some(g);
             }
