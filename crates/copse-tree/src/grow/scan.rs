@@ -116,36 +116,36 @@ fn scan_two_gini(
     let per = 1 + usize::from(has_missing);
     let m = order.len() - 1;
     let ScanScratch { cand, approx } = scratch;
-    // Filled by extending rather than zeroed and then written (no memset per scan).
     cand.clear();
+    cand.resize(m * per, 0);
     let mut acc = 0u64;
     if has_missing {
-        cand.reserve(m * per);
-        for &b in &order[..m] {
+        for (&b, c) in order[..m].iter().zip(cand.chunks_exact_mut(2)) {
             acc += hist[b as usize];
-            cand.push(acc);
-            cand.push(acc + miss);
+            c[0] = acc;
+            c[1] = acc + miss;
         }
     } else {
-        cand.extend(order[..m].iter().map(|&b| {
+        for (&b, c) in order[..m].iter().zip(cand.iter_mut()) {
             acc += hist[b as usize];
-            acc
-        }));
+            *c = acc;
+        }
     }
     approx.clear();
-    approx.extend(cand.iter().map(|&l| {
+    approx.resize(cand.len(), 0.0);
+    for (a, &l) in approx.iter_mut().zip(cand.iter()) {
         let r = tot - l;
         let (wl, l1) = (exact_f64(l >> 32), exact_f64(l & LOW));
         let (wr, r1) = (exact_f64(r >> 32), exact_f64(r & LOW));
         let (l0, r0) = (wl - l1, wr - r1);
         let (ql, qr) = (l0 * l0 + l1 * l1, r0 * r0 + r1 * r1);
         let v = (ql * wr + qr * wl) / (wl * wr);
-        if wl >= min_leaf && wr >= min_leaf {
+        *a = if wl >= min_leaf && wr >= min_leaf {
             v
         } else {
             f64::NEG_INFINITY
-        }
-    }));
+        };
+    }
     let top = approx
         .iter()
         .fold(f64::NEG_INFINITY, |m, &v| if v > m { v } else { m });
