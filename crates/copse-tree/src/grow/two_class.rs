@@ -12,20 +12,39 @@ use crate::settings::CutChoice;
 use crate::tree::Tree;
 use rand::RngExt;
 
-/// Calls `$f::<R>(args)` with the record size `$rec` as a constant for the common
-/// sizes (so the compiler can unroll record access), and `$f::<0>` (size read from
-/// the data) otherwise.
-macro_rules! with_record_size {
-    ($rec:expr, $f:ident, $records:expr, $($arg:expr),*) => {
-        match $rec {
-            2 => $f::<2>($records, 2, $($arg),*),
-            3 => $f::<3>($records, 3, $($arg),*),
-            4 => $f::<4>($records, 4, $($arg),*),
-            5 => $f::<5>($records, 5, $($arg),*),
-            r => $f::<0>($records, r, $($arg),*),
+/// Calls `$f::<R, N>(args)` with the record size `R` as a constant for the common
+/// sizes (so the compiler can unroll record access; 0 when the size is read from the
+/// data) and the number `N` of inputs filled in one pass as a constant.
+macro_rules! with_sizes {
+    ($rec:expr, $n:expr, $f:ident, $($arg:expr),*) => {
+        match ($rec, $n) {
+            (2, 1) => $f::<2, 1>(2, $($arg),*),
+            (2, 2) => $f::<2, 2>(2, $($arg),*),
+            (2, 3) => $f::<2, 3>(2, $($arg),*),
+            (2, _) => $f::<2, 4>(2, $($arg),*),
+            (3, 1) => $f::<3, 1>(3, $($arg),*),
+            (3, 2) => $f::<3, 2>(3, $($arg),*),
+            (3, 3) => $f::<3, 3>(3, $($arg),*),
+            (3, _) => $f::<3, 4>(3, $($arg),*),
+            (4, 1) => $f::<4, 1>(4, $($arg),*),
+            (4, 2) => $f::<4, 2>(4, $($arg),*),
+            (4, 3) => $f::<4, 3>(4, $($arg),*),
+            (4, _) => $f::<4, 4>(4, $($arg),*),
+            (5, 1) => $f::<5, 1>(5, $($arg),*),
+            (5, 2) => $f::<5, 2>(5, $($arg),*),
+            (5, 3) => $f::<5, 3>(5, $($arg),*),
+            (5, _) => $f::<5, 4>(5, $($arg),*),
+            (r, 1) => $f::<0, 1>(r, $($arg),*),
+            (r, 2) => $f::<0, 2>(r, $($arg),*),
+            (r, 3) => $f::<0, 3>(r, $($arg),*),
+            (r, _) => $f::<0, 4>(r, $($arg),*),
         }
     };
 }
+
+/// Most inputs whose histograms one pass over a node's records fills (each has its
+/// own histogram and bin list).
+pub(super) const BATCH: usize = 4;
 
 /// Where the two-class engine finds an input's code in a record.
 #[derive(Debug, Clone, Copy)]
@@ -81,6 +100,9 @@ impl Grower {
         self.hist2.clear();
         self.hist2.resize(data.max_bins(), 0);
         let mut tree = self.start_tree(data, 2, 2);
+        // One histogram and one bin list per input of a batch.
+        self.hist2.resize(BATCH * data.max_bins(), 0);
+        self.seq.resize(BATCH * (data.max_bins() + 1), 0);
         let tot: u64 = self.packed.iter().sum();
         self.stack.push(Frame {
             start: 0,
@@ -97,9 +119,7 @@ impl Grower {
             self.totals[1] = p as f64;
             let w_t = task.weight(&self.totals);
             let best = if self.may_split(p == 0 || p == w, w_t, frame.depth) {
-                self.search(rng, |g, rng, f, best| {
-                    g.eval_two(&bins[f], f, layout, frame, best, rng)
-                })
+                self.search_two(rng, bins, layout, frame)
             } else {
                 None
             };
@@ -120,39 +140,134 @@ impl Grower {
         tree
     }
 
-    /// Evaluates every split of input `f` in the node (two-class engine); returns
-    /// false when the input is constant there (fewer than two distinct non-missing
-    /// values).
-    fn eval_two<R: RngExt + ?Sized>(
+    /// Draws the inputs to try at a node and evaluates them, as [`Grower::search`]
+    /// does, but fills the histograms of up to [`BATCH`] drawn inputs in one pass over
+    /// the node's records. The draws are the same as one at a time: a batch holds at
+    /// most as many inputs as are still wanted, and drawing goes on only while fewer
+    /// than K non-constant inputs have been tried. Randomized cuts draw from the same
+    /// generator while evaluating, so they take one input per batch to keep the order
+    /// of draws.
+    fn search_two<R: RngExt + ?Sized>(
         &mut self,
+        rng: &mut R,
+        bins: &[FeatureBins],
+        layout: Layout,
+        frame: Frame,
+    ) -> Option<Best> {
+        let mut best: Option<Best> = None;
+        let n = self.pool.len();
+        let k = self
+            .settings
+            .features_per_split
+            .unwrap_or(usize::MAX)
+            .min(n);
+        let every = k >= n;
+        let cap = match self.settings.cuts {
+            CutChoice::Best => BATCH,
+            CutChoice::Random => 1,
+        };
+        let mut batch = [0usize; BATCH];
+        let (mut i, mut tried) = (0, 0);
+        while i < n && tried < k {
+            let want = if every { n - i } else { k - tried }.min(cap).min(n - i);
+            for slot in &mut batch[..want] {
+                if !every {
+                    let j = rng.random_range(i..n);
+                    self.pool.swap(i, j);
+                }
+                *slot = self.pool[i] as usize;
+                i += 1;
+            }
+            let sparse = self.fill_batch(&batch[..want], bins, layout, frame);
+            for (q, &f) in batch[..want].iter().enumerate() {
+                if self.eval_filled(q, sparse, &bins[f], f, frame, &mut best, rng) {
+                    tried += 1;
+                }
+            }
+        }
+        best
+    }
+
+    /// Fills the histograms (and, for a node with fewer rows than bins, the lists of
+    /// occupied bins) of the inputs in `batch`, one slot each, in one pass over the
+    /// node's records. Returns, per slot, how many bins were listed while filling (none for
+    /// a dense node, whose bins are listed from the histogram).
+    fn fill_batch(
+        &mut self,
+        batch: &[usize],
+        bins: &[FeatureBins],
+        layout: Layout,
+        frame: Frame,
+    ) -> [Option<usize>; BATCH] {
+        let (s, e) = (frame.start, frame.end);
+        let rec = layout.rec;
+        let records = &self.blocks[frame.buf][s * rec..e * rec];
+        let (hs, ss) = (self.hist2.len() / BATCH, self.seq.len() / BATCH);
+        let mut fields = [(0usize, 0u32, 0u64, 0usize, 0usize); BATCH];
+        for (q, (field, &f)) in fields.iter_mut().zip(batch).enumerate() {
+            let (word, shift, mask) = layout.field(f);
+            *field = (word, shift, mask, q * hs, q * ss);
+        }
+        // Few rows: list each value bin the first time a row lands in it, rather than
+        // look at every bin afterwards.
+        let sparse = batch
+            .iter()
+            .all(|&f| (e - s) * SPARSE_RATIO < bins[f].n_bins);
+        let (hist, seq) = (&mut self.hist2, &mut self.seq);
+        let mut lens = [None; BATCH];
+        if sparse {
+            let mut got = [0usize; BATCH];
+            with_sizes!(
+                rec,
+                batch.len(),
+                fill_sparse,
+                records,
+                &fields,
+                hist,
+                seq,
+                &mut got
+            );
+            for (l, g) in lens.iter_mut().zip(got).take(batch.len()) {
+                *l = Some(g);
+            }
+        } else {
+            with_sizes!(rec, batch.len(), fill_dense, records, &fields, hist);
+        }
+        lens
+    }
+
+    /// Evaluates every split of input `f` in the node (two-class engine), from the
+    /// histogram in slot `q` that [`Grower::fill_batch`] filled, and clears that
+    /// histogram; returns false when the input is constant there (fewer than two
+    /// distinct non-missing values).
+    #[allow(clippy::too_many_arguments)]
+    fn eval_filled<R: RngExt + ?Sized>(
+        &mut self,
+        q: usize,
+        listed: [Option<usize>; BATCH],
         fb: &FeatureBins,
         f: usize,
-        layout: Layout,
         frame: Frame,
         best: &mut Option<Best>,
         rng: &mut R,
     ) -> bool {
         let nb = fb.n_bins;
-        let (s, e) = (frame.start, frame.end);
-        let rec = layout.rec;
-        let records = &self.blocks[frame.buf][s * rec..e * rec];
-        let (word, shift, mask) = layout.field(f);
-        let hist = &mut self.hist2[..=nb];
-        let seq = &mut self.seq[..=nb + 1];
-        let field = (word, shift, mask);
-        let len = if (e - s) * SPARSE_RATIO < nb {
-            // Few rows: list each value bin the first time a row lands in it.
-            let len = with_record_size!(rec, fill_sparse, records, field, hist, seq);
-            ascending(&mut seq[..len], nb, &mut self.bitmap);
-            len
-        } else {
-            with_record_size!(rec, fill_dense, records, field, hist, seq);
-            let mut len = 0;
-            for (b, &h) in hist.iter().enumerate().skip(1) {
-                seq[len] = b as u32;
-                len += usize::from(h != 0);
+        let (hs, ss) = (self.hist2.len() / BATCH, self.seq.len() / BATCH);
+        let hist = &mut self.hist2[q * hs..q * hs + nb + 1];
+        let seq = &mut self.seq[q * ss..q * ss + nb + 2];
+        let len = match listed[q] {
+            Some(len) => {
+                ascending(&mut seq[..len], nb, &mut self.bitmap);
+                len
             }
-            len
+            None => {
+                let mut len = 0;
+                for (b, &h) in hist.iter().enumerate().skip(1) {
+                    seq[len] = b as u32;
+                    len += usize::from(h != 0);
+                }
+                len
+            }
         };
         let varies = len >= 2;
         if varies && self.settings.cuts == CutChoice::Random {
@@ -208,10 +323,15 @@ impl Grower {
                 &mut self.scan,
             );
         }
-        for &b in &seq[..len] {
-            hist[b as usize] = 0;
+        if listed[q].is_some() {
+            for &b in &seq[..len] {
+                hist[b as usize] = 0;
+            }
+            hist[MISSING_BIN] = 0;
+        } else {
+            // Most bins of a dense node are occupied: clearing them all is one fill.
+            hist.fill(0);
         }
-        hist[MISSING_BIN] = 0;
         varies
     }
 
@@ -261,42 +381,51 @@ impl Grower {
     }
 }
 
-/// Adds every record's cell into the histogram cell of its code (dense nodes).
-/// `R` is the record size when known at compile time, else 0 and `rec` holds it.
+/// Where a batch slot's code lies in a record (word, shift, mask), and where its
+/// histogram and bin list start.
+type Field = (usize, u32, u64, usize, usize);
+
+/// Adds every record's cell into the histogram cell of its code, for each of the `N`
+/// inputs of `fields` (dense nodes). `R` is the record size when known at compile
+/// time, else 0 and `rec` holds it.
 #[inline]
-fn fill_dense<const R: usize>(
-    records: &[u64],
+fn fill_dense<const R: usize, const N: usize>(
     rec: usize,
-    (word, shift, mask): (usize, u32, u64),
+    records: &[u64],
+    fields: &[Field; BATCH],
     hist: &mut [u64],
-    _: &mut [u32],
 ) {
     let rec = if R > 0 { R } else { rec };
     for r in records.chunks_exact(rec) {
-        hist[((r[word] >> shift) & mask) as usize] += r[0];
+        for &(word, shift, mask, at, _) in &fields[..N] {
+            hist[at + ((r[word] >> shift) & mask) as usize] += r[0];
+        }
     }
 }
 
-/// Like [`fill_dense`], and lists in `seq` each value bin the first time a record
-/// lands in it; returns the number listed.
+/// Like [`fill_dense`], and lists in each input's list each value bin the first time
+/// a record lands in it; `got` receives the number listed per input.
 #[inline]
-fn fill_sparse<const R: usize>(
-    records: &[u64],
+fn fill_sparse<const R: usize, const N: usize>(
     rec: usize,
-    (word, shift, mask): (usize, u32, u64),
+    records: &[u64],
+    fields: &[Field; BATCH],
     hist: &mut [u64],
     seq: &mut [u32],
-) -> usize {
+    got: &mut [usize; BATCH],
+) {
     let rec = if R > 0 { R } else { rec };
-    let mut len = 0;
+    let mut len = [0usize; BATCH];
     for r in records.chunks_exact(rec) {
-        let b = ((r[word] >> shift) & mask) as usize;
-        let h = hist[b];
-        seq[len] = b as u32;
-        len += usize::from(h == 0 && b != MISSING_BIN);
-        hist[b] = h + r[0];
+        for (q, &(word, shift, mask, at, list)) in fields[..N].iter().enumerate() {
+            let b = ((r[word] >> shift) & mask) as usize;
+            let h = hist[at + b];
+            seq[list + len[q]] = b as u32;
+            len[q] += usize::from(h == 0 && b != MISSING_BIN);
+            hist[at + b] = h + r[0];
+        }
     }
-    len
+    *got = len;
 }
 
 #[cfg(test)]
