@@ -1,13 +1,13 @@
 //! Out-of-bag permutation importance (Breiman 2001, section 10): each tree's increase
 //! in error on its own out-of-bag rows when one input is permuted among them.
 use crate::importance::{permutation_tables, ImportanceMethod, PermutationImportance};
-use crate::leaf_paths::LeafPaths;
 use crate::loss::{row_loss, Loss};
 use crate::oob::OobMask;
 use crate::outcome::Outcome;
 use crate::progress::{Progress, Stage};
 use crate::rng::{task_rng, Purpose};
 use crate::row_block::{copy_rows, STRETCH};
+use crate::turn_walk::TurnWalk;
 use copse_tree::tree::CompactTree;
 use copse_tree::{FeatureMeta, Tree};
 use ndarray::ArrayView2;
@@ -19,20 +19,20 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 /// the tree's out-of-bag rows `rows`.
 ///
 /// A row reaches the same leaf as before unless a node on its way that tests input
-/// `j` sends the permuted value to the other side: so for each row only the nodes on
-/// its way are looked at, and a row is sent down the tree again only from the first
-/// node testing `j` that turns it, into the side it did not take. The result is
+/// `j` sends the permuted value to the other side: so each row walks its way once,
+/// every node on it looking at the permuted value of the input it tests too, and the
+/// row is sent down the tree again, for each input, only from the first node testing
+/// it that turns it, into the side it did not take ([`TurnWalk`]). The result is
 /// exactly that of re-predicting every row, at a cost that grows with the rows that
 /// change course rather than with the number of inputs.
 ///
 /// Every input is permuted first (each with its own generator, as a whole column), and
-/// then the rows are taken a block at a time, every input at once: a block's values,
-/// the tree and the rows sent down again stay in cache, where going input by input
-/// would read every row once per input. The turned rows are copied, their permuted
-/// value in place, and descend several at a time ([`Tree::leaf_indices`]). Each
-/// input's sums are still taken in row order, so the results are those of going input
-/// by input. With case `weights`, each row's change in loss counts with its weight and
-/// the increases are weighted means.
+/// then the rows are taken a block at a time, every input at once, so that a block's
+/// values, the tree and the rows sent down again stay in cache. The turned rows are
+/// copied, their permuted value in place, and descend several at a time
+/// ([`Tree::leaf_indices`]). Each input's sums are still taken in row order, so the
+/// results are those of going input by input. With case `weights`, each row's change
+/// in loss counts with its weight and the increases are weighted means.
 pub(crate) fn tree_permutation_increase(
     tree: &Tree,
     x: ArrayView2<'_, f64>,
@@ -47,43 +47,31 @@ pub(crate) fn tree_permutation_increase(
     if p == 0 || m == 0 {
         return (inc_err, inc_brier);
     }
-    let nodes = tree.nodes();
-    // Laid out for scoring once: the tree serves all its out-of-bag rows once per input.
+    let walk = TurnWalk::new(tree, p);
+    // Laid out for scoring once: the turned rows of every input descend through it.
     let compact = tree.compact();
-    let paths = LeafPaths::of(tree);
-    // Each row's leaf, and the rows input by input (`columns[j * m + k]`, the values
-    // each permutation starts from).
-    let mut block = vec![0.0; STRETCH * p];
+    // The rows input by input (`columns[j * m + k]`), each input the tree tests then
+    // permuted among them. (An input no row's way tests changes no prediction and
+    // keeps increases of 0; permuting it too spends a little time and changes nothing,
+    // as each input has its own generator.)
     let mut columns = vec![0.0; m * p];
-    let mut leaves = vec![0u32; m];
-    for (c, chunk) in rows.chunks(STRETCH).enumerate() {
-        let (first, k) = (c * STRETCH, chunk.len());
-        let part = &mut block[..k * p];
-        copy_rows(x, chunk, part, None);
-        for (r, row) in part.chunks_exact(p).enumerate() {
-            for (j, &v) in row.iter().enumerate() {
-                columns[j * m + first + r] = v;
-            }
-        }
-        compact.leaf_indices(part, p, &mut leaves[first..first + k]);
-    }
-    // The inputs some row's way tests: only they are permuted (the others cannot
-    // change a prediction).
-    let mut tested = vec![false; p];
-    let mut reached = vec![false; nodes.len()];
-    for &leaf in &leaves {
-        if !std::mem::replace(&mut reached[leaf as usize], true) {
-            for r in paths.runs(leaf) {
-                tested[r.input as usize] = true;
-            }
+    for (k, &i) in rows.iter().enumerate() {
+        for (j, &v) in x.row(i).iter().enumerate() {
+            columns[j * m + k] = v;
         }
     }
+    let mut tested = vec![0u64; walk.words()];
+    walk.tested(&mut tested);
     for (j, column) in columns.chunks_exact_mut(m).enumerate() {
-        if tested[j] {
+        if tested[j / 64] >> (j % 64) & 1 == 1 {
             column.shuffle(&mut rng_for(j));
         }
     }
-    let mut turned = Turned::new(p);
+    let mut block = vec![0.0; STRETCH * p];
+    let mut permuted = vec![0.0; STRETCH * p];
+    let (mut turned, mut seen) = (vec![0u64; walk.words()], vec![0u64; walk.words()]);
+    let mut turns = Vec::new();
+    let mut gathered = Turned::new(p);
     let (mut de, mut db) = (vec![0.0; p], vec![0.0; p]);
     let mut sum = |t: &Turned| {
         for (k, &leaf) in t.found[..t.starts.len()].iter().enumerate() {
@@ -103,38 +91,38 @@ pub(crate) fn tree_permutation_increase(
         }
     };
     for (c, chunk) in rows.chunks(STRETCH).enumerate() {
-        let first = c * STRETCH;
-        let part = &mut block[..chunk.len() * p];
+        let (first, k) = (c * STRETCH, chunk.len());
+        let part = &mut block[..k * p];
         copy_rows(x, chunk, part, None);
+        // The block's permuted values row by row, as the walk reads them.
+        for (j, column) in columns.chunks_exact(m).enumerate() {
+            for (r, &w) in column[first..first + k].iter().enumerate() {
+                permuted[r * p + j] = w;
+            }
+        }
         for (r, (row, &i)) in part.chunks_exact(p).zip(chunk).enumerate() {
-            let pos = first + r;
-            let leaf = leaves[pos];
+            let mixed = &permuted[r * p..(r + 1) * p];
+            let leaf = walk.walk(row, mixed, &mut turned, &mut seen, &mut turns);
+            if turns.is_empty() {
+                // The row keeps its leaf for every input: its changes are exact zeros,
+                // which leave the sums as they are.
+                continue;
+            }
             let base = row_loss(outcome, i, &tree.leaf_value(leaf as usize));
-            for run in paths.runs(leaf) {
-                let j = run.input as usize;
-                let v = columns[j * m + pos];
-                for &step in &paths.steps[run.from as usize..run.to as usize] {
-                    let node = &nodes[(step >> 1) as usize];
-                    let left = tree.goes_left(node, v);
-                    if left != (step & 1 == 1) {
-                        // The row changes course here; the others keep their leaf and
-                        // would add exact zeros, which leave the sums as they are.
-                        let start = (node.child() + usize::from(!left)) as u32;
-                        if turned.push(row, j, v, pos, start, base) {
-                            turned.descend(&compact, p);
-                            sum(&turned);
-                            turned.clear();
-                        }
-                        break;
-                    }
+            for t in &turns {
+                let j = t.input as usize;
+                if gathered.push(row, j, mixed[j], first + r, t.start, base) {
+                    gathered.descend(&compact, p);
+                    sum(&gathered);
+                    gathered.clear();
                 }
             }
         }
     }
-    turned.descend(&compact, p);
-    sum(&turned);
+    gathered.descend(&compact, p);
+    sum(&gathered);
     let total = weights.map_or(m as f64, |w| rows.iter().map(|&i| w[i]).sum());
-    for j in (0..p).filter(|&j| tested[j]) {
+    for j in (0..p).filter(|&j| seen[j / 64] >> (j % 64) & 1 == 1) {
         inc_err[j] = de[j] / total;
         inc_brier[j] = db[j] / total;
     }
