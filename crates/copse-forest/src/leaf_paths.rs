@@ -97,12 +97,6 @@ impl LeafPaths {
         }
     }
 
-    /// The runs of the leaf at node `leaf`.
-    pub(crate) fn runs(&self, leaf: u32) -> &[Run] {
-        let s = self.span[leaf as usize];
-        &self.runs[s.from as usize..s.to as usize]
-    }
-
     /// The run of input `j` on the way to the leaf at node `leaf`, if the way tests it.
     #[inline]
     pub(crate) fn run(&self, leaf: usize, j: usize) -> Option<&Run> {

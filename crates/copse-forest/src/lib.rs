@@ -101,6 +101,7 @@ pub mod task;
 pub mod train;
 mod train_options;
 pub mod tune;
+mod turn_walk;
 pub mod uncertainty;
 pub mod unfamiliar;
 

@@ -1,13 +1,14 @@
 //! Out-of-bag permutation importance (Breiman 2001, section 10): each tree's increase
 //! in error on its own out-of-bag rows when one input is permuted among them.
 use crate::importance::{permutation_tables, ImportanceMethod, PermutationImportance};
-use crate::leaf_paths::LeafPaths;
 use crate::loss::{row_loss, Loss};
 use crate::oob::OobMask;
 use crate::outcome::Outcome;
 use crate::progress::{Progress, Stage};
 use crate::rng::{task_rng, Purpose};
 use crate::row_block::{copy_rows, STRETCH};
+use crate::turn_walk::TurnWalk;
+use copse_tree::tree::CompactTree;
 use copse_tree::{FeatureMeta, Tree};
 use ndarray::ArrayView2;
 use rand::seq::SliceRandom;
@@ -18,14 +19,20 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 /// the tree's out-of-bag rows `rows`.
 ///
 /// A row reaches the same leaf as before unless a node on its way that tests input
-/// `j` sends the permuted value to the other side: so only the rows whose way tests
-/// `j` are looked at, each only at those nodes, and a row is sent down the tree again
-/// only from the first of them that turns it, into the side it did not take. The
-/// result is exactly that of re-predicting every row, at a cost that grows with the
-/// rows that change course rather than with the number of inputs. Rows are copied into
-/// contiguous blocks and descend several at a time ([`Tree::leaf_indices`]); every sum
-/// is taken in row order as before. With case `weights`, each row's change in loss
-/// counts with its weight and the increases are weighted means.
+/// `j` sends the permuted value to the other side: so each row walks its way once,
+/// every node on it looking at the permuted value of the input it tests too, and the
+/// row is sent down the tree again, for each input, only from the first node testing
+/// it that turns it, into the side it did not take ([`TurnWalk`]). The result is
+/// exactly that of re-predicting every row, at a cost that grows with the rows that
+/// change course rather than with the number of inputs.
+///
+/// Every input is permuted first (each with its own generator, as a whole column), and
+/// then the rows are taken a block at a time, every input at once, so that a block's
+/// values, the tree and the rows sent down again stay in cache. The turned rows are
+/// copied, their permuted value in place, and descend several at a time
+/// ([`Tree::leaf_indices`]). Each input's sums are still taken in row order, so the
+/// results are those of going input by input. With case `weights`, each row's change
+/// in loss counts with its weight and the increases are weighted means.
 pub(crate) fn tree_permutation_increase(
     tree: &Tree,
     x: ArrayView2<'_, f64>,
@@ -36,109 +43,153 @@ pub(crate) fn tree_permutation_increase(
 ) -> (Vec<f64>, Vec<f64>) {
     let p = x.ncols();
     let m = rows.len();
-    let nodes = tree.nodes();
-    // The tree's rows, copied once row by row (for the descents) and input by input
-    // (the values each permutation starts from), and read in order from then on.
-    let mut block = vec![0.0; m * p];
-    let mut columns = vec![0.0; m * p];
-    copy_rows(x, rows, &mut block, Some(&mut columns));
-    let mut leaves = vec![0u32; m];
-    // Laid out for scoring once: the tree serves all its out-of-bag rows once per input.
-    let compact = tree.compact();
-    if p > 0 {
-        for (part, out) in block.chunks(STRETCH * p).zip(leaves.chunks_mut(STRETCH)) {
-            compact.leaf_indices(part, p, out);
-        }
-    }
-    // Baseline loss of each row, and the nodes on its way.
-    let paths = LeafPaths::of(tree);
-    let base: Vec<Loss> = rows
-        .iter()
-        .zip(&leaves)
-        .map(|(&i, &leaf)| row_loss(outcome, i, &tree.leaf_value(leaf as usize)))
-        .collect();
-    // Invert: for each input, the positions (in `rows`) of the rows whose way tests
-    // it, and the run of its nodes that do.
-    let mut per_feature = vec![0usize; p + 1];
-    for &leaf in &leaves {
-        for r in paths.runs(leaf) {
-            per_feature[r.input as usize + 1] += 1;
-        }
-    }
-    for j in 0..p {
-        per_feature[j + 1] += per_feature[j];
-    }
-    let mut fill = per_feature.clone();
-    let mut affected = vec![0u32; per_feature[p]];
-    let mut entry = vec![(0u32, 0u32); per_feature[p]];
-    for (pos, &leaf) in leaves.iter().enumerate() {
-        for r in paths.runs(leaf) {
-            let j = r.input as usize;
-            affected[fill[j]] = pos as u32;
-            entry[fill[j]] = (r.from, r.to);
-            fill[j] += 1;
-        }
-    }
     let (mut inc_err, mut inc_brier) = (vec![0.0; p], vec![0.0; p]);
+    if p == 0 || m == 0 {
+        return (inc_err, inc_brier);
+    }
+    let walk = TurnWalk::new(tree, p);
+    // Laid out for scoring once: the turned rows of every input descend through it.
+    let compact = tree.compact();
+    // The rows input by input (`columns[j * m + k]`), each input the tree tests then
+    // permuted among them. (An input no row's way tests changes no prediction and
+    // keeps increases of 0; permuting it too spends a little time and changes nothing,
+    // as each input has its own generator.)
+    let mut columns = vec![0.0; m * p];
+    for (k, &i) in rows.iter().enumerate() {
+        for (j, &v) in x.row(i).iter().enumerate() {
+            columns[j * m + k] = v;
+        }
+    }
+    let mut tested = vec![0u64; walk.words()];
+    walk.tested(&mut tested);
+    for (j, column) in columns.chunks_exact_mut(m).enumerate() {
+        if tested[j / 64] >> (j % 64) & 1 == 1 {
+            column.shuffle(&mut rng_for(j));
+        }
+    }
+    let mut block = vec![0.0; STRETCH * p];
+    let mut permuted = vec![0.0; STRETCH * p];
+    let (mut turned, mut seen) = (vec![0u64; walk.words()], vec![0u64; walk.words()]);
+    let mut turns = Vec::new();
+    let mut gathered = Turned::new(p);
+    let (mut de, mut db) = (vec![0.0; p], vec![0.0; p]);
+    let mut sum = |t: &Turned| {
+        for (k, &leaf) in t.found[..t.starts.len()].iter().enumerate() {
+            let (pos, j, base) = (t.pos[k] as usize, t.input[k] as usize, t.base[k]);
+            let l = row_loss(outcome, rows[pos], &tree.leaf_value(leaf as usize));
+            match weights {
+                None => {
+                    de[j] += l.error - base.error;
+                    db[j] += l.brier - base.brier;
+                }
+                Some(w) => {
+                    let w = w[rows[pos]];
+                    de[j] += w * (l.error - base.error);
+                    db[j] += w * (l.brier - base.brier);
+                }
+            }
+        }
+    };
+    for (c, chunk) in rows.chunks(STRETCH).enumerate() {
+        let (first, k) = (c * STRETCH, chunk.len());
+        let part = &mut block[..k * p];
+        copy_rows(x, chunk, part, None);
+        // The block's permuted values row by row, as the walk reads them.
+        for (j, column) in columns.chunks_exact(m).enumerate() {
+            for (r, &w) in column[first..first + k].iter().enumerate() {
+                permuted[r * p + j] = w;
+            }
+        }
+        for (r, (row, &i)) in part.chunks_exact(p).zip(chunk).enumerate() {
+            let mixed = &permuted[r * p..(r + 1) * p];
+            let leaf = walk.walk(row, mixed, &mut turned, &mut seen, &mut turns);
+            if turns.is_empty() {
+                // The row keeps its leaf for every input: its changes are exact zeros,
+                // which leave the sums as they are.
+                continue;
+            }
+            let base = row_loss(outcome, i, &tree.leaf_value(leaf as usize));
+            for t in &turns {
+                let j = t.input as usize;
+                if gathered.push(row, j, mixed[j], first + r, t.start, base) {
+                    gathered.descend(&compact, p);
+                    sum(&gathered);
+                    gathered.clear();
+                }
+            }
+        }
+    }
+    gathered.descend(&compact, p);
+    sum(&gathered);
     let total = weights.map_or(m as f64, |w| rows.iter().map(|&i| w[i]).sum());
-    let (mut picks, mut starts) = (Vec::with_capacity(STRETCH), Vec::with_capacity(STRETCH));
-    let mut found = vec![0u32; STRETCH];
-    let mut vals = Vec::with_capacity(m);
-    for (j, original) in columns.chunks_exact(m.max(1)).enumerate().take(p) {
-        let hit = &affected[per_feature[j]..per_feature[j + 1]];
-        let runs = &entry[per_feature[j]..per_feature[j + 1]];
-        if hit.is_empty() {
-            // The tree never tests input j: its predictions cannot change.
-            continue;
-        }
-        vals.clear();
-        vals.extend_from_slice(original);
-        vals.shuffle(&mut rng_for(j));
-        let (mut de, mut db) = (0.0, 0.0);
-        for (part, runs) in hit.chunks(STRETCH).zip(runs.chunks(STRETCH)) {
-            // The rows that change course, each from the side it did not take at the
-            // first node (testing j) that turns it; the others keep their leaf and add
-            // exact zeros, which leave the sums as they are.
-            picks.clear();
-            starts.clear();
-            for (&pos, &(from, to)) in part.iter().zip(runs) {
-                let v = vals[pos as usize];
-                for &step in &paths.steps[from as usize..to as usize] {
-                    let node = &nodes[(step >> 1) as usize];
-                    let left = tree.goes_left(node, v);
-                    if left != (step & 1 == 1) {
-                        picks.push(pos);
-                        starts.push((node.child() + usize::from(!left)) as u32);
-                        // Only a row that descends again needs its permuted value in
-                        // the block (and back out after).
-                        block[pos as usize * p + j] = v;
-                        break;
-                    }
-                }
-            }
-            let found = &mut found[..picks.len()];
-            compact.leaf_indices_from(&block, p, &picks, &starts, found);
-            for (&pos, &leaf) in picks.iter().zip(found.iter()) {
-                let pos = pos as usize;
-                let l = row_loss(outcome, rows[pos], &tree.leaf_value(leaf as usize));
-                match weights {
-                    None => {
-                        de += l.error - base[pos].error;
-                        db += l.brier - base[pos].brier;
-                    }
-                    Some(w) => {
-                        let w = w[rows[pos]];
-                        de += w * (l.error - base[pos].error);
-                        db += w * (l.brier - base[pos].brier);
-                    }
-                }
-                block[pos * p + j] = original[pos];
-            }
-        }
-        inc_err[j] = de / total;
-        inc_brier[j] = db / total;
+    for j in (0..p).filter(|&j| seen[j / 64] >> (j % 64) & 1 == 1) {
+        inc_err[j] = de[j] / total;
+        inc_brier[j] = db[j] / total;
     }
     (inc_err, inc_brier)
+}
+
+/// Rows that a permuted input sends off their way, gathered until [`STRETCH`] of them
+/// descend together: each a copy of its row with the permuted value in place, the node
+/// it goes on from, and what its change in loss is summed with.
+struct Turned {
+    rows: Vec<f64>,
+    starts: Vec<u32>,
+    pos: Vec<u32>,
+    input: Vec<u32>,
+    base: Vec<Loss>,
+    /// `0, 1, 2, ...`: the copies are the block's rows in order.
+    order: Vec<u32>,
+    found: Vec<u32>,
+}
+
+impl Turned {
+    fn new(p: usize) -> Self {
+        Turned {
+            rows: vec![0.0; STRETCH * p],
+            starts: Vec::with_capacity(STRETCH),
+            pos: Vec::with_capacity(STRETCH),
+            input: Vec::with_capacity(STRETCH),
+            base: Vec::with_capacity(STRETCH),
+            order: (0..STRETCH as u32).collect(),
+            found: vec![0; STRETCH],
+        }
+    }
+
+    /// Adds row `row` (at position `pos`) with input `j` set to `v`, going on from node
+    /// `start`; true when the gathering is full.
+    #[inline]
+    fn push(&mut self, row: &[f64], j: usize, v: f64, pos: usize, start: u32, base: Loss) -> bool {
+        let p = row.len();
+        let k = self.starts.len();
+        let copy = &mut self.rows[k * p..(k + 1) * p];
+        copy.copy_from_slice(row);
+        copy[j] = v;
+        self.starts.push(start);
+        self.pos.push(pos as u32);
+        self.input.push(j as u32);
+        self.base.push(base);
+        self.starts.len() == STRETCH
+    }
+
+    /// The leaves the gathered rows reach, into `found`.
+    fn descend(&mut self, compact: &CompactTree<'_>, p: usize) {
+        let k = self.starts.len();
+        compact.leaf_indices_from(
+            &self.rows[..k * p],
+            p,
+            &self.order[..k],
+            &self.starts,
+            &mut self.found[..k],
+        );
+    }
+
+    fn clear(&mut self) {
+        self.starts.clear();
+        self.pos.clear();
+        self.input.clear();
+        self.base.clear();
+    }
 }
 
 /// One tree's increases in (error, Brier) per input, or `None` for a tree with no
