@@ -33,26 +33,38 @@ fn train(x: &Array2<f64>, meta: &[FeatureMeta], y: &Outcome, trees: usize, base:
         .forest
 }
 
-/// Checks the layout against the walk on `x`: each tree's leaf row by row, and the
-/// forest's predictions bit for bit.
+/// Checks the layout against the walk on `x`, bare and with snapshots of the bit
+/// vectors every few masks: each tree's leaf row by row, and the forest's predictions
+/// bit for bit.
 fn same_as_walk(forest: &Forest, x: &Array2<f64>, what: &str) {
-    let masks = LeafMasks::new(forest).expect("the layout holds the model");
+    let bare = LeafMasks::new(forest).expect("the layout holds the model");
+    let mut layouts = vec![bare.clone()];
+    for spacing in [1, 7, 200] {
+        let mut m = bare.clone();
+        m.keep_snapshots(spacing, 1 << 30);
+        if spacing == 1 {
+            assert!(m.snapshot_bytes() > 0, "{what}: snapshots every mask");
+        }
+        layouts.push(m);
+    }
     let (n, p) = x.dim();
     let flat: Vec<f64> = x.iter().copied().collect();
-    let mut state = vec![0u64; masks.n_words()];
-    let mut leaves = vec![u32::MAX; forest.trees().len() * n];
-    masks.leaf_indices(&flat, p, n, &mut state, &mut leaves);
-    for (t, tree) in forest.trees().iter().enumerate() {
-        for r in 0..n {
-            let want = tree.leaf_index(&flat[r * p..(r + 1) * p]) as u32;
-            assert_eq!(leaves[t * n + r], want, "{what}: tree {t}, row {r}");
-        }
-    }
     let walk = forest.predict(x.view()).expect("walk");
-    let by_masks = forest.predict_by_masks(&masks, x.view()).expect("masks");
-    assert_eq!(walk.dim(), by_masks.dim());
-    for (a, b) in walk.iter().zip(by_masks.iter()) {
-        assert_eq!(a.to_bits(), b.to_bits(), "{what}: {a} against {b}");
+    for masks in &layouts {
+        let mut state = vec![0u64; masks.n_words()];
+        let mut leaves = vec![u32::MAX; forest.trees().len() * n];
+        masks.leaf_indices(&flat, p, n, &mut state, &mut leaves);
+        for (t, tree) in forest.trees().iter().enumerate() {
+            for r in 0..n {
+                let want = tree.leaf_index(&flat[r * p..(r + 1) * p]) as u32;
+                assert_eq!(leaves[t * n + r], want, "{what}: tree {t}, row {r}");
+            }
+        }
+        let by_masks = forest.predict_by_masks(masks, x.view()).expect("masks");
+        assert_eq!(walk.dim(), by_masks.dim());
+        for (a, b) in walk.iter().zip(by_masks.iter()) {
+            assert_eq!(a.to_bits(), b.to_bits(), "{what}: {a} against {b}");
+        }
     }
 }
 

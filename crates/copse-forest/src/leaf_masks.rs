@@ -42,6 +42,9 @@ pub struct LeafMasks {
     /// The masks: word `words[e]` of the row's bit vector is AND-ed with `bits[e]`.
     words: Vec<u32>,
     bits: Vec<u64>,
+    /// Bit vectors of all trees ([`LeafMasks::n_words`] words each) after the masks of
+    /// an input's numeric tests up to one of its marks.
+    snapshots: Vec<u64>,
 }
 
 /// The tests of all trees on one input.
@@ -60,6 +63,11 @@ struct InputTests {
     codes: usize,
     /// Whether any tree tests this input by categories.
     categorical: bool,
+    /// Counts of thresholds (ascending) after which the bit vectors are kept whole,
+    /// in `snapshots` from number `first_snapshot` on: a value above many thresholds
+    /// AND-s one snapshot and reads the masks after it only.
+    marks: Vec<u32>,
+    first_snapshot: usize,
 }
 
 /// One false test, before the layout is assembled: its input, the list it belongs to
@@ -153,6 +161,7 @@ impl LeafMasks {
             inputs: Vec::with_capacity(p),
             words: Vec::new(),
             bits: Vec::new(),
+            snapshots: Vec::new(),
         };
         let (mut a, mut b) = (0, 0);
         for j in 0..p {
@@ -182,6 +191,46 @@ impl LeafMasks {
             layout.inputs.push(input);
         }
         Some(layout)
+    }
+
+    /// Keeps snapshots of the bit vectors after every `spacing` or so masks of each
+    /// input's numeric tests (see [`InputTests::marks`]), as far as `max_bytes` allow:
+    /// a row then reads, per input, at most one snapshot and fewer than `spacing`
+    /// masks, where the bare method reads every mask of the tests it fails. Not in the
+    /// published method; the snapshots are the AND of masks the bare method would
+    /// apply, so the leaves found are the same.
+    pub fn keep_snapshots(&mut self, spacing: usize, max_bytes: usize) {
+        let w = self.n_words();
+        let numeric: usize = self
+            .inputs
+            .iter()
+            .map(|i| (i.ends[i.ends.len() - 1] - i.ends[0]) as usize)
+            .sum();
+        let fit = (numeric * w * 8).div_ceil(max_bytes.max(1));
+        let spacing = spacing.max(fit).max(1);
+        self.snapshots.clear();
+        let mut state = vec![0u64; w];
+        for j in 0..self.inputs.len() {
+            state.fill(u64::MAX);
+            let mut input = std::mem::take(&mut self.inputs[j]);
+            input.marks.clear();
+            input.first_snapshot = self.snapshots.len() / w.max(1);
+            let mut applied = input.ends[0];
+            for k in 1..input.ends.len() {
+                if (input.ends[k] - applied) as usize >= spacing {
+                    self.clear(&mut state, applied, input.ends[k]);
+                    applied = input.ends[k];
+                    self.snapshots.extend_from_slice(&state);
+                    input.marks.push(k as u32);
+                }
+            }
+            self.inputs[j] = input;
+        }
+    }
+
+    /// Bytes of the snapshots kept.
+    pub fn snapshot_bytes(&self) -> usize {
+        self.snapshots.len() * 8
     }
 
     /// Masks stored so far, as a list end.
@@ -232,7 +281,14 @@ impl LeafMasks {
         for r in 0..rows {
             let row = &rows_data[r * width..(r + 1) * width];
             state.fill(u64::MAX);
-            self.runs(row, |from, to| self.clear(state, from, to));
+            let w = state.len();
+            self.runs(row, |snapshot, from, to| {
+                if let Some(s) = snapshot {
+                    let snap = &self.snapshots[s * w..(s + 1) * w];
+                    state.iter_mut().zip(snap).for_each(|(a, b)| *a &= b);
+                }
+                self.clear(state, from, to);
+            });
             for t in 0..n_trees {
                 let (w0, w1) = (self.tree_word[t] as usize, self.tree_word[t + 1] as usize);
                 let mut leaf = 0;
@@ -247,34 +303,44 @@ impl LeafMasks {
         }
     }
 
-    /// Masks a row of values reads (the work it costs, beside the node visits of
-    /// the walk).
-    pub fn masks_read(&self, row: &[f64]) -> usize {
-        let mut read = 0;
-        self.runs(row, |from, to| read += (to - from) as usize);
-        read
+    /// Masks and snapshots a row of values reads (the work it costs, beside the node
+    /// visits of the walk).
+    pub fn masks_read(&self, row: &[f64]) -> (usize, usize) {
+        let (mut read, mut snaps) = (0, 0);
+        self.runs(row, |snapshot, from, to| {
+            snaps += usize::from(snapshot.is_some());
+            read += (to - from) as usize;
+        });
+        (read, snaps)
     }
 
-    /// Calls `clear(from, to)` for each run of masks of the tests `row` fails: per
-    /// input, the numeric tests whose threshold is below the value, and the list of
-    /// the value's category or of a missing value.
+    /// Calls `clear(snapshot, from, to)` for each run of masks `from..to` of the tests
+    /// `row` fails, with the snapshot that stands for the run's earlier masks if one
+    /// does: per input, the numeric tests whose threshold is below the value, and the
+    /// list of the value's category or of a missing value.
     #[inline(always)]
-    fn runs(&self, row: &[f64], mut clear: impl FnMut(u32, u32)) {
+    fn runs(&self, row: &[f64], mut clear: impl FnMut(Option<usize>, u32, u32)) {
         for (input, &v) in self.inputs.iter().zip(row) {
             if v.is_nan() {
                 let s = input.codes + 1;
-                clear(input.lists[s], input.lists[s + 1]);
+                clear(None, input.lists[s], input.lists[s + 1]);
                 continue;
             }
             let k = input.thresholds.partition_point(|&t| t < v);
-            clear(input.ends[0], input.ends[k]);
+            let s = input.marks.partition_point(|&m| m as usize <= k);
+            if s > 0 {
+                let from = input.ends[input.marks[s - 1] as usize];
+                clear(Some(input.first_snapshot + s - 1), from, input.ends[k]);
+            } else {
+                clear(None, input.ends[0], input.ends[k]);
+            }
             if input.categorical {
                 let c = if v >= 0.0 && v < input.codes as f64 && v.fract() == 0.0 {
                     v as usize
                 } else {
                     input.codes
                 };
-                clear(input.lists[c], input.lists[c + 1]);
+                clear(None, input.lists[c], input.lists[c + 1]);
             }
         }
     }
