@@ -41,7 +41,7 @@ pub fn section(cfg: &Config, table: &mut Table) {
         return;
     };
     // Snapshots every `spacing` masks (at most 64 MB of them).
-    let spacings = [1000usize, 250];
+    let spacings = [2000usize, 1000, 500];
     let mut layouts = vec![("leaf masks, bare".to_string(), bare.clone())];
     for &spacing in &spacings {
         let mut m = bare.clone();

@@ -68,6 +68,23 @@ struct InputTests {
     /// AND-s one snapshot and reads the masks after it only.
     marks: Vec<u32>,
     first_snapshot: usize,
+    /// Per list of `lists`, the snapshot that stands for it whole, or [`NO_SNAPSHOT`].
+    list_snapshots: Vec<u32>,
+}
+
+/// No snapshot for a list.
+const NO_SNAPSHOT: u32 = u32::MAX;
+
+impl InputTests {
+    /// Calls `clear` for list `slot` of `lists`: its snapshot if it has one, else
+    /// its masks.
+    #[inline(always)]
+    fn list(&self, slot: usize, clear: &mut impl FnMut(Option<usize>, u32, u32)) {
+        match self.list_snapshots.get(slot) {
+            Some(&s) if s != NO_SNAPSHOT => clear(Some(s as usize), 0, 0),
+            _ => clear(None, self.lists[slot], self.lists[slot + 1]),
+        }
+    }
 }
 
 /// One false test, before the layout is assembled: its input, the list it belongs to
@@ -201,12 +218,7 @@ impl LeafMasks {
     /// apply, so the leaves found are the same.
     pub fn keep_snapshots(&mut self, spacing: usize, max_bytes: usize) {
         let w = self.n_words();
-        let numeric: usize = self
-            .inputs
-            .iter()
-            .map(|i| (i.ends[i.ends.len() - 1] - i.ends[0]) as usize)
-            .sum();
-        let fit = (numeric * w * 8).div_ceil(max_bytes.max(1));
+        let fit = (self.n_masks() * w * 8).div_ceil(max_bytes.max(1));
         let spacing = spacing.max(fit).max(1);
         self.snapshots.clear();
         let mut state = vec![0u64; w];
@@ -222,6 +234,21 @@ impl LeafMasks {
                     applied = input.ends[k];
                     self.snapshots.extend_from_slice(&state);
                     input.marks.push(k as u32);
+                }
+            }
+            // A long list of a category code or of missing values: the whole list.
+            input.list_snapshots.clear();
+            for slot in 0..input.lists.len() - 1 {
+                let (from, to) = (input.lists[slot], input.lists[slot + 1]);
+                if (to - from) as usize >= spacing {
+                    state.fill(u64::MAX);
+                    self.clear(&mut state, from, to);
+                    input
+                        .list_snapshots
+                        .push((self.snapshots.len() / w.max(1)) as u32);
+                    self.snapshots.extend_from_slice(&state);
+                } else {
+                    input.list_snapshots.push(NO_SNAPSHOT);
                 }
             }
             self.inputs[j] = input;
@@ -280,15 +307,30 @@ impl LeafMasks {
         let n_trees = self.tree_word.len() - 1;
         for r in 0..rows {
             let row = &rows_data[r * width..(r + 1) * width];
-            state.fill(u64::MAX);
+            // The first snapshot is copied rather than AND-ed into a vector of ones.
             let w = state.len();
+            let mut filled = false;
             self.runs(row, |snapshot, from, to| {
                 if let Some(s) = snapshot {
                     let snap = &self.snapshots[s * w..(s + 1) * w];
-                    state.iter_mut().zip(snap).for_each(|(a, b)| *a &= b);
+                    if filled {
+                        state.iter_mut().zip(snap).for_each(|(a, b)| *a &= b);
+                    } else {
+                        state.copy_from_slice(snap);
+                        filled = true;
+                    }
                 }
-                self.clear(state, from, to);
+                if from < to {
+                    if !filled {
+                        state.fill(u64::MAX);
+                        filled = true;
+                    }
+                    self.clear(state, from, to);
+                }
             });
+            if !filled {
+                state.fill(u64::MAX);
+            }
             for t in 0..n_trees {
                 let (w0, w1) = (self.tree_word[t] as usize, self.tree_word[t + 1] as usize);
                 let mut leaf = 0;
@@ -322,8 +364,7 @@ impl LeafMasks {
     fn runs(&self, row: &[f64], mut clear: impl FnMut(Option<usize>, u32, u32)) {
         for (input, &v) in self.inputs.iter().zip(row) {
             if v.is_nan() {
-                let s = input.codes + 1;
-                clear(None, input.lists[s], input.lists[s + 1]);
+                input.list(input.codes + 1, &mut clear);
                 continue;
             }
             let k = input.thresholds.partition_point(|&t| t < v);
@@ -340,7 +381,7 @@ impl LeafMasks {
                 } else {
                     input.codes
                 };
-                clear(None, input.lists[c], input.lists[c + 1]);
+                input.list(c, &mut clear);
             }
         }
     }
