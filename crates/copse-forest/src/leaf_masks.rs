@@ -100,8 +100,8 @@ struct Clear {
 
 impl LeafMasks {
     /// The layout of `forest`'s trees, or `None` when it cannot hold them (a threshold
-    /// that is not a number, which a checked model never has, or more than
-    /// [`MAX_ENTRIES`] masks).
+    /// that is not a number, which a checked model never has, or more than 2^26
+    /// masks).
     pub fn new(forest: &Forest) -> Option<LeafMasks> {
         let p = forest.n_features();
         let trees = forest.trees();
@@ -211,9 +211,10 @@ impl LeafMasks {
     }
 
     /// Keeps snapshots of the bit vectors after every `spacing` or so masks of each
-    /// input's numeric tests (see [`InputTests::marks`]), as far as `max_bytes` allow:
-    /// a row then reads, per input, at most one snapshot and fewer than `spacing`
-    /// masks, where the bare method reads every mask of the tests it fails. Not in the
+    /// input's numeric tests, and of each list of a category code or of missing values
+    /// that holds at least `spacing` masks, as far as `max_bytes` allow:
+    /// a row then reads, per input, at most two snapshots and fewer than `spacing`
+    /// masks of its numeric tests, where the bare method reads every mask of the tests it fails. Not in the
     /// published method; the snapshots are the AND of masks the bare method would
     /// apply, so the leaves found are the same.
     pub fn keep_snapshots(&mut self, spacing: usize, max_bytes: usize) {
