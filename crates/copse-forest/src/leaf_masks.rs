@@ -17,7 +17,7 @@
 //! Beyond the paper (which has numeric inputs only): a category split and a missing
 //! value have no order to scan, so each input also keeps one list of false tests per
 //! category code, one for any other value (an unseen or malformed code) and one for a
-//! missing value, built by asking the tree's own test ([`Tree::goes_left`]) about each.
+//! missing value, built by asking the tree's own test (`Tree::goes_left`) about each.
 //! The leaves found are the walk's own leaves, and their outputs are summed in tree
 //! order by the same code as the walk's, so the predictions are the same to the bit.
 use crate::forest::Forest;
@@ -430,6 +430,8 @@ impl Forest {
     ///
     /// # Errors
     /// `LengthMismatch` when the number of columns is not the model's.
+    // The engine's scoring layout; not part of the stable API.
+    #[doc(hidden)]
     pub fn predict_by_masks(
         &self,
         masks: &LeafMasks,
