@@ -11,13 +11,15 @@
 //! Environment:
 //! - `COPSE_BENCH_SCALE=0.1` multiplies every row count (quick run; default 1).
 //! - `COPSE_BENCH_THREADS=N` sets "all threads" (default: the machine's core count).
-//! - `COPSE_BENCH_SKIP=e2e,demo,t1m,scaling,importance,wide,explain,ranges,cuts,merge`
+//! - `COPSE_BENCH_SKIP=e2e,demo,masks,t1m,scaling,importance,wide,explain,ranges,cuts,merge`
 //!   skips workloads by name.
 //! - `COPSE_BENCH_DEMO_ROWS=N` sets the rows D2M scores (default 400,000 x scale; the
 //!   issue's figure is for 2,000,000).
 //! - `COPSE_BENCH_REPEAT=3` runs each T100k training and each end-to-end scoring that
 //!   many times and keeps the fastest (default 1; use it on a machine shared with other
 //!   work).
+//! - `COPSE_BENCH_ONLY=masks` runs the in-memory D2M comparison of node walk and leaf
+//!   masks alone (`leaf_masks.rs`).
 //! - `COPSE_BIN=path` names the `copse` binary for the end-to-end run (default: the
 //!   one Cargo builds for this benchmark).
 //!
@@ -54,6 +56,7 @@ mod explain;
 mod fit;
 mod importance;
 mod kernels;
+mod leaf_masks;
 mod machine;
 mod merge;
 mod model;
@@ -77,6 +80,11 @@ fn main() {
     }
     // `cargo bench` passes `--bench`; no other argument is used.
     let mut table = Table::new();
+    if std::env::var("COPSE_BENCH_ONLY").as_deref() == Ok("masks") {
+        leaf_masks::section(&cfg, &mut table);
+        println!("{}", table.render(&cfg));
+        return;
+    }
     eprintln!(
         "copse workloads: scale {}, all threads = {}, machine cores = {}",
         cfg.scale,
@@ -103,6 +111,7 @@ fn main() {
     end_to_end::section(&cfg, &train, &score, &mut table);
     ranges::section(&cfg, &mut table);
     demo_model::section(&cfg, &mut table);
+    leaf_masks::section(&cfg, &mut table);
     merge::section(&cfg, n1m, &mut table);
 
     let t1m_grow = t1m::section(&cfg, n1m, &mut table);

@@ -48,8 +48,9 @@ pub struct DataSet {
 }
 
 /// Reads `tests/data/<name>`, encoding every column but `target`: numeric when every
-/// cell other than `NA` parses as a number, else categorical with sorted levels.
-/// `NA` becomes NaN (missing); rows with missing values are kept.
+/// cell other than `NA` or an empty one parses as a number, else categorical with
+/// sorted levels. `NA` and an empty cell become NaN (missing); rows with missing values
+/// are kept. (`../../demo-data/<file>` names the invented demo register.)
 pub fn read_data_set(name: &str, target: &str) -> DataSet {
     let path = format!("{}/../../tests/data/{name}", env!("CARGO_MANIFEST_DIR"));
     let mut r = csv::Reader::from_path(&path).expect("test data file opens");
@@ -74,7 +75,10 @@ pub fn read_data_set(name: &str, target: &str) -> DataSet {
             continue;
         }
         let cells: Vec<&str> = rows.iter().map(|r| r[j].as_str()).collect();
-        if cells.iter().all(|c| *c == "NA" || c.parse::<f64>().is_ok()) {
+        if cells
+            .iter()
+            .all(|c| *c == "NA" || c.is_empty() || c.parse::<f64>().is_ok())
+        {
             meta.push(FeatureMeta::numeric(name));
             cols.push(
                 cells
@@ -85,7 +89,7 @@ pub fn read_data_set(name: &str, target: &str) -> DataSet {
         } else {
             let mut levels: Vec<String> = cells
                 .iter()
-                .filter(|c| **c != "NA")
+                .filter(|c| **c != "NA" && !c.is_empty())
                 .map(|c| c.to_string())
                 .collect();
             levels.sort();

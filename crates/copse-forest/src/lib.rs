@@ -74,6 +74,9 @@ pub mod held_out;
 pub mod importance;
 pub mod intervals;
 mod leaf_paths;
+// Scoring layout for the benchmark and the engine; not part of the stable API.
+#[doc(hidden)]
+pub mod leaf_masks;
 pub mod leaf_rows;
 mod loss;
 pub mod merge;

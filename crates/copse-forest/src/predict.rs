@@ -271,6 +271,25 @@ impl Forest {
             scorer.leaf_indices(&block, p, &mut leaves);
             add_leaf_values(scorer.tree(), &leaves, k, out);
         }
+        self.finish_block(out);
+    }
+
+    /// Predictions for `rows` rows into `out` (`rows * n_outputs`) from the leaves
+    /// they reached, `leaves[t * rows + r]` in tree `t` for row `r`: the trees' outputs
+    /// summed in tree order, as [`Forest::predict_block`] sums them, so the results are
+    /// the same to the bit.
+    pub(crate) fn sum_leaves(&self, leaves: &[u32], rows: usize, out: &mut [f64]) {
+        let k = self.n_outputs();
+        out.iter_mut().for_each(|o| *o = 0.0);
+        for (t, tree) in self.trees.iter().enumerate() {
+            add_leaf_values(tree, &leaves[t * rows..(t + 1) * rows], k, out);
+        }
+        self.finish_block(out);
+    }
+
+    /// The mean over the trees of the sums in `out`, shifted to the model's priors.
+    fn finish_block(&self, out: &mut [f64]) {
+        let k = self.n_outputs();
         let m = self.trees.len().max(1) as f64;
         out.iter_mut().for_each(|o| *o /= m);
         if let Some(shift) = &self.prior_shift {

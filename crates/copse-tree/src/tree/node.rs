@@ -62,6 +62,12 @@ impl Node {
     pub fn leaf_output(&self) -> f64 {
         f64::from_bits(self.split)
     }
+    /// Number of categories a category split knows (codes from 0 up to it; any other
+    /// value takes the missing direction); `None` for a numeric split or a leaf.
+    pub fn category_count(&self) -> Option<usize> {
+        self.is_categorical()
+            .then_some((self.split & 0xffff_ffff) as usize)
+    }
     /// Index of the left child (the right child follows it); meaningless for a leaf
     /// (whose `child` field holds its weight: see [`Tree::leaf_weight`](super::Tree::leaf_weight)).
     pub fn child(&self) -> usize {
