@@ -21,6 +21,7 @@ mod library;
 mod parquet;
 mod parts;
 mod pipeline;
+mod pool;
 mod reliability;
 mod report_contributions;
 mod score_parallel;

@@ -275,6 +275,10 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
 /// The out-of-bag section.
 pub fn oob_section(out: &mut String, st: Style, model: &Model) {
     let f = model;
+    if f.pool_record().is_some() {
+        super::pooled::pooled_section(out, st, f);
+        return;
+    }
     let oob = f.oob();
     let _ = writeln!(
         out,
