@@ -114,7 +114,11 @@ pub fn pooled_section(out: &mut String, st: Style, model: &Forest) {
                 let mut block = String::new();
                 measures_block(&mut block, metrics, model.classes(), "rows judged");
                 for l in block.lines() {
-                    let _ = writeln!(out, "  {l}");
+                    if l.is_empty() {
+                        let _ = writeln!(out);
+                    } else {
+                        let _ = writeln!(out, "  {l}");
+                    }
                 }
             }
             None => line(
