@@ -66,7 +66,10 @@ fn part(d: &DataSet, rows: &[usize], numeric_target: bool) -> Part {
             .collect();
         for v in x.column_mut(j) {
             if !v.is_nan() {
-                *v = present.iter().position(|&c| c as f64 == *v).unwrap() as f64;
+                *v = present
+                    .iter()
+                    .position(|&c| c as f64 == *v)
+                    .expect("the step succeeds") as f64;
             }
         }
         meta[j] = FeatureMeta::categorical(
@@ -122,11 +125,15 @@ fn recode(d: &DataSet, rows: &[usize], model: &Forest) -> Array2<f64> {
 /// Three partitions: every Torgersen bird and a third of the others in the first,
 /// the rest of the others split between the second and third (no Torgersen there).
 fn torgersen_split(d: &DataSet, s: u64) -> Vec<Vec<usize>> {
-    let island = d.meta.iter().position(|f| f.name == "island").unwrap();
+    let island = d
+        .meta
+        .iter()
+        .position(|f| f.name == "island")
+        .expect("the step succeeds");
     let torgersen = levels(&d.meta[island])
         .iter()
         .position(|l| l == "Torgersen")
-        .unwrap();
+        .expect("the step succeeds");
     let (mut first, others): (Vec<usize>, Vec<usize>) =
         (0..d.x.nrows()).partition(|&i| d.x[[i, island]] == torgersen as f64);
     let others = shuffled(others, s);
@@ -153,7 +160,11 @@ fn pooled_is_weighted_mean(target: &str, numeric: bool) {
         .enumerate()
         .map(|(k, (rows, t))| train(&part(&d, rows, numeric), &settings(t, 21 + k as u64)))
         .collect();
-    let island = d.meta.iter().position(|f| f.name == "island").unwrap();
+    let island = d
+        .meta
+        .iter()
+        .position(|f| f.name == "island")
+        .expect("the step succeeds");
     assert!(levels(&models[0].meta()[island]).contains(&"Torgersen".to_string()));
     assert!(!levels(&models[1].meta()[island]).contains(&"Torgersen".to_string()));
     let named: Vec<(&str, &Forest)> = ["a.csv", "b.csv", "c.csv"]
@@ -162,17 +173,19 @@ fn pooled_is_weighted_mean(target: &str, numeric: bool) {
         .collect();
     let pooled = Forest::pool(&named).expect("pools");
     // Through the model file, as the pooled model travels.
-    let pooled = Forest::from_bytes(&pooled.to_bytes().unwrap(), "pooled").unwrap();
+    let pooled = Forest::from_bytes(&pooled.to_bytes().expect("the step succeeds"), "pooled")
+        .expect("the step succeeds");
     // The union of the partitions' dictionaries is the whole file's.
     assert_eq!(pooled.meta(), d.meta.as_slice());
     assert_eq!(pooled.trees().len(), 150);
     let all: Vec<usize> = (0..d.x.nrows()).collect();
-    let got = pooled.predict(d.x.view()).unwrap();
+    let got = pooled.predict(d.x.view()).expect("the step succeeds");
     let mut want = Array2::<f64>::zeros(got.dim());
     for (m, t) in models.iter().zip(trees) {
         want.scaled_add(
             t as f64 / 150.0,
-            &m.predict(recode(&d, &all, m).view()).unwrap(),
+            &m.predict(recode(&d, &all, m).view())
+                .expect("the step succeeds"),
         );
     }
     let scale = want.iter().fold(1.0f64, |a, v| a.max(v.abs()));
@@ -254,7 +267,9 @@ fn pooled_held_out_accuracy_matches_one_run() {
         let named: Vec<(&str, &Forest)> = models.iter().map(|m| ("part", m)).collect();
         let pooled = Forest::pool(&named).expect("pools");
         for (model, right) in [(&one, &mut right_one), (&pooled, &mut right_pool)] {
-            let p = model.predict(recode(&d, &held, model).view()).unwrap();
+            let p = model
+                .predict(recode(&d, &held, model).view())
+                .expect("the step succeeds");
             for (row, &i) in p.rows().into_iter().zip(&held) {
                 let best = (0..p.ncols()).fold(0, |b, c| if row[c] > row[b] { c } else { b });
                 *right += usize::from(model.classes()[best] == d.target[i]);
@@ -303,7 +318,7 @@ fn models_that_do_not_pool_are_refused() {
     let mut other = b.clone();
     let mut card = other.card().clone();
     card.target = "kind".into();
-    other.set_card(card).unwrap();
+    other.set_card(card).expect("the step succeeds");
     refused(&[("a", &a), ("other", &other)], "models 'kind'");
     // Another class list: a partition without Chinstrap.
     let no_chinstrap: Vec<usize> = split[1]
@@ -330,7 +345,11 @@ fn models_that_do_not_pool_are_refused() {
         "in the same order",
     );
     let mut retyped = part(&d, &split[1], false);
-    let year = retyped.meta.iter().position(|f| f.name == "year").unwrap();
+    let year = retyped
+        .meta
+        .iter()
+        .position(|f| f.name == "year")
+        .expect("the step succeeds");
     let years: Vec<String> = ["2007", "2008", "2009"].map(String::from).to_vec();
     for v in retyped.x.column_mut(year) {
         *v -= 2007.0;
@@ -358,7 +377,7 @@ fn models_that_do_not_pool_are_refused() {
     let mut tokens = b.clone();
     let mut card = tokens.card().clone();
     card.missing_tokens = vec!["?".into()];
-    tokens.set_card(card).unwrap();
+    tokens.set_card(card).expect("the step succeeds");
     refused(&[("a", &a), ("m", &tokens)], "missing tokens");
     // What a pooled model cannot keep or average.
     let balanced = ForestSettings {
@@ -376,10 +395,10 @@ fn models_that_do_not_pool_are_refused() {
             ..TrainOptions::default()
         },
     )
-    .unwrap()
+    .expect("the step succeeds")
     .forest;
     refused(&[("a", &a), ("k", &kept)], "--keep-draws");
-    let pooled = Forest::pool(&[("a", &a), ("b", &b)]).unwrap();
+    let pooled = Forest::pool(&[("a", &a), ("b", &b)]).expect("the step succeeds");
     let c3 = train(&part(&d, &split[2], false), &s);
     refused(&[("p", &pooled), ("c", &c3)], "itself a pooled model");
 }

@@ -94,7 +94,7 @@ fn the_readme_partition_recipe_runs_and_pools() {
     }
     assert!(pooled["about"]
         .as_str()
-        .unwrap()
+        .expect("the step succeeds")
         .contains("not the same model"));
     // No pooled out-of-bag figure is claimed.
     assert!(report["oob"]["error"].is_null(), "{}", report["oob"]);
@@ -146,20 +146,20 @@ fn models_that_cannot_pool_are_refused_with_nothing_written() {
     let dir = tmp();
     let d = dir.path();
     std::fs::copy(repo("demo-data/water_mains.csv"), d.join("mains.csv")).expect("copied");
-    let text = std::fs::read_to_string(d.join("mains.csv")).unwrap();
-    let (head, rest) = text.split_once('\n').unwrap();
+    let text = std::fs::read_to_string(d.join("mains.csv")).expect("the step succeeds");
+    let (head, rest) = text.split_once('\n').expect("the step succeeds");
     let rows: Vec<&str> = rest.lines().collect();
     let half = rows.len() / 2;
     std::fs::write(
         d.join("a.csv"),
         format!("{head}\n{}\n", rows[..half].join("\n")),
     )
-    .unwrap();
+    .expect("the step succeeds");
     std::fs::write(
         d.join("b.csv"),
         format!("{head}\n{}\n", rows[half..].join("\n")),
     )
-    .unwrap();
+    .expect("the step succeeds");
     let train = |data: &str, out: &str, extra: &[&str]| {
         let mut args = vec![
             "train",
@@ -186,7 +186,7 @@ fn models_that_cannot_pool_are_refused_with_nothing_written() {
         assert!(err.contains(words), "'{words}' not in: {err}");
         assert!(!d.join("out.copse").exists());
         let left: Vec<_> = std::fs::read_dir(d)
-            .unwrap()
+            .expect("the step succeeds")
             .filter_map(|e| e.ok())
             .filter(|e| e.file_name().to_string_lossy().ends_with(".partial"))
             .collect();

@@ -48,7 +48,10 @@ fn pooled_importance_is_that_of_all_trees() {
     assert_eq!(pooled.replicates, 17);
     for (p, w) in pooled.features.iter().zip(&all.features) {
         assert!((p.mean - w.mean).abs() < 1e-12, "{p:?} {w:?}");
-        let (ps, ws) = (p.std_error.unwrap(), w.std_error.unwrap());
+        let (ps, ws) = (
+            p.std_error.expect("the step succeeds"),
+            w.std_error.expect("the step succeeds"),
+        );
         assert!((ps - ws).abs() < 1e-12, "{ps} {ws}");
         assert_eq!(p.rank, w.rank);
     }

@@ -78,11 +78,11 @@ mod tests {
             FeatureMeta::categorical("c", vec!["a".into(), "c".into(), "e".into()]),
             FeatureMeta::numeric("v"),
         ];
-        let data = BinnedData::new(x.view(), &meta, 256).unwrap();
-        let target = OutcomeView::classes(&y, 2).unwrap();
+        let data = BinnedData::new(x.view(), &meta, 256).expect("the step succeeds");
+        let target = OutcomeView::classes(&y, 2).expect("the step succeeds");
         let tree = Grower::new(TreeSettings::default())
             .grow(&data, &target, &vec![1.0; n], 0)
-            .unwrap();
+            .expect("the step succeeds");
         assert!(tree.nodes().iter().any(|n| n.is_categorical()));
         let map = vec![Some(0), None, Some(1), None, Some(2), None];
         let new = tree.with_category_codes(&[Some(map.clone()), None]);
@@ -93,7 +93,7 @@ mod tests {
             ),
             FeatureMeta::numeric("v"),
         ];
-        new.check(&wide).unwrap();
+        new.check(&wide).expect("the step succeeds");
         for v in 0..5 {
             let v = f64::from(v);
             for (code, old) in map.iter().enumerate() {
