@@ -21,6 +21,7 @@ mod library;
 mod parquet;
 mod parts;
 mod pipeline;
+mod pool;
 mod reliability;
 mod report_contributions;
 mod score_parallel;
@@ -655,10 +656,10 @@ fn tampered_model_files_are_refused_clearly() {
     b[..4].copy_from_slice(b"PK\x03\x04");
     cases.push(("zip.copse", b, "not a copse model"));
     let mut b = good.clone();
-    b[8] = 5;
+    b[8] = 6;
     cases.push(("future.copse", b, "newer copse"));
-    // Formats 1 to 3 are earlier layouts; this copse reads format 4 only.
-    for old in [1, 2, 3] {
+    // Formats 1 to 4 are earlier layouts; this copse reads format 5 only.
+    for old in [1, 2, 3, 4] {
         let mut b = good.clone();
         b[8] = old;
         cases.push(("earlier.copse", b, "trained again with this copse"));

@@ -126,7 +126,8 @@ pub fn forest_error(e: &copse_forest::Error, context: &str) -> CliError {
         | K::Undecodable
         | K::FileTooLarge
         | K::PartsDisagree
-        | K::DataMismatch => CliError::input(text),
+        | K::DataMismatch
+        | K::PoolMismatch => CliError::input(text),
         _ => CliError::failure(text),
     }
 }

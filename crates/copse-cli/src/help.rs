@@ -81,6 +81,14 @@ Examples:
   copse merge part0.copsepart part1.copsepart --out mains.copse
   copse merge mains.copse more.copsepart --out mains_500.copse    # grow a model";
 
+/// Examples of `copse pool`.
+pub const POOL_EXAMPLES: &str = "\
+Examples:
+  copse train --data rows_part1.csv --target failed_within_year --seed 1 --out part1.copse
+  copse train --data rows_part2.csv --target failed_within_year --seed 2 --out part2.copse
+  copse pool part1.copse part2.copse --out pooled.copse
+  copse pool part*.copse --out pooled.copse --json > pooled.json";
+
 /// Examples of `copse demo`.
 pub const DEMO_EXAMPLES: &str = "\
 Examples:

@@ -47,6 +47,10 @@ pub enum ErrorKind {
     Stopped,
     /// Data given to complete a model (the merge of parts) is not its training data.
     DataMismatch,
+    /// Models that cannot be pooled ([`crate::Forest::pool`]): another task, outcome,
+    /// class list, inputs or settings, a model given twice, or one that keeps what a
+    /// pooled model cannot.
+    PoolMismatch,
 }
 
 /// An error from the forest engine.

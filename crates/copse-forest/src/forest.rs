@@ -8,6 +8,7 @@ use crate::importance::{Importance, PermutationImportance};
 use crate::leaf_rows::LeafRows;
 use crate::oob_summary::{OobReport, OobSummary};
 use crate::outcome::{Outcome, MISSING};
+use crate::pool_record::Pool;
 use crate::settings::ForestSettings;
 use crate::task::Task;
 use copse_tree::{FeatureBins, FeatureMeta, Tree};
@@ -48,6 +49,9 @@ pub struct Forest {
     /// The training rows of every leaf and the training outcomes, when kept
     /// ([`crate::TrainOptions::keep_leaf_rows`]); model format 4 on.
     pub(crate) leaf_rows: Option<LeafRows>,
+    /// For a model pooled from forests trained on partitions of the rows
+    /// ([`Forest::pool`]), each partition's own record; model format 5 on.
+    pub(crate) pool: Option<Pool>,
 }
 
 /// What [`Forest::train`] returns: the model, and the per-row out-of-bag results that
@@ -110,11 +114,37 @@ impl Forest {
     /// How many rows of `x` may be training rows of this model: every training row
     /// counts, and about [`RowFingerprint::false_match_rate`] of other rows match by
     /// chance. Judged on rows it was trained on, a forest looks far better than it is.
+    /// A pooled model looks each row up in every partition's fingerprint, read in
+    /// that partition's own category codes.
     pub fn training_row_matches(&self, x: ArrayView2<'_, f64>) -> usize {
-        x.rows()
-            .into_iter()
-            .filter(|r| self.fingerprint.contains(r.iter().copied()))
-            .count()
+        match &self.pool {
+            None => x
+                .rows()
+                .into_iter()
+                .filter(|r| self.fingerprint.contains(r.iter().copied()))
+                .count(),
+            Some(pool) => {
+                let (mut row, mut scratch) = (Vec::new(), Vec::new());
+                x.rows()
+                    .into_iter()
+                    .filter(|r| {
+                        row.clear();
+                        row.extend(r.iter().copied());
+                        pool.contains(&row, &mut scratch)
+                    })
+                    .count()
+            }
+        }
+    }
+
+    /// The chance that a row that was not a training row counts in
+    /// [`Forest::training_row_matches`] (for a pooled model, that it matches some
+    /// partition's fingerprint).
+    pub fn training_row_false_match_rate(&self) -> f64 {
+        match &self.pool {
+            None => self.fingerprint.false_match_rate(),
+            Some(pool) => pool.false_match_rate(),
+        }
     }
 
     /// How the model was made: outcome column, missing tokens, source, row counts.
@@ -281,6 +311,11 @@ impl Forest {
                 return whole("it keeps leaf rows, which only regression models keep".into());
             }
             rows.check(&self.trees)?;
+        }
+        if let Some(pool) = &self.pool {
+            if let Err(e) = pool.check(&self.meta, self.classes.len(), self.trees.len()) {
+                return whole(e.message().to_string());
+            }
         }
         Ok(())
     }

@@ -9,6 +9,8 @@
 //! - [`forest`]: the model ([`Forest`]) and what training returns ([`Trained`]);
 //! - [`part`], [`merge`]: trees `a..b` of a forest grown apart ([`ForestPart`]) and
 //!   merged into the model of one run, byte for byte ([`Forest::merge_parts`]);
+//! - [`pool`], [`pool_record`]: whole forests trained on separate partitions of the
+//!   rows pooled into one model ([`Forest::pool`]), each partition's own figures kept;
 //! - [`oob`]: out-of-bag predictions, error curve and summary;
 //! - [`predict`]: batch prediction and evaluation on labelled data;
 //! - [`metrics`]: error, confusion matrix, log loss, Brier score, ROC AUC, MSE;
@@ -88,6 +90,8 @@ pub mod oob_summary;
 pub mod outcome;
 pub mod part;
 mod plan;
+pub mod pool;
+pub mod pool_record;
 pub mod predict;
 mod priors;
 pub mod progress;
@@ -128,6 +132,7 @@ pub use metrics::{predicted_class, ClassMetrics, Metrics, ValueMetrics, Weighted
 pub use oob_summary::{OobReport, OobSummary};
 pub use outcome::{natural_order, Outcome, MISSING};
 pub use part::{ForestPart, PART_FORMAT_VERSION, PART_MAGIC};
+pub use pool_record::{Pool, PoolMember, POOLED_CAUTION};
 pub use predict::{Evaluation, SCORING_BLOCK_BYTES};
 pub use progress::{Progress, Stage};
 pub use settings::{FeaturesPerSplit, ForestSettings, Sampling, TreeRules};

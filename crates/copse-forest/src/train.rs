@@ -381,6 +381,7 @@ impl Finish<'_> {
             prior_shift,
             fingerprint,
             leaf_rows,
+            pool: None,
         };
         Ok(Trained {
             forest,

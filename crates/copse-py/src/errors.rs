@@ -53,7 +53,7 @@ pub fn data(e: &copse_data::Error) -> PyErr {
 pub fn forest(e: &copse_forest::Error) -> PyErr {
     use copse_forest::ErrorKind as K;
     let kind = match e.kind() {
-        K::InvalidSetting | K::PartsDisagree => Kind::Usage,
+        K::InvalidSetting | K::PartsDisagree | K::PoolMismatch => Kind::Usage,
         K::EmptyData
         | K::LengthMismatch
         | K::NoTargets

@@ -25,6 +25,7 @@ mod judging;
 mod model;
 mod parts;
 mod pool;
+mod pooling;
 mod scoring;
 mod training;
 
@@ -38,6 +39,7 @@ fn _native(m: &Bound<'_, PyModule>) -> PyResult<()> {
     m.add_function(wrap_pyfunction!(training::train, m)?)?;
     m.add_function(wrap_pyfunction!(training::train_part, m)?)?;
     m.add_function(wrap_pyfunction!(parts::merge, m)?)?;
+    m.add_function(wrap_pyfunction!(pooling::pool_models, m)?)?;
     m.add_function(wrap_pyfunction!(parts::load_part, m)?)?;
     m.add_function(wrap_pyfunction!(parts::part_from_bytes, m)?)?;
     m.add_function(wrap_pyfunction!(parts::part_of_model, m)?)?;

@@ -56,11 +56,20 @@ pub fn part_from_bytes(py: Python<'_>, data: &[u8], name: &str) -> PyResult<Nati
 
 /// A model taken as the first trees of a larger forest, to grow it by a merge.
 #[pyfunction]
-pub fn part_of_model(model: &NativeModel, name: &str) -> NativePart {
-    NativePart::new(ForestPart::from_model(
+pub fn part_of_model(model: &NativeModel, name: &str) -> PyResult<NativePart> {
+    if model.forest.pool_record().is_some() {
+        return Err(errors::raise(
+            Kind::Usage,
+            format!(
+                "{name} is a pooled model, whose trees are not the first trees of one forest; \
+                 merge parts of one partition's forest, then pool again"
+            ),
+        ));
+    }
+    Ok(NativePart::new(ForestPart::from_model(
         Forest::clone(&model.forest),
         name.to_string(),
-    ))
+    )))
 }
 
 #[pymethods]

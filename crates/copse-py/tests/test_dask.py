@@ -65,3 +65,25 @@ def test_parts_grown_on_workers_merge_into_the_model_of_one_run(client, mains):
     merged = copse.merge(parts[::-1], mains, threads=1)
     whole = copse.train(mains, **settings)
     assert merged.to_bytes() == whole.to_bytes()
+
+
+def _train_partition(path, seed, settings):
+    # The worker reads its own partition: only the file's name travels.
+    return copse.train(pd.read_csv(path), seed=seed, **settings)
+
+
+def test_partitions_trained_on_workers_pool_on_the_client(client, mains, tmp_path):
+    settings = dict(target="failed_within_year", ignore="segment_id", trees=20, threads=1)
+    shuffled = mains.sample(frac=1.0, random_state=3)
+    paths = []
+    for k in range(3):
+        path = tmp_path / f"rows{k}.csv"
+        shuffled.iloc[k::3].to_csv(path, index=False)
+        paths.append(str(path))
+    futures = [client.submit(_train_partition, p, 7 + k, settings, pure=False) for k, p in enumerate(paths)]
+    models = client.gather(futures)
+    pooled = copse.pool(models, names=paths)
+    # The same as training the partitions in this process and pooling them.
+    here = [_train_partition(p, 7 + k, settings) for k, p in enumerate(paths)]
+    assert pooled.to_bytes() == copse.pool(here, names=paths).to_bytes()
+    assert [p["source"] for p in pooled.pooled["partitions"]] == [copse.DEFAULT_SOURCE] * 3

@@ -3,8 +3,8 @@
 //! error (exit 2) before any work starts.
 use crate::help::{
     DEMO_EXAMPLES, EFFECT_EXAMPLES, EVALUATE_EXAMPLES, EXPLAIN_EXAMPLES, IMPORTANCE_EXAMPLES,
-    INSPECT_EXAMPLES, MAKE_DEMO_DATA_EXAMPLES, MERGE_EXAMPLES, SCORE_EXAMPLES, STABILITY_EXAMPLES,
-    TRAIN_EXAMPLES, TUNE_EXAMPLES,
+    INSPECT_EXAMPLES, MAKE_DEMO_DATA_EXAMPLES, MERGE_EXAMPLES, POOL_EXAMPLES, SCORE_EXAMPLES,
+    STABILITY_EXAMPLES, TRAIN_EXAMPLES, TUNE_EXAMPLES,
 };
 use clap::{Args, Parser, Subcommand};
 use copse_data::Roles;
@@ -17,7 +17,7 @@ mod train;
 mod tune;
 mod values;
 pub use effect::EffectArgs;
-pub use train::{MergeArgs, TrainArgs, TreeRange};
+pub use train::{MergeArgs, PoolArgs, TrainArgs, TreeRange};
 pub use tune::TuneArgs;
 pub use values::{CutsArg, DecimalArg, DelimiterArg, ImpurityArg, OutFormat, TaskArg};
 
@@ -87,6 +87,10 @@ pub enum Command {
     /// their trees makes, byte for byte; a model file among them is grown by the parts.
     #[command(after_help = MERGE_EXAMPLES)]
     Merge(MergeArgs),
+    /// Pool models each trained on one partition of the rows (one file each) into one
+    /// model scoring by the mean over all their trees; not the model of one run.
+    #[command(after_help = POOL_EXAMPLES)]
+    Pool(PoolArgs),
     /// Run the whole job on the bundled, invented water-main register.
     #[command(after_help = DEMO_EXAMPLES)]
     Demo(DemoArgs),

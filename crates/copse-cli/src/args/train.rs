@@ -156,6 +156,24 @@ pub struct MergeArgs {
     pub json: bool,
 }
 
+/// `copse pool`.
+#[derive(Debug, Args)]
+pub struct PoolArgs {
+    /// Model files, one per partition of the rows, each from 'copse train' on its own
+    /// partition file with the same settings (the seed and --trees may differ); their
+    /// trees come in this order.
+    #[arg(required = true, num_args = 2.., value_name = "MODEL")]
+    pub models: Vec<PathBuf>,
+
+    /// Where to write the pooled model file.
+    #[arg(long, value_name = "MODEL")]
+    pub out: PathBuf,
+
+    /// Print the report as one JSON object instead of text.
+    #[arg(long)]
+    pub json: bool,
+}
+
 /// Trees `start..end` of a forest (counting from 0, `end` left out), as
 /// `--tree-range` gives them (kept small: the arguments of every command share one
 /// enum).

@@ -26,6 +26,13 @@ fn load_part(path: &Path) -> CliResult<ForestPart> {
         && head == MAGIC;
     if is_model {
         let model = Forest::load(path).map_err(|e| CliError::input(e.message()))?;
+        if model.pool_record().is_some() {
+            return Err(CliError::input(format!(
+                "{} is a pooled model (from 'copse pool'), whose trees are not the first trees \
+                 of one forest; merge parts of one partition's forest, then pool again",
+                path.display()
+            )));
+        }
         Ok(ForestPart::from_model(model, path.display().to_string()))
     } else {
         ForestPart::load(path).map_err(|e| CliError::input(e.message()))

@@ -8,6 +8,7 @@ pub mod importance;
 pub mod inspect;
 pub mod make_demo_data;
 pub mod merge;
+pub mod pool;
 pub mod report_page;
 pub mod score;
 pub mod stability;
@@ -47,6 +48,7 @@ pub fn run(cli: Cli) -> CliResult<()> {
         Command::Tune(a) => tune::run(&a, &ui),
         Command::Inspect(a) => inspect::run(&a, &ui),
         Command::Merge(a) => merge::run(&a, &ui),
+        Command::Pool(a) => pool::run(&a, &ui),
         Command::Demo(a) => demo::run(&a, &ui),
         Command::MakeDemoData(a) => make_demo_data::run(&a, &ui),
     })

@@ -109,6 +109,13 @@ impl<'a> InspectView<'a> {
         }
     }
 
+    /// The same report named as made by `command` (its JSON `command` key), for a
+    /// command that reports on the model it wrote (`pool`).
+    pub fn made_by(mut self, command: &'static str) -> Self {
+        self.model.command = command;
+        self
+    }
+
     /// The printed report.
     pub fn text(&self, st: Style) -> String {
         let model = self.forest;

@@ -24,6 +24,7 @@ pub mod judged;
 pub mod measures;
 pub mod model;
 pub mod notices;
+pub mod pooled;
 pub mod ranking;
 pub mod sections;
 pub mod stability;

@@ -27,8 +27,11 @@ pub struct ModelView<'a> {
     pub settings: SettingsView,
     /// The training data.
     pub data: DataView<'a>,
-    /// The out-of-bag check.
+    /// The out-of-bag check (for a pooled model, none: see `pooled`).
     pub oob: OobView<'a>,
+    /// For a pooled model, its partitions and their own out-of-bag figures.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub pooled: Option<super::pooled::PooledView<'a>>,
     /// The caution under every report.
     pub caution: &'static str,
 }
@@ -48,6 +51,7 @@ impl<'a> ModelView<'a> {
             settings: SettingsView::new(model),
             data: DataView::new(model),
             oob: OobView::new(model),
+            pooled: super::pooled::PooledView::of(model),
             caution: CAUTION,
         }
     }

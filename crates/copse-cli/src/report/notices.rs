@@ -60,7 +60,7 @@ impl TrainingRowsView {
             rows,
             matching,
             share,
-            false_match_rate: model.fingerprint().false_match_rate(),
+            false_match_rate: model.training_row_false_match_rate(),
             optimistic,
             warning,
         }

@@ -420,6 +420,13 @@ pub fn importance_section(
                 "see --shuffled-target-runs N.",
             );
         }
+        None if model.pool_record().is_some() => {
+            let _ = writeln!(
+                out,
+                "  a pooled model has no out-of-bag importance of its own (each partition's is \
+                 listed\n  with it); run 'copse importance' on held-out data to rank its inputs"
+            );
+        }
         None => {
             let _ = writeln!(
                 out,

@@ -245,7 +245,15 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
         "numeric bins",
         &format!("at most {} per input", s.bins),
     );
-    line(out, "seed", &s.seed.to_string());
+    match model.pool_record() {
+        // A pooled model's first partition's seed is not the seed of its trees.
+        Some(_) => line(
+            out,
+            "seeds",
+            "one per partition (listed with the partitions)",
+        ),
+        None => line(out, "seed", &s.seed.to_string()),
+    }
     if let Some(draws) = f.draws() {
         line(
             out,
@@ -275,6 +283,10 @@ pub fn settings_section(out: &mut String, st: Style, model: &Model, threads: Opt
 /// The out-of-bag section.
 pub fn oob_section(out: &mut String, st: Style, model: &Model) {
     let f = model;
+    if f.pool_record().is_some() {
+        super::pooled::pooled_section(out, st, f);
+        return;
+    }
     let oob = f.oob();
     let _ = writeln!(
         out,

@@ -28,15 +28,16 @@ use std::path::Path;
 
 /// First eight bytes of every model file.
 pub const MAGIC: [u8; 8] = [0xC0, b'P', b'S', b'E', b'M', b'D', b'\r', b'\n'];
-/// The format this build writes and the only one it reads. Format 4 adds case weights
+/// The format this build writes and the only one it reads. Format 5 adds the record
+/// of the partitions a pooled model was made of (`Forest::pool`); format 4 added case weights
 /// and row groups to the model card, weighted totals to the out-of-bag measures, the
 /// cut-point mode to the settings and the leaf rows a model may keep
 /// (`Forest::leaf_rows`); format 3 was the forest with its model card (format 2 held
 /// a command-line schema beside the forest; format 1 stored leaf outputs in tables
 /// beside the nodes).
-pub const FORMAT_VERSION: u16 = 4;
+pub const FORMAT_VERSION: u16 = 5;
 /// The oldest format this build reads (formats before it must be trained again).
-pub const OLDEST_READ_VERSION: u16 = 4;
+pub const OLDEST_READ_VERSION: u16 = 5;
 /// Bytes before the payload.
 pub const HEADER_LEN: usize = 20;
 /// Bytes after the payload.

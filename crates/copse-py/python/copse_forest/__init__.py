@@ -24,7 +24,7 @@ decisions about people or safety.
 
 from . import _native
 from ._errors import BadInputError, CopseError, CopseWarning, DamagedModelError, UsageError
-from ._model import DEFAULT_SOURCE, Model, load, merge, train
+from ._model import DEFAULT_SOURCE, Model, load, merge, pool, train
 from ._parts import Part, load_part
 
 __version__: str = _native.COPSE_VERSION
@@ -35,6 +35,7 @@ __all__ = [
     "Model",
     "Part",
     "merge",
+    "pool",
     "load_part",
     "CopseError",
     "BadInputError",

@@ -75,6 +75,9 @@ class Model:
     def oob(self) -> Dict[str, Any]:
         """The out-of-bag summary."""
     @property
+    def pooled(self) -> Optional[Dict[str, Any]]:
+        """A pooled model's partitions and their own out-of-bag figures, or None."""
+    @property
     def oob_importance(self) -> List[Dict[str, Any]]:
         """The out-of-bag permutation importance by rank."""
     @property
@@ -207,6 +210,9 @@ def merge(
     threads: Optional[int] = None,
 ) -> Model:
     """Merges parts of one forest into the model one run makes (``copse merge``)."""
+
+def pool(models: Iterable[Model], *, names: Optional[Sequence[str]] = ...) -> Model:
+    """Pools models each trained on one partition of the rows (``copse pool``)."""
 
 def load_part(path: PathLike) -> Part:
     """Reads a part file written by :meth:`Part.save` or ``copse train --tree-range``."""

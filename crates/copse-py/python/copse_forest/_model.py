@@ -152,6 +152,14 @@ class Model:
         return self._report()["importance"]
 
     @property
+    def pooled(self) -> Optional[dict]:
+        """For a model made by :func:`pool`: that it is not the model of one run on all
+        rows, how its score is made, and each partition's model with its own
+        out-of-bag figures and importance (the ``pooled`` of the reports); None for a
+        model of one run."""
+        return self._report().get("pooled")
+
+    @property
     def training_report(self) -> Optional[dict]:
         """The report of the training run (the keys of ``copse train --json``) for a
         model trained in this process; None for a loaded model."""
@@ -453,3 +461,27 @@ def merge(
     cols = named_columns(data, names)
     native = _native.merge(natives, DEFAULT_SOURCE, cols.names, cols.values, threads)
     return Model(native)
+
+
+def pool(models: Iterable[Model], *, names: Optional[Sequence[str]] = None) -> Model:
+    """Pools models each trained on one partition of the rows (same columns, kinds,
+    outcome, classes and settings; the seed and number of trees may differ) into one
+    model whose score is the mean over all their trees, so the tree-count weighted
+    mean of their scores (as ``copse pool``). Category dictionaries are joined. The
+    pooled model keeps each partition's own out-of-bag figures (:attr:`Model.pooled`)
+    and has none of its own: it is not the model one run on all rows would make.
+    ``names`` name the models in messages and in the record (default ``model 1``,
+    ``model 2``, ...).
+
+    Raises :class:`UsageError` for models that cannot be pooled, naming what differs."""
+    natives = []
+    for m in models:
+        if not isinstance(m, Model):
+            raise UsageError(f"pool() takes Model objects; got {type(m).__name__}")
+        natives.append(m._native)
+    if names is None:
+        names = [f"model {k + 1}" for k in range(len(natives))]
+    names = [str(n) for n in names]
+    if len(names) != len(natives):
+        raise UsageError(f"{len(names)} names for {len(natives)} models; give one name per model")
+    return Model(_native.pool_models(natives, names))

@@ -68,6 +68,9 @@ class NativePart:
 def train_part(source: str, names: Sequence[str], columns: Sequence[Column], settings: Dict[str, Any], start: int, end: int) -> Tuple[NativePart, List[str]]:
     """Grows trees start..end; returns the part and the notes."""
 
+def pool_models(models: Sequence[NativeModel], names: Sequence[str]) -> NativeModel:
+    """Pools models each trained on one partition of the rows."""
+
 def merge(parts: Sequence[NativePart], source: str, names: Sequence[str], columns: Sequence[Column], threads: Optional[int] = None) -> NativeModel:
     """Merges parts with their training data into the model."""
 

@@ -10,6 +10,7 @@ mod compact;
 mod descent;
 mod leaf_value;
 mod node;
+mod recode;
 
 // Layout for the forest engine's descent kernels; not part of the stable API.
 #[doc(hidden)]
