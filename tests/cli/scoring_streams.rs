@@ -9,8 +9,7 @@ use super::{
     assert_full_device_intact, copse_in, expect_code, full_device, penguins, read_csv, repo, text,
     tmp, train_iris,
 };
-use std::process::Command;
-use std::process::Stdio;
+use std::process::{Command, Stdio};
 
 #[test]
 fn a_column_missing_at_scoring_is_named() {
