@@ -23,7 +23,10 @@ fn iris_parquet(path: &Path) {
             let v: Vec<f64> = cells.map(|c| c.parse().expect("a number")).collect();
             columns.push((name.as_str(), Arc::new(Float64Array::from(v))));
         } else {
-            columns.push((name.as_str(), Arc::new(StringArray::from_iter_values(cells))));
+            columns.push((
+                name.as_str(),
+                Arc::new(StringArray::from_iter_values(cells)),
+            ));
         }
     }
     write_parquet(path, columns, 40);
@@ -215,7 +218,10 @@ fn a_bad_parquet_cell_is_named_by_row_group_row_and_column() {
                 r[j].clone()
             }
         });
-        columns.push((name.as_str(), Arc::new(StringArray::from_iter_values(cells))));
+        columns.push((
+            name.as_str(),
+            Arc::new(StringArray::from_iter_values(cells)),
+        ));
     }
     let notes = (0..body.len()).map(|i| if i == 10 { "two\nlines" } else { "one" });
     columns.push(("note", Arc::new(StringArray::from_iter_values(notes))));

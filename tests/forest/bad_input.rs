@@ -1,6 +1,6 @@
 //! Bad input and edge cases: typed errors, never a panic; rows with a missing outcome
 //! left out and counted.
-use super::{seed, settings, train, train_importance};
+use super::{importance_settings, seed, settings, train, train_importance};
 use copse_forest::synth::{self, Synthetic};
 use copse_forest::{
     FeatureMeta, FeaturesPerSplit, Forest, ForestSettings, Metrics, Outcome, Sampling,

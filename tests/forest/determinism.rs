@@ -1,5 +1,6 @@
 //! Determinism and order: the same model for any thread count, predictions in input
 //! order, evaluation matching classes by label, and balanced sampling.
+use super::open_data::read_csv;
 use super::{codes, importance_settings, seed, settings, train, train_importance};
 use copse_forest::synth::{self, Synthetic};
 use copse_forest::{FeaturesPerSplit, Forest, ForestSettings, Metrics, Outcome, MISSING};

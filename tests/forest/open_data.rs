@@ -6,7 +6,7 @@ use copse_forest::{FeaturesPerSplit, Outcome};
 
 /// Reads `tests/data/<name>` (see `support::read_data_set`) with `target` as the
 /// outcome, `NA` missing.
-fn read_csv(name: &str, target: &str) -> Synthetic {
+pub(crate) fn read_csv(name: &str, target: &str) -> Synthetic {
     let d = support::read_data_set(name, target);
     let outcome = Outcome::from_labels(d.target.iter().map(|c| (c != "NA").then_some(c.as_str())));
     Synthetic {
