@@ -1,7 +1,8 @@
 //! Parquet input reads as the same data in CSV: the same training table and the same
 //! model bytes, over several row groups, with nulls as missing cells, string and
 //! dictionary columns as categories, integers and floats as numbers; dates and times
-//! are refused with a hint. Data: iris (Fisher 1936) and the Palmer penguins (Gorman,
+//! are refused with a hint; a bad cell is named by its row group, its row in the group
+//! and its row in the file. Data: iris (Fisher 1936) and the Palmer penguins (Gorman,
 //! Williams & Fraser 2014), copied in `tests/data/` (provenance in its README), each
 //! written to Parquet here with the parquet crate's own writer.
 #![cfg(feature = "parquet")]
@@ -197,4 +198,39 @@ fn dates_and_times_are_refused_naming_the_column() {
         "{m}"
     );
     assert!(m.contains("write them as numbers"), "{m}");
+}
+
+/// A text value in a column the roles read as numbers, in the second row group, is
+/// named by that group, its row within the group, its row counted from the file's
+/// start and its column, with what to do; a line break inside a text cell of an
+/// earlier row (which makes that row two lines of text) does not move the count.
+/// Invented data.
+#[test]
+fn a_bad_cell_is_named_by_row_group_and_row() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("bad.parquet");
+    let size: ArrayRef = Arc::new(StringArray::from(vec!["1.5", "2", "3", "4", "five", "6"]));
+    let note: ArrayRef = Arc::new(StringArray::from(vec!["a", "b\nc", "d", "e", "f", "g"]));
+    let y: ArrayRef = Arc::new(StringArray::from(vec!["p", "q", "p", "q", "p", "q"]));
+    write_parquet(&path, vec![("size", size), ("note", note), ("y", y)], 3);
+    let input = CsvInput::open(path.to_str().unwrap(), Delimiter::Comma).unwrap();
+    let mut roles = Roles::target("y");
+    roles.numeric.push("size".to_string());
+    let e = TrainingTable::from_csv(input, &roles, Missing::standard())
+        .err()
+        .expect("refused");
+    assert_eq!(e.kind(), copse_data::ErrorKind::BadValue);
+    let m = e.message();
+    let rest = m
+        .strip_prefix(path.to_str().unwrap())
+        .unwrap_or_else(|| panic!("the message starts with the file: {m}"));
+    assert!(
+        rest.starts_with(
+            " row group 2, row 2 of the group (row 5 of the file), column 'size': 'five' is \
+             not a finite number"
+        ),
+        "{m}"
+    );
+    assert!(rest.contains("fix the value"), "{m}");
+    assert!(!rest.contains("line"), "{m}");
 }

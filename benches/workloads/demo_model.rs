@@ -7,10 +7,9 @@
 //! `COPSE_BENCH_DEMO_ROWS=2000000` gives the full count. Rows per second hardly depend on
 //! the count beyond a few blocks of rows.
 use crate::config::Config;
-use crate::end_to_end::{copse_binary, path_str, run_copse};
+use crate::end_to_end::{copse_binary, path_str, run_copse, timed_score};
 use crate::table::Table;
-use std::io::BufRead;
-use std::time::{Duration, Instant};
+use std::time::Duration;
 
 /// Rows scored by default (before the scale).
 const DEFAULT_ROWS: usize = 400_000;
@@ -140,38 +139,10 @@ fn run(rows: usize, threads: usize, repeat: usize) -> Result<DemoRun, String> {
         let json: serde_json::Value =
             serde_json::from_str(&info).map_err(|e| format!("inspect --json: {e}"))?;
         let nodes = crate::end_to_end::find_number(&json, "nodes").unwrap_or(0);
-        let score_with = |t: usize| -> Result<(Duration, f64), String> {
+        let keep = ["--keep", "segment_id"];
+        let score_with = |t: usize| {
             let out = dir.join(format!("scored-{t}.csv"));
-            let _ = std::fs::remove_file(&out);
-            let cpu = crate::machine::children_cpu_s();
-            let start = Instant::now();
-            run_copse(
-                &exe,
-                &[
-                    "--quiet",
-                    "--threads",
-                    &t.to_string(),
-                    "score",
-                    "--model",
-                    path_str(&model)?,
-                    "--data",
-                    path_str(&score_csv)?,
-                    "--keep",
-                    "segment_id",
-                    "--out",
-                    path_str(&out)?,
-                ],
-            )?;
-            let wall = start.elapsed();
-            let cpu = crate::machine::children_cpu_s() - cpu;
-            let lines = std::fs::File::open(&out)
-                .map(|f| std::io::BufReader::new(f).lines().count())
-                .map_err(|e| e.to_string())?;
-            if lines != rows + 1 {
-                return Err(format!("copse score wrote {lines} lines for {rows} rows"));
-            }
-            let _ = std::fs::remove_file(&out);
-            Ok((wall, cpu))
+            timed_score(&exe, t, &model, &score_csv, &out, &keep, Some(rows))
         };
         let (mut score1, mut score_all) = (Duration::MAX, Duration::MAX);
         let (mut cpu1, mut cpu_all) = (f64::INFINITY, f64::INFINITY);

@@ -161,77 +161,25 @@ fn run(
         let score_parquet = dir.join("score.parquet");
         crate::parquet_rows::write(&score_parquet, score)?;
         let parquet_bytes = std::fs::metadata(&score_parquet).map_or(0, |m| m.len());
-        let score_from = |t: usize, data: &Path, parquet_out: bool| -> Result<Duration, String> {
+        let parquet_out = ["--out-format", "parquet"];
+        let score_with = |t: usize, data: &Path, extra: &[&str], rows: Option<usize>| {
             let out = dir.join(format!("scored-{t}.out"));
-            let _ = std::fs::remove_file(&out);
-            let start = Instant::now();
-            let mut args = vec![
-                "--quiet".to_string(),
-                "--threads".to_string(),
-                t.to_string(),
-                "score".to_string(),
-                "--model".to_string(),
-                path_str(&model)?.to_string(),
-                "--data".to_string(),
-                path_str(data)?.to_string(),
-                "--out".to_string(),
-                path_str(&out)?.to_string(),
-            ];
-            if parquet_out {
-                args.extend(["--out-format".to_string(), "parquet".to_string()]);
-            }
-            let args: Vec<&str> = args.iter().map(String::as_str).collect();
-            run_copse(&exe, &args)?;
-            let wall = start.elapsed();
-            let _ = std::fs::remove_file(&out);
-            Ok(wall)
-        };
-        let score_with = |t: usize| -> Result<(Duration, f64), String> {
-            let out = dir.join(format!("scored-{t}.csv"));
-            let _ = std::fs::remove_file(&out);
-            let cpu = crate::machine::children_cpu_s();
-            let start = Instant::now();
-            run_copse(
-                &exe,
-                &[
-                    "--quiet",
-                    "--threads",
-                    &t.to_string(),
-                    "score",
-                    "--model",
-                    path_str(&model)?,
-                    "--data",
-                    path_str(&score_csv)?,
-                    "--out",
-                    path_str(&out)?,
-                ],
-            )?;
-            let wall = start.elapsed();
-            let cpu = crate::machine::children_cpu_s() - cpu;
-            let lines = std::fs::File::open(&out)
-                .map(|f| std::io::BufReader::new(f).lines().count())
-                .map_err(|e| e.to_string())?;
-            if lines != score.x.nrows() + 1 {
-                return Err(format!(
-                    "copse score wrote {lines} lines for {} rows",
-                    score.x.nrows()
-                ));
-            }
-            let _ = std::fs::remove_file(&out);
-            Ok((wall, cpu))
+            timed_score(&exe, t, &model, data, &out, extra, rows)
         };
         let (mut score1, mut score_all) = (Duration::MAX, Duration::MAX);
         let (mut parquet_in, mut parquet_both) = (Duration::MAX, Duration::MAX);
         let (mut cpu1, mut cpu_all) = (f64::INFINITY, f64::INFINITY);
         for _ in 0..repeat {
-            let (w, c) = score_with(1)?;
+            let (w, c) = score_with(1, &score_csv, &[], Some(score.x.nrows()))?;
             score1 = score1.min(w);
             cpu1 = cpu1.min(c);
-            let (w, c) = score_with(threads)?;
+            let (w, c) = score_with(threads, &score_csv, &[], Some(score.x.nrows()))?;
             score_all = score_all.min(w);
             cpu_all = cpu_all.min(c);
-            parquet_in = parquet_in.min(score_from(threads, &score_parquet, false)?);
-            parquet_both = parquet_both.min(score_from(threads, &score_parquet, true)?);
+            let (w, _) = score_with(threads, &score_parquet, &[], None)?;
+            parquet_in = parquet_in.min(w);
+            let (w, _) = score_with(threads, &score_parquet, &parquet_out, None)?;
+            parquet_both = parquet_both.min(w);
         }
         let csv_floor = csv_pass(&score_csv, &dir.join("floor.csv"), train.x.ncols())?;
         Ok(EndToEnd {
@@ -284,6 +232,51 @@ pub fn find_number(v: &serde_json::Value, key: &str) -> Option<u64> {
         serde_json::Value::Array(a) => a.iter().find_map(|x| find_number(x, key)),
         _ => None,
     }
+}
+
+/// Runs `copse score` of `data` with `model` on `threads` threads into `out`, `extra`
+/// arguments added, and removes `out` again. Returns the wall and the CPU seconds
+/// (user + system) of the run; with `rows` given, checks that `out` holds a header
+/// line and a line per row first.
+pub fn timed_score(
+    exe: &Path,
+    threads: usize,
+    model: &Path,
+    data: &Path,
+    out: &Path,
+    extra: &[&str],
+    rows: Option<usize>,
+) -> Result<(Duration, f64), String> {
+    let _ = std::fs::remove_file(out);
+    let threads = threads.to_string();
+    let mut args = vec![
+        "--quiet",
+        "--threads",
+        &threads,
+        "score",
+        "--model",
+        path_str(model)?,
+        "--data",
+        path_str(data)?,
+        "--out",
+        path_str(out)?,
+    ];
+    args.extend_from_slice(extra);
+    let cpu = crate::machine::children_cpu_s();
+    let start = Instant::now();
+    run_copse(exe, &args)?;
+    let wall = start.elapsed();
+    let cpu = crate::machine::children_cpu_s() - cpu;
+    if let Some(rows) = rows {
+        let lines = std::fs::File::open(out)
+            .map(|f| std::io::BufReader::new(f).lines().count())
+            .map_err(|e| e.to_string())?;
+        if lines != rows + 1 {
+            return Err(format!("copse score wrote {lines} lines for {rows} rows"));
+        }
+    }
+    let _ = std::fs::remove_file(out);
+    Ok((wall, cpu))
 }
 
 pub fn run_copse(exe: &Path, args: &[&str]) -> Result<String, String> {

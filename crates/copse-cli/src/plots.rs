@@ -8,6 +8,7 @@
 //!   change between seeds, agreement of importance rankings), one column per kind of
 //!   model.
 use crate::numbers::{p_value, pct_short, plain, sig};
+use crate::plots_ranked::{draw_ranked, label_width, padded_range, Layout, RankedBar, RankedFrame};
 use copse_forest::{Importance, KindStability, Significance, StabilityReport};
 use plotters::coord::ranged1d::SegmentValue;
 use plotters::prelude::*;
@@ -61,68 +62,41 @@ pub fn importance_svg(
     subtitle: &str,
 ) -> PlotResult<String> {
     let ranked = imp.ranked();
-    let n = ranked.len().max(1);
-    let names: Vec<String> = ranked
+    let bars: Vec<RankedBar> = ranked
         .iter()
-        .map(|f| match p.and_then(|s| s.p_values.get(f.feature)) {
-            Some(&v) => format!("{} (p = {})", f.name, p_value(v)),
-            None => f.name.clone(),
+        .map(|f| RankedBar {
+            label: match p.and_then(|s| s.p_values.get(f.feature)) {
+                Some(&v) => format!("{} (p = {})", f.name, p_value(v)),
+                None => f.name.clone(),
+            },
+            value: f.mean,
+            whisker: f.std_error,
+            colour: TEAL,
         })
         .collect();
-    let longest = names.iter().map(|s| s.chars().count()).max().unwrap_or(5);
-    let (mut lo, mut hi) = (0.0f64, 0.0f64);
-    for f in &ranked {
-        let se = f.std_error.unwrap_or(0.0);
-        lo = lo.min(f.mean - se);
-        hi = hi.max(f.mean + se);
-    }
-    if hi - lo <= 0.0 {
-        hi = lo + 1e-6;
-    }
-    let pad = 0.06 * (hi - lo);
-    let (lo, hi) = (if lo < 0.0 { lo - pad } else { 0.0 }, hi + pad);
-    let height = 150 + 30 * n as u32;
-    let mut svg = String::new();
-    {
-        let root = SVGBackend::with_string(&mut svg, (860, height)).into_drawing_area();
-        let area = titled(&root, title, subtitle)?;
-        let mut chart = ChartBuilder::on(&area)
-            .margin_left(18)
-            .margin_right(28)
-            .margin_bottom(10)
-            .x_label_area_size(40)
-            .y_label_area_size((longest as u32 * 8 + 24).min(320))
-            .build_cartesian_2d(lo..hi, (0..n as i32 - 1).into_segmented())
-            .map_err(err)?;
-        chart
-            .configure_mesh()
-            .disable_y_mesh()
-            .light_line_style(WHITE)
-            .bold_line_style(GRID)
-            .axis_style(GREY)
-            .y_labels(n)
-            .y_label_formatter(&|v| match v {
-                // Segment 0 is drawn at the bottom; the top one is rank 1.
-                SegmentValue::CenterOf(i) if (*i as usize) < n => {
-                    names.get(n - 1 - *i as usize).cloned().unwrap_or_default()
-                }
-                _ => String::new(),
-            })
-            .x_desc("rise when the input is shuffled (whiskers: ± one standard error)")
-            .x_label_formatter(&|v| plain(*v))
-            .label_style(("sans-serif", 13).into_font().color(&INK))
-            .axis_desc_style(("sans-serif", 13).into_font().color(&GREY))
-            .draw()
-            .map_err(err)?;
-        for (pos, f) in ranked.iter().enumerate() {
-            let slot = (n - 1 - pos) as i32;
-            draw_rise(&mut chart, slot, f.mean, f.std_error, TEAL, true)?;
-        }
-        // The zero line: bars left of it are inputs whose shuffling helped.
-        draw_zero_line(&mut chart, n)?;
-        root.present().map_err(err)?;
-    }
-    Ok(svg)
+    let range = padded_range(
+        ranked.iter().map(|f| {
+            let se = f.std_error.unwrap_or(0.0);
+            (f.mean - se, f.mean + se)
+        }),
+        true,
+    );
+    let frame = RankedFrame {
+        layout: Layout::Page,
+        axis: Some("rise when the input is shuffled (whiskers: ± one standard error)"),
+        label_size: 13,
+        label_width: label_width(bars.iter().map(|b| b.label.as_str()), 8, 24, 320),
+        ticks: None,
+        caps: true,
+    };
+    ranked_page(
+        (860, 150 + 30 * bars.len().max(1) as u32),
+        title,
+        subtitle,
+        &frame,
+        range,
+        &bars,
+    )
 }
 
 /// The mean-absolute-contribution chart as SVG text: one bar per `(name, mean)` in the
@@ -136,52 +110,49 @@ pub fn contribution_svg(
     title: &str,
     subtitle: &str,
 ) -> PlotResult<String> {
-    let n = ranked.len().max(1);
-    let longest = ranked
-        .iter()
-        .map(|(s, _)| s.chars().count())
-        .max()
-        .unwrap_or(5);
     let top = ranked.iter().map(|r| r.1).fold(0.0f64, f64::max);
     let hi = if top > 0.0 { 1.06 * top } else { 1e-6 };
-    let height = 150 + 30 * n as u32;
+    let bars: Vec<RankedBar> = ranked
+        .iter()
+        .map(|&(name, value)| RankedBar {
+            label: name.to_string(),
+            value,
+            whisker: None,
+            colour: TEAL,
+        })
+        .collect();
+    let frame = RankedFrame {
+        layout: Layout::Page,
+        axis: Some(measure),
+        label_size: 13,
+        label_width: label_width(ranked.iter().map(|r| r.0), 8, 24, 320),
+        ticks: None,
+        caps: false,
+    };
+    ranked_page(
+        (860, 150 + 30 * bars.len().max(1) as u32),
+        title,
+        subtitle,
+        &frame,
+        (0.0, hi),
+        &bars,
+    )
+}
+
+/// A ranked chart filling a page of `size` pixels below its title block, as SVG text.
+pub(crate) fn ranked_page(
+    size: (u32, u32),
+    title: &str,
+    subtitle: &str,
+    frame: &RankedFrame<'_>,
+    range: (f64, f64),
+    bars: &[RankedBar],
+) -> PlotResult<String> {
     let mut svg = String::new();
     {
-        let root = SVGBackend::with_string(&mut svg, (860, height)).into_drawing_area();
+        let root = SVGBackend::with_string(&mut svg, size).into_drawing_area();
         let area = titled(&root, title, subtitle)?;
-        let mut chart = ChartBuilder::on(&area)
-            .margin_left(18)
-            .margin_right(28)
-            .margin_bottom(10)
-            .x_label_area_size(40)
-            .y_label_area_size((longest as u32 * 8 + 24).min(320))
-            .build_cartesian_2d(0.0..hi, (0..n as i32 - 1).into_segmented())
-            .map_err(err)?;
-        chart
-            .configure_mesh()
-            .disable_y_mesh()
-            .light_line_style(WHITE)
-            .bold_line_style(GRID)
-            .axis_style(GREY)
-            .y_labels(n)
-            .y_label_formatter(&|v| match v {
-                // Segment 0 is drawn at the bottom; the top one is rank 1.
-                SegmentValue::CenterOf(i) if (*i as usize) < n => ranked
-                    .get(n - 1 - *i as usize)
-                    .map(|r| r.0.to_string())
-                    .unwrap_or_default(),
-                _ => String::new(),
-            })
-            .x_desc(measure)
-            .x_label_formatter(&|v| plain(*v))
-            .label_style(("sans-serif", 13).into_font().color(&INK))
-            .axis_desc_style(("sans-serif", 13).into_font().color(&GREY))
-            .draw()
-            .map_err(err)?;
-        for (pos, r) in ranked.iter().enumerate() {
-            draw_rise(&mut chart, (n - 1 - pos) as i32, r.1, None, TEAL, false)?;
-        }
-        draw_zero_line(&mut chart, n)?;
+        draw_ranked(&area, frame, range, bars)?;
         root.present().map_err(err)?;
     }
     Ok(svg)
@@ -448,75 +419,4 @@ pub fn stability_svg(r: &StabilityReport, subtitle: &str) -> PlotResult<String> 
         root.present().map_err(err)?;
     }
     Ok(svg)
-}
-
-/// A chart of rises: values across, one segment per input down.
-pub(crate) type RiseChart<'a, 'b> = ChartContext<
-    'b,
-    SVGBackend<'a>,
-    Cartesian2d<
-        plotters::coord::types::RangedCoordf64,
-        plotters::coord::ranged1d::SegmentedCoord<plotters::coord::types::RangedCoordi32>,
-    >,
->;
-
-/// One input's rise in segment `slot`: a bar from zero to `mean` and a whisker of ± one
-/// standard error (with end caps when `caps`).
-pub(crate) fn draw_rise(
-    chart: &mut RiseChart<'_, '_>,
-    slot: i32,
-    mean: f64,
-    se: Option<f64>,
-    colour: RGBColor,
-    caps: bool,
-) -> PlotResult<()> {
-    let (a, b) = if mean >= 0.0 {
-        (0.0, mean)
-    } else {
-        (mean, 0.0)
-    };
-    let mut bar = Rectangle::new(
-        [
-            (a, SegmentValue::Exact(slot)),
-            (b, SegmentValue::Exact(slot + 1)),
-        ],
-        colour.mix(0.85).filled(),
-    );
-    bar.set_margin(6, 6, 0, 0);
-    chart.draw_series(std::iter::once(bar)).map_err(err)?;
-    if let Some(se) = se {
-        let y = SegmentValue::CenterOf(slot);
-        let style = INK.stroke_width(2);
-        chart
-            .draw_series(std::iter::once(PathElement::new(
-                vec![(mean - se, y.clone()), (mean + se, y.clone())],
-                style,
-            )))
-            .map_err(err)?;
-        if caps {
-            for end in [mean - se, mean + se] {
-                chart
-                    .draw_series(std::iter::once(
-                        EmptyElement::at((end, y.clone()))
-                            + PathElement::new(vec![(0, -6), (0, 6)], style),
-                    ))
-                    .map_err(err)?;
-            }
-        }
-    }
-    Ok(())
-}
-
-/// The zero line across the `n` segments of a rise chart.
-pub(crate) fn draw_zero_line(chart: &mut RiseChart<'_, '_>, n: usize) -> PlotResult<()> {
-    chart
-        .draw_series(std::iter::once(PathElement::new(
-            vec![
-                (0.0, SegmentValue::Exact(0)),
-                (0.0, SegmentValue::Exact(n as i32)),
-            ],
-            INK.stroke_width(1),
-        )))
-        .map_err(err)?;
-    Ok(())
 }

@@ -6,11 +6,11 @@
 //!   whiskers and the diagonal of perfect calibration;
 //! - importance for classes: the rise in Brier score (which sees probabilities) beside
 //!   the rise in misclassification, in one order.
-use crate::numbers::{pct_short, plain};
-use crate::plots::{draw_rise, draw_zero_line, err, titled, PlotResult, GREY, GRID, INK, TEAL};
+use crate::numbers::pct_short;
+use crate::plots::{err, titled, PlotResult, GREY, GRID, INK, TEAL};
+use crate::plots_ranked::{draw_ranked, label_width, padded_range, Layout, RankedBar, RankedFrame};
 use copse_forest::decision::{CatchByRank, Reliability};
 use copse_forest::Importance;
-use plotters::coord::ranged1d::SegmentValue;
 use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 
@@ -187,65 +187,39 @@ fn bar_panel(
     colour: RGBColor,
     show_names: bool,
 ) -> PlotResult<()> {
-    let n = order.len().max(1);
-    let (mut lo, mut hi) = (0.0f64, 0.0f64);
-    for f in &imp.features {
-        let se = f.std_error.unwrap_or(0.0);
-        lo = lo.min(f.mean - se);
-        hi = hi.max(f.mean + se);
-    }
-    if hi - lo <= 0.0 {
-        hi = lo + 1e-6;
-    }
-    let pad = 0.06 * (hi - lo);
-    let (lo, hi) = (if lo < 0.0 { lo - pad } else { 0.0 }, hi + pad);
-    let longest = names.iter().map(|s| s.chars().count()).max().unwrap_or(5) as u32;
-    let mut chart = ChartBuilder::on(area)
-        .caption(caption, ("sans-serif", 14).into_font().color(&INK))
-        .margin(10)
-        .x_label_area_size(34)
-        .y_label_area_size(if show_names {
-            (longest * 8 + 16).min(260)
+    let range = padded_range(
+        imp.features.iter().map(|f| {
+            let se = f.std_error.unwrap_or(0.0);
+            (f.mean - se, f.mean + se)
+        }),
+        true,
+    );
+    let bars: Vec<RankedBar> = order
+        .iter()
+        .filter_map(|&j| imp.features.get(j).map(|f| (j, f)))
+        .map(|(j, f)| RankedBar {
+            label: match names.get(j) {
+                Some(name) if show_names => name.clone(),
+                _ => String::new(),
+            },
+            value: f.mean,
+            whisker: f.std_error,
+            colour,
+        })
+        .collect();
+    let frame = RankedFrame {
+        layout: Layout::Panel(caption),
+        axis: None,
+        label_size: 12,
+        label_width: if show_names {
+            label_width(names.iter().map(String::as_str), 8, 16, 260)
         } else {
             8
-        })
-        .build_cartesian_2d(lo..hi, (0..n as i32 - 1).into_segmented())
-        .map_err(err)?;
-    chart
-        .configure_mesh()
-        .disable_y_mesh()
-        .light_line_style(WHITE)
-        .bold_line_style(GRID)
-        .axis_style(GREY)
-        .y_labels(n)
-        .y_label_formatter(&|v| match v {
-            SegmentValue::CenterOf(i) if show_names && (*i as usize) < n => order
-                .get(n - 1 - *i as usize)
-                .and_then(|&j| names.get(j))
-                .cloned()
-                .unwrap_or_default(),
-            _ => String::new(),
-        })
-        .x_labels(5)
-        .x_label_formatter(&|v| plain(*v))
-        .label_style(("sans-serif", 12).into_font().color(&INK))
-        .draw()
-        .map_err(err)?;
-    for (pos, &j) in order.iter().enumerate() {
-        let Some(f) = imp.features.get(j) else {
-            continue;
-        };
-        draw_rise(
-            &mut chart,
-            (n - 1 - pos) as i32,
-            f.mean,
-            f.std_error,
-            colour,
-            false,
-        )?;
-    }
-    draw_zero_line(&mut chart, n)?;
-    Ok(())
+        },
+        ticks: Some(5),
+        caps: false,
+    };
+    draw_ranked(area, &frame, range, &bars)
 }
 
 /// Importance for classes as SVG text: the rise in Brier score on the left (inputs in

@@ -5,13 +5,14 @@
 use crate::cells::{clip, looks_decimal_comma, parse_number, read_number, Missing};
 use crate::csv_input::CsvInput;
 use crate::error::{Error, ErrorKind, Result};
+use crate::place::Place;
 use copse_forest::{DecimalMark, FeatureKind, Forest, Outcome, Task, MISSING};
 use ndarray::Array2;
 use std::collections::HashMap;
 
 /// Turns CSV records into rows of model inputs.
 pub struct RowEncoder {
-    source: String,
+    place: Place,
     names: Vec<String>,
     cols: Vec<usize>,
     lookups: Vec<Option<HashMap<String, u32>>>,
@@ -132,7 +133,7 @@ impl RowEncoder {
             .collect();
         let p = model.n_features();
         Ok(RowEncoder {
-            source: input.name().to_string(),
+            place: input.place().clone(),
             names: model.meta().iter().map(|f| f.name.clone()).collect(),
             cols,
             lookups,
@@ -220,9 +221,9 @@ impl RowEncoder {
                     None => {
                         let line = record.position().map_or(0, |p| p.line());
                         return Err(Error::new(ErrorKind::BadValue, format!(
-                            "{} line {line}, column '{}': '{}' is not a finite number, but the model was \
+                            "{}, column '{}': '{}' is not a finite number, but the model was \
                              trained with '{}' as a numeric input; fix the value, or list it as missing with --missing{}",
-                            self.source,
+                            self.place.at(line),
                             self.names[k],
                             clip(cell),
                             self.names[k],
@@ -250,9 +251,9 @@ impl RowEncoder {
         self.class_lookup.get(cell).copied().ok_or_else(|| {
             let line = record.position().map_or(0, |p| p.line());
             Error::new(ErrorKind::BadValue, format!(
-                "{} line {line}, column '{name}': class '{}' is not one the model knows ({}); \
+                "{}, column '{name}': class '{}' is not one the model knows ({}); \
                  a model cannot be judged on a class it never saw: remove those rows or retrain with them",
-                self.source,
+                self.place.at(line),
                 clip(cell),
                 self.classes.join(", ")
             ))
@@ -273,13 +274,16 @@ impl RowEncoder {
         }
         read_number(cell, self.decimal).ok_or_else(|| {
             let line = record.position().map_or(0, |p| p.line());
-            Error::new(ErrorKind::BadValue, format!(
-                "{} line {line}, column '{name}': '{}' is not a finite number, and the model predicts numbers; \
+            Error::new(
+                ErrorKind::BadValue,
+                format!(
+                "{}, column '{name}': '{}' is not a finite number, and the model predicts numbers; \
                  fix the value or leave it empty{}",
-                self.source,
+                self.place.at(line),
                 clip(cell),
                 self.mark_hint(cell)
-            ))
+            ),
+            )
         })
     }
 
@@ -325,7 +329,7 @@ impl RowEncoder {
         };
         Some(format!(
             "{total} {} the model never saw in training; {were} treated as missing: {}",
-            cells.replace("{}", &self.source),
+            cells.replace("{}", self.place.name()),
             parts.join("; ")
         ))
     }
@@ -446,7 +450,7 @@ pub fn read_labelled_with_column(
         .as_ref()
         .and_then(|w| input.column(&w.column).map(|j| (j, w.column.clone())));
     let mut weights: Vec<f64> = Vec::new();
-    let (file, mark) = (input.name().to_string(), input.decimal());
+    let (place, mark) = (input.place().clone(), input.decimal());
     let mut enc = RowEncoder::new(&input, model, missing, true)?;
     let p = model.n_features();
     let mut values: Vec<f64> = Vec::new();
@@ -476,7 +480,7 @@ pub fn read_labelled_with_column(
         };
         if let Some((j, name)) = &weights_col {
             weights.push(if known {
-                crate::row_roles::read_weight(&file, &record, *j, name, &extra_missing, mark)?
+                crate::row_roles::read_weight(&place, &record, *j, name, &extra_missing, mark)?
             } else {
                 0.0
             });

@@ -9,6 +9,7 @@
 use crate::cells::{clip, looks_decimal_comma, read_number, Missing};
 use crate::csv_input::CsvInput;
 use crate::error::{Error, ErrorKind, Result};
+use crate::place::Place;
 use crate::roles::{Layout, Roles};
 use copse_forest::{natural_order, DecimalMark, Task};
 use std::collections::{HashMap, HashSet};
@@ -86,10 +87,10 @@ pub(crate) fn tally(
     Ok((records, tallies))
 }
 
-fn list_examples(ex: &[(u64, String)], total: usize) -> String {
+fn list_examples(place: &Place, ex: &[(u64, String)], total: usize) -> String {
     let shown: Vec<String> = ex
         .iter()
-        .map(|(l, t)| format!("line {l} '{}'", clip(t)))
+        .map(|(l, t)| format!("{} '{}'", place.spot(*l), clip(t)))
         .collect();
     let mut s = shown.join(", ");
     if total > ex.len() {
@@ -101,7 +102,7 @@ fn list_examples(ex: &[(u64, String)], total: usize) -> String {
 /// Judges each used column numeric or categorical (true), noting columns read as
 /// categorical because of a few stray texts.
 pub(crate) fn kinds(
-    name: &str,
+    place: &Place,
     headers: &[String],
     layout: &Layout,
     tallies: &[ColumnTally],
@@ -118,8 +119,9 @@ pub(crate) fn kinds(
                 return Err(Error::new(
                     ErrorKind::BadValue,
                     format!(
-                        "{name} line {line}, column '{h}': '{}' is not a finite number, but --numeric lists '{h}'; \
+                        "{}, column '{h}': '{}' is not a finite number, but --numeric lists '{h}'; \
                          fix the value, or add it to the missing tokens with --missing{}",
+                        place.at(*line),
                         clip(text),
                         comma_hint(text)
                     ),
@@ -143,7 +145,7 @@ pub(crate) fn kinds(
                 notes.push(format!(
                     "column '{h}' is read as categorical because of cells that are not finite numbers: {}; \
                      if they mean 'missing', add them with --missing, or fix them",
-                    list_examples(&t.text_examples, t.texts)
+                    list_examples(place, &t.text_examples, t.texts)
                 ));
             }
         }
@@ -156,7 +158,7 @@ pub(crate) fn kinds(
             .collect();
         let more = comma_columns.len() - shown.len();
         notes.push(format!(
-            "{} {}{} {} numbers written with a decimal comma (such as '{}' on line {line}), so \
+            "{} {}{} {} numbers written with a decimal comma (such as '{}' on {}), so \
              copse reads {} as categories; add --decimal comma to read {} as numbers",
             if comma_columns.len() == 1 {
                 "column"
@@ -175,6 +177,7 @@ pub(crate) fn kinds(
                 "hold"
             },
             clip(example),
+            place.spot(*line),
             if comma_columns.len() == 1 {
                 "it"
             } else {
@@ -202,7 +205,7 @@ pub(crate) fn comma_hint(cell: &str) -> &'static str {
 /// The task: as forced by the roles, else classification for a categorical outcome
 /// and regression for a numeric one.
 pub(crate) fn task(
-    name: &str,
+    place: &Place,
     roles: &Roles,
     target: &ColumnTally,
     target_is_categorical: bool,
@@ -213,7 +216,8 @@ pub(crate) fn task(
         return Err(Error::new(
             ErrorKind::NoRows,
             format!(
-                "{name}: every row's target '{target_name}' is missing; check --target names the outcome column"
+                "{}: every row's target '{target_name}' is missing; check --target names the outcome column",
+                place.name()
             ),
         ));
     }
@@ -223,8 +227,9 @@ pub(crate) fn task(
                 return Err(Error::new(
                     ErrorKind::BadValue,
                     format!(
-                        "{name} line {line}, column '{target_name}': '{}' is not a number, so '{target_name}' cannot be \
+                        "{}, column '{target_name}': '{}' is not a number, so '{target_name}' cannot be \
                          the target of a regression; fix the value or use --task classify{}",
+                        place.at(*line),
                         clip(text),
                         comma_hint(text)
                     ),
@@ -301,7 +306,7 @@ pub(crate) fn check_target_size(
     col: usize,
     missing: &Missing,
     mark: DecimalMark,
-    name: &str,
+    place: &Place,
     target: &str,
 ) -> Result<()> {
     for r in records {
@@ -313,10 +318,10 @@ pub(crate) fn check_target_size(
             return Err(Error::new(
                 ErrorKind::BadValue,
                 format!(
-                    "{name} line {}, column '{target}': {} is too large a value to fit a regression on \
+                    "{}, column '{target}': {} is too large a value to fit a regression on \
                      (at most 1e100 in size: larger values overflow the squared errors); rescale the target, \
                      for example divide it by a power of ten or take its logarithm",
-                    line_of(r),
+                    place.at(line_of(r)),
                     clip(cell)
                 ),
             ));

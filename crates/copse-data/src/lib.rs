@@ -2,7 +2,8 @@
 //! delimiters, quoted fields, CRLF or LF), inferring each column's kind with notes for
 //! the user, the training table a forest is grown on, and encoding new rows against a
 //! model's inputs (category codes, missing tokens, unseen categories counted). Every
-//! fault names the file, line and column and says what to do.
+//! fault names the file, line (for Parquet: row group and row) and column and says what
+//! to do.
 //!
 //! The pieces, one concept per file:
 //! - [`csv_input`]: the CSV reader ([`CsvInput`]);
@@ -17,6 +18,8 @@
 //! - `parquet_input` (feature `parquet`, default): Parquet files read as the CSV text
 //!   of the same data, row group by row group, and the type mapping; `parquet_output`:
 //!   scored rows written as Parquet, a row group per block;
+//! - [`place`]: how messages name a row's place ([`Place`]): a line, or a Parquet row
+//!   group and row;
 //! - [`parts`]: trees `a..b` grown on a table, and parts merged into one model;
 //! - [`encode`]: new rows read the way a model's training rows were ([`RowEncoder`]);
 //! - [`frame`]: columns held in memory, read as the CSV file they would make
@@ -58,6 +61,7 @@ pub mod parquet_input;
 #[cfg(feature = "parquet")]
 pub mod parquet_output;
 pub mod parts;
+pub mod place;
 pub mod plain;
 pub mod records;
 pub mod roles;
@@ -73,6 +77,7 @@ pub use encode::{
 };
 pub use error::{Error, ErrorKind, Result};
 pub use infer::MAX_TARGET_SIZE;
+pub use place::Place;
 pub use records::MAX_RECORD_BYTES;
 pub use roles::Roles;
 pub use training::{TrainingTable, MAX_CATEGORIES};

@@ -12,7 +12,11 @@
 //! - timestamps, dates, times, durations, intervals -> refused, with a hint to write
 //!   them as numbers or text;
 //! - binary, lists, structs, maps and other nested types -> refused.
+//!
+//! Messages about a cell name its row group, the row within the group and the row
+//! counted from the file's start (see [`Place`]), not a line of the text.
 use crate::error::{Error, ErrorKind, Result};
+use crate::place::{ParquetRows, Place};
 use arrow_array::cast::AsArray;
 use arrow_array::types::*;
 use arrow_array::{Array, ArrayRef, RecordBatch};
@@ -21,6 +25,7 @@ use parquet::arrow::arrow_reader::{ParquetRecordBatchReader, ParquetRecordBatchR
 use std::collections::VecDeque;
 use std::fs::File;
 use std::io::{self, Read};
+use std::sync::Arc;
 
 /// Rows decoded at a time (one Arrow batch).
 const BATCH_ROWS: usize = 8192;
@@ -50,6 +55,11 @@ pub(crate) struct ParquetText {
     reader: Option<ParquetRecordBatchReader>,
     delimiter: u8,
     pending: VecDeque<u8>,
+    /// Row groups' sizes and the rows that span several lines of the text.
+    rows: Arc<ParquetRows>,
+    /// Lines of the text so far beyond one for the header and one per row (line
+    /// breaks inside text cells).
+    extra_lines: u64,
 }
 
 fn refuse(message: String) -> Error {
@@ -128,6 +138,12 @@ impl ParquetText {
             check_type(name, f.name(), f.data_type())?;
         }
         let groups = builder.metadata().num_row_groups();
+        let group_rows = builder
+            .metadata()
+            .row_groups()
+            .iter()
+            .map(|g| u64::try_from(g.num_rows()).unwrap_or(0))
+            .collect();
         let mut text = ParquetText {
             name: name.to_string(),
             file: open()?,
@@ -137,10 +153,31 @@ impl ParquetText {
             reader: None,
             delimiter,
             pending: VecDeque::new(),
+            rows: Arc::new(ParquetRows::new(group_rows)),
+            extra_lines: 0,
         };
         let header: Vec<&str> = schema.fields().iter().map(|f| f.name().as_str()).collect();
-        text.pending.extend(text.csv_line(header.iter().copied())?);
+        let line = text.csv_line(header.iter().copied())?;
+        text.note_header_lines(&line);
+        text.pending.extend(line);
         Ok((text, text_columns(&schema)))
+    }
+
+    /// How messages name a row of this file.
+    pub(crate) fn place(&self) -> Place {
+        Place::parquet(self.name.clone(), self.rows.clone())
+    }
+
+    /// Notes the line breaks inside the header line `written` (its own line end
+    /// excluded): the first row starts that many lines after line 2.
+    fn note_header_lines(&mut self, written: &[u8]) {
+        let inner = memchr::memchr_iter(b'\n', written).count() as u64;
+        let inner = inner.saturating_sub(u64::from(written.last() == Some(&b'\n')));
+        if inner > 0 {
+            self.extra_lines += inner;
+            self.rows
+                .shifted_from(2 + self.extra_lines, self.extra_lines);
+        }
     }
 
     /// One CSV line of `fields`, quoted as needed.
@@ -214,12 +251,25 @@ impl ParquetText {
         let mut cell = String::new();
         for i in 0..batch.num_rows() {
             record.clear();
+            let mut breaks = 0u64;
             for c in &columns {
                 cell.clear();
                 c.write(i, &mut cell);
+                if c.text {
+                    breaks += memchr::memchr_iter(b'\n', cell.as_bytes()).count() as u64;
+                }
                 record.push_field(&cell);
             }
             w.write_record(&record).map_err(io::Error::other)?;
+            if breaks > 0 {
+                // The rows after this one start `breaks` lines further down: the
+                // next, file row `rows_before + i + 2`, on the line after the header
+                // and the rows before it, plus the lines added so far.
+                self.extra_lines += breaks;
+                let next = self.rows_before + i as u64 + 2;
+                self.rows
+                    .shifted_from(next + 1 + self.extra_lines, self.extra_lines);
+            }
         }
         let bytes = w
             .into_inner()
@@ -247,6 +297,8 @@ impl Read for ParquetText {
 /// One column of a batch, read cell by cell as text.
 struct Cells {
     array: ArrayRef,
+    /// Whether cells are text (and so may hold line breaks).
+    text: bool,
     /// For a dictionary column, each row's index into its values, and the values.
     dictionary: Option<(Vec<usize>, Box<Cells>)>,
 }
@@ -259,6 +311,13 @@ impl Cells {
         });
         Cells {
             array: array.clone(),
+            text: matches!(
+                array.data_type(),
+                DataType::Utf8
+                    | DataType::LargeUtf8
+                    | DataType::Utf8View
+                    | DataType::Dictionary(..)
+            ),
             dictionary,
         }
     }

@@ -5,6 +5,7 @@
 use crate::cells::{clip, read_number, Missing};
 use crate::error::{Error, ErrorKind, Result};
 use crate::infer::line_of;
+use crate::place::Place;
 use copse_forest::DecimalMark;
 use std::collections::HashMap;
 
@@ -22,7 +23,7 @@ pub const REPEATED_INPUTS_MIN: usize = 10;
 /// # Errors
 /// As for [`read_weight`].
 pub(crate) fn read_weights(
-    file: &str,
+    place: &Place,
     rows: &[&csv::StringRecord],
     col: usize,
     name: &str,
@@ -30,7 +31,7 @@ pub(crate) fn read_weights(
     mark: DecimalMark,
 ) -> Result<Vec<f64>> {
     rows.iter()
-        .map(|r| read_weight(file, r, col, name, missing, mark))
+        .map(|r| read_weight(place, r, col, name, missing, mark))
         .collect()
 }
 
@@ -40,7 +41,7 @@ pub(crate) fn read_weights(
 /// `BadValue` naming the file, line and column for a missing cell, text, or a
 /// negative or non-finite number.
 pub(crate) fn read_weight(
-    file: &str,
+    place: &Place,
     r: &csv::StringRecord,
     col: usize,
     name: &str,
@@ -51,9 +52,9 @@ pub(crate) fn read_weight(
         Err(Error::new(
             ErrorKind::BadValue,
             format!(
-                "{file} line {}, column '{name}': {what}; case weights must be numbers of 0 or \
+                "{}, column '{name}': {what}; case weights must be numbers of 0 or \
                  more on every row with a target (0 leaves a row out)",
-                line_of(r)
+                place.at(line_of(r))
             ),
         ))
     };
@@ -79,7 +80,7 @@ pub(crate) fn read_weight(
 /// group cannot be told apart from the rows it may repeat, so it is refused rather
 /// than guessed (give it a label of its own if it stands alone).
 pub(crate) fn read_groups(
-    file: &str,
+    place: &Place,
     rows: &[&csv::StringRecord],
     col: usize,
     name: &str,
@@ -93,10 +94,10 @@ pub(crate) fn read_groups(
             return Err(Error::new(
                 ErrorKind::BadValue,
                 format!(
-                    "{file} line {}, column '{name}': the group label is missing; every row \
+                    "{}, column '{name}': the group label is missing; every row \
                      with a target needs one (a row that stands alone can take a label of its \
                      own)",
-                    line_of(r)
+                    place.at(line_of(r))
                 ),
             ));
         }

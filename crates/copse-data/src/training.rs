@@ -118,14 +118,15 @@ impl TrainingTable {
         let roles = &typed;
         let layout = lay_out(&input, roles)?;
         let name = input.name().to_string();
+        let place = input.place().clone();
         let headers = input.headers().to_vec();
         let mark = input.decimal();
         let (records, tallies) = infer::tally(&mut input, &layout, &missing)?;
         let n_read = records.len();
         let mut notes: Vec<String> = input.blank_lines_note().into_iter().collect();
-        let mut categorical = infer::kinds(&name, &headers, &layout, &tallies, roles, &mut notes)?;
+        let mut categorical = infer::kinds(&place, &headers, &layout, &tallies, roles, &mut notes)?;
         let tc = layout.target;
-        let mut task = infer::task(&name, roles, &tallies[tc], categorical[tc], n_read)?;
+        let mut task = infer::task(&place, roles, &tallies[tc], categorical[tc], n_read)?;
         if roles.task.is_none() && task == Task::Regress {
             let distinct = infer::distinct_numbers(&records, tc, &missing, mark, infer::FEW_CODES);
             let (read_as, note) = infer::numeric_outcome(&roles.target, &distinct);
@@ -134,7 +135,7 @@ impl TrainingTable {
         }
         categorical[tc] = task == Task::Classify;
         if task == Task::Regress {
-            infer::check_target_size(&records, tc, &missing, mark, &name, &roles.target)?;
+            infer::check_target_size(&records, tc, &missing, mark, &place, &roles.target)?;
         }
         let mut levels = infer::levels(
             &records,
@@ -152,14 +153,14 @@ impl TrainingTable {
         let weights = match (layout.weights, &roles.weights) {
             (Some(j), Some(c)) => Some((
                 c.clone(),
-                row_roles::read_weights(&name, &kept, j, c, &missing, mark)?,
+                row_roles::read_weights(&place, &kept, j, c, &missing, mark)?,
             )),
             _ => None,
         };
         let groups = match (layout.group, &roles.group) {
             (Some(j), Some(c)) => Some((
                 c.clone(),
-                row_roles::read_groups(&name, &kept, j, c, &missing)?,
+                row_roles::read_groups(&place, &kept, j, c, &missing)?,
             )),
             _ => None,
         };

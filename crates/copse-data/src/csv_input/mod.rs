@@ -3,6 +3,7 @@
 //! fields. Every fault is reported with the file name, line and column and a hint.
 use crate::cells::clip;
 use crate::error::{Error, ErrorKind, Result};
+use crate::place::Place;
 use crate::records::{Framed, Records, MAX_RECORD_BYTES};
 use copse_forest::{io_reason, DecimalMark};
 use std::fs::File;
@@ -67,6 +68,8 @@ pub struct CsvInput {
     named: bool,
     /// Columns stored as text by a typed source (Parquet).
     text_columns: Vec<String>,
+    /// How messages name a row's place: by line, or by row group and row.
+    place: Place,
 }
 
 /// Blank lines passed over in a file of several columns: how many, and the first few.
@@ -110,8 +113,10 @@ impl CsvInput {
             let name = display_name(path);
             let (text, text_columns) =
                 crate::parquet_input::ParquetText::open(path, &name, delimiter.byte())?;
+            let place = text.place();
             let mut input = Self::from_reader(name, Box::new(text), None, delimiter)?;
             input.text_columns = text_columns;
+            input.place = place;
             return Ok(input);
         }
         let (name, source, size) = Self::source(path)?;
@@ -208,6 +213,7 @@ impl CsvInput {
         let consumed = Arc::new(AtomicU64::new(0));
         let records = Records::new(source, delimiter.byte(), consumed.clone());
         CsvInput {
+            place: Place::lines(name.clone()),
             name,
             records,
             headers: Vec::new(),
@@ -318,6 +324,12 @@ impl CsvInput {
     /// The file's name as used in messages.
     pub fn name(&self) -> &str {
         &self.name
+    }
+
+    /// How messages name the place of a row of this input: a CSV file's line, a
+    /// Parquet file's row group and row.
+    pub fn place(&self) -> &Place {
+        &self.place
     }
 
     /// Column names, trimmed, in file order.

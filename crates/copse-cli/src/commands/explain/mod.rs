@@ -56,7 +56,7 @@ pub fn run(a: &ExplainArgs, ui: &Ui) -> CliResult<()> {
         ui.warn(&warning);
     }
     if skipped.count > 0 {
-        ui.warn(&skipped.warning(src.input.name(), rows));
+        ui.warn(&skipped.warning(src.input.place(), rows));
     }
     if let Some(note) = src.input.blank_lines_note() {
         ui.note(&note);

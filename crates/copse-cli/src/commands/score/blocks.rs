@@ -243,22 +243,16 @@ impl Unscorable {
         }
     }
 
-    pub(crate) fn warning(&self, source: &str, rows: u64) -> String {
-        let mut lines: Vec<String> = self.lines.iter().map(u64::to_string).collect();
-        if self.count > self.lines.len() as u64 {
-            lines.push(format!("and {} more", self.count - self.lines.len() as u64));
-        }
-        let (were, line) = if self.count == 1 {
-            ("was", "line")
-        } else {
-            ("were", "lines")
-        };
+    /// The warning for the rows written blank, naming them as `place` does.
+    pub(crate) fn warning(&self, place: &copse_data::Place, rows: u64) -> String {
+        let were = if self.count == 1 { "was" } else { "were" };
         format!(
-            "{} of {} of {source} could not be scored and {were} written with an empty \
-             prediction ({line} {}); the first: {}",
+            "{} of {} of {} could not be scored and {were} written with an empty \
+             prediction ({}); the first: {}",
             self.count,
             count(rows as usize, "row", "rows"),
-            lines.join(", "),
+            place.name(),
+            place.list(&self.lines, self.count - self.lines.len() as u64),
             self.first.as_deref().unwrap_or("")
         )
     }

@@ -434,7 +434,7 @@ fn tell(a: &ScoreArgs, ui: &Ui, forest: &Forest, src: &Source, written: &Written
         ui.warn(&warning);
     }
     if written.skipped.count > 0 {
-        ui.warn(&written.skipped.warning(src.input.name(), written.rows));
+        ui.warn(&written.skipped.warning(src.input.place(), written.rows));
     }
     if let Some(note) = src.input.blank_lines_note() {
         ui.note(&note);
