@@ -216,9 +216,9 @@ fn a_bad_cell_is_named_by_row_group_and_row() {
     let input = CsvInput::open(path.to_str().unwrap(), Delimiter::Comma).unwrap();
     let mut roles = Roles::target("y");
     roles.numeric.push("size".to_string());
-    let e = TrainingTable::from_csv(input, &roles, Missing::standard())
-        .err()
-        .expect("refused");
+    let Err(e) = TrainingTable::from_csv(input, &roles, Missing::standard()) else {
+        panic!("a text cell in a numeric column must be refused");
+    };
     assert_eq!(e.kind(), copse_data::ErrorKind::BadValue);
     let m = e.message();
     let rest = m

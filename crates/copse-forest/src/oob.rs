@@ -265,7 +265,7 @@ impl Pass<'_, '_> {
         }
     }
 
-/// Rows `start..end` of the data, row-major in one buffer.
+    /// Rows `start..end` of the data, row-major in one buffer.
     fn copy_rows(&self, start: usize, end: usize) -> Vec<f64> {
         let p = self.x.ncols();
         let mut rows = vec![0.0; (end - start) * p];
