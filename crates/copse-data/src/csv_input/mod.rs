@@ -1,7 +1,6 @@
 //! Reading CSV input: a file or standard input (`-`), a header row, one of three
 //! delimiters, with or without a UTF-8 byte-order mark, CRLF or LF line ends, quoted
 //! fields. Every fault is reported with the file name, line and column and a hint.
-use crate::cells::clip;
 use crate::error::{Error, ErrorKind, Result};
 use crate::place::Place;
 use crate::records::{Framed, Records, MAX_RECORD_BYTES};
@@ -530,55 +529,6 @@ impl CsvInput {
     }
 }
 
-/// Copies `n` fields (`field(i)`) of the record that starts on file `line` into
-/// `record`, checking they are UTF-8, with `line` as position; an error names the first
-/// field that is not, by its column in `headers`.
-pub(crate) fn fill_record<'f>(
-    name: &str,
-    headers: &[String],
-    line: u64,
-    n: usize,
-    field: impl Fn(usize) -> &'f [u8],
-    record: &mut csv::StringRecord,
-) -> Result<()> {
-    record.clear();
-    for i in 0..n {
-        match std::str::from_utf8(field(i)) {
-            Ok(text) => record.push_field(text),
-            Err(_) => {
-                let column = headers.get(i).map_or(format!("column {}", i + 1), |h| {
-                    format!("column {} ('{}')", i + 1, clip(h))
-                });
-                return Err(Error::new(ErrorKind::Malformed, format!(
-                    "{name} line {line}, {column}: the text is not valid UTF-8; save the file with UTF-8 encoding and try again"
-                )));
-            }
-        }
-    }
-    record.set_position(Some(position(line)));
-    Ok(())
-}
-
-/// The message for a record on one line with `len` fields where the header has `want`.
-pub(crate) fn width_error(
-    name: &str,
-    line: u64,
-    len: usize,
-    want: usize,
-    header: &str,
-    delimiter: Delimiter,
-) -> Error {
-    Error::new(
-        ErrorKind::Malformed,
-        format!(
-            "{name} line {line}: found {len} fields but {header} {want}; \
-             check that fields holding a {} are quoted and that no quote is missing \
-             (to read another delimiter, use --delimiter comma|tab|semicolon)",
-            delimiter.name()
-        ),
-    )
-}
-
 impl CsvInput {
     /// How messages name the expected width: the header's, or `--columns`' for a
     /// headerless input whose columns the caller named.
@@ -598,12 +548,8 @@ const _: () = assert!(
     "RECORD_LIMIT_WORDS names the limit"
 );
 
-/// A position holding only a file line.
-pub(crate) fn position(line: u64) -> csv::Position {
-    let mut p = csv::Position::new();
-    p.set_line(line);
-    p
-}
+mod fields;
+pub(crate) use fields::{fill_record, position, width_error};
 
 #[cfg(test)]
 mod tests;
