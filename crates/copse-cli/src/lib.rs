@@ -23,6 +23,7 @@ pub mod output;
 pub mod plots;
 pub mod plots_decision;
 pub mod plots_effect;
+mod plots_palette;
 mod plots_ranked;
 pub mod plots_tune;
 pub mod report;

@@ -13,16 +13,7 @@ use copse_forest::{Importance, KindStability, Significance, StabilityReport};
 use plotters::coord::ranged1d::SegmentValue;
 use plotters::prelude::*;
 
-pub(crate) const TEAL: RGBColor = RGBColor(38, 120, 128);
-pub(crate) const INK: RGBColor = RGBColor(33, 37, 41);
-pub(crate) const GREY: RGBColor = RGBColor(110, 117, 125);
-pub(crate) const GRID: RGBColor = RGBColor(228, 231, 235);
-
-pub(crate) type PlotResult<T> = Result<T, String>;
-
-pub(crate) fn err<E: std::fmt::Display>(e: E) -> String {
-    e.to_string()
-}
+pub(crate) use crate::plots_palette::{err, PlotResult, GREY, GRID, INK, TEAL};
 
 /// Draws the title block and returns the area below it.
 pub(crate) fn titled<'a>(

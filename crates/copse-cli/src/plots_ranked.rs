@@ -4,7 +4,7 @@
 //! differ only in layout (a whole page or a captioned panel), label font and width,
 //! the axis text and whether whiskers have end caps.
 use crate::numbers::plain;
-use crate::plots::{err, PlotResult, GREY, GRID, INK};
+use crate::plots_palette::{err, PlotResult, GREY, GRID, INK};
 use plotters::coord::ranged1d::SegmentValue;
 use plotters::prelude::*;
 
