@@ -119,6 +119,19 @@ fn demo_register_gives_the_walks_leaves_and_predictions() {
     let forest = train(&x, &meta, &y, 500, 1);
     same_as_walk(&forest, &first(&x, 600), "demo training rows");
     same_as_walk(&forest, &spoiled(&first(&x, 300), &meta, 2), "demo spoiled");
+    // The layout `copse score` chooses for this model (8 inputs, about 3 words of bit
+    // vector a tree), with its snapshots: the walk's predictions to the bit.
+    let chosen = LeafMasks::for_scoring(&forest).expect("the demo's model takes the layout");
+    assert!(chosen.snapshot_bytes() > 0);
+    let rows = spoiled(&first(&x, 300), &meta, 3);
+    let by_masks = forest
+        .predict_by_masks(&chosen, rows.view())
+        .expect("masks");
+    let walk = forest.predict(rows.view()).expect("walk");
+    assert!(by_masks
+        .iter()
+        .zip(walk.iter())
+        .all(|(a, b)| a.to_bits() == b.to_bits()));
 }
 
 #[test]
@@ -163,6 +176,11 @@ fn iris_twonorm_and_friedman_give_the_walks_predictions() {
     let forest = train(&tw.x, &tw.meta, &tw.outcome, 40, 10);
     let fresh = synth::twonorm(300, seed(11));
     same_as_walk(&forest, &fresh.x, "twonorm");
+    // Deeper trees on 20 inputs: each row would AND 20 snapshots of some 5 words a
+    // tree, more than the walk's visits cost, so `copse score` keeps the walk.
+    let big = synth::twonorm(3000, seed(16));
+    let deep = train(&big.x, &big.meta, &big.outcome, 20, 17);
+    assert!(LeafMasks::for_scoring(&deep).is_none());
     let fr = synth::friedman1(800, seed(12));
     let forest = train(&fr.x, &fr.meta, &fr.outcome, 40, 13);
     let fresh = synth::friedman1(300, seed(14));

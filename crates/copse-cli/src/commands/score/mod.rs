@@ -333,8 +333,10 @@ fn write_blocks(
     );
     let p = forest.n_features();
     let source = src.input.name().to_string();
+    let masks = copse_forest::leaf_masks::LeafMasks::for_scoring(forest);
     let writer = RowWriter {
         forest,
+        masks: masks.as_ref(),
         source: &source,
         keep,
         uncertainty: a.uncertainty,

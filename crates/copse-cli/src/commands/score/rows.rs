@@ -3,6 +3,7 @@
 use super::blocks::Block;
 use crate::error::{forest_error, CliError, CliResult};
 use crate::numbers::{fixed_into, value_decimals, PROBABILITY_DECIMALS};
+use copse_forest::leaf_masks::LeafMasks;
 use copse_forest::Forest;
 use ndarray::ArrayView2;
 use rayon::prelude::*;
@@ -14,6 +15,9 @@ const TEXT_ROWS: usize = 2048;
 pub(crate) struct RowWriter<'a> {
     /// The model.
     pub(crate) forest: &'a Forest,
+    /// The forest laid out for scoring by leaf masks, when that beats the node walk
+    /// (`LeafMasks::for_scoring`); the predictions are the same to the bit.
+    pub(crate) masks: Option<&'a LeafMasks>,
     /// The input's name, for messages.
     pub(crate) source: &'a str,
     /// The input columns kept, by position.
@@ -99,7 +103,11 @@ impl RowWriter<'_> {
             let se = u.std_errors().mapv(|s| s.unwrap_or(f64::NAN));
             (u.predictions, Some(se))
         } else {
-            (forest.predict(x).map_err(fail)?, None)
+            let preds = match self.masks {
+                Some(masks) => forest.predict_by_masks(masks, x),
+                None => forest.predict(x),
+            };
+            (preds.map_err(fail)?, None)
         };
         let ranges = match self.interval {
             Some(c) => Some(forest.outcome_intervals(x, c).map_err(fail)?),
