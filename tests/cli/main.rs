@@ -27,6 +27,7 @@ mod parquet;
 mod parts;
 mod pipeline;
 mod pool;
+mod recipes;
 mod reliability;
 mod report_contributions;
 mod report_shapes;

@@ -3,6 +3,7 @@
 //! classes with `--keep-draws` and for values; a model grows by merging it with more
 //! trees; and parts that cannot make one forest are refused with exit 2 and the
 //! reason. Data: the invented demo register and the penguins (see `main.rs`).
+use super::recipes::{readme_blocks, run_sh};
 use super::{copse_in, expect_code, repo, tmp};
 use std::path::Path;
 
@@ -271,23 +272,6 @@ fn parts_that_cannot_make_one_forest_are_refused_with_the_reason() {
     assert!(err.contains("--oob-out needs the whole forest"), "{err}");
 }
 
-/// The two shell blocks after the README's job-array marker: one task, and the merge.
-fn readme_recipe() -> (String, String) {
-    let readme = std::fs::read_to_string(repo("README.md")).expect("README.md");
-    let at = readme
-        .find("<!-- job-array recipe")
-        .expect("the README marks its job-array recipe");
-    let mut blocks = readme[at..].split("```sh\n").skip(1).map(|b| {
-        b.split("```")
-            .next()
-            .expect("a closed code block")
-            .to_string()
-    });
-    let task = blocks.next().expect("the task block");
-    let merge = blocks.next().expect("the merge block");
-    (task, merge)
-}
-
 #[test]
 fn the_readme_job_array_recipe_runs_as_written() {
     let dir = tmp();
@@ -298,35 +282,13 @@ fn the_readme_job_array_recipe_runs_as_written() {
         d.join("demo-data/water_mains.csv"),
     )
     .expect("demo data copied");
-    let bin = Path::new(env!("CARGO_BIN_EXE_copse"))
-        .parent()
-        .expect("the binary's folder");
-    let path = format!(
-        "{}:{}",
-        bin.display(),
-        std::env::var("PATH").unwrap_or_default()
-    );
-    let sh = |script: &str, task: Option<usize>| {
-        let mut cmd = std::process::Command::new("bash");
-        cmd.args(["-euc", script])
-            .current_dir(d)
-            .env("PATH", &path)
-            .env("NO_COLOR", "1");
-        if let Some(t) = task {
-            cmd.env("TASK_ID", t.to_string());
-        }
-        let out = cmd.output().expect("bash runs");
-        assert!(
-            out.status.success(),
-            "{script}\n{}",
-            String::from_utf8_lossy(&out.stderr)
-        );
-    };
-    let (task, merge) = readme_recipe();
+    let [task, merge]: [String; 2] = readme_blocks("job-array recipe", 2)
+        .try_into()
+        .expect("two blocks");
     for t in 0..10 {
-        sh(&task, Some(t));
+        run_sh(d, &task, Some(t));
     }
-    sh(&merge, None);
+    run_sh(d, &merge, None);
     // One run of the same forest, as the README says it equals.
     let mut args = vec!["train"];
     args.extend_from_slice(&[

@@ -3,52 +3,9 @@
 //! each partition's own out-of-bag figures and no pooled one; models that cannot pool
 //! are refused with exit 2, the reason, and no output file. Data: the invented demo
 //! register (see `main.rs`).
+use super::recipes::{readme_blocks, run_sh};
 use super::{copse_in, expect_code, repo, tmp};
 use std::path::Path;
-
-/// The three shell blocks after the README's partition marker.
-fn readme_recipe() -> Vec<String> {
-    let readme = std::fs::read_to_string(repo("README.md")).expect("README.md");
-    let at = readme
-        .find("<!-- partition recipe")
-        .expect("the README marks its partition recipe");
-    readme[at..]
-        .split("```sh\n")
-        .skip(1)
-        .take(3)
-        .map(|b| {
-            b.split("```")
-                .next()
-                .expect("a closed code block")
-                .to_string()
-        })
-        .collect()
-}
-
-fn sh(dir: &Path, script: &str, task: Option<usize>) {
-    let bin = Path::new(env!("CARGO_BIN_EXE_copse"))
-        .parent()
-        .expect("the binary's folder");
-    let path = format!(
-        "{}:{}",
-        bin.display(),
-        std::env::var("PATH").unwrap_or_default()
-    );
-    let mut cmd = std::process::Command::new("bash");
-    cmd.args(["-euc", script])
-        .current_dir(dir)
-        .env("PATH", &path)
-        .env("NO_COLOR", "1");
-    if let Some(t) = task {
-        cmd.env("TASK_ID", t.to_string());
-    }
-    let out = cmd.output().expect("bash runs");
-    assert!(
-        out.status.success(),
-        "{script}\n{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-}
 
 fn json(dir: &Path, args: &[&str]) -> serde_json::Value {
     let (out, _) = expect_code(&copse_in(dir, args, None), 0);
@@ -64,13 +21,13 @@ fn the_readme_partition_recipe_runs_and_pools() {
         std::fs::copy(repo(&format!("demo-data/{f}")), d.join("demo-data").join(f))
             .expect("demo data copied");
     }
-    let blocks = readme_recipe();
+    let blocks = readme_blocks("partition recipe", 3);
     assert_eq!(blocks.len(), 3, "split, task, pool");
-    sh(d, &blocks[0], None);
+    run_sh(d, &blocks[0], None);
     for t in 0..3 {
-        sh(d, &blocks[1], Some(t));
+        run_sh(d, &blocks[1], Some(t));
     }
-    sh(d, &blocks[2], None);
+    run_sh(d, &blocks[2], None);
     // Every row of the register went to exactly one partition.
     let lines = |f: &str| {
         std::fs::read_to_string(d.join(f))
